@@ -1,0 +1,59 @@
+"""The ``timetabler`` command: a thin layer over intake, the engines and the exporters.
+
+Each command lives in its own module (``inspect_command.py``, ``count_command.py``, ...)
+and registers itself on :data:`cli`. This module holds what they share: reading the input
+file with the common options, printing JSON, and turning errors into exit statuses
+(0 done, 2 bad input or arguments, 1 internal error).
+"""
+
+from __future__ import annotations
+
+import importlib
+import sys
+
+import click
+
+from .common import run_guarded
+
+COMMAND_MODULES = [
+    "inspect_command",
+    "count_command",
+    "solve_command",
+    "compare_command",
+    "template_command",
+    "serve_command",
+]
+
+
+@click.group(
+    context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100},
+)
+@click.version_option(package_name="timetabler")
+def cli() -> None:
+    """Build exam and meeting timetables from enrolment spreadsheets.
+
+    \b
+    Typical session:
+      timetabler inspect enrolments.xlsx          what is in the file, the fewest slots it could need
+      timetabler count enrolments.xlsx --slots 5 6   how many clash-free timetables each choice allows
+      timetabler solve enrolments.xlsx --slots 6 --out timetable.xlsx   a good timetable, as a workbook
+
+    Input is an .xlsx workbook or a .csv file with one row per enrolment: a column naming
+    the attendee (student, member, ...) and a column naming the event (exam, module,
+    meeting, ...). Everything runs on this computer; nothing is sent anywhere.
+    """
+
+
+for _name in COMMAND_MODULES:
+    try:
+        _module = importlib.import_module(f"{__name__}.{_name}")
+    except ModuleNotFoundError as exc:  # a command not built yet in this checkout
+        if exc.name != f"{__name__}.{_name}":
+            raise
+        continue
+    cli.add_command(_module.command)
+
+
+def main(argv: list[str] | None = None) -> None:
+    """Entry point of the ``timetabler`` script."""
+    sys.exit(run_guarded(cli, argv))

@@ -1,0 +1,241 @@
+"""The timetabling problem as plain objects: events, attendees, slots, rooms, rules, weights.
+
+Everything below the intake layer speaks in these objects. Intake builds a
+:class:`Problem` from files; the conflict graph (:mod:`timetabler.conflicts`), the
+counting and scheduling engines and the exporters read it. Nothing here reads files,
+solves or prints.
+
+Vocabulary
+----------
+event
+    An exam, a meeting, a paper: something that takes one slot. Identified by its *code*.
+attendee
+    A student, a committee member: someone who must not be in two places at once.
+enrolment
+    One attendee booked on one event. Duplicates are removed by intake.
+slot
+    A labelled period of time (a session). Slots are numbered 1..K in the order given;
+    the number is what ``solve --json`` reports.
+rule
+    A hard relation between events given by the registrar (see :class:`RuleKind`).
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import enum
+from dataclasses import dataclass, field
+from typing import Iterable, Sequence
+
+
+@dataclass(frozen=True)
+class Location:
+    """Where a value came from: file, sheet, row, column (1-based rows as a spreadsheet shows them)."""
+
+    file: str
+    sheet: str | None = None
+    row: int | None = None
+    column: str | None = None
+
+    def __str__(self) -> str:
+        parts = [self.file]
+        if self.sheet:
+            parts.append(f"sheet '{self.sheet}'")
+        if self.row is not None:
+            parts.append(f"row {self.row}")
+        if self.column:
+            parts.append(f"column '{self.column}'")
+        return ", ".join(parts)
+
+
+@dataclass
+class Event:
+    """One event (exam, meeting) with the optional details of the events sheet.
+
+    ``fixed_slot`` and ``barred_slots`` hold slot *references* as the registrar wrote them
+    (a slot label, or a slot number as text); :meth:`Problem.slot_number` resolves them.
+    """
+
+    code: str
+    title: str | None = None
+    duration_minutes: int | None = None
+    room_type: str | None = None
+    fixed_slot: str | None = None
+    barred_slots: tuple[str, ...] = ()
+    group: str | None = None
+    preferred_slots: tuple[str, ...] = ()
+
+
+@dataclass
+class Slot:
+    """One slot (session). ``day`` groups slots into days for same-day and back-to-back rules."""
+
+    label: str
+    date: _dt.date | None = None
+    start: _dt.time | None = None
+    length_minutes: int | None = None
+    seat_capacity: int | None = None
+    day: int | None = None
+    penalised: bool = False
+
+    @property
+    def end(self) -> _dt.time | None:
+        if self.start is None or self.length_minutes is None:
+            return None
+        base = _dt.datetime.combine(_dt.date(2000, 1, 1), self.start)
+        return (base + _dt.timedelta(minutes=self.length_minutes)).time()
+
+
+@dataclass
+class Room:
+    name: str
+    capacity: int
+    room_type: str | None = None
+    unavailable_slots: tuple[str, ...] = ()
+
+
+class RuleKind(str, enum.Enum):
+    """Hard relations between events, as the registrar names them in the rules sheet."""
+
+    BEFORE = "before"  # events[0] in an earlier slot than events[1]
+    SAME_SLOT = "same slot"  # all events in one slot
+    DIFFERENT_DAYS = "different days"  # events on pairwise different days
+    ALONE = "alone"  # events[0] is the only event in its slot
+
+
+@dataclass
+class Rule:
+    kind: RuleKind
+    events: tuple[str, ...]
+    where: Location | None = None
+
+    def describe(self) -> str:
+        """The rule in plain words, for reasons and reports."""
+        ev = self.events
+        if self.kind is RuleKind.BEFORE:
+            return f"{ev[0]} must come before {ev[1]}"
+        if self.kind is RuleKind.SAME_SLOT:
+            return f"{' and '.join(ev)} must share a slot"
+        if self.kind is RuleKind.DIFFERENT_DAYS:
+            return f"{' and '.join(ev)} must be on different days"
+        return f"{ev[0]} must be alone in its slot"
+
+
+@dataclass
+class Weights:
+    """Weights of the soft goals (penalty per occurrence). Defaults are documented in the README.
+
+    The defaults are common practice with no single source: back-to-back papers on one
+    day hurt most, then two papers in a day, then last-of-day followed by first-of-next.
+    ``proximity`` scales the Carter proximity cost (Carter, Laporte & Lee 1996), which is
+    off by default.
+    """
+
+    back_to_back: int = 10
+    overnight: int = 3
+    same_day: int = 2
+    proximity: int = 0
+    large_late: int = 0
+    preferred_slot: int = 1
+    penalised_slot: int = 1
+    room_split: int = 5
+    moved: int = 20
+
+
+@dataclass
+class Problem:
+    """A whole timetabling instance as read from the registrar's files.
+
+    ``enrolments`` holds distinct (attendee, event) pairs. ``events`` has an entry for
+    every event code that appears in the enrolments or in the events sheet. ``slots`` is
+    empty when the registrar gave no slots sheet; then engines work with K generic slots
+    (:func:`generic_slots`).
+    """
+
+    enrolments: list[tuple[str, str]]
+    events: dict[str, Event] = field(default_factory=dict)
+    slots: list[Slot] = field(default_factory=list)
+    rooms: list[Room] = field(default_factory=list)
+    rules: list[Rule] = field(default_factory=list)
+    weights: Weights = field(default_factory=Weights)
+    source: str = ""
+    max_per_day: int | None = None
+
+    def __post_init__(self) -> None:
+        for _, code in self.enrolments:
+            if code not in self.events:
+                self.events[code] = Event(code)
+
+    @property
+    def attendees(self) -> list[str]:
+        return sorted({a for a, _ in self.enrolments})
+
+    @property
+    def event_codes(self) -> list[str]:
+        return sorted(self.events)
+
+    def event_sizes(self) -> dict[str, int]:
+        sizes = {code: 0 for code in self.events}
+        for _, code in self.enrolments:
+            sizes[code] += 1
+        return sizes
+
+    def attendees_by_event(self) -> dict[str, list[str]]:
+        out: dict[str, list[str]] = {code: [] for code in self.events}
+        for attendee, code in self.enrolments:
+            out[code].append(attendee)
+        return out
+
+    def events_by_attendee(self) -> dict[str, list[str]]:
+        out: dict[str, list[str]] = {}
+        for attendee, code in self.enrolments:
+            out.setdefault(attendee, []).append(code)
+        return out
+
+    def slot_number(self, ref: str, slots: Sequence[Slot]) -> int | None:
+        """Resolve a slot reference (label, or number 1..K as text) to a slot number, or None."""
+        ref = str(ref).strip()
+        for i, slot in enumerate(slots, start=1):
+            if slot.label.strip().casefold() == ref.casefold():
+                return i
+        try:
+            n = int(float(ref))
+        except ValueError:
+            return None
+        return n if 1 <= n <= len(slots) else None
+
+
+def generic_slots(k: int, per_day: int | None = None) -> list[Slot]:
+    """K interchangeable slots labelled ``Slot 1`` .. ``Slot K``.
+
+    With ``per_day`` the slots are grouped into days of that many sessions (slot 1 and 2
+    on day 1 when ``per_day=2``); without it every slot is its own day.
+    """
+    if k < 0:
+        raise ValueError("the number of slots cannot be negative")
+    per = per_day or 1
+    return [Slot(label=f"Slot {i}", day=(i - 1) // per + 1) for i in range(1, k + 1)]
+
+
+def days_of(slots: Sequence[Slot]) -> list[int]:
+    """Day index (1-based) of each slot: from ``Slot.day``, else from ``Slot.date``, else one day per slot."""
+    if all(s.day is not None for s in slots):
+        return [int(s.day) for s in slots]  # type: ignore[arg-type]
+    if all(s.date is not None for s in slots):
+        order = {d: i for i, d in enumerate(sorted({s.date for s in slots}), start=1)}
+        return [order[s.date] for s in slots]
+    return list(range(1, len(slots) + 1))
+
+
+def distinct_enrolments(pairs: Iterable[tuple[str, str]]) -> tuple[list[tuple[str, str]], int]:
+    """Drop repeated (attendee, event) pairs, keeping first-seen order; return them and the number dropped."""
+    seen: set[tuple[str, str]] = set()
+    out: list[tuple[str, str]] = []
+    dropped = 0
+    for pair in pairs:
+        if pair in seen:
+            dropped += 1
+            continue
+        seen.add(pair)
+        out.append(pair)
+    return out, dropped
