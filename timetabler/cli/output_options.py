@@ -1,0 +1,156 @@
+"""The output options shared by ``solve`` and ``compare``, and :func:`publish` that honours them.
+
+Usage in a command module::
+
+    @click.command("solve")
+    ...
+    @output_options
+    def command(file, ..., outputs):          # one ``outputs`` dict instead of five options
+        ...
+        publish(outputs, problem=..., runs=..., counts=..., reading=..., settings=...)
+
+The decorator adds ``--out``, ``--csv``, ``--ics``, ``--ics-time-zone``, ``--plot``,
+``--pseudonyms`` and ``--pseudonym-key`` and hands their values to the command as one
+dict named ``outputs``. :func:`publish` writes whatever was asked for and returns the
+paths written; messages go to stderr so ``--json`` stdout stays one document.
+"""
+
+from __future__ import annotations
+
+import functools
+from pathlib import Path
+from typing import Any, Callable, Mapping, Sequence
+
+import click
+
+from ..errors import Finding, InputError
+from .common import err_console
+
+OUTPUT_KEYS = ("out", "csv", "ics", "ics_time_zone", "plot", "pseudonyms", "pseudonym_key")
+
+
+def output_options(func: Callable) -> Callable:
+    """Add the output options to a click command; the command receives them as ``outputs``."""
+
+    @functools.wraps(func)
+    def wrapper(*args: Any, **kwargs: Any) -> Any:
+        kwargs["outputs"] = {key: kwargs.pop(key, None) for key in OUTPUT_KEYS}
+        return func(*args, **kwargs)
+
+    options = [
+        click.option("--out", metavar="FILE.xlsx", type=click.Path(dir_okay=False),
+                     help="Write a workbook to forward as it is: overview, comparison, counts with a chart, the "
+                          "timetable as a grid, events, personal timetables, seats, rooms and attendee load."),
+        click.option("--csv", metavar="DIR", type=click.Path(file_okay=False),
+                     help="Also write the lists as CSV files into this folder (created if needed)."),
+        click.option("--ics", metavar="DIR", type=click.Path(file_okay=False),
+                     help="Write iCalendar files into this folder: session.ics with every event and attendees/ID.ics "
+                          "per attendee. Needs a slots sheet with dates."),
+        click.option("--ics-time-zone", metavar="NAME",
+                     help="Time zone of the slot times in the iCalendar files, e.g. Europe/London "
+                          "(default: local times, shown as written in every calendar)."),
+        click.option("--plot", metavar="FILE.png", type=click.Path(dir_okay=False),
+                     help="Draw a PNG chart of the number of clash-free timetables against the number of slots."),
+        click.option("--pseudonyms", is_flag=True,
+                     help="Replace attendee identifiers by stable pseudonyms (P-XXXXXXXXXX) in every output, for "
+                          "sharing outside the office. The same attendee gets the same pseudonym in every run."),
+        click.option("--pseudonym-key", metavar="FILE", type=click.Path(dir_okay=False),
+                     help="Secret key file for --pseudonyms (default: ~/.config/timetabler/pseudonym-key, created "
+                          "on first use). Keep it private: with it, pseudonyms can be linked back to identifiers."),
+    ]
+    for option in reversed(options):
+        wrapper = option(wrapper)
+    return wrapper
+
+
+def wants_output(outputs: Mapping[str, Any] | None) -> bool:
+    return bool(outputs) and any(outputs.get(k) for k in ("out", "csv", "ics", "plot"))
+
+
+def publish(
+    outputs: Mapping[str, Any] | None,
+    *,
+    problem: Any,
+    runs: Sequence[Any],
+    counts: Any = None,
+    reading: Any = None,
+    settings: Mapping[str, Any] | None = None,
+    validations: Mapping[int, Any] | None = None,
+    fewest: Any = None,
+    quiet: bool = False,
+) -> list[Path]:
+    """Write every output asked for in ``outputs``; return the paths written.
+
+    When a workbook or a chart is asked for and ``counts`` is None, the numbers of
+    clash-free timetables for the slot counts of ``runs`` are counted here (within the
+    ``count_budget`` seconds of ``settings``, default 20).
+    """
+    from ..export.workbook import validate_run, write_workbook
+
+    outputs = dict(outputs or {})
+    if not wants_output(outputs):
+        return []
+    settings = dict(settings or {})
+    runs = list(runs)
+    if counts is None and (outputs.get("out") or outputs.get("plot")) and runs:
+        counts = _count_for(problem, sorted({int(r.slots) for r in runs}), float(settings.get("count_budget", 20.0)))
+    validations = dict(validations or {})
+    for run in runs:
+        if int(run.slots) not in validations and run.assignment and run.status in ("optimal", "feasible"):
+            validations[int(run.slots)] = validate_run(problem, run)
+    show = str
+    if outputs.get("pseudonyms"):
+        from ..export.pseudonyms import Pseudonyms, load_or_create_key, pseudonymise
+
+        key, key_file, created = load_or_create_key(outputs.get("pseudonym_key"))
+        if created and not quiet:
+            err_console.print(f"Created the pseudonym key {key_file}; keep it private and keep it to get the same pseudonyms next time.")
+        problem, runs, reading = pseudonymise(problem, runs, Pseudonyms(key), reading)
+        settings["attendees shown as"] = "pseudonyms"
+    written: list[Path] = []
+    if outputs.get("out"):
+        written.append(write_workbook(outputs["out"], problem=problem, runs=runs, counts=counts, reading=reading,
+                                      settings=settings, validations=validations, fewest=fewest))
+    if outputs.get("csv"):
+        from ..export.csv_folder import write_csv_folder
+
+        written.extend(write_csv_folder(outputs["csv"], problem=problem, runs=runs, counts=counts, validations=validations))
+    if outputs.get("ics"):
+        from ..export.icalendar_files import write_calendars
+
+        solved = [r for r in runs if r.assignment and r.status in ("optimal", "feasible")]
+        if not solved:
+            raise InputError(Finding("No timetable was found, so there is nothing to write as iCalendar files."))
+        for run in solved:
+            folder = Path(outputs["ics"])
+            if len(solved) > 1:
+                folder = folder / f"{int(run.slots)} slots"
+            written.extend(write_calendars(folder, problem=problem, run=run, show=show, timezone=outputs.get("ics_time_zone")))
+    if outputs.get("plot"):
+        from ..export.count_chart import write_count_chart
+
+        if counts is None:
+            raise InputError(Finding("The chart needs the numbers of timetables, and counting is not available in this installation."))
+        written.append(write_count_chart(outputs["plot"], counts, inputs=(problem.source,)))
+    if not quiet:
+        _tell(written)
+    return written
+
+
+def _count_for(problem: Any, ks: list[int], budget: float) -> Any:
+    try:
+        from ..conflicts import conflict_graph
+        from ..counting import count_timetables
+    except ImportError:
+        return None
+    return count_timetables(conflict_graph(problem), ks, budget_seconds=budget)
+
+
+def _tell(written: list[Path]) -> None:
+    files = [p for p in written if p.suffix != ".ics"]
+    calendars = [p for p in written if p.suffix == ".ics"]
+    for path in files:
+        err_console.print(f"Wrote {path}")
+    if calendars:
+        folders = sorted({str(p.parent.parent if p.parent.name == "attendees" else p.parent) for p in calendars})
+        err_console.print(f"Wrote {len(calendars)} iCalendar files in {', '.join(folders)}")

@@ -1,0 +1,128 @@
+"""iCalendar files (RFC 5545) of a timetable: the whole session, and one per attendee.
+
+Written with the ``icalendar`` library. Each event of the timetable becomes a VEVENT
+with the event code and title as its summary, the rooms as its location, and a stable
+UID (a hash of the input file name, the slot count and the event code), so importing an
+updated file replaces entries instead of duplicating them. Slots need dates; a slot
+with a start time and length gives timed entries, a slot with only a date gives an
+all-day entry. Times are "floating" local times (RFC 5545 §3.3.5) unless a time zone
+name (IANA, e.g. ``Europe/London``) is given.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import hashlib
+import re
+from pathlib import Path
+from typing import Any, Callable, Sequence
+from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
+
+from icalendar import Calendar, Event as CalEvent
+
+from ..errors import Finding, InputError
+from ..model import Problem, Slot
+from .csv_folder import prepare_folder
+from .safe_write import check_target, write_safely
+
+PRODID = "-//timetabler//exam and meeting timetables//EN"
+
+
+def _uid(source: str, k: int, code: str) -> str:
+    digest = hashlib.sha256(f"{Path(source).name}\x00{k}\x00{code}".encode("utf-8")).hexdigest()[:24]
+    return f"{digest}@timetabler.invalid"
+
+
+def _times(slot: Slot, tz: ZoneInfo | None) -> tuple[Any, Any]:
+    if slot.start is None:
+        return slot.date, slot.date + dt.timedelta(days=1)
+    start = dt.datetime.combine(slot.date, slot.start)
+    end = start + dt.timedelta(minutes=slot.length_minutes or 60)
+    if tz is not None:
+        start, end = start.replace(tzinfo=tz), end.replace(tzinfo=tz)
+    return start, end
+
+
+def _calendar(name: str) -> Calendar:
+    cal = Calendar()
+    cal.add("prodid", PRODID)
+    cal.add("version", "2.0")
+    cal.add("calscale", "GREGORIAN")
+    cal.add("x-wr-calname", name)
+    return cal
+
+
+def _entry(problem: Problem, run: Any, code: str, tz: ZoneInfo | None, stamp: dt.datetime) -> CalEvent:
+    k = int(run.slots)
+    slot = run.slot_list[run.assignment[code] - 1]
+    event = problem.events[code]
+    start, end = _times(slot, tz)
+    entry = CalEvent()
+    entry.add("uid", _uid(problem.source, k, code))
+    entry.add("dtstamp", stamp)
+    entry.add("dtstart", start)
+    entry.add("dtend", end)
+    entry.add("summary", f"{code} {event.title}" if event.title else code)
+    rooms = (getattr(run, "rooms", None) or {}).get(code) or []
+    if rooms:
+        entry.add("location", ", ".join(str(r) for r, _ in rooms))
+    entry.add("description", f"Slot {slot.label}")
+    return entry
+
+
+def check_dated(run: Any) -> None:
+    missing = [s.label for s in run.slot_list if s.date is None]
+    if missing:
+        raise InputError(
+            Finding(
+                f"iCalendar files need a date for every slot; {len(missing)} of the {len(run.slot_list)} slots have none "
+                f"(for example '{missing[0]}').",
+                suggestion="Give a slots sheet with a date (and start time and length) for each slot.",
+            )
+        )
+
+
+def safe_file_stem(text: str) -> str:
+    stem = re.sub(r"[^A-Za-z0-9._-]+", "_", text).strip("._") or "attendee"
+    return stem[:80]
+
+
+def write_calendars(folder: str | Path, *, problem: Problem, run: Any, show: Callable[[str], str] = str,
+                    personal: bool = True, timezone: str | None = None) -> list[Path]:
+    """Write ``session.ics`` (every event) and, with ``personal``, ``attendees/<id>.ics`` per attendee."""
+    check_dated(run)
+    tz = None
+    if timezone:
+        try:
+            tz = ZoneInfo(timezone)
+        except (ZoneInfoNotFoundError, ValueError) as exc:
+            raise InputError(Finding(f"Unknown time zone {timezone!r}.", expected="an IANA name such as Europe/London")) from exc
+    target = prepare_folder(folder)
+    stamp = dt.datetime.now(dt.timezone.utc).replace(microsecond=0)
+    entries = {code: _entry(problem, run, code, tz, stamp) for code in sorted(run.assignment)}
+    written = []
+    session = _calendar(f"Timetable ({int(run.slots)} slots)")
+    for code in sorted(entries, key=lambda c: (run.assignment[c], c)):
+        session.add_component(entries[code])
+    if tz is not None:
+        session.add_missing_timezones()
+    path = check_target(target / "session.ics", inputs=[problem.source])
+    written.append(write_safely(path, lambda tmp, cal=session: tmp.write_bytes(cal.to_ical())))
+    if personal:
+        people = prepare_folder(target / "attendees")
+        used: set[str] = set()
+        for attendee, codes in sorted(problem.events_by_attendee().items()):
+            shown = show(attendee)
+            stem = safe_file_stem(shown)
+            base, i = stem, 2
+            while stem.casefold() in used:
+                stem, i = f"{base}-{i}", i + 1
+            used.add(stem.casefold())
+            cal = _calendar(f"Timetable of {shown}")
+            for code in sorted((c for c in codes if c in entries), key=lambda c: (run.assignment[c], c)):
+                cal.add_component(entries[code])
+            if tz is not None:
+                cal.add_missing_timezones()
+            path = check_target(people / f"{stem}.ics", inputs=[problem.source])
+            written.append(write_safely(path, lambda tmp, cal=cal: tmp.write_bytes(cal.to_ical())))
+    return written

@@ -1,0 +1,528 @@
+"""The published tables: plain rows built from a problem and solver results.
+
+The workbook, the CSV folder and the terminal comparison all show the same figures, so
+they are computed once, here, as :class:`PublishedTable` objects (a name, typed columns,
+rows of Python values). Exporters only decide how each column kind looks in their format.
+
+Attendee figures (back-to-back, two in a day, overnight) are recomputed here from the raw
+enrolments and the assignment, so the published sheets never depend on numbers the
+solver reported about itself. Definitions, per attendee:
+
+clash
+    two of their events in the same slot (a hard violation; a valid timetable has none).
+back-to-back
+    two of their events in consecutive slots of the same day.
+same day
+    two of their events on the same day in slots that are not consecutive.
+overnight
+    two of their events in consecutive slots on different days (last of one day, first of the next).
+proximity
+    the Carter proximity cost: 16, 8, 4, 2, 1 for two events 1, 2, 3, 4, 5 slots apart
+    (Carter, Laporte & Lee 1996).
+
+An attendee has "two in a day" when some day holds two or more of their events
+(back-to-back or not).
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+from collections import Counter, defaultdict
+from dataclasses import dataclass, field
+from typing import Any, Callable, Iterable, Mapping, Sequence
+
+from ..model import Problem, Slot, days_of
+
+TEXT, INT, FLOAT, DATE, TIME, FLAG, BIGINT = "text", "int", "float", "date", "time", "flag", "bigint"
+
+
+@dataclass
+class Column:
+    """A column of a published table. ``kind`` tells exporters how to show its values."""
+
+    header: str
+    kind: str = TEXT
+    note: str = ""
+
+
+@dataclass
+class PublishedTable:
+    name: str
+    columns: list[Column]
+    rows: list[list[Any]] = field(default_factory=list)
+    title: str = ""
+
+    @property
+    def headers(self) -> list[str]:
+        return [c.header for c in self.columns]
+
+    def column(self, header: str) -> list[Any]:
+        i = self.headers.index(header)
+        return [r[i] for r in self.rows]
+
+
+# --------------------------------------------------------------------------- slots
+
+
+@dataclass
+class SlotPlace:
+    """Where a slot sits in the calendar: its day and its session number within the day."""
+
+    number: int
+    slot: Slot
+    day: int
+    session: int
+    first_of_day: bool
+    last_of_day: bool
+
+
+def slot_places(slots: Sequence[Slot]) -> list[SlotPlace]:
+    """Day and session-within-day of every slot (slots numbered 1..K in the given order)."""
+    days = days_of(slots) if slots else []
+    by_day: dict[int, list[int]] = defaultdict(list)
+    for i, d in enumerate(days, start=1):
+        by_day[d].append(i)
+    places = []
+    for i, (slot, d) in enumerate(zip(slots, days), start=1):
+        members = by_day[d]
+        places.append(SlotPlace(i, slot, d, members.index(i) + 1, members[0] == i, members[-1] == i))
+    return places
+
+
+def _run_slots(run: Any) -> list[Slot]:
+    return list(getattr(run, "slot_list", None) or [])
+
+
+def has_timetable(run: Any) -> bool:
+    return bool(getattr(run, "assignment", None)) and getattr(run, "status", "") in ("optimal", "feasible")
+
+
+# --------------------------------------------------------------------------- attendee load
+
+
+@dataclass
+class AttendeeLoad:
+    attendee: str
+    events: int
+    busiest_day: int
+    clashes: int
+    back_to_back: int
+    same_day: int
+    overnight: int
+    proximity: int
+
+    @property
+    def flagged(self) -> bool:
+        return bool(self.clashes or self.back_to_back or self.same_day)
+
+
+#: Carter, Laporte & Lee (1996), J. Oper. Res. Soc. 47:373-383: cost of two events of one
+#: attendee ``gap`` slots apart.
+CARTER_WEIGHTS = {1: 16, 2: 8, 3: 4, 4: 2, 5: 1}
+
+
+def attendee_loads(problem: Problem, slots: Sequence[Slot], assignment: Mapping[str, int]) -> list[AttendeeLoad]:
+    """Per-attendee figures of a timetable, recomputed from the enrolments (see module docs)."""
+    places = slot_places(slots)
+    out = []
+    for attendee, codes in sorted(problem.events_by_attendee().items()):
+        numbers = sorted(assignment[c] for c in codes if c in assignment and 1 <= assignment[c] <= len(places))
+        per_day = Counter(places[n - 1].day for n in numbers)
+        clashes = b2b = same_day = overnight = proximity = 0
+        for i, s in enumerate(numbers):
+            for t in numbers[i + 1:]:
+                gap = t - s
+                if gap == 0:
+                    clashes += 1
+                    continue
+                same = places[s - 1].day == places[t - 1].day
+                if same and gap == 1:
+                    b2b += 1
+                elif same:
+                    same_day += 1
+                elif gap == 1:
+                    overnight += 1
+                proximity += CARTER_WEIGHTS.get(gap, 0)
+        out.append(AttendeeLoad(attendee, len(codes), max(per_day.values(), default=0), clashes, b2b, same_day,
+                                overnight, proximity))
+    return out
+
+
+@dataclass
+class RunFigures:
+    """The side-by-side figures of one solved slot count."""
+
+    slots: int
+    days: int
+    attendees_back_to_back: int | None = None
+    attendees_two_in_a_day: int | None = None
+    attendees_with_clash: int | None = None
+    back_to_back: int | None = None
+    same_day: int | None = None
+    overnight: int | None = None
+    proximity: int | None = None
+    peak_seats: int | None = None
+    peak_slot: str | None = None
+    loads: list[AttendeeLoad] = field(default_factory=list)
+
+
+def run_figures(problem: Problem, run: Any) -> RunFigures:
+    slots = _run_slots(run)
+    places = slot_places(slots)
+    figures = RunFigures(slots=int(getattr(run, "slots", len(slots))), days=len({p.day for p in places}))
+    if not has_timetable(run) or not slots:
+        return figures
+    assignment = run.assignment
+    loads = attendee_loads(problem, slots, assignment)
+    figures.loads = loads
+    figures.attendees_back_to_back = sum(1 for a in loads if a.back_to_back)
+    figures.attendees_two_in_a_day = sum(1 for a in loads if a.busiest_day >= 2)
+    figures.attendees_with_clash = sum(1 for a in loads if a.clashes)
+    figures.back_to_back = sum(a.back_to_back for a in loads)
+    figures.same_day = sum(a.same_day for a in loads)
+    figures.overnight = sum(a.overnight for a in loads)
+    figures.proximity = sum(a.proximity for a in loads)
+    seats = seats_by_slot(problem, slots, assignment)
+    if seats:
+        peak = max(range(len(seats)), key=lambda i: (seats[i], -i))
+        figures.peak_seats = seats[peak]
+        figures.peak_slot = slots[peak].label
+    return figures
+
+
+def seats_by_slot(problem: Problem, slots: Sequence[Slot], assignment: Mapping[str, int]) -> list[int]:
+    sizes = problem.event_sizes()
+    seats = [0] * len(slots)
+    for code, n in assignment.items():
+        if 1 <= n <= len(slots):
+            seats[n - 1] += sizes.get(code, 0)
+    return seats
+
+
+# --------------------------------------------------------------------------- tables of one timetable
+
+
+def _room_text(run: Any, code: str) -> tuple[str, int | None]:
+    rooms = (getattr(run, "rooms", None) or {}).get(code) or []
+    if not rooms:
+        return "", None
+    return ", ".join(str(name) for name, _ in rooms), sum(int(seats) for _, seats in rooms)
+
+
+def events_table(problem: Problem, run: Any) -> PublishedTable:
+    """One row per event: its slot, date, start, end, rooms, seats and size."""
+    slots = _run_slots(run)
+    places = slot_places(slots)
+    sizes = problem.event_sizes()
+    table = PublishedTable(
+        "Events",
+        [
+            Column("Event"), Column("Title"), Column("Slot", INT), Column("Slot label"), Column("Day", INT),
+            Column("Session", INT), Column("Date", DATE), Column("Start", TIME), Column("End", TIME),
+            Column("Rooms"), Column("Seats", INT), Column("Size", INT),
+        ],
+        title="Every event and its slot",
+    )
+    assignment = getattr(run, "assignment", {}) or {}
+    for code in sorted(problem.events, key=lambda c: (assignment.get(c, 10**9), c)):
+        event = problem.events[code]
+        n = assignment.get(code)
+        place = places[n - 1] if n and 1 <= n <= len(places) else None
+        rooms, seats = _room_text(run, code)
+        table.rows.append([
+            code, event.title or "", n, place.slot.label if place else "", place.day if place else None,
+            place.session if place else None, place.slot.date if place else None, place.slot.start if place else None,
+            place.slot.end if place else None, rooms, seats, sizes.get(code, 0),
+        ])
+    return table
+
+
+def personal_table(problem: Problem, run: Any, show: Callable[[str], str] = str) -> PublishedTable:
+    """One row per attendee and event: personal timetables, sorted by attendee then slot."""
+    slots = _run_slots(run)
+    places = slot_places(slots)
+    assignment = getattr(run, "assignment", {}) or {}
+    table = PublishedTable(
+        "Personal",
+        [
+            Column("Attendee"), Column("Event"), Column("Title"), Column("Slot", INT), Column("Slot label"),
+            Column("Day", INT), Column("Date", DATE), Column("Start", TIME), Column("End", TIME), Column("Rooms"),
+        ],
+        title="Personal timetables: one row per attendee and event",
+    )
+    rows = []
+    for attendee, code in problem.enrolments:
+        n = assignment.get(code)
+        place = places[n - 1] if n and 1 <= n <= len(places) else None
+        rooms, _ = _room_text(run, code)
+        rows.append([
+            show(attendee), code, problem.events[code].title or "", n, place.slot.label if place else "",
+            place.day if place else None, place.slot.date if place else None, place.slot.start if place else None,
+            place.slot.end if place else None, rooms,
+        ])
+    rows.sort(key=lambda r: (r[0], r[3] if r[3] is not None else 10**9, r[1]))
+    table.rows = rows
+    return table
+
+
+def load_table(problem: Problem, run: Any, show: Callable[[str], str] = str, loads: list[AttendeeLoad] | None = None) -> PublishedTable:
+    """One row per attendee: events, busiest day, clashes, back-to-back, two in a day, overnight."""
+    slots = _run_slots(run)
+    if loads is None:
+        loads = attendee_loads(problem, slots, getattr(run, "assignment", {}) or {})
+    table = PublishedTable(
+        "Load",
+        [
+            Column("Attendee"), Column("Events", INT), Column("Most in one day", INT), Column("Clashes", INT),
+            Column("Back-to-back", INT), Column("Same day, not back-to-back", INT), Column("Overnight", INT),
+            Column("Proximity cost", INT), Column("Flagged", FLAG),
+        ],
+        title="Attendee load",
+    )
+    rows = [[show(a.attendee), a.events, a.busiest_day, a.clashes, a.back_to_back, a.same_day, a.overnight, a.proximity,
+             a.flagged] for a in loads]
+    rows.sort(key=lambda r: r[0])
+    table.rows = rows
+    return table
+
+
+def seats_table(problem: Problem, run: Any) -> PublishedTable:
+    """One row per slot: events, seats needed, the slot's seat limit and room seats, free seats."""
+    slots = _run_slots(run)
+    assignment = getattr(run, "assignment", {}) or {}
+    seats = seats_by_slot(problem, slots, assignment)
+    counts = Counter(assignment.values())
+    room_seats = sum(r.capacity for r in problem.rooms) if problem.rooms else None
+    table = PublishedTable(
+        "Seats",
+        [
+            Column("Slot", INT), Column("Slot label"), Column("Day", INT), Column("Date", DATE), Column("Start", TIME),
+            Column("Events", INT), Column("Seats needed", INT), Column("Seat limit", INT), Column("Free seats", INT),
+        ],
+        title="Seats by slot",
+    )
+    for place in slot_places(slots):
+        limits = [x for x in (place.slot.seat_capacity, _room_seats_in(problem, place.slot)) if x is not None]
+        limit = min(limits) if limits else None
+        need = seats[place.number - 1]
+        table.rows.append([
+            place.number, place.slot.label, place.day, place.slot.date, place.slot.start, counts.get(place.number, 0),
+            need, limit, (limit - need) if limit is not None else None,
+        ])
+    return table
+
+
+def _room_seats_in(problem: Problem, slot: Slot) -> int | None:
+    if not problem.rooms:
+        return None
+    key = slot.label.strip().casefold()
+    return sum(r.capacity for r in problem.rooms if key not in {u.strip().casefold() for u in r.unavailable_slots})
+
+
+def rooms_table(problem: Problem, run: Any) -> PublishedTable | None:
+    """Room occupancy by slot (only when the problem has rooms): every room in every slot."""
+    if not problem.rooms:
+        return None
+    slots = _run_slots(run)
+    assignment = getattr(run, "assignment", {}) or {}
+    used: dict[tuple[int, str], list[tuple[str, int]]] = defaultdict(list)
+    for code, placed in (getattr(run, "rooms", None) or {}).items():
+        n = assignment.get(code)
+        for name, seats in placed:
+            used[(n, str(name))].append((code, int(seats)))
+    table = PublishedTable(
+        "Rooms",
+        [
+            Column("Slot", INT), Column("Slot label"), Column("Date", DATE), Column("Start", TIME), Column("Room"),
+            Column("Room type"), Column("Capacity", INT), Column("Events"), Column("Seats used", INT), Column("Free seats", INT),
+            Column("Available", FLAG),
+        ],
+        title="Room occupancy by slot",
+    )
+    for place in slot_places(slots):
+        key = place.slot.label.strip().casefold()
+        for room in problem.rooms:
+            here = used.get((place.number, room.name), [])
+            taken = sum(s for _, s in here)
+            available = key not in {u.strip().casefold() for u in room.unavailable_slots}
+            table.rows.append([
+                place.number, place.slot.label, place.slot.date, place.slot.start, room.name, room.room_type or "",
+                room.capacity, ", ".join(c for c, _ in here), taken, room.capacity - taken, available,
+            ])
+    return table
+
+
+def grid_rows(problem: Problem, run: Any) -> tuple[list[str], list[tuple[str, dt.date | None, list[str]]]]:
+    """The timetable as a grid: session headers, and per day (label, date, cell text per session)."""
+    slots = _run_slots(run)
+    places = slot_places(slots)
+    assignment = getattr(run, "assignment", {}) or {}
+    by_slot: dict[int, list[str]] = defaultdict(list)
+    for code, n in assignment.items():
+        by_slot[n].append(code)
+    sessions = max((p.session for p in places), default=0)
+    headers = [f"Session {i}" for i in range(1, sessions + 1)]
+    days: dict[int, list[SlotPlace]] = defaultdict(list)
+    for p in places:
+        days[p.day].append(p)
+    rows = []
+    for d in sorted(days):
+        members = days[d]
+        date = next((p.slot.date for p in members if p.slot.date), None)
+        label = date.strftime("%a %d %b %Y") if date else f"Day {d}"
+        cells = [""] * sessions
+        for p in members:
+            lines = []
+            times = ""
+            if p.slot.start:
+                times = p.slot.start.strftime("%H:%M") + (f"–{p.slot.end.strftime('%H:%M')}" if p.slot.end else "")
+            head = " ".join(x for x in (p.slot.label, times) if x)
+            lines.append(head)
+            lines.extend(sorted(by_slot.get(p.number, [])))
+            cells[p.session - 1] = "\n".join(lines)
+        rows.append((label, date, cells))
+    return headers, rows
+
+
+# --------------------------------------------------------------------------- counts and comparison
+
+
+def count_text(value: int | None) -> str:
+    """An exact count as decimal text (Excel keeps only 15 significant digits of a number)."""
+    return "" if value is None else str(int(value))
+
+
+def _count_log10(c: Any) -> float | None:
+    for name in ("log10", "estimate_log10"):
+        v = getattr(c, name, None)
+        if v is not None:
+            return float(v)
+    t = getattr(c, "timetables", None)
+    if t:
+        return _big_log10(int(t))
+    return None
+
+
+def _big_log10(n: int) -> float:
+    if n <= 0:
+        return float("-inf")
+    digits = len(str(n))
+    if digits < 300:
+        return math.log10(n)
+    head = int(str(n)[:17])
+    return math.log10(head) + digits - 17
+
+
+def counts_table(counts: Any) -> PublishedTable:
+    """One row per slot count: the exact number of clash-free timetables (as text) and its figures."""
+    table = PublishedTable(
+        "Counts",
+        [
+            Column("Slots", INT), Column("Clash-free timetables", BIGINT), Column("Digits", INT), Column("log10", FLOAT),
+            Column("Ratio to previous", FLOAT), Column("Exact", FLAG), Column("Lower bound", BIGINT),
+            Column("Upper bound", BIGINT), Column("Groupings", BIGINT),
+        ],
+        title="Number of clash-free timetables for each number of slots",
+    )
+    for c in getattr(counts, "counts", None) or []:
+        t = getattr(c, "timetables", None)
+        table.rows.append([
+            int(c.slots), count_text(t), len(str(int(t))) if t else (1 if t == 0 else None), _count_log10(c),
+            getattr(c, "ratio_to_previous", None), bool(getattr(c, "exact", False)), count_text(getattr(c, "lower", None)),
+            count_text(getattr(c, "upper", None)), count_text(getattr(c, "groupings", None)),
+        ])
+    return table
+
+
+def count_for(counts: Any, k: int) -> Any:
+    for c in getattr(counts, "counts", None) or []:
+        if int(c.slots) == int(k):
+            return c
+    return None
+
+
+def count_words(c: Any) -> str:
+    """A count as a reader sees it: exact digits, or '≈ 10^x' when only estimated."""
+    if c is None:
+        return ""
+    t = getattr(c, "timetables", None)
+    if t is not None and getattr(c, "exact", True):
+        return str(int(t))
+    lg = _count_log10(c)
+    return f"about 10^{lg:.1f}" if lg is not None and math.isfinite(lg) else "not counted"
+
+
+def verdict_words(validation: Any) -> str:
+    if validation is None:
+        return "not checked"
+    if getattr(validation, "ok", False):
+        return "valid"
+    return f"{len(getattr(validation, 'violations', []) or [])} violation(s)"
+
+
+def comparison_table(problem: Problem, runs: Sequence[Any], counts: Any = None, validations: Mapping[int, Any] | None = None,
+                     figures: Mapping[int, RunFigures] | None = None, fewest: Any = None) -> PublishedTable:
+    """Every solved slot count side by side."""
+    validations = validations or {}
+    table = PublishedTable(
+        "Comparison",
+        [
+            Column("Slots", INT), Column("Days", INT), Column("Clash-free timetable exists"), Column("Status"),
+            Column("Proven", FLAG), Column("Penalty", INT), Column("Bound", FLOAT), Column("Clash-free timetables", BIGINT),
+            Column("log10 timetables", FLOAT), Column("Attendees with back-to-back", INT),
+            Column("Attendees with two in a day", INT), Column("Back-to-back pairs", INT),
+            Column("Same-day pairs, not back-to-back", INT), Column("Overnight pairs", INT), Column("Proximity cost", INT),
+            Column("Peak seats", INT), Column("Peak slot"), Column("Validator"), Column("Solve seconds", FLOAT), Column("Reason"),
+        ],
+        title="Slot counts side by side",
+    )
+    for run in sorted(runs, key=lambda r: int(r.slots)):
+        k = int(run.slots)
+        fig = (figures or {}).get(k) or run_figures(problem, run)
+        c = count_for(counts, k)
+        status = getattr(run, "status", "unknown")
+        exists = {"optimal": "yes", "feasible": "yes", "infeasible": "no"}.get(status, "unknown")
+        if exists == "unknown" and c is not None and getattr(c, "exact", False) and getattr(c, "timetables", None) is not None:
+            exists = "yes" if int(c.timetables) > 0 else "no"
+        bound = getattr(run, "bound", None)
+        reason = getattr(run, "reason", None) or ""
+        table.rows.append([
+            k, fig.days, exists, status, bool(getattr(run, "proven", False)), getattr(run, "penalty", None),
+            float(bound) if bound is not None else None, count_words(c), _count_log10(c) if c is not None else None,
+            fig.attendees_back_to_back, fig.attendees_two_in_a_day, fig.back_to_back, fig.same_day, fig.overnight,
+            fig.proximity, fig.peak_seats,
+            fig.peak_slot or "", verdict_words(validations.get(k)) if has_timetable(run) else "",
+            getattr(run, "wall_seconds", None), reason,
+        ])
+    return table
+
+
+def rows_as_text(table: PublishedTable, formats: Mapping[str, Callable[[Any], str]] | None = None) -> list[list[str]]:
+    """Rows with every value as text (ISO dates, HH:MM times, yes/no flags), for CSV and terminals."""
+    out = []
+    for row in table.rows:
+        out.append([value_text(v, col.kind) for v, col in zip(row, table.columns)])
+    return out
+
+
+def value_text(value: Any, kind: str = TEXT) -> str:
+    if value is None:
+        return ""
+    if kind == FLAG or isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, dt.datetime):
+        return value.isoformat(timespec="minutes")
+    if isinstance(value, dt.date):
+        return value.isoformat()
+    if isinstance(value, dt.time):
+        return value.strftime("%H:%M")
+    if isinstance(value, float):
+        if not math.isfinite(value):
+            return ""
+        return f"{value:.6g}" if kind == FLOAT else repr(value)
+    return str(value)
+
+
+def all_event_codes(problem: Problem) -> Iterable[str]:
+    return sorted(problem.events)

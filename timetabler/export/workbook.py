@@ -1,0 +1,435 @@
+"""The published workbook: everything a registrar forwards, in one ``.xlsx`` file.
+
+Sheets (in this order; per-timetable sheets get a `` (K slots)`` suffix when the workbook
+holds timetables for several slot counts):
+
+Overview
+    The input file and its figures, the rules and weights used, settings, and for every
+    slot count: status, proven or not, penalty, the independent validator's verdict.
+Comparison
+    Every solved slot count side by side (one row per slot count).
+Counts
+    Per slot count: the exact number of clash-free timetables **as text** (Excel keeps
+    only 15 significant digits of a number), its number of digits, log10, the ratio to the
+    previous count, exact or estimated; and a native Excel chart of log10(count) against slots.
+Grid
+    The timetable as a grid: one row per day, one column per session.
+Events
+    One row per event: slot, day, session, date, start, end, rooms, seats, size.
+Personal timetables
+    One row per attendee and event (sortable, filterable: personal timetables).
+Seats / Rooms
+    Seats needed in each slot against the seat limit; room occupancy by slot (when rooms are given).
+Attendee load
+    Per attendee: events, most in one day, clashes, back-to-back, same day, overnight,
+    Carter proximity cost, flagged.
+
+Every list is an Excel table with filters, a frozen header row, widths fitted to the
+content, real dates and times, and conditional highlighting of problems. The file is
+written with openpyxl in write-only (streaming) mode, through
+:func:`~timetabler.export.safe_write.write_safely`.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import datetime as dt
+import re
+import warnings
+from pathlib import Path
+from typing import Any, Iterable, Mapping, Sequence
+
+import networkx as nx
+from openpyxl import Workbook
+from openpyxl.cell import WriteOnlyCell
+from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
+from openpyxl.chart import Reference, ScatterChart, Series
+from openpyxl.formatting.rule import CellIsRule, FormulaRule
+from openpyxl.styles import Alignment, Font, PatternFill
+from openpyxl.utils import get_column_letter
+from openpyxl.worksheet.filters import AutoFilter
+from openpyxl.worksheet.table import Table, TableColumn, TableStyleInfo
+
+from ..conflicts import conflict_graph
+from ..model import Problem, Weights
+from .safe_write import check_target, write_safely
+from .tables import (
+    BIGINT, DATE, FLAG, FLOAT, INT, TIME, PublishedTable, RunFigures, comparison_table, counts_table, events_table,
+    grid_rows, has_timetable, load_table, personal_table, rooms_table, run_figures, seats_table, value_text,
+    verdict_words,
+)
+
+RED = PatternFill("solid", start_color="FFC7CE", end_color="FFC7CE", bgColor="FFC7CE")
+AMBER = PatternFill("solid", start_color="FFEB9C", end_color="FFEB9C", bgColor="FFEB9C")
+GREEN = PatternFill("solid", start_color="C6EFCE", end_color="C6EFCE", bgColor="C6EFCE")
+RED_FONT = Font(color="9C0006")
+AMBER_FONT = Font(color="9C5700")
+BOLD = Font(bold=True)
+TITLE = Font(bold=True, size=14)
+WRAP = Alignment(wrap_text=True, vertical="top")
+NUMBER_FORMATS = {DATE: "yyyy-mm-dd", TIME: "hh:mm", FLOAT: "0.000", INT: "0"}
+TABLE_STYLE = "TableStyleMedium2"
+
+
+def write_workbook(
+    path: str | Path,
+    *,
+    problem: Problem,
+    runs: Sequence[Any],
+    counts: Any = None,
+    reading: Any = None,
+    settings: Mapping[str, Any] | None = None,
+    validations: Mapping[int, Any] | None = None,
+    fewest: Any = None,
+) -> Path:
+    """Write the published workbook to ``path`` (``.xlsx``) and return the path written.
+
+    ``runs`` are solver results (``SolveRun``: ``slots``, ``slot_list``, ``status``,
+    ``assignment``, ``rooms``, ``penalty``, ...); ``counts`` a ``CountReport`` or None.
+    ``validations`` maps a slot count to a validator result; when absent, each timetable is
+    checked here by :func:`timetabler.scheduling.validate` when that is available.
+
+    The file is written to a temporary name and renamed when complete; the input file is
+    never overwritten; a target open in another program gives a clear InputError.
+    """
+    inputs = [getattr(problem, "source", "")]
+    target = check_target(path, inputs=inputs, suffixes=(".xlsx",))
+    runs = sorted(runs, key=lambda r: int(r.slots))
+    validations = dict(validations or {})
+    for run in runs:
+        k = int(run.slots)
+        if k not in validations and has_timetable(run):
+            validations[k] = validate_run(problem, run)
+    figures = {int(r.slots): run_figures(problem, r) for r in runs}
+
+    def build(tmp: Path) -> None:
+        wb = Workbook(write_only=True)
+        book = _Book(wb)
+        _overview(book, problem, runs, counts, reading, settings or {}, validations, figures, fewest)
+        if runs:
+            book.table_sheet(
+                "Comparison", comparison_table(problem, runs, counts, validations, figures), highlight=_comparison_highlight
+            )
+        if counts is not None and getattr(counts, "counts", None):
+            _counts_sheet(book, counts)
+        with_timetable = [r for r in runs if has_timetable(r)]
+        for run in with_timetable:
+            suffix = f" ({int(run.slots)} slots)" if len(with_timetable) > 1 else ""
+            _grid_sheet(book, "Grid" + suffix, problem, run)
+            book.table_sheet("Events" + suffix, events_table(problem, run), highlight=_events_highlight)
+            book.table_sheet("Personal timetables" + suffix, personal_table(problem, run))
+            book.table_sheet("Seats" + suffix, seats_table(problem, run), highlight=_free_seats_highlight)
+            rooms = rooms_table(problem, run)
+            if rooms is not None:
+                book.table_sheet("Rooms" + suffix, rooms, highlight=_free_seats_highlight)
+            book.table_sheet(
+                "Attendee load" + suffix, load_table(problem, run, loads=figures[int(run.slots)].loads), highlight=_load_highlight
+            )
+        wb.save(tmp)
+
+    return write_safely(target, build)
+
+
+def validate_run(problem: Problem, run: Any) -> Any:
+    """The independent validator's verdict on a run, or None when the validator is not available."""
+    attached = getattr(run, "validation", None)
+    if attached is not None:
+        return attached
+    try:
+        from ..scheduling import validate
+    except ImportError:
+        return None
+    return validate(problem, list(run.slot_list), dict(run.assignment), getattr(run, "rooms", None) or None)
+
+
+# --------------------------------------------------------------------------- writing helpers
+
+
+def _clean(value: Any) -> Any:
+    if isinstance(value, str):
+        return ILLEGAL_CHARACTERS_RE.sub("", value)
+    return value
+
+
+class _Book:
+    """A write-only workbook with unique sheet and table names."""
+
+    def __init__(self, wb: Workbook):
+        self.wb = wb
+        self.table_names: set[str] = set()
+
+    def sheet(self, name: str):
+        return self.wb.create_sheet(_sheet_name(name))
+
+    def cell(self, ws, value: Any, kind: str | None = None, font: Font | None = None, wrap: bool = False) -> Any:
+        value = _clean(value)
+        if isinstance(value, float) and value != value:  # NaN
+            value = None
+        if kind == FLAG or isinstance(value, bool):
+            value = None if value is None else ("yes" if value else "no")
+        if kind == BIGINT and value is not None:
+            value = str(value)
+        needs_cell = font is not None or wrap or kind in (DATE, TIME, FLOAT) or (isinstance(value, str) and value.startswith("="))
+        if not needs_cell:
+            return value
+        c = WriteOnlyCell(ws, value=value)
+        if isinstance(value, str) and value.startswith("="):
+            c.data_type = "s"  # text, never a formula: codes and names come from the registrar's files
+        if kind in NUMBER_FORMATS and not isinstance(value, str):
+            c.number_format = NUMBER_FORMATS[kind]
+        if font is not None:
+            c.font = font
+        if wrap:
+            c.alignment = WRAP
+        return c
+
+    def table_name(self, base: str) -> str:
+        name = re.sub(r"[^A-Za-z0-9_]", "_", base).strip("_") or "Table"
+        if not name[0].isalpha():
+            name = "T_" + name
+        candidate, i = name, 2
+        while candidate.casefold() in {n.casefold() for n in self.table_names}:
+            candidate, i = f"{name}_{i}", i + 1
+        self.table_names.add(candidate)
+        return candidate
+
+    def table_sheet(self, name: str, table: PublishedTable, *, highlight=None, chart=None, freeze: bool = True):
+        """A sheet holding one Excel table (with filters) starting at A1, header frozen."""
+        ws = self.sheet(name)
+        widths = [max(8, len(h) + 3) for h in table.headers]
+        for row in table.rows[:500]:
+            for i, (v, col) in enumerate(zip(row, table.columns)):
+                widths[i] = max(widths[i], min(60, len(value_text(v, col.kind)) + 2))
+        for i, w in enumerate(widths, start=1):
+            ws.column_dimensions[get_column_letter(i)].width = w
+        if freeze:
+            ws.freeze_panes = "A2"
+        ws.append([self.cell(ws, h) for h in table.headers])
+        for row in table.rows:
+            ws.append([self.cell(ws, v, col.kind) for v, col in zip(row, table.columns)])
+        last_col = get_column_letter(len(table.columns))
+        last_row = max(2, len(table.rows) + 1)
+        if not table.rows:
+            ws.append([None] * len(table.columns))  # an Excel table needs at least one data row
+        ref = f"A1:{last_col}{last_row}"
+        t = Table(displayName=self.table_name(name), ref=ref)
+        t.tableColumns = [TableColumn(id=i, name=h) for i, h in enumerate(table.headers, start=1)]
+        t.autoFilter = AutoFilter(ref=ref)
+        t.tableStyleInfo = TableStyleInfo(name=TABLE_STYLE, showRowStripes=True)
+        with warnings.catch_warnings():  # openpyxl warns in write-only mode even when the columns are given
+            warnings.simplefilter("ignore", UserWarning)
+            ws.add_table(t)
+        if highlight is not None and table.rows:
+            highlight(ws, table, len(table.rows) + 1)
+        return ws
+
+
+def _sheet_name(name: str) -> str:
+    name = re.sub(r"[\[\]:*?/\\]", " ", name).strip("'")
+    return name[:31]
+
+
+def _col(table: PublishedTable, header: str) -> str:
+    return get_column_letter(table.headers.index(header) + 1)
+
+
+def _range(table: PublishedTable, header: str, last_row: int) -> str:
+    c = _col(table, header)
+    return f"{c}2:{c}{last_row}"
+
+
+# --------------------------------------------------------------------------- conditional highlighting
+
+
+def _comparison_highlight(ws, table: PublishedTable, last_row: int) -> None:
+    status = _col(table, "Status")
+    ws.conditional_formatting.add(
+        f"A2:{get_column_letter(len(table.columns))}{last_row}",
+        FormulaRule(formula=[f'${status}2="infeasible"'], fill=RED, font=RED_FONT),
+    )
+    ws.conditional_formatting.add(
+        f"A2:{get_column_letter(len(table.columns))}{last_row}",
+        FormulaRule(formula=[f'${status}2="unknown"'], fill=AMBER, font=AMBER_FONT),
+    )
+    v = _col(table, "Validator")
+    ws.conditional_formatting.add(
+        _range(table, "Validator", last_row),
+        FormulaRule(formula=[f'AND({v}2<>"",{v}2<>"valid",{v}2<>"not checked")'], fill=RED, font=RED_FONT),
+    )
+
+
+def _events_highlight(ws, table: PublishedTable, last_row: int) -> None:
+    slot = _col(table, "Slot")
+    ws.conditional_formatting.add(
+        f"A2:{get_column_letter(len(table.columns))}{last_row}",
+        FormulaRule(formula=[f'ISBLANK(${slot}2)'], fill=RED, font=RED_FONT),
+    )
+
+
+def _free_seats_highlight(ws, table: PublishedTable, last_row: int) -> None:
+    ws.conditional_formatting.add(
+        _range(table, "Free seats", last_row), CellIsRule(operator="lessThan", formula=["0"], fill=RED, font=RED_FONT)
+    )
+    if "Available" in table.headers:
+        a, u = _col(table, "Available"), _col(table, "Seats used")
+        ws.conditional_formatting.add(
+            f"A2:{get_column_letter(len(table.columns))}{last_row}",
+            FormulaRule(formula=[f'AND(${a}2="no",${u}2>0)'], fill=RED, font=RED_FONT),
+        )
+
+
+def _load_highlight(ws, table: PublishedTable, last_row: int) -> None:
+    ws.conditional_formatting.add(
+        _range(table, "Clashes", last_row), CellIsRule(operator="greaterThan", formula=["0"], fill=RED, font=RED_FONT)
+    )
+    ws.conditional_formatting.add(
+        _range(table, "Back-to-back", last_row), CellIsRule(operator="greaterThan", formula=["0"], fill=AMBER, font=AMBER_FONT)
+    )
+    ws.conditional_formatting.add(
+        _range(table, "Same day, not back-to-back", last_row), CellIsRule(operator="greaterThan", formula=["0"], fill=AMBER, font=AMBER_FONT)
+    )
+    f = _col(table, "Flagged")
+    ws.conditional_formatting.add(
+        _range(table, "Flagged", last_row), FormulaRule(formula=[f'{f}2="yes"'], fill=AMBER, font=AMBER_FONT)
+    )
+
+
+# --------------------------------------------------------------------------- special sheets
+
+
+def _overview(book: _Book, problem: Problem, runs, counts, reading, settings, validations, figures, fewest) -> None:
+    ws = book.sheet("Overview")
+    ws.column_dimensions["A"].width = 34
+    for letter in "BCDEFG":
+        ws.column_dimensions[letter].width = 16
+    ws.column_dimensions["F"].width = 18
+    ws.column_dimensions["G"].width = 60
+    c = book.cell
+    source = getattr(problem, "source", "") or ""
+    ws.append([c(ws, f"Timetable from {Path(source).name}" if source else "Timetable", font=TITLE)])
+    ws.append([c(ws, "Written"), c(ws, dt.datetime.now().replace(microsecond=0).isoformat(sep=" "))])
+    try:
+        from importlib.metadata import version
+
+        ws.append(["timetabler version", version("timetabler")])
+    except Exception:  # noqa: BLE001 - metadata missing in odd installs
+        pass
+    ws.append([])
+    ws.append([c(ws, "Input", font=BOLD)])
+    ws.append(["File", c(ws, source)])
+    if reading is not None:
+        for label, attr in (("Sheet", "sheet"), ("Attendee column", "attendee_column"), ("Event column", "event_column"),
+                            ("Duplicate rows dropped", "duplicates_dropped")):
+            value = getattr(reading, attr, None)
+            if value is not None:
+                ws.append([label, c(ws, value)])
+    graph = conflict_graph(problem)
+    ws.append([])
+    ws.append([c(ws, "Figures", font=BOLD)])
+    sizes = problem.event_sizes()
+    rows = [
+        ("Events", graph.number_of_nodes()),
+        ("Attendees", len({a for a, _ in problem.enrolments})),
+        ("Enrolments", len(problem.enrolments)),
+        ("Clashing pairs of events", graph.number_of_edges()),
+        ("Components (groups of events linked by clashes)", nx.number_connected_components(graph) if len(graph) else 0),
+        ("Largest event (attendees)", max(sizes.values(), default=0)),
+        ("Slots in the slots sheet", len(problem.slots) or "none (generic slots)"),
+        ("Rooms", len(problem.rooms) or "none"),
+    ]
+    chi = getattr(counts, "chromatic_number", None) if counts is not None else None
+    if chi is not None:
+        rows.append(("Fewest slots (from the counts)", chi))
+    if fewest is not None:
+        lower, upper = getattr(fewest, "lower", None), getattr(fewest, "upper", None)
+        rows.append(("Fewest slots: lower bound", lower))
+        rows.append(("Fewest slots: upper bound", upper))
+        rows.append(("Fewest slots proven", bool(getattr(fewest, "proven", False))))
+        reason = getattr(fewest, "reason", None)
+        if reason:
+            rows.append(("Why no fewer", reason))
+    for label, value in rows:
+        ws.append([label, c(ws, value)])
+    ws.append([])
+    ws.append([c(ws, "Rules", font=BOLD)])
+    if problem.rules:
+        for rule in problem.rules:
+            ws.append([c(ws, rule.describe())])
+    else:
+        ws.append(["No rules given: only clashes are forbidden."])
+    if problem.max_per_day:
+        ws.append([f"At most {problem.max_per_day} events per attendee per day"])
+    ws.append([])
+    ws.append([c(ws, "Weights (penalty per occurrence)", font=BOLD)])
+    weights = problem.weights if isinstance(problem.weights, Weights) else Weights()
+    for f in dataclasses.fields(weights):
+        ws.append([f.name.replace("_", " "), getattr(weights, f.name)])
+    if settings:
+        ws.append([])
+        ws.append([c(ws, "Settings", font=BOLD)])
+        for key, value in settings.items():
+            if isinstance(value, (list, tuple)):
+                value = ", ".join(str(v) for v in value)
+            ws.append([c(ws, str(key)), c(ws, value if isinstance(value, (int, float, str)) else str(value))])
+    if runs:
+        ws.append([])
+        ws.append([c(ws, "Timetables", font=BOLD)])
+        head = ["Slots", "Status", "Proven", "Penalty", "Validator", "Back-to-back attendees", "Reason"]
+        ws.append([c(ws, h, font=BOLD) for h in head])
+        for run in runs:
+            k = int(run.slots)
+            fig: RunFigures = figures[k]
+            ws.append([
+                k, c(ws, run.status), c(ws, bool(getattr(run, "proven", False)), FLAG), getattr(run, "penalty", None),
+                c(ws, verdict_words(validations.get(k)) if has_timetable(run) else ""), fig.attendees_back_to_back,
+                c(ws, getattr(run, "reason", None) or "", wrap=True),
+            ])
+    warnings = list(getattr(reading, "warnings", None) or [])
+    if warnings:
+        ws.append([])
+        ws.append([c(ws, f"Warnings from reading the input ({len(warnings)})", font=BOLD)])
+        for w in warnings[:500]:
+            ws.append([c(ws, str(w))])
+    ws.append([])
+    ws.append([c(ws, "Notes", font=BOLD)])
+    ws.append(["Numbers of timetables are written as text: a spreadsheet number keeps only 15 significant digits."])
+    ws.append(["Attendee figures (back-to-back, two in a day) are recomputed from the enrolments, not taken from the solver."])
+
+
+def _counts_sheet(book: _Book, counts: Any) -> None:
+    table = counts_table(counts)
+    ws = book.table_sheet("Counts", table)
+    n = len(table.rows)
+    if n == 0:
+        return
+    x_col = table.headers.index("Slots") + 1
+    y_col = table.headers.index("log10") + 1
+    chart = ScatterChart()
+    chart.title = "Clash-free timetables against slots"
+    chart.style = 13
+    chart.x_axis.title = "Slots"
+    chart.y_axis.title = "log10(number of timetables)"
+    chart.x_axis.delete = False
+    chart.y_axis.delete = False
+    chart.legend = None
+    xs = Reference(ws, min_col=x_col, min_row=2, max_row=n + 1)
+    ys = Reference(ws, min_col=y_col, min_row=1, max_row=n + 1)
+    series = Series(ys, xs, title_from_data=True)
+    series.marker.symbol = "circle"
+    series.marker.size = 7
+    chart.series.append(series)
+    chart.height, chart.width = 9, 16
+    ws.add_chart(chart, f"{get_column_letter(len(table.columns) + 2)}2")
+
+
+def _grid_sheet(book: _Book, name: str, problem: Problem, run: Any) -> None:
+    headers, rows = grid_rows(problem, run)
+    ws = book.sheet(name)
+    ws.freeze_panes = "C2"
+    ws.column_dimensions["A"].width = 18
+    ws.column_dimensions["B"].width = 12
+    for i in range(len(headers)):
+        ws.column_dimensions[get_column_letter(i + 3)].width = 28
+    ws.append([book.cell(ws, "Day", font=BOLD), book.cell(ws, "Date", font=BOLD)] + [book.cell(ws, h, font=BOLD) for h in headers])
+    for label, date, cells in rows:
+        ws.append([book.cell(ws, label), book.cell(ws, date, DATE)] + [book.cell(ws, text, wrap=True) for text in cells])
