@@ -1,0 +1,318 @@
+"""Open a file of any supported type as a list of sheets of raw cell values.
+
+Supported types, recognised by their content first and their name second (registrars
+rename files):
+
+* ``.xlsx`` / ``.xlsm`` — read with openpyxl in read-only mode, taking the values Excel
+  stored for formulas (``data_only``); macros are never run and links never followed.
+* ``.ods`` — read through pandas' ``odf`` engine (package ``odfpy``).
+* ``.csv`` / ``.tsv`` / ``.txt`` — text. The encoding is decided by :func:`decode`
+  (byte-order mark, then UTF-16 without a mark by its zero bytes, then UTF-8, then
+  Windows-1252); the delimiter by :func:`sniff_delimiter` among comma, semicolon, tab
+  and pipe.
+
+The file is read into memory once and closed at once: it is never modified or held open.
+"""
+
+from __future__ import annotations
+
+import codecs
+import csv
+import io
+import warnings
+from collections import Counter
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Callable
+
+from ..errors import Finding, InputError
+from ..model import Location
+from .limits import CellBudget, Limits, check_archive, check_file_size
+
+TEXT_SUFFIXES = (".csv", ".tsv", ".txt", ".tab")
+WORKBOOK_SUFFIXES = (".xlsx", ".xlsm")
+ODS_SUFFIXES = (".ods",)
+SUPPORTED = ".xlsx, .xlsm, .ods, .csv, .tsv"
+DELIMITERS = (",", ";", "\t", "|")
+DELIMITER_NAMES = {",": "comma", ";": "semicolon", "\t": "tab", "|": "pipe"}
+
+Progress = Callable[[str, int, "int | None"], None]
+
+
+@dataclass
+class RawSheet:
+    """One sheet's cells as read (rows of Python values; row ``i`` of the list is spreadsheet row ``i + 1``)."""
+
+    name: str | None
+    rows: list[list[object]]
+    hidden: bool = False
+
+
+@dataclass
+class RawBook:
+    kind: str  # "xlsx", "ods" or "text"
+    sheets: list[RawSheet]
+    encoding: str | None = None
+    delimiter: str | None = None
+    notes: list[Finding] = field(default_factory=list)
+
+
+def read_bytes(path: Path, limits: Limits) -> bytes:
+    name = str(path)
+    if not path.exists():
+        raise InputError(Finding("The file does not exist.", where=Location(name), suggestion="Check the name and folder."))
+    if path.is_dir():
+        raise InputError(Finding("This is a folder, not a file.", where=Location(name)))
+    check_file_size(name, path.stat().st_size, limits)
+    try:
+        with open(path, "rb") as handle:  # read once, close at once: never held open or locked
+            return handle.read()
+    except PermissionError:
+        raise InputError(
+            Finding(
+                "The file cannot be read: permission denied.",
+                where=Location(name),
+                suggestion="Close it in other programs, or copy it to a folder you own.",
+            )
+        ) from None
+
+
+def content_kind(data: bytes) -> str:
+    """``zip`` (xlsx/ods), ``ole`` (old .xls or a password-protected workbook), ``text`` or ``empty``."""
+    if not data.strip():
+        return "empty"
+    if data[:4] == b"PK\x03\x04":
+        return "zip"
+    if data[:8] == b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1":
+        return "ole"
+    return "text"
+
+
+def load_book(path: Path, limits: Limits, progress: Progress | None = None) -> RawBook:
+    """Read a file into a :class:`RawBook`, checking limits; raise InputError for what cannot be read."""
+    name = str(path)
+    suffix = path.suffix.lower()
+    data = read_bytes(path, limits)
+    kind = content_kind(data)
+    if kind == "ole":
+        raise InputError(
+            Finding(
+                "This is an old-style Excel file (.xls) or a password-protected workbook; timetabler cannot read it.",
+                where=Location(name),
+                expected=f"one of {SUPPORTED}, without a password",
+                suggestion="Open it and save a copy as .xlsx (Excel Workbook) with no password.",
+            )
+        )
+    if kind == "empty":
+        raise InputError(Finding("The file is empty.", where=Location(name), expected="a header row and enrolment rows"))
+    if suffix not in TEXT_SUFFIXES + WORKBOOK_SUFFIXES + ODS_SUFFIXES and kind != "zip":
+        if suffix in (".numbers", ".pdf", ".docx", ".doc", ".json", ".xml", ".html"):
+            raise InputError(
+                Finding(
+                    f"timetabler cannot read '{suffix}' files.",
+                    where=Location(name),
+                    expected=f"one of {SUPPORTED}",
+                    suggestion="Export the enrolments from your spreadsheet program as .xlsx or .csv.",
+                )
+            )
+    notes: list[Finding] = []
+    budget = CellBudget(name, limits)
+    if kind == "zip":
+        archive = check_archive(name, data, limits)
+        names = set(archive.namelist())
+        mimetype = archive.read("mimetype").decode("ascii", "replace").strip() if "mimetype" in names else ""
+        if "opendocument.spreadsheet" in mimetype:
+            return RawBook("ods", _read_ods(name, data, budget, progress), notes=notes)
+        if "xl/workbook.xml" in names or any(n.startswith("xl/") for n in names):
+            if suffix in TEXT_SUFFIXES + ODS_SUFFIXES:
+                notes.append(Finding(f"The file is named '{suffix}' but is an Excel workbook; it was read as one.",
+                                     where=Location(name), severity="warning"))
+            return RawBook("xlsx", _read_xlsx(name, data, budget, progress), notes=notes)
+        raise InputError(
+            Finding(
+                "The file is a zip archive but not a spreadsheet workbook.",
+                where=Location(name),
+                found=", ".join(sorted(names)[:5]),
+                expected=f"one of {SUPPORTED}",
+                suggestion="Unzip it and give timetabler the workbook inside.",
+            )
+        )
+    if suffix in WORKBOOK_SUFFIXES + ODS_SUFFIXES:
+        notes.append(Finding(f"The file is named '{suffix}' but holds plain text; it was read as a CSV file.",
+                             where=Location(name), severity="warning"))
+    text, encoding = decode(name, data)
+    delimiter = sniff_delimiter(text, prefer="\t" if suffix in (".tsv", ".tab") else ",")
+    rows = []
+    for i, row in enumerate(csv.reader(io.StringIO(text, newline=""), delimiter=delimiter), start=1):
+        while row and not row[-1].strip():
+            row.pop()
+        budget.take(len(row), None, i)
+        rows.append(list(row))
+        if progress and i % 50_000 == 0:
+            progress("reading rows", i, None)
+    return RawBook("text", [RawSheet(None, rows)], encoding=encoding, delimiter=delimiter, notes=notes)
+
+
+# --- text files -------------------------------------------------------------------------
+
+
+def decode(name: str, data: bytes) -> tuple[str, str]:
+    """Text of a CSV file and the name of the encoding found.
+
+    Order: a byte-order mark (UTF-8, UTF-16, UTF-32) decides; else UTF-16 without a mark is
+    recognised by zero bytes in every other position (ASCII text in UTF-16); else strict
+    UTF-8; else Windows-1252 (the usual encoding of exports from Excel on Windows); else
+    Latin-1, which accepts any bytes.
+    """
+    boms = (
+        (codecs.BOM_UTF32_LE, "utf-32-le", "UTF-32 with byte-order mark"),
+        (codecs.BOM_UTF32_BE, "utf-32-be", "UTF-32 with byte-order mark"),
+        (codecs.BOM_UTF8, "utf-8", "UTF-8 with byte-order mark"),
+        (codecs.BOM_UTF16_LE, "utf-16-le", "UTF-16 (little-endian) with byte-order mark"),
+        (codecs.BOM_UTF16_BE, "utf-16-be", "UTF-16 (big-endian) with byte-order mark"),
+    )
+    for bom, codec, label in boms:
+        if data.startswith(bom):
+            return _strict(name, data[len(bom):], codec, label), label
+    sample = data[:8192]
+    if len(sample) >= 4:
+        even, odd = sample[0::2], sample[1::2]
+        zeros_even = even.count(0) / max(len(even), 1)
+        zeros_odd = odd.count(0) / max(len(odd), 1)
+        if zeros_odd > 0.4 and zeros_even < 0.05:
+            return _strict(name, data, "utf-16-le", "UTF-16 (little-endian)"), "UTF-16 (little-endian)"
+        if zeros_even > 0.4 and zeros_odd < 0.05:
+            return _strict(name, data, "utf-16-be", "UTF-16 (big-endian)"), "UTF-16 (big-endian)"
+    if b"\x00" in sample:
+        raise InputError(
+            Finding(
+                "The file is not a spreadsheet or text file that timetabler can read (it holds binary data).",
+                where=Location(name),
+                expected=f"one of {SUPPORTED}",
+                suggestion="Export the enrolments from your spreadsheet program as .xlsx or .csv.",
+            )
+        )
+    for codec, label in (("utf-8", "UTF-8"), ("cp1252", "Windows-1252"), ("latin-1", "Latin-1")):
+        try:
+            return data.decode(codec), label
+        except UnicodeDecodeError:
+            continue
+    raise AssertionError("latin-1 decodes any bytes")  # pragma: no cover
+
+
+def _strict(name: str, data: bytes, codec: str, label: str) -> str:
+    try:
+        return data.decode(codec)
+    except UnicodeDecodeError as exc:
+        raise InputError(
+            Finding(
+                f"The file starts as {label} text but has bytes that are not valid in it.",
+                where=Location(name),
+                found=f"byte {exc.start}",
+                suggestion="Save it again as 'CSV UTF-8' from your spreadsheet program.",
+            )
+        ) from None
+
+
+def sniff_delimiter(text: str, prefer: str = ",") -> str:
+    """The delimiter among comma, semicolon, tab and pipe that splits the lines most consistently.
+
+    For each candidate the lines (up to 200 non-blank ones) are split as CSV; the score is
+    the share of lines having the most common number of fields (when that number is at
+    least 2), then that number of fields. Title rows above the header rarely change the
+    most common count. With no candidate splitting anything, ``prefer`` is returned.
+    """
+    lines = [line for line in text.splitlines()[:400] if line.strip()][:200]
+    best: tuple[float, int, int] | None = None
+    choice = prefer
+    for d in DELIMITERS:
+        counts = [len(r) for r in csv.reader(lines, delimiter=d)]
+        if not counts:
+            continue
+        mode, freq = Counter(counts).most_common(1)[0]
+        if mode < 2:
+            continue
+        score = (freq / len(counts), mode, 1 if d == prefer else 0)
+        if best is None or score > best:
+            best, choice = score, d
+    return choice
+
+
+# --- workbooks --------------------------------------------------------------------------
+
+
+def _read_xlsx(name: str, data: bytes, budget: CellBudget, progress: Progress | None) -> list[RawSheet]:
+    import openpyxl
+
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")  # openpyxl warns about unsupported extensions, data validation, ...
+            book = openpyxl.load_workbook(io.BytesIO(data), read_only=True, data_only=True, keep_links=False)
+    except Exception as exc:  # noqa: BLE001 - openpyxl raises many types for damaged files
+        raise InputError(
+            Finding(
+                "The workbook is damaged or not a real Excel workbook.",
+                where=Location(name),
+                found=f"{type(exc).__name__}: {exc}",
+                suggestion="Open it in your spreadsheet program and save it again as .xlsx.",
+            )
+        ) from None
+    sheets = []
+    try:
+        for ws in book.worksheets:
+            rows: list[list[object]] = []
+            for i, values in enumerate(ws.iter_rows(min_row=1, min_col=1, values_only=True), start=1):
+                row = list(values)
+                while row and (row[-1] is None or (isinstance(row[-1], str) and not row[-1].strip())):
+                    row.pop()
+                budget.take(len(row), ws.title, i)
+                rows.append(row)
+                if progress and i % 50_000 == 0:
+                    progress(f"reading sheet '{ws.title}'", i, ws.max_row)
+            while rows and not rows[-1]:
+                rows.pop()
+            sheets.append(RawSheet(ws.title, rows, hidden=getattr(ws, "sheet_state", "visible") != "visible"))
+    finally:
+        book.close()
+    return sheets
+
+
+def _read_ods(name: str, data: bytes, budget: CellBudget, progress: Progress | None) -> list[RawSheet]:
+    import pandas as pd
+
+    try:
+        frames = pd.read_excel(io.BytesIO(data), engine="odf", header=None, sheet_name=None, dtype=object)
+    except ImportError:
+        raise InputError(
+            Finding(
+                "Reading .ods files needs the package 'odfpy', which is not installed.",
+                where=Location(name),
+                suggestion="Install it (pip install odfpy) or save the file as .xlsx.",
+            )
+        ) from None
+    except Exception as exc:  # noqa: BLE001
+        raise InputError(
+            Finding(
+                "The OpenDocument spreadsheet is damaged.",
+                where=Location(name),
+                found=f"{type(exc).__name__}: {exc}",
+                suggestion="Open it and save it again, or save it as .xlsx.",
+            )
+        ) from None
+    sheets = []
+    for sheet_name, frame in frames.items():
+        rows = []
+        for i, values in enumerate(frame.itertuples(index=False, name=None), start=1):
+            row = [None if _is_nan(v) else v for v in values]
+            while row and (row[-1] is None or (isinstance(row[-1], str) and not row[-1].strip())):
+                row.pop()
+            budget.take(len(row), str(sheet_name), i)
+            rows.append(row)
+        while rows and not rows[-1]:
+            rows.pop()
+        sheets.append(RawSheet(str(sheet_name), rows))
+    return sheets
+
+
+def _is_nan(value: object) -> bool:
+    return isinstance(value, float) and value != value

@@ -1,0 +1,165 @@
+"""Turn the rows of an enrolment sheet into (attendee, event) pairs, whatever the layout.
+
+Three layouts are read (see :mod:`timetabler.intake.vocabulary` for the headers):
+
+long
+    one row per enrolment: an attendee column and an event column;
+wide
+    one row per attendee: the events in several columns (``Exam 1``, ``Exam 2``, ...), or
+    listed in one cell separated by ``;`` or ``,``;
+clash list
+    no attendees, one row per pair of events with the number of attendees they share.
+    Each shared attendee becomes a *synthetic* attendee ``shared:A|B#i`` enrolled on both
+    events, so the conflict graph (edges and their ``shared`` weights) comes out exactly as
+    listed; event sizes and per-attendee figures then mean nothing, and
+    ``Reading.synthetic_attendees`` says so.
+
+Rows are skipped, with a warning naming the row, when they are blank (silently), repeat
+the header, look like a total row, or lack the attendee or the event.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from ..model import Location
+from .file_types import RawSheet
+from .findings import FindingList
+from .header_detection import CLASH_LIST, Layout
+from .normalising import identifier, is_blank, looks_like_total, split_list, whole_number
+from .vocabulary import key
+
+SYNTHETIC_PREFIX = "shared:"
+
+
+@dataclass
+class RawEnrolments:
+    """Pairs as typed (before case folding), each with its spreadsheet row number."""
+
+    pairs: list[tuple[str, str, int]] = field(default_factory=list)
+    lone_events: list[tuple[str, int]] = field(default_factory=list)  # clash list: events with no clash
+    synthetic: bool = False
+    rows_read: int = 0
+    blank_rows: int = 0
+    separators_seen: int = 0  # event cells holding ; or , read as one code (long layout)
+
+
+def read_enrolments(sheet: RawSheet, layout: Layout, file: str, findings: FindingList, max_pairs: int) -> RawEnrolments:
+    if layout.kind == CLASH_LIST:
+        return _clash_list(sheet, layout, file, findings, max_pairs)
+    return _attendee_rows(sheet, layout, file, findings)
+
+
+def _where(file: str, sheet: RawSheet, row: int, layout: Layout, col: int | None) -> Location:
+    return Location(file, sheet.name, row, layout.column_label(col) if col is not None else None)
+
+
+def _cell(row: list[object], i: int | None) -> object:
+    return row[i] if i is not None and i < len(row) else None
+
+
+def _attendee_rows(sheet: RawSheet, layout: Layout, file: str, findings: FindingList) -> RawEnrolments:
+    out = RawEnrolments()
+    header_keys = [key(h) for h in layout.headers]
+    repeated_header_warned = False
+    for r in range(layout.header_row + 1, len(sheet.rows) + 1):
+        row = sheet.rows[r - 1]
+        if all(is_blank(c) for c in row):
+            out.blank_rows += 1
+            continue
+        out.rows_read += 1
+        who = identifier(_cell(row, layout.attendee))
+        cells = [_cell(row, i) for i in layout.events]
+        if [key(identifier(c)) for c in row] == header_keys[: len(row)] and who:
+            if not repeated_header_warned:
+                findings.warn("The header row is repeated here (two exports pasted together?); the row was skipped.",
+                              _where(file, sheet, r, layout, layout.attendee), found=who)
+                repeated_header_warned = True
+            continue
+        if looks_like_total(who) or any(looks_like_total(c) for c in cells):
+            findings.warn("This looks like a total row, not an enrolment; it was skipped.",
+                          _where(file, sheet, r, layout, layout.attendee), found=" | ".join(identifier(c) for c in row),
+                          suggestion="Delete summary rows from the enrolment sheet.")
+            continue
+        events: list[str] = []
+        for c in cells:
+            if layout.split_cells:
+                events.extend(split_list(c))
+            else:
+                text = identifier(c)
+                if text:
+                    if ";" in text or "," in text:
+                        out.separators_seen += 1
+                    events.append(text)
+        if not who and events:
+            findings.warn("This row names an event but no attendee; it was skipped.",
+                          _where(file, sheet, r, layout, layout.attendee), found=", ".join(events),
+                          expected="an attendee in this column")
+            continue
+        if who and not events:
+            findings.warn("This row names an attendee but no event; it was skipped.",
+                          _where(file, sheet, r, layout, layout.events[0]), found=who,
+                          expected="an event code in this column")
+            continue
+        if not who:
+            continue  # other columns filled, the two that matter blank
+        for e in events:
+            out.pairs.append((who, e, r))
+    return out
+
+
+def _clash_list(sheet: RawSheet, layout: Layout, file: str, findings: FindingList, max_pairs: int) -> RawEnrolments:
+    out = RawEnrolments(synthetic=True)
+    first_col, other_col, shared_col = layout.events[0], layout.other, layout.shared
+    seen: dict[frozenset, tuple[int, int]] = {}
+    for r in range(layout.header_row + 1, len(sheet.rows) + 1):
+        row = sheet.rows[r - 1]
+        if all(is_blank(c) for c in row):
+            out.blank_rows += 1
+            continue
+        out.rows_read += 1
+        a, b = identifier(_cell(row, first_col)), identifier(_cell(row, other_col))
+        raw_shared = _cell(row, shared_col)
+        if looks_like_total(a) or looks_like_total(b):
+            findings.warn("This looks like a total row, not a clash; it was skipped.",
+                          _where(file, sheet, r, layout, first_col), found=a or b)
+            continue
+        if not a and not b:
+            continue
+        if not a or not b:
+            out.lone_events.append((a or b, r))
+            continue
+        n = whole_number(raw_shared)
+        if n is None or n < 0:
+            findings.error("The number of shared attendees is not a whole number.",
+                           _where(file, sheet, r, layout, shared_col), found=identifier(raw_shared),
+                           expected="a whole number, 0 or more")
+            continue
+        if key(a) == key(b):
+            findings.warn("An event cannot clash with itself; the row was skipped.",
+                          _where(file, sheet, r, layout, other_col), found=f"{a} / {b}")
+            continue
+        pair = frozenset((a, b))
+        if pair in seen:
+            before, row_before = seen[pair]
+            if before != n:
+                findings.warn(f"This pair is listed twice with different numbers (row {row_before} says {before}); "
+                              "the larger number was kept.", _where(file, sheet, r, layout, shared_col), found=n)
+            if n <= before:
+                continue
+        seen[pair] = (n, r)
+    total = sum(n for n, _ in seen.values())
+    if total > max_pairs:
+        findings.error("The clash list adds up to more shared attendees than timetabler reads.",
+                       Location(file, sheet.name, None, layout.column_label(shared_col)),
+                       found=f"{total:,}", expected=f"at most {max_pairs:,}")
+        return out
+    for pair, (n, r) in seen.items():
+        a, b = sorted(pair)
+        if n == 0:
+            out.lone_events.extend(((a, r), (b, r)))
+        for i in range(1, n + 1):
+            who = f"{SYNTHETIC_PREFIX}{a}|{b}#{i}"
+            out.pairs.append((who, a, r))
+            out.pairs.append((who, b, r))
+    return out

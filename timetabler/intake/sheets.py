@@ -1,0 +1,331 @@
+"""The optional sheets of an input workbook: events, slots, rooms, rules and weights.
+
+Each reader finds its header row (the first of the top rows holding the sheet's key
+column and at least one other known column), reads every row into model objects, and
+records a :class:`~timetabler.errors.Finding` for each cell it cannot make sense of, with
+the row and column. Cross-checks between sheets (a rule naming an unknown event, a fixed
+slot that does not exist) are in :mod:`timetabler.intake.validation`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from ..model import Event, Location, Room, Rule, RuleKind, Slot, Weights
+from .file_types import RawSheet
+from .findings import FindingList
+from .header_detection import SCAN_ROWS, column_letter
+from .normalising import (
+    date_value,
+    duration_minutes,
+    identifier,
+    is_blank,
+    looks_like_total,
+    split_list,
+    time_value,
+    whole_number,
+    yes_no,
+)
+from .vocabulary import (
+    EVENTS_COLUMNS,
+    GOAL_LABELS,
+    GOAL_WORDS,
+    MOST_PER_DAY,
+    ROOMS_COLUMNS,
+    RULE_WORDS,
+    RULES_COLUMNS,
+    SLOTS_COLUMNS,
+    TOTAL_WORDS,
+    WEIGHTS_COLUMNS,
+    Column,
+    key,
+)
+
+
+@dataclass
+class Table:
+    """A sheet with its header row found: which column index holds each known column."""
+
+    sheet: RawSheet
+    file: str
+    header_row: int
+    index: dict[str, int]
+    headers: list[str]
+
+    def rows(self):
+        """(row number, cells) of the non-blank rows below the header."""
+        for r in range(self.header_row + 1, len(self.sheet.rows) + 1):
+            cells = self.sheet.rows[r - 1]
+            if not all(is_blank(c) for c in cells):
+                yield r, cells
+
+    def get(self, cells: list[object], name: str) -> object:
+        i = self.index.get(name)
+        return cells[i] if i is not None and i < len(cells) else None
+
+    def where(self, row: int | None, name: str | None = None) -> Location:
+        label = None
+        if name is not None and name in self.index:
+            i = self.index[name]
+            label = f"{column_letter(i)} ({self.headers[i]})"
+        return Location(self.file, self.sheet.name, row, label)
+
+
+def find_table(sheet: RawSheet, file: str, columns: tuple[Column, ...], findings: FindingList) -> Table | None:
+    """Locate the header row of an optional sheet; record an error when it has none."""
+    for r, row in enumerate(sheet.rows[:SCAN_ROWS], start=1):
+        headers = [identifier(c) for c in row]
+        index: dict[str, int] = {}
+        for col in columns:  # the template's own header first, then the other words in order
+            for i, h in enumerate(headers):
+                if i not in index.values() and key(h) == key(col.name):
+                    index[col.name] = i
+                    break
+        for col in columns:
+            if col.name in index:
+                continue
+            for i, h in enumerate(headers):
+                if i not in index.values() and col.matches(h):
+                    index[col.name] = i
+                    break
+        if columns[0].name in index and len(index) >= 2 or (columns[0].name in index and len(columns) == 1):
+            for i, h in enumerate(headers):
+                if h and i not in index.values():
+                    findings.warn(f"The column '{h}' of sheet '{sheet.name}' is not one timetabler knows; it was ignored.",
+                                  Location(file, sheet.name, r, f"{column_letter(i)} ({h})"),
+                                  expected=", ".join(c.name for c in columns))
+            return Table(sheet, file, r, index, headers)
+    if not sheet.rows:
+        return None  # an empty optional sheet is no sheet
+    findings.error(
+        f"The sheet '{sheet.name}' has no header row with a '{columns[0].name}' column.",
+        Location(file, sheet.name),
+        found=", ".join(h for h in (identifier(c) for c in sheet.rows[0]) if h) or "an empty first row",
+        expected="headers " + ", ".join(c.name for c in columns),
+        suggestion="Use the headers of 'timetabler template', or rename the sheet if it holds something else.",
+    )
+    return None
+
+
+@dataclass
+class Extras:
+    """What the optional sheets held, with the row each item came from (for cross-check messages)."""
+
+    events: list[tuple[Event, Location]] = field(default_factory=list)
+    slots: list[tuple[Slot, Location]] = field(default_factory=list)
+    rooms: list[tuple[Room, Location]] = field(default_factory=list)
+    rules: list[Rule] = field(default_factory=list)
+    weights: Weights = field(default_factory=Weights)
+    max_per_day: int | None = None
+    tables: dict[str, Table] = field(default_factory=dict)
+    sheets_read: dict[str, str] = field(default_factory=dict)  # role -> sheet name
+
+
+def _total_row(cells: list[object]) -> bool:
+    return bool(cells) and looks_like_total(cells[0])
+
+
+def read_events(table: Table, findings: FindingList, extras: Extras) -> None:
+    seen: dict[str, int] = {}
+    for r, cells in table.rows():
+        code = identifier(table.get(cells, "Event"))
+        if not code:
+            findings.error("This row has no event code.", table.where(r, "Event"),
+                           expected="the event's code, as in the enrolments")
+            continue
+        if key(code) in TOTAL_WORDS:
+            findings.warn("This looks like a total row, not an event; it was skipped.", table.where(r, "Event"), found=code)
+            continue
+        if code.casefold() in seen:
+            findings.error(f"The event {code} is listed twice (also in row {seen[code.casefold()]}).",
+                           table.where(r, "Event"), found=code, suggestion="Keep one row per event.")
+            continue
+        seen[code.casefold()] = r
+        title = identifier(table.get(cells, "Title")) or None
+        if title and key(title) in TOTAL_WORDS:
+            findings.warn("This title looks like a total row, not an event title.", table.where(r, "Title"), found=title)
+        raw = table.get(cells, "Duration")
+        duration = duration_minutes(raw)
+        if not is_blank(raw) and (duration is None or duration <= 0):
+            findings.error("The duration is not a number of minutes.", table.where(r, "Duration"),
+                           found=identifier(raw), expected="minutes as a whole number, e.g. 120")
+            duration = None
+        event = Event(
+            code=code,
+            title=title,
+            duration_minutes=duration,
+            room_type=identifier(table.get(cells, "Room type")) or None,
+            fixed_slot=identifier(table.get(cells, "Fixed slot")) or None,
+            barred_slots=tuple(split_list(table.get(cells, "Barred slots"))),
+            group=identifier(table.get(cells, "Group")) or None,
+            preferred_slots=tuple(split_list(table.get(cells, "Preferred slots"))),
+        )
+        extras.events.append((event, table.where(r)))
+
+
+def read_slots(table: Table, findings: FindingList, extras: Extras) -> None:
+    seen: dict[str, int] = {}
+    for r, cells in table.rows():
+        label = identifier(table.get(cells, "Slot"))
+        if _total_row(cells):
+            findings.warn("This looks like a total row, not a slot; it was skipped.", table.where(r, "Slot"), found=label)
+            continue
+        if not label:
+            findings.error("This row has no slot name.", table.where(r, "Slot"), expected="a name such as 'Mon 11 Jan AM'")
+            continue
+        if label.casefold() in seen:
+            findings.error(f"The slot '{label}' is listed twice (also in row {seen[label.casefold()]}).",
+                           table.where(r, "Slot"), found=label, suggestion="Give every slot its own name.")
+            continue
+        seen[label.casefold()] = r
+        raw_date, raw_start = table.get(cells, "Date"), table.get(cells, "Start")
+        date = date_value(raw_date)
+        if not is_blank(raw_date) and date is None:
+            findings.error("This is not a date.", table.where(r, "Date"), found=identifier(raw_date),
+                           expected="a date cell, or text such as 2027-01-11 or 11/01/2027 (day first)")
+        start = time_value(raw_start)
+        if not is_blank(raw_start) and start is None:
+            findings.error("This is not a time of day.", table.where(r, "Start"), found=identifier(raw_start),
+                           expected="a time cell, or text such as 09:00 or 2pm")
+        raw_len = table.get(cells, "Length")
+        length = duration_minutes(raw_len)
+        if not is_blank(raw_len) and (length is None or length <= 0):
+            findings.error("The length is not a number of minutes.", table.where(r, "Length"),
+                           found=identifier(raw_len), expected="minutes as a whole number, e.g. 180")
+            length = None
+        raw_seats = table.get(cells, "Seats")
+        seats = whole_number(raw_seats)
+        if not is_blank(raw_seats) and (seats is None or seats < 0):
+            findings.error("The number of seats is not a whole number.", table.where(r, "Seats"),
+                           found=identifier(raw_seats), expected="a whole number, 0 or more")
+            seats = None
+        raw_day = table.get(cells, "Day")
+        day = whole_number(raw_day)
+        if not is_blank(raw_day) and (day is None or day < 1):
+            findings.error("The day is not a day number.", table.where(r, "Day"), found=identifier(raw_day),
+                           expected="1 for the first day, 2 for the second, ...")
+            day = None
+        raw_avoid = table.get(cells, "Avoid")
+        avoid = yes_no(raw_avoid)
+        if avoid is None:
+            findings.error("Avoid must be yes or no.", table.where(r, "Avoid"), found=identifier(raw_avoid),
+                           expected="yes, or no (or blank)")
+            avoid = False
+        slot = Slot(label=label, date=date, start=start, length_minutes=length, seat_capacity=seats, day=day, penalised=avoid)
+        extras.slots.append((slot, table.where(r)))
+
+
+def read_rooms(table: Table, findings: FindingList, extras: Extras) -> None:
+    seen: dict[str, int] = {}
+    for r, cells in table.rows():
+        name = identifier(table.get(cells, "Room"))
+        if _total_row(cells):
+            findings.warn("This looks like a total row, not a room; it was skipped.", table.where(r, "Room"), found=name)
+            continue
+        if not name:
+            findings.error("This row has no room name.", table.where(r, "Room"))
+            continue
+        if name.casefold() in seen:
+            findings.error(f"The room '{name}' is listed twice (also in row {seen[name.casefold()]}).",
+                           table.where(r, "Room"), found=name)
+            continue
+        seen[name.casefold()] = r
+        raw = table.get(cells, "Capacity")
+        capacity = whole_number(raw)
+        if capacity is None or capacity < 1:
+            findings.error("The capacity is not a whole number of seats.", table.where(r, "Capacity"),
+                           found=identifier(raw), expected="a whole number, 1 or more")
+            capacity = 0
+        room = Room(name=name, capacity=capacity, room_type=identifier(table.get(cells, "Room type")) or None,
+                    unavailable_slots=tuple(split_list(table.get(cells, "Unavailable slots"))))
+        extras.rooms.append((room, table.where(r)))
+
+
+def read_rules(table: Table, findings: FindingList, extras: Extras) -> None:
+    kinds = ", ".join(sorted(set(RULE_WORDS.values())))
+    for r, cells in table.rows():
+        raw_kind = identifier(table.get(cells, "Rule"))
+        word = RULE_WORDS.get(key(raw_kind))
+        first = identifier(table.get(cells, "First event"))
+        others = split_list(table.get(cells, "Other events"))
+        if word is None:
+            findings.error("This rule is not one timetabler knows.", table.where(r, "Rule"), found=raw_kind,
+                           expected=kinds, suggestion="Pick the rule from the drop-down list of the template.")
+            continue
+        kind = RuleKind(word)
+        if not first:
+            findings.error(f"The '{word}' rule names no event.", table.where(r, "First event"), expected="an event code")
+            continue
+        events = (first, *others)
+        if kind is RuleKind.BEFORE and len(others) != 1:
+            findings.error("A 'before' rule needs exactly one other event (the one that comes later).",
+                           table.where(r, "Other events"), found=", ".join(others) or "nothing",
+                           expected="one event code", suggestion="Write one rule per pair of events.")
+            continue
+        if kind in (RuleKind.SAME_SLOT, RuleKind.DIFFERENT_DAYS) and not others:
+            findings.error(f"A '{word}' rule needs at least one other event.", table.where(r, "Other events"),
+                           found="nothing", expected="one or more event codes, separated by ;")
+            continue
+        if kind is RuleKind.ALONE and others:
+            findings.error("An 'alone' rule takes no other events.", table.where(r, "Other events"),
+                           found=", ".join(others), expected="this cell blank",
+                           suggestion="Write one 'alone' rule per event.")
+            continue
+        if len({e.casefold() for e in events}) != len(events):
+            findings.error("The rule names the same event twice.", table.where(r, "Other events"), found=", ".join(events))
+            continue
+        extras.rules.append(Rule(kind=kind, events=events, where=table.where(r)))
+
+
+def read_weights(table: Table, findings: FindingList, extras: Extras) -> None:
+    goals = ", ".join(list(GOAL_LABELS.values()) + [MOST_PER_DAY[0]])
+    for r, cells in table.rows():
+        raw_goal = identifier(table.get(cells, "Goal"))
+        raw_weight = table.get(cells, "Weight")
+        weight = whole_number(raw_weight)
+        goal_key = key(raw_goal)
+        if goal_key in MOST_PER_DAY:
+            if is_blank(raw_weight):
+                continue
+            if weight is None or weight < 1:
+                findings.error("The most events per day must be a whole number, 1 or more (or blank for no limit).",
+                               table.where(r, "Weight"), found=identifier(raw_weight))
+                continue
+            extras.max_per_day = weight
+            continue
+        attr = GOAL_WORDS.get(goal_key)
+        if attr is None:
+            findings.error("This goal is not one timetabler knows.", table.where(r, "Goal"), found=raw_goal, expected=goals)
+            continue
+        if is_blank(raw_weight):
+            continue  # keep the default
+        if weight is None or weight < 0:
+            findings.error("A weight must be a whole number, 0 or more.", table.where(r, "Weight"),
+                           found=identifier(raw_weight), expected="e.g. 10; 0 switches the goal off")
+            continue
+        setattr(extras.weights, attr, weight)
+
+
+READERS = {
+    "Events": (EVENTS_COLUMNS, read_events),
+    "Slots": (SLOTS_COLUMNS, read_slots),
+    "Rooms": (ROOMS_COLUMNS, read_rooms),
+    "Rules": (RULES_COLUMNS, read_rules),
+    "Weights": (WEIGHTS_COLUMNS, read_weights),
+}
+
+
+def read_extras(sheets: dict[str, RawSheet], file: str, findings: FindingList) -> Extras:
+    """Read the optional sheets found (role -> sheet), in a fixed order."""
+    extras = Extras()
+    for role, (columns, reader) in READERS.items():
+        sheet = sheets.get(role)
+        if sheet is None:
+            continue
+        table = find_table(sheet, file, columns, findings)
+        if table is None:
+            continue
+        extras.tables[role] = table
+        extras.sheets_read[role] = str(sheet.name)
+        reader(table, findings, extras)
+    return extras

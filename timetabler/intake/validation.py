@@ -1,0 +1,162 @@
+"""Cross-checks between the sheets, and warnings about figures that look wrong.
+
+Errors (the run stops):
+
+* a rule naming an event that is neither enrolled nor in the events sheet;
+* a fixed, barred or preferred slot, or a room's unavailable slot, that is not a slot
+  (a slot name from the slots sheet, or a slot number; without a slots sheet only
+  numbers and ``Slot N`` can be checked later against the number of slots chosen);
+* an event fixed to a slot it is also barred from;
+* an event longer than every slot; an event needing a room type no room has.
+
+Warnings (the run goes on; they are shown and kept in the output):
+
+* an event with nobody enrolled;
+* an attendee with an implausible number of events (more than
+  ``max(15, 4 × median)`` — a rule of thumb, common practice with no single source);
+* the attendee and event columns possibly swapped (more events than attendees, most
+  events with one attendee);
+* identifiers that differ only by leading zeros (``0123`` and ``123``), or event codes that
+  differ only by case and were merged.
+"""
+
+from __future__ import annotations
+
+import re
+import statistics
+
+from ..model import Event, Location, Problem, Slot
+from .findings import FindingList
+from .sheets import Extras
+
+_SLOT_NUMBER = re.compile(r"^(slot\s*)?(\d+)$", re.IGNORECASE)
+
+
+def slot_reference_ok(ref: str, slots: list[Slot]) -> bool:
+    """True when a slot reference names a slot (by label or number), or could once K is chosen."""
+    if slots:
+        return Problem([]).slot_number(ref, slots) is not None
+    m = _SLOT_NUMBER.match(ref.strip())
+    return bool(m) and int(m.group(2)) >= 1
+
+
+def _slot_expectation(slots: list[Slot]) -> str:
+    if slots:
+        shown = ", ".join(s.label for s in slots[:4]) + (", ..." if len(slots) > 4 else "")
+        return f"a slot name from the slots sheet ({shown}) or a number 1..{len(slots)}"
+    return "a slot number such as 3 (there is no slots sheet, so slots have no names)"
+
+
+def cross_check(problem: Problem, extras: Extras, findings: FindingList, event_where: dict[str, Location]) -> None:
+    slots = problem.slots
+    events_table = extras.tables.get("Events")
+
+    def where_event(code: str, column: str) -> Location | None:
+        base = event_where.get(code)
+        if base is None or events_table is None:
+            return base
+        return events_table.where(base.row, column)
+
+    for rule in problem.rules:
+        for code in rule.events:
+            if code not in problem.events:
+                findings.error(f"The rule '{rule.describe()}' names an event that is not in the enrolments or the events sheet.",
+                               rule.where, found=code, expected="an event code used elsewhere in the workbook",
+                               suggestion="Check the spelling of the code.")
+    lengths = [s.length_minutes for s in slots if s.length_minutes]
+    room_types = {(r.room_type or "").casefold() for r in problem.rooms}
+    for code, event in problem.events.items():
+        for column, refs in (("Fixed slot", (event.fixed_slot,) if event.fixed_slot else ()),
+                             ("Barred slots", event.barred_slots), ("Preferred slots", event.preferred_slots)):
+            for ref in refs:
+                if not slot_reference_ok(ref, slots):
+                    findings.error(f"The event {code} names a slot that does not exist.", where_event(code, column),
+                                   found=ref, expected=_slot_expectation(slots))
+        if event.fixed_slot and slots:
+            fixed = problem.slot_number(event.fixed_slot, slots)
+            barred = {problem.slot_number(b, slots) for b in event.barred_slots}
+            if fixed is not None and fixed in barred:
+                findings.error(f"The event {code} is fixed to a slot it is also barred from.",
+                               where_event(code, "Barred slots"), found=event.fixed_slot)
+        if event.duration_minutes and lengths and event.duration_minutes > max(lengths):
+            findings.error(f"The event {code} is longer than every slot.", where_event(code, "Duration"),
+                           found=f"{event.duration_minutes} minutes", expected=f"at most {max(lengths)} minutes (the longest slot)",
+                           suggestion="Lengthen a slot in the slots sheet, or check the duration.")
+        if event.room_type and problem.rooms and event.room_type.casefold() not in room_types:
+            kinds = ", ".join(sorted({r.room_type for r in problem.rooms if r.room_type})) or "none"
+            findings.error(f"The event {code} needs a room type that no room has.", where_event(code, "Room type"),
+                           found=event.room_type, expected=f"one of the rooms sheet's types: {kinds}")
+    rooms_table = extras.tables.get("Rooms")
+    for room, where in extras.rooms:
+        for ref in room.unavailable_slots:
+            if not slot_reference_ok(ref, slots):
+                loc = rooms_table.where(where.row, "Unavailable slots") if rooms_table else where
+                findings.error(f"The room '{room.name}' names a slot that does not exist.", loc,
+                               found=ref, expected=_slot_expectation(slots))
+    if slots and any(s.date for s in slots) and not all(s.date for s in slots):
+        missing = next(w for s, w in extras.slots if s.date is None)
+        findings.warn("Some slots have a date and some do not; days are then counted one per slot.", missing,
+                      suggestion="Give every slot a date, or none.")
+
+
+def figure_warnings(problem: Problem, findings: FindingList, enrolment_where: Location, synthetic: bool,
+                    event_where: dict[str, Location], leading_zero_pairs: list[tuple[str, str]],
+                    case_merges: list[tuple[str, str]]) -> None:
+    sizes = problem.event_sizes()
+    empty = [code for code, n in sizes.items() if n == 0]
+    for code in sorted(empty)[:20]:
+        findings.warn(f"Nobody is enrolled on the event {code}.", event_where.get(code, enrolment_where),
+                      suggestion="It still gets a slot; delete it from the events sheet if it is not sat this session.")
+    if len(empty) > 20:
+        findings.warn(f"... and {len(empty) - 20} more events with nobody enrolled.", enrolment_where)
+    if synthetic or not problem.enrolments:
+        return
+    load = {a: len(evs) for a, evs in problem.events_by_attendee().items()}
+    median = statistics.median(load.values())
+    limit = max(15, 4 * median)  # rule of thumb (common practice, no single source)
+    heavy = sorted((a for a, n in load.items() if n > limit), key=lambda a: (-load[a], a))
+    for a in heavy[:10]:
+        findings.warn(f"The attendee {a} has {load[a]} events, far more than most (median {median:g}).",
+                      enrolment_where, found=a, suggestion="Check for a merged or mistyped attendee id.")
+    n_events, n_attendees = len(problem.events), len(load)
+    if n_events > n_attendees >= 1:
+        singles = sum(1 for code in problem.events if sizes[code] == 1)
+        if singles > 0.5 * n_events:
+            findings.warn("There are more events than attendees and most events have one attendee: "
+                          "the attendee and event columns may be swapped.", enrolment_where,
+                          found=f"{n_attendees} attendees, {n_events} events",
+                          suggestion="Name the columns with --attendee-column and --event-column.")
+    for short, long in leading_zero_pairs[:5]:
+        findings.warn(f"The identifiers {long!r} and {short!r} differ only by leading zeros; they are read as "
+                      "two different identifiers.", enrolment_where,
+                      suggestion="Format the column as text in the spreadsheet so leading zeros are kept everywhere.")
+    if case_merges:
+        shown = "; ".join(f"{a!r} = {b!r}" for a, b in case_merges[:5])
+        more = f" (and {len(case_merges) - 5} more)" if len(case_merges) > 5 else ""
+        findings.warn(f"Codes differing only in upper/lower case were read as the same: {shown}{more}.",
+                      enrolment_where, suggestion="Use --case-sensitive-codes if they are really different.")
+
+
+def leading_zero_variants(values: list[str]) -> list[tuple[str, str]]:
+    """Pairs (without zeros, with zeros) of numeric identifiers that differ only by leading zeros."""
+    by_value: dict[str, list[str]] = {}
+    for v in values:
+        if v.isdigit():
+            by_value.setdefault(v.lstrip("0") or "0", []).append(v)
+    out = []
+    for stripped, spellings in sorted(by_value.items()):
+        spellings = sorted(set(spellings), key=len)
+        if len(spellings) > 1:
+            out.append((spellings[0], spellings[-1]))
+    return out
+
+
+def attach_event_details(problem: Problem, events: list[tuple[Event, Location]], canonical) -> dict[str, Location]:
+    """Merge the events sheet into ``problem.events`` (under canonical codes); return where each came from."""
+    where: dict[str, Location] = {}
+    for event, loc in events:
+        code = canonical(event.code)
+        event.code = code
+        problem.events[code] = event
+        where[code] = loc
+    return where
