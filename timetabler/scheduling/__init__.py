@@ -1,0 +1,15 @@
+"""The scheduler: CP-SAT timetables under the rules of a real exam session.
+
+Public API::
+
+    from timetabler.scheduling import solve, SolveOptions, SolveRun, fewest_slots, validate
+
+* :func:`solve` — a good timetable for K slots, or the reason none exists (:mod:`.solve`);
+* :func:`fewest_slots` — lower bound with its reason, DSATUR upper bound, CP-SAT in between;
+* :func:`validate` — an independent re-check of any timetable (:mod:`.validator`).
+"""
+
+from .solve import FewestSlots, SolveOptions, SolveRun, fewest_slots, solve
+from .validator import Validation, validate
+
+__all__ = ["solve", "SolveOptions", "SolveRun", "fewest_slots", "FewestSlots", "validate", "Validation"]

@@ -1,0 +1,661 @@
+"""Solving: a good timetable for K slots, or the reason none exists.
+
+The steps of :func:`solve`:
+
+1. physical limits per event (length, seats, rooms) and the fast pre-checks of
+   :mod:`.infeasibility`; a pre-check that fires ends the run as *infeasible* with its
+   witness;
+2. DSATUR within each event's allowed slots (:mod:`.dsatur`) for a warm start;
+3. when the slots are interchangeable, a feasibility model with the events of a large
+   clique fixed to slots 1, 2, ... (slot symmetry broken) — infeasible there means
+   infeasible everywhere; its timetable is the hint for step 4;
+4. the full model with the soft goals, hinted, with CP-SAT's parallel portfolio and
+   large-neighbourhood search, under the remaining time;
+5. rooms seated slot by slot (:mod:`.rooms`); a slot that cannot be seated is forbidden
+   for that group of events and step 4 resumes;
+6. when CP-SAT proves infeasibility, the model is rebuilt with one assumption per user
+   rule and the rules that cannot all hold are reported (:mod:`.infeasibility`).
+
+Components of the conflict graph that no rule, seat limit or room links are solved
+apart, each with a share of the time limit proportional to its size.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass, field
+from typing import Callable
+
+import networkx as nx
+from ortools.sat.python import cp_model
+
+from ..conflicts import conflict_graph
+from ..model import Problem, Slot, generic_slots
+from .cliques import clique_cover, largest_clique_found
+from .cpsat_model import (TimetableModel, build_model, large_event_codes, physical_domains,
+                          slots_interchangeable)
+from .dsatur import dsatur
+from .infeasibility import Witness, prechecks
+from .rooms import seat_events
+
+Progress = Callable[[dict], None]
+
+
+@dataclass
+class SolveOptions:
+    """Solver settings, in one place.
+
+    time_limit
+        Seconds of wall time for one slot count (the whole run, all phases).
+    workers
+        CP-SAT search workers (threads). 2 suits an ordinary laptop.
+    seed
+        Random seed; with ``deterministic`` the same seed and workers give the same timetable.
+    deterministic
+        Interleave the workers in fixed batches and stop on CP-SAT's deterministic time
+        (about ``time_limit`` seconds of work) instead of the wall clock, so runs repeat exactly.
+    room_sharing, room_splitting
+        Several events of equal length may share a room; a large event may be spread over
+        several rooms (each extra room costs ``Weights.room_split``).
+    explain
+        Search for the rules that cannot all hold when no timetable exists.
+    split_components
+        Solve independent groups of events apart.
+    """
+
+    time_limit: float = 30.0
+    workers: int = 2
+    seed: int = 0
+    deterministic: bool = False
+    room_sharing: bool = False
+    room_splitting: bool = False
+    explain: bool = True
+    split_components: bool = True
+    log: bool = False
+
+
+@dataclass
+class SolveRun:
+    """The outcome for one slot count (see the ``solve --json`` contract in DESIGN.md)."""
+
+    slots: int
+    slot_list: list[Slot]
+    status: str  # optimal | feasible | infeasible | unknown
+    assignment: dict[str, int] = field(default_factory=dict)
+    rooms: dict[str, list[tuple[str, int]]] = field(default_factory=dict)
+    penalty: int | None = None
+    bound: float | None = None
+    proven: bool = False
+    reason: str | None = None
+    reasons: list[str] = field(default_factory=list)
+    penalty_breakdown: dict[str, int] = field(default_factory=dict)
+    wall_seconds: float = 0.0
+    moves: list[dict] = field(default_factory=list)
+    first_feasible_seconds: float | None = None
+    validation: object | None = None  # a validator.Validation, filled by callers that check
+
+    @property
+    def gap(self) -> float | None:
+        if self.penalty is None or self.bound is None:
+            return None
+        if self.penalty == 0:
+            return 0.0
+        return max(0.0, (self.penalty - self.bound) / self.penalty)
+
+    def to_json(self) -> dict:
+        doc = {
+            "slots": self.slots,
+            "status": self.status,
+            "assignment": dict(sorted(self.assignment.items())),
+            "reason": self.reason,
+            "reasons": list(self.reasons),
+            "proven": self.proven,
+            "penalty": self.penalty,
+            "bound": self.bound,
+            "gap": self.gap,
+            "penalty_breakdown": dict(self.penalty_breakdown),
+            "slot_labels": [s.label for s in self.slot_list],
+            "rooms": {c: [{"room": r, "seats": n} for r, n in v] for c, v in sorted(self.rooms.items())},
+            "moves": list(self.moves),
+            "wall_seconds": round(self.wall_seconds, 3),
+        }
+        if self.validation is not None:
+            doc["validation"] = self.validation.to_json()
+        return doc
+
+
+class _Watcher(cp_model.CpSolverSolutionCallback):
+    """Passes the best penalty and bound to the progress callback as solutions arrive."""
+
+    def __init__(self, progress: Progress | None, info: dict, start: float):
+        super().__init__()
+        self.progress = progress
+        self.info = info
+        self.start = start
+        self.first: float | None = None
+        self.solutions = 0
+
+    def on_solution_callback(self) -> None:
+        self.solutions += 1
+        if self.first is None:
+            self.first = time.perf_counter() - self.start
+        if self.progress:
+            penalty = self.ObjectiveValue()
+            bound = self.BestObjectiveBound()
+            gap = 0.0 if penalty == 0 else max(0.0, (penalty - bound) / abs(penalty))
+            self.progress({**self.info, "event": "solution", "penalty": int(round(penalty)), "bound": bound,
+                           "gap": gap, "seconds": time.perf_counter() - self.start})
+
+
+def _parameters(solver: cp_model.CpSolver, options: SolveOptions, seconds: float, *, workers: int | None = None) -> None:
+    p = solver.parameters
+    p.num_workers = max(1, workers if workers is not None else options.workers)
+    p.random_seed = options.seed
+    p.log_search_progress = options.log
+    if options.deterministic:
+        p.interleave_search = True
+        p.max_deterministic_time = max(0.05, seconds)
+        p.max_time_in_seconds = max(0.05, seconds) * 20
+    else:
+        p.max_time_in_seconds = max(0.05, seconds)
+
+
+def _blocks(problem: Problem, graph: nx.Graph, slots: list[Slot], options: SolveOptions) -> list[list[str]]:
+    """Groups of events that can be solved apart (the whole problem when anything links them)."""
+    codes = sorted(graph.nodes)
+    coupled = bool(problem.rooms) or any(s.seat_capacity is not None for s in slots) \
+        or any(r.kind.value == "alone" for r in problem.rules)
+    if not options.split_components or coupled:
+        return [codes]
+    joined = nx.Graph(graph)
+    for rule in problem.rules:
+        evs = [c for c in rule.events if c in joined]
+        for a, b in zip(evs, evs[1:]):
+            joined.add_edge(a, b)
+    comps = [sorted(c) for c in nx.connected_components(joined)]
+    singles = [c[0] for c in comps if len(c) == 1]
+    big = sorted((c for c in comps if len(c) > 1), key=lambda c: (-len(c), c[0]))
+    return big + ([sorted(singles)] if singles else [])
+
+
+def solve(
+    problem: Problem,
+    slots: list[Slot],
+    options: SolveOptions | None = None,
+    *,
+    previous: dict[str, int] | None = None,
+    progress: Progress | None = None,
+    graph: nx.Graph | None = None,
+) -> SolveRun:
+    """A good timetable of ``problem`` in ``slots``, or the reason none exists.
+
+    Parameters
+    ----------
+    problem
+        The instance (events, enrolments, rules, rooms, weights).
+    slots
+        The slots to use (``problem.slots`` or :func:`~timetabler.model.generic_slots`).
+    options
+        Solver settings (:class:`SolveOptions`).
+    previous
+        Repair mode: an earlier timetable (event -> slot number); moving an event costs
+        ``problem.weights.moved`` and every move is listed in ``SolveRun.moves``.
+    progress
+        Called with a dict (``event``: "phase" | "solution", ``penalty``, ``bound``, ``gap``,
+        ``seconds``, ``slots``) as the search advances.
+
+    Examples
+    --------
+    >>> from timetabler.model import Problem, generic_slots
+    >>> p = Problem([("ann", "A"), ("ann", "B"), ("bo", "B"), ("bo", "C")])
+    >>> run = solve(p, generic_slots(2), SolveOptions(time_limit=5, workers=1))
+    >>> run.status, run.assignment["A"] != run.assignment["B"], run.assignment["B"] != run.assignment["C"]
+    ('optimal', True, True)
+    """
+    options = options or SolveOptions()
+    start = time.perf_counter()
+    k = len(slots)
+    graph = conflict_graph(problem) if graph is None else graph
+    sizes = {c: int(graph.nodes[c].get("size", 0)) for c in graph}
+    for c in problem.events:
+        sizes.setdefault(c, 0)
+        if c not in graph:
+            graph.add_node(c, size=0)
+    codes = sorted(graph.nodes)
+    info = {"slots": k}
+
+    def say(phase: str) -> None:
+        if progress:
+            progress({**info, "event": "phase", "phase": phase, "seconds": time.perf_counter() - start})
+
+    run = SolveRun(slots=k, slot_list=list(slots), status="unknown")
+    if k == 0:
+        if codes:
+            run.status, run.proven = "infeasible", True
+            run.reason = "there are events but no slots"
+            run.reasons = [run.reason]
+        else:
+            run.status, run.proven, run.penalty, run.bound = "optimal", True, 0, 0.0
+        run.wall_seconds = time.perf_counter() - start
+        return run
+
+    say("checking")
+    domains = physical_domains(problem, slots, codes, sizes, room_splitting=options.room_splitting)
+    cover = clique_cover(graph)
+    clique = largest_clique_found(graph, cover)
+    witnesses = prechecks(problem, slots, graph, clique, domains.allowed, domains.why_not)
+    if witnesses:
+        run.status, run.proven = "infeasible", True
+        run.reasons = [w.text for w in witnesses]
+        run.reason = run.reasons[0]
+        run.wall_seconds = time.perf_counter() - start
+        return run
+
+    large = large_event_codes(sizes)
+    previous = {c: s for c, s in (previous or {}).items() if c in problem.events}
+    blocks = _blocks(problem, graph, slots, options)
+    total_events = max(1, len(codes))
+    results: list[SolveRun] = []
+    for i, block in enumerate(blocks):
+        spent = time.perf_counter() - start
+        left = max(0.2, options.time_limit - spent)
+        share = left if i == len(blocks) - 1 else max(0.2, left * len(block) / max(1, sum(map(len, blocks[i:]))))
+        block_cover = cover if len(blocks) == 1 else [c for c in cover if c[0] in set(block)]
+        results.append(_solve_block(problem, slots, graph, block, sizes, domains, block_cover, clique, large,
+                                    previous, options, share, progress, info, start))
+        if results[-1].status in ("infeasible", "unknown"):
+            break
+    _combine(run, results, len(blocks))
+    if run.status in ("optimal", "feasible"):
+        run.moves = [{"event": c, "from": previous[c], "to": s} for c, s in sorted(run.assignment.items())
+                     if c in previous and previous[c] != s]
+    run.wall_seconds = time.perf_counter() - start
+    say("done")
+    return run
+
+
+def _combine(run: SolveRun, results: list[SolveRun], n_blocks: int) -> None:
+    if any(r.status == "infeasible" for r in results):
+        bad = next(r for r in results if r.status == "infeasible")
+        run.status, run.proven, run.reason, run.reasons = "infeasible", True, bad.reason, bad.reasons
+        return
+    if len(results) < n_blocks or any(r.status == "unknown" for r in results):
+        bad = next((r for r in results if r.status == "unknown"), None)
+        run.status = "unknown"
+        run.reason = bad.reason if bad else "the time ran out before every group of events was placed"
+        run.reasons = [run.reason]
+        return
+    run.status = "optimal" if all(r.status == "optimal" for r in results) else "feasible"
+    run.proven = run.status == "optimal"
+    firsts = [r.first_feasible_seconds for r in results if r.first_feasible_seconds is not None]
+    run.first_feasible_seconds = max(firsts) if firsts else None
+    for r in results:
+        run.assignment.update(r.assignment)
+        run.rooms.update(r.rooms)
+        for name, v in r.penalty_breakdown.items():
+            run.penalty_breakdown[name] = run.penalty_breakdown.get(name, 0) + v
+    run.penalty = sum(r.penalty or 0 for r in results)
+    run.bound = float(sum(r.bound if r.bound is not None else 0.0 for r in results))
+
+
+def _objective_order_free(problem: Problem, slots: list[Slot], previous: dict) -> bool:
+    w = problem.weights
+    order_terms = (w.back_to_back, w.overnight, w.same_day, w.proximity, w.large_late)
+    if any(order_terms) and len(slots) > 1:
+        return False
+    if previous and w.moved:
+        return False
+    if w.penalised_slot and any(s.penalised for s in slots):
+        return False
+    if w.preferred_slot and any(e.preferred_slots for e in problem.events.values()):
+        return False
+    return True
+
+
+def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, large, previous, options,
+                 seconds, progress, info, start) -> SolveRun:
+    k = len(slots)
+    t0 = time.perf_counter()
+    deadline = t0 + seconds
+    run = SolveRun(slots=k, slot_list=list(slots), status="unknown")
+    block_set = set(block)
+    sub = graph.subgraph(block)
+    allowed = {c: domains.allowed[c] for c in block}
+    hint = dsatur(sub, allowed, limit=k)
+    symmetric = slots_interchangeable(problem, slots, block)
+    order_free = _objective_order_free(problem, slots, previous)
+    sym_clique = [c for c in clique if c in block_set] if symmetric else []
+    if symmetric and not sym_clique and block:
+        sym_clique = [max(block, key=lambda c: (sub.degree(c), c))]
+
+    def say(phase: str) -> None:
+        if progress:
+            progress({**info, "event": "phase", "phase": phase, "seconds": time.perf_counter() - start})
+
+    plain = not problem.rules and problem.max_per_day is None and not problem.rooms \
+        and all(s.seat_capacity is None for s in slots)
+    dsatur_complete = len(hint) == len(block)
+    feasible_hint: dict[str, int] | None = hint if (dsatur_complete and plain) else None
+    nogoods: list[tuple[int, list[str]]] = []
+    if feasible_hint is not None:
+        run.first_feasible_seconds = time.perf_counter() - start
+
+    # step 3: a feasibility search with slot symmetry broken
+    if symmetric and feasible_hint is None:
+        say("searching for a clash-free timetable")
+        phase_seconds = (deadline - time.perf_counter()) * (1.0 if order_free else 0.5)
+        tm = build_model(problem, slots, graph, block, sizes=sizes, domains=domains, objective=False,
+                         symmetry=sym_clique, large=large, room_splitting=options.room_splitting,
+                         room_sharing=options.room_sharing, cover=cover)
+        _add_hint(tm, hint)
+        status, solver, watcher = _run(tm, options, phase_seconds, progress, {**info, "phase": "clash-free"}, start)
+        if status == cp_model.INFEASIBLE:
+            return _explain(problem, slots, graph, block, sizes, domains, options, deadline, run, cover)
+        if status in (cp_model.OPTIMAL, cp_model.FEASIBLE):
+            feasible_hint = tm.assignment(solver)
+            if run.first_feasible_seconds is None:
+                run.first_feasible_seconds = time.perf_counter() - start
+        elif order_free:
+            run.reason = (f"no timetable with {k} slots was found within the time limit, and none was ruled out; "
+                          "try more time or more slots")
+            run.reasons = [run.reason]
+            run.wall_seconds = time.perf_counter() - t0
+            return run
+
+    # step 4: the full model (with the goals), hinted; step 5: rooms, with cuts
+    for round_ in range(6):
+        remaining = deadline - time.perf_counter()
+        if order_free and feasible_hint is not None and not problem.rooms:
+            # nothing to optimise: the clash-free timetable is optimal (penalty 0 is the least possible)
+            run.assignment = dict(feasible_hint)
+            run.status, run.proven, run.penalty, run.bound = "optimal", True, 0, 0.0
+            break
+        say("improving the timetable" if feasible_hint else "searching for a timetable")
+        tm = build_model(problem, slots, graph, block, sizes=sizes, domains=domains, objective=True,
+                         symmetry=sym_clique if (symmetric and order_free) else None, previous=previous,
+                         large=large, room_splitting=options.room_splitting, room_sharing=options.room_sharing,
+                         nogoods=nogoods, cover=cover)
+        _add_hint(tm, feasible_hint or _repair_hint(previous, hint, block))
+        status, solver, watcher = _run(tm, options, max(0.2, remaining), progress, {**info, "phase": "goals"}, start)
+        if status == cp_model.INFEASIBLE:
+            if nogoods:
+                run.status, run.proven = "infeasible", True
+                run.reason = ("the events cannot be seated in the rooms of every slot: after "
+                              f"{len(nogoods)} room check(s) no timetable is left")
+                run.reasons = [run.reason]
+                return run
+            return _explain(problem, slots, graph, block, sizes, domains, options, deadline, run, cover)
+        if status not in (cp_model.OPTIMAL, cp_model.FEASIBLE):
+            run.status = "unknown"
+            run.reason = (f"no timetable with {k} slots was found within the time limit, and none was ruled out; "
+                          "try more time or more slots")
+            run.reasons = [run.reason]
+            return run
+        if run.first_feasible_seconds is None and watcher.first is not None:
+            run.first_feasible_seconds = (t0 - start) + watcher.first
+        assignment = tm.assignment(solver)
+        run.assignment = assignment
+        run.penalty_breakdown = tm.breakdown(solver)
+        run.penalty = int(round(solver.ObjectiveValue())) if tm.terms else 0
+        run.bound = float(solver.BestObjectiveBound()) if tm.terms else 0.0
+        run.status = "optimal" if status == cp_model.OPTIMAL else "feasible"
+        run.proven = status == cp_model.OPTIMAL
+        if not problem.rooms:
+            break
+        say("seating events in rooms")
+        seating = seat_events(problem, slots, assignment, sizes, sharing=options.room_sharing,
+                              splitting=options.room_splitting, seed=options.seed,
+                              seconds_per_slot=min(5.0, max(0.5, (deadline - time.perf_counter()) / 10)))
+        if not seating.failed_slots:
+            run.rooms = seating.rooms
+            splits = sum(len(v) - 1 for v in seating.rooms.values())
+            if splits and problem.weights.room_split:
+                run.penalty_breakdown["room_split"] = splits * problem.weights.room_split
+                run.penalty = (run.penalty or 0) + splits * problem.weights.room_split
+                run.bound = None  # the bound covers the slot model only
+                run.status, run.proven = "feasible", False
+            break
+        nogoods.extend(seating.failed_slots.items())
+        feasible_hint = None
+        if time.perf_counter() >= deadline or round_ == 5:
+            run.status = "unknown"
+            run.assignment = {}
+            run.reason = ("a clash-free timetable was found but its events could not be seated in the rooms of "
+                          f"slot(s) {', '.join(map(str, sorted(seating.failed_slots)))} within the time limit")
+            run.reasons = [run.reason]
+            return run
+    run.wall_seconds = time.perf_counter() - t0
+    return run
+
+
+def _repair_hint(previous: dict, hint: dict, block) -> dict:
+    if not previous:
+        return hint
+    return {c: previous.get(c, hint.get(c)) for c in block if previous.get(c, hint.get(c)) is not None}
+
+
+def _add_hint(tm: TimetableModel, hint: dict[str, int] | None) -> None:
+    if not hint:
+        return
+    for c, s in hint.items():
+        if c in tm.x and 1 <= s <= tm.k:
+            for i, v in enumerate(tm.x[c], start=1):
+                tm.model.AddHint(v, i == s)
+
+
+def _run(tm: TimetableModel, options: SolveOptions, seconds: float, progress, info, start):
+    solver = cp_model.CpSolver()
+    _parameters(solver, options, seconds)
+    watcher = _Watcher(progress, info, time.perf_counter())
+    if progress and hasattr(solver, "best_bound_callback"):
+        def bound_seen(bound: float) -> None:
+            progress({**info, "event": "bound", "bound": bound, "seconds": time.perf_counter() - start})
+        solver.best_bound_callback = bound_seen
+    status = solver.Solve(tm.model, watcher)
+    return status, solver, watcher
+
+
+def _explain(problem, slots, graph, block, sizes, domains, options, deadline, run: SolveRun, cover) -> SolveRun:
+    """Infeasible: name a small set of rules that cannot all hold together."""
+    k = len(slots)
+    run.status, run.proven = "infeasible", True
+    run.assignment = {}
+    generic = f"no clash-free timetable with {k} slots exists"
+    if not options.explain:
+        run.reason = generic
+        run.reasons = [generic]
+        return run
+    seconds = max(1.0, min(30.0, deadline - time.perf_counter()))
+    tm = build_model(problem, slots, graph, block, sizes=sizes, domains=domains, objective=False, explain=True,
+                     room_splitting=options.room_splitting, room_sharing=options.room_sharing, cover=cover)
+    solver = cp_model.CpSolver()
+    _parameters(solver, options, seconds, workers=1)
+    status = solver.Solve(tm.model)
+    if status != cp_model.INFEASIBLE:
+        run.reason = generic + " (the rules behind it could not be singled out in time)"
+        run.reasons = [run.reason]
+        return run
+    core_idx = set(solver.SufficientAssumptionsForInfeasibility())
+    core = [r for r in tm.rules if r.literal.Index() in core_idx]
+    if not core:
+        run.reason = (f"the clashes alone need more than {k} slots: no way to give every event a slot "
+                      "without booking someone twice")
+        run.reasons = [run.reason]
+        return run
+    core = _shrink(tm, core, options, deadline)
+    run.reasons = [r.text for r in core]
+    run.reason = ("these rules cannot all hold together with the clashes in " f"{k} slots: " + "; ".join(run.reasons))
+    return run
+
+
+def _shrink(tm: TimetableModel, core, options: SolveOptions, deadline: float):
+    """Deletion filter: drop each rule in turn while the rest stays infeasible (within the time left)."""
+    if len(core) > 15:
+        return core
+    kept = list(core)
+    for rule in list(core):
+        if time.perf_counter() > deadline:
+            break
+        trial = [r for r in kept if r is not rule]
+        tm.model.ClearAssumptions()
+        tm.model.AddAssumptions([r.literal for r in trial])
+        solver = cp_model.CpSolver()
+        _parameters(solver, options, max(0.5, min(5.0, deadline - time.perf_counter())), workers=1)
+        if solver.Solve(tm.model) == cp_model.INFEASIBLE:
+            kept = trial
+    return kept
+
+
+@dataclass
+class FewestSlots:
+    """The fewest slots: a proven lower bound with its reason, the best timetable found, and whether they meet."""
+
+    lower: int
+    lower_reason: str
+    witness: list[str]
+    upper: int | None
+    upper_reason: str
+    proven: bool
+    run: SolveRun | None = None
+    attempts: list[dict] = field(default_factory=list)
+    dsatur_slots: int | None = None
+    wall_seconds: float = 0.0
+
+    def to_json(self) -> dict:
+        return {"lower": self.lower, "lower_reason": self.lower_reason, "witness": self.witness,
+                "upper": self.upper, "upper_reason": self.upper_reason, "proven": self.proven,
+                "dsatur_slots": self.dsatur_slots, "attempts": self.attempts,
+                "wall_seconds": round(self.wall_seconds, 3),
+                "timetable": self.run.to_json() if self.run else None}
+
+
+def fewest_slots(
+    problem: Problem,
+    *,
+    per_day: int | None = 2,
+    options: SolveOptions | None = None,
+    progress: Progress | None = None,
+    graph: nx.Graph | None = None,
+) -> FewestSlots:
+    """The fewest slots that hold a clash-free timetable meeting every hard rule.
+
+    Lower bounds: the largest clique found (events that pairwise share attendees), the
+    busiest attendee, and the seats (every attendee seat must fit into the slots' seats or
+    rooms). Upper bound: DSATUR. CP-SAT then tries slot counts between them (first the lower
+    bound, then bisection) within ``options.time_limit`` in all. Uses ``problem.slots``
+    (its first K slots) when the problem has a slots sheet, else generic slots grouped
+    ``per_day`` to a day.
+    """
+    options = options or SolveOptions()
+    start = time.perf_counter()
+    graph = conflict_graph(problem) if graph is None else graph
+    for c in problem.events:
+        if c not in graph:
+            graph.add_node(c, size=0)
+    sizes = {c: int(graph.nodes[c].get("size", 0)) for c in graph}
+    n = graph.number_of_nodes()
+
+    def slots_for(k: int) -> list[Slot]:
+        return list(problem.slots[:k]) if problem.slots else generic_slots(k, per_day)
+
+    cover = clique_cover(graph)
+    clique = largest_clique_found(graph, cover)
+    lower, reason, witness = (1 if n else 0), "there is at least one event" if n else "there are no events", []
+    if len(clique) > lower:
+        lower, reason, witness = len(clique), f"{len(clique)} events pairwise share attendees", [str(c) for c in clique]
+    load: dict[str, int] = {}
+    for a, _ in problem.enrolments:
+        load[a] = load.get(a, 0) + 1
+    if load:
+        who = min(load, key=lambda a: (-load[a], a))
+        if load[who] > lower:
+            lower, reason, witness = load[who], f"{who} has {load[who]} events", [who]
+    seats_needed = sum(sizes.values())
+    per_slot = _seats_per_slot(problem)
+    if per_slot and seats_needed:
+        need = math.ceil(seats_needed / per_slot)
+        if need > lower:
+            lower, reason, witness = need, (f"{seats_needed} seats are needed and a slot seats at most {per_slot}"), []
+    colouring = dsatur(graph)
+    dsat = max(colouring.values(), default=0)
+    plain = not problem.rules and problem.max_per_day is None and not problem.rooms \
+        and not problem.slots and not any(e.fixed_slot or e.barred_slots for e in problem.events.values())
+    result = FewestSlots(lower=lower, lower_reason=reason, witness=witness, upper=None, upper_reason="",
+                         proven=False, dsatur_slots=dsat)
+    best_run: SolveRun | None = None
+    hi = None
+    if plain:
+        hi = max(dsat, lower)
+        best_run = SolveRun(slots=hi, slot_list=slots_for(hi), status="feasible", assignment=dict(colouring))
+        result.upper_reason = "DSATUR"
+    max_k = len(problem.slots) if problem.slots else max(n, 1)
+    proven_lo = lower
+    lo = lower
+    quick = SolveOptions(**{**options.__dict__, "explain": False})
+    # without a timetable yet (rules), look upwards from the lower bound
+    while hi is None and lo <= max_k:
+        left = options.time_limit - (time.perf_counter() - start)
+        if left <= 0.2:
+            break
+        quick.time_limit = left / 2 if lo < max_k else left
+        run = solve(_without_goals(problem), slots_for(lo), quick, graph=graph)
+        result.attempts.append({"slots": lo, "status": run.status, "seconds": round(run.wall_seconds, 3)})
+        if run.status in ("optimal", "feasible"):
+            hi, best_run, result.upper_reason = lo, run, "CP-SAT"
+        elif run.status == "infeasible":
+            proven_lo = max(proven_lo, lo + 1)
+            lo += 1
+        else:
+            lo += 1
+    # with a timetable in hand: the lower bound first, then bisection
+    first_try = True
+    while hi is not None and lo < hi:
+        left = options.time_limit - (time.perf_counter() - start)
+        if left <= 0.2:
+            break
+        mid = lo if first_try else (lo + hi) // 2
+        first_try = False
+        quick.time_limit = left / 2 if hi - lo > 1 else left
+        if progress:
+            progress({"event": "phase", "phase": f"trying {mid} slots", "slots": mid,
+                      "seconds": time.perf_counter() - start})
+        run = solve(_without_goals(problem), slots_for(mid), quick, graph=graph)
+        result.attempts.append({"slots": mid, "status": run.status, "seconds": round(run.wall_seconds, 3)})
+        if run.status in ("optimal", "feasible"):
+            used = max(run.assignment.values(), default=0) if not problem.slots else mid
+            hi, best_run, result.upper_reason = max(used, lo), run, "CP-SAT"
+            if used < mid:
+                best_run = SolveRun(slots=hi, slot_list=slots_for(hi), status="feasible", assignment=run.assignment)
+        elif run.status == "infeasible":
+            # fewer slots only make it harder: infeasible at mid proves the fewest is above mid
+            lo = mid + 1
+            proven_lo = max(proven_lo, mid + 1)
+        else:
+            lo = mid + 1
+    result.upper = hi
+    if proven_lo > result.lower:
+        result.lower = proven_lo
+        result.lower_reason = f"CP-SAT proved that {proven_lo - 1} slots cannot hold a timetable"
+        result.witness = []
+    result.proven = hi is not None and result.lower == hi
+    result.run = best_run
+    result.wall_seconds = time.perf_counter() - start
+    return result
+
+
+def _seats_per_slot(problem: Problem) -> int | None:
+    caps = [s.seat_capacity for s in problem.slots if s.seat_capacity is not None]
+    room_total = sum(r.capacity for r in problem.rooms) if problem.rooms else None
+    best = max(caps) if caps and len(caps) == len(problem.slots) else None
+    if room_total is not None:
+        best = room_total if best is None else min(best, room_total)
+    return best
+
+
+def _without_goals(problem: Problem) -> Problem:
+    """The same problem with every soft-goal weight at zero (fewest slots is about hard rules)."""
+    from dataclasses import replace
+
+    from ..model import Weights
+    return replace(problem, weights=Weights(**{k: 0 for k in Weights().__dict__}))
