@@ -22,26 +22,89 @@ err_console = Console(stderr=True, highlight=False)
 
 
 def input_options(func: Callable) -> Callable:
-    """The options every command that reads an enrolment file accepts."""
+    """The options every command that reads an enrolment file accepts.
+
+    ``--sheet``, ``--attendee-column`` and ``--event-column`` reach the command as keyword
+    arguments (pass them on to :func:`read_input`); ``--layout`` and
+    ``--case-sensitive-codes`` are kept on the click context and picked up by
+    :func:`read_input` itself, so commands need not name them.
+    """
     func = click.option(
-        "--sheet", metavar="NAME", help="Read enrolments from this sheet (default: found by its headers)."
+        "--case-sensitive-codes",
+        is_flag=True,
+        expose_value=False,
+        callback=_remember,
+        help="Treat event codes and attendee ids that differ only in upper/lower case as different "
+        "(default: 'ma101' and 'MA101' are the same event).",
+    )(func)
+    func = click.option(
+        "--layout",
+        type=click.Choice(["auto", "long", "wide", "clashes"], case_sensitive=False),
+        default="auto",
+        show_default=True,
+        expose_value=False,
+        callback=_remember,
+        help="How the enrolments are laid out: 'long' (one row per enrolment), 'wide' (one row per "
+        "attendee, events in several columns or listed in one cell), 'clashes' (a clash list: pairs of events "
+        "and how many attendees they share).",
+    )(func)
+    func = click.option(
+        "--event-column",
+        metavar="HEADER",
+        multiple=True,
+        help="Header of the column naming events (default: found by name). Give it more than once "
+        "for a wide layout with events in several columns.",
     )(func)
     func = click.option(
         "--attendee-column", metavar="HEADER", help="Header of the column naming attendees (default: found by name)."
     )(func)
     func = click.option(
-        "--event-column", metavar="HEADER", help="Header of the column naming events (default: found by name)."
+        "--sheet", metavar="NAME", help="Read enrolments from this sheet (default: the first sheet whose headers fit)."
     )(func)
     return func
 
 
-def read_input(path: str, sheet: str | None, attendee_column: str | None, event_column: str | None, **extra: Any) -> Reading:
-    """Read the input file with the common options (intake raises InputError on bad input)."""
-    options = ReadOptions(sheet=sheet, attendee_column=attendee_column, event_column=event_column)
-    for key, value in extra.items():
+def _remember(ctx: click.Context, param: click.Parameter, value: Any) -> Any:
+    ctx.meta.setdefault(_META_KEY, {})[param.name] = value
+    return value
+
+
+_META_KEY = "timetabler.read_options"
+
+
+def read_input(path: str, sheet: str | None, attendee_column: str | None, event_column: Any = None, **extra: Any) -> Reading:
+    """Read the input file with the common options (intake raises InputError on bad input).
+
+    ``event_column`` may be one header or several (``--event-column`` given more than
+    once). Options kept on the click context (``--layout``, ``--case-sensitive-codes``)
+    apply, and ``extra`` keyword arguments naming :class:`ReadOptions` fields override them.
+    """
+    if isinstance(event_column, (list, tuple)):
+        columns = tuple(c for c in event_column if c)
+    else:
+        columns = (event_column,) if event_column else ()
+    options = ReadOptions(
+        sheet=sheet,
+        attendee_column=attendee_column,
+        event_column=columns[0] if len(columns) == 1 else None,
+        event_columns=columns if len(columns) > 1 else (),
+    )
+    ctx = click.get_current_context(silent=True)
+    remembered = dict(ctx.find_root().meta.get(_META_KEY, {})) if ctx is not None else {}
+    for key, value in {**remembered, **extra}.items():
+        if key == "layout" and isinstance(value, str):
+            value = value.lower()
         if hasattr(options, key):
             setattr(options, key, value)
+    if options.progress is None and ctx is not None and err_console.is_terminal:
+        options.progress = _reading_progress
     return read_problem(path, options)
+
+
+def _reading_progress(stage: str, done: int, total: int | None) -> None:
+    if done and done % 50_000 == 0:
+        of = f" of {total:,}" if total else ""
+        err_console.print(f"[dim]{stage}: {done:,}{of} rows[/dim]")
 
 
 def print_json(document: Any) -> None:

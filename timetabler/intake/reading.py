@@ -49,7 +49,7 @@ class ReadOptions:
 
     ``event_column`` names one event column; ``event_columns`` names several (wide layout:
     ``Exam 1``, ``Exam 2``, ...). ``layout`` is ``auto``, ``long``, ``wide`` or
-    ``clash list``. ``progress(stage, done, total)`` is called on long reads.
+    ``clash list`` (also written ``clashes``). ``progress(stage, done, total)`` is called on long reads.
     """
 
     sheet: str | None = None
@@ -141,6 +141,8 @@ def read_problem(path: str | Path, options: ReadOptions | None = None) -> Readin
     ('semicolon', [('HV-S0001', 'PH102'), ('HV-S0001', 'ma101'), ('HV-S0002', 'ma101')])
     """
     options = options or ReadOptions()
+    if key(options.layout) in ("clashes", "clash list", "clash"):
+        options.layout = CLASH_LIST
     if options.layout not in LAYOUT_CHOICES:
         raise InputError(Finding("Unknown layout.", found=options.layout, expected=", ".join(LAYOUT_CHOICES)))
     path = Path(path)
