@@ -303,7 +303,7 @@ def seats_table(problem: Problem, run: Any) -> PublishedTable:
         title="Seats by slot",
     )
     for place in slot_places(slots):
-        limits = [x for x in (place.slot.seat_capacity, _room_seats_in(problem, place.slot)) if x is not None]
+        limits = [x for x in (place.slot.seat_capacity, _room_seats_in(problem, slots, place.number)) if x is not None]
         limit = min(limits) if limits else None
         need = seats[place.number - 1]
         table.rows.append([
@@ -313,11 +313,15 @@ def seats_table(problem: Problem, run: Any) -> PublishedTable:
     return table
 
 
-def _room_seats_in(problem: Problem, slot: Slot) -> int | None:
+def _room_available(problem: Problem, room: Any, slots: Sequence[Slot], number: int) -> bool:
+    return not any(problem.slot_number(ref, slots) == number for ref in room.unavailable_slots)
+
+
+def _room_seats_in(problem: Problem, slots: Sequence[Slot], number: int) -> int | None:
+    """Seats of the rooms available in slot ``number`` (None when the problem has no rooms)."""
     if not problem.rooms:
         return None
-    key = slot.label.strip().casefold()
-    return sum(r.capacity for r in problem.rooms if key not in {u.strip().casefold() for u in r.unavailable_slots})
+    return sum(r.capacity for r in problem.rooms if _room_available(problem, r, slots, number))
 
 
 def rooms_table(problem: Problem, run: Any) -> PublishedTable | None:
@@ -341,11 +345,10 @@ def rooms_table(problem: Problem, run: Any) -> PublishedTable | None:
         title="Room occupancy by slot",
     )
     for place in slot_places(slots):
-        key = place.slot.label.strip().casefold()
         for room in problem.rooms:
             here = used.get((place.number, room.name), [])
             taken = sum(s for _, s in here)
-            available = key not in {u.strip().casefold() for u in room.unavailable_slots}
+            available = _room_available(problem, room, slots, place.number)
             table.rows.append([
                 place.number, place.slot.label, place.slot.date, place.slot.start, room.name, room.room_type or "",
                 room.capacity, ", ".join(c for c, _ in here), taken, room.capacity - taken, available,

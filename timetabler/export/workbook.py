@@ -341,15 +341,15 @@ def _overview(book: _Book, problem: Problem, runs, counts, reading, settings, va
     if chi is not None:
         rows.append(("Fewest slots (from the counts)", chi))
     if fewest is not None:
-        lower, upper = getattr(fewest, "lower", None), getattr(fewest, "upper", None)
-        rows.append(("Fewest slots: lower bound", lower))
-        rows.append(("Fewest slots: upper bound", upper))
+        rows.append(("Fewest slots: at least", getattr(fewest, "lower", None)))
+        if getattr(fewest, "lower_reason", None):
+            rows.append(("Why no fewer", fewest.lower_reason))
+        rows.append(("Fewest slots: a timetable found with", getattr(fewest, "upper", None)))
+        if getattr(fewest, "upper_reason", None):
+            rows.append(("How it was found", fewest.upper_reason))
         rows.append(("Fewest slots proven", bool(getattr(fewest, "proven", False))))
-        reason = getattr(fewest, "reason", None)
-        if reason:
-            rows.append(("Why no fewer", reason))
     for label, value in rows:
-        ws.append([label, c(ws, value)])
+        ws.append([label, c(ws, value, FLAG if isinstance(value, bool) else None, wrap=isinstance(value, str) and len(value) > 40)])
     ws.append([])
     ws.append([c(ws, "Rules", font=BOLD)])
     if problem.rules:

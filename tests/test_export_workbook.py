@@ -1,0 +1,246 @@
+"""The published workbook, read back sheet by sheet with openpyxl and checked against the
+solver's result, the independent validator and reference counts."""
+
+from __future__ import annotations
+
+import datetime as dt
+import zipfile
+from collections import defaultdict
+
+import pytest
+from openpyxl import load_workbook
+
+from export_cases import RefCount, RefReport, count_report, dated_slots, small_problem, solve_run
+from timetabler.conflicts import conflict_graph
+from timetabler.export.workbook import write_workbook
+from timetabler.scheduling.validator import validate
+
+
+def rows_of(ws):
+    """Header and data rows of a sheet holding one table at A1, as dicts."""
+    values = list(ws.iter_rows(values_only=True))
+    header = list(values[0])
+    return header, [dict(zip(header, row)) for row in values[1:] if any(v is not None for v in row)]
+
+
+@pytest.fixture(scope="module")
+def published(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("book")
+    source = folder / "resits.xlsx"
+    source.write_bytes(b"stand-in input")  # only its name and identity matter to the exporter
+    problem = small_problem(str(source))
+    runs = [solve_run(problem, dated_slots(k)) for k in (4, 5)]
+    counts = count_report(problem, [3, 4, 5])
+    path = write_workbook(folder / "published.xlsx", problem=problem, runs=runs, counts=counts,
+                          settings={"time limit (s)": 10})
+    return problem, runs, counts, path, load_workbook(path)
+
+
+def test_sheets_are_all_there_in_order(published):
+    _, _, _, _, wb = published
+    per_run = ["Grid", "Events", "Personal timetables", "Seats", "Rooms", "Attendee load"]
+    expected = ["Overview", "Comparison", "Counts"] + [f"{s} ({k} slots)" for k in (4, 5) for s in per_run]
+    assert wb.sheetnames == expected
+
+
+def test_events_sheet_matches_the_assignment_with_real_dates(published):
+    problem, runs, _, _, wb = published
+    sizes = problem.event_sizes()
+    for run in runs:
+        ws = wb[f"Events ({run.slots} slots)"]
+        header, rows = rows_of(ws)
+        assert sorted(r["Event"] for r in rows) == sorted(problem.events)
+        for r in rows:
+            slot = run.slot_list[run.assignment[r["Event"]] - 1]
+            assert r["Slot"] == run.assignment[r["Event"]]
+            assert r["Slot label"] == slot.label
+            assert r["Date"].date() == slot.date  # a real date cell, not text
+            assert r["Start"] == slot.start and r["End"] == slot.end
+            assert r["Size"] == sizes[r["Event"]]
+            assert r["Rooms"] == ", ".join(name for name, _ in run.rooms[r["Event"]])
+            assert r["Seats"] == sum(n for _, n in run.rooms[r["Event"]])
+        date_cell = ws.cell(row=2, column=header.index("Date") + 1)
+        assert date_cell.is_date and date_cell.number_format == "yyyy-mm-dd"
+
+
+def test_personal_timetables_hold_every_enrolment_once_sorted(published):
+    problem, runs, _, _, wb = published
+    for run in runs:
+        _, rows = rows_of(wb[f"Personal timetables ({run.slots} slots)"])
+        got = [(r["Attendee"], r["Event"], r["Slot"]) for r in rows]
+        assert sorted(got) == sorted((a, e, run.assignment[e]) for a, e in problem.enrolments)
+        assert [r["Attendee"] for r in rows] == sorted(r["Attendee"] for r in rows)
+        for r in rows:
+            assert r["Date"].date() == run.slot_list[r["Slot"] - 1].date
+
+
+def test_attendee_load_agrees_with_the_independent_validator(published):
+    problem, runs, _, _, wb = published
+    for run in runs:
+        verdict = validate(problem, run.slot_list, run.assignment, run.rooms or None)
+        assert verdict.ok, verdict.violations
+        _, rows = rows_of(wb[f"Attendee load ({run.slots} slots)"])
+        assert len(rows) == len(problem.attendees)
+        assert sum(r["Back-to-back"] for r in rows) == verdict.soft["back_to_back"]
+        assert sum(r["Same day, not back-to-back"] for r in rows) == verdict.soft["same_day"]
+        assert sum(r["Overnight"] for r in rows) == verdict.soft["overnight"]
+        assert sum(r["Proximity cost"] for r in rows) == verdict.soft["proximity"]
+        assert all(r["Clashes"] == 0 for r in rows)
+        for r in rows:
+            assert r["Most in one day"] == verdict.attendee_load[r["Attendee"]]["most_in_one_day"]
+            assert r["Flagged"] == ("yes" if r["Back-to-back"] or r["Same day, not back-to-back"] else "no")
+
+
+def test_seats_and_rooms_add_up(published):
+    problem, runs, _, _, wb = published
+    sizes = problem.event_sizes()
+    for run in runs:
+        _, seats = rows_of(wb[f"Seats ({run.slots} slots)"])
+        assert [r["Slot"] for r in seats] == list(range(1, run.slots + 1))
+        for r in seats:
+            here = [c for c, s in run.assignment.items() if s == r["Slot"]]
+            assert r["Events"] == len(here)
+            assert r["Seats needed"] == sum(sizes[c] for c in here)
+            assert r["Seat limit"] == sum(room.capacity for room in problem.rooms)
+            assert r["Free seats"] == r["Seat limit"] - r["Seats needed"]
+        _, rooms = rows_of(wb[f"Rooms ({run.slots} slots)"])
+        assert len(rooms) == run.slots * len(problem.rooms)
+        used = defaultdict(int)
+        for code, placed in run.rooms.items():
+            for name, n in placed:
+                used[(run.assignment[code], name)] += n
+        for r in rooms:
+            assert r["Seats used"] == used[(r["Slot"], r["Room"])]
+            assert r["Free seats"] == r["Capacity"] - r["Seats used"]
+
+
+def test_grid_puts_each_event_once_in_its_day_and_session(published):
+    problem, runs, _, _, wb = published
+    for run in runs:
+        ws = wb[f"Grid ({run.slots} slots)"]
+        values = list(ws.iter_rows(values_only=True))
+        assert values[0][:2] == ("Day", "Date")
+        seen = {}
+        for row_index, row in enumerate(values[1:]):
+            for col_index, cell in enumerate(row[2:]):
+                for line in (cell or "").split("\n")[1:]:  # first line: slot label and times
+                    assert line not in seen
+                    seen[line] = (row_index, col_index)
+        assert sorted(seen) == sorted(problem.events)
+        for code, (day_index, session_index) in seen.items():
+            n = run.assignment[code]
+            # dated_slots puts two sessions on each day
+            assert (day_index, session_index) == divmod(n - 1, 2)
+
+
+def _independent_attendee_figures(problem, run):
+    """Attendees with a back-to-back pair and with two events on a day, counted directly."""
+    b2b = two = 0
+    for attendee, codes in problem.events_by_attendee().items():
+        slots = sorted(run.assignment[c] for c in codes)
+        days = [run.slot_list[s - 1].day for s in slots]
+        if any(t - s == 1 and run.slot_list[s - 1].day == run.slot_list[t - 1].day for s, t in zip(slots, slots[1:])):
+            b2b += 1
+        if len(days) != len(set(days)):
+            two += 1
+    return b2b, two
+
+
+def test_comparison_and_overview_report_each_run(published):
+    problem, runs, counts, _, wb = published
+    _, rows = rows_of(wb["Comparison"])
+    assert [r["Slots"] for r in rows] == [4, 5]
+    sizes = problem.event_sizes()
+    for r, run in zip(rows, runs):
+        assert r["Status"] == run.status and r["Penalty"] == run.penalty
+        assert r["Clash-free timetable exists"] == "yes"
+        assert r["Validator"] == "valid"
+        assert r["Days"] == len({s.day for s in run.slot_list})
+        ref = next(c for c in counts.counts if c.slots == run.slots)
+        assert r["Clash-free timetables"] == str(ref.timetables)
+        b2b, two = _independent_attendee_figures(problem, run)
+        assert (r["Attendees with back-to-back"], r["Attendees with two in a day"]) == (b2b, two)
+        peak = max(sum(sizes[c] for c, s in run.assignment.items() if s == n) for n in range(1, run.slots + 1))
+        assert r["Peak seats"] == peak
+    overview = [row for row in wb["Overview"].iter_rows(values_only=True)]
+    labels = {row[0]: row[1] for row in overview if row and row[0] is not None}
+    assert labels["Events"] == len(problem.events)
+    assert labels["Enrolments"] == len(problem.enrolments)
+    assert labels["Clashing pairs of events"] == conflict_graph(problem).number_of_edges()
+    assert labels["time limit (s)"] == 10
+    statuses = [row for row in overview if row and row[0] in (4, 5)]
+    assert [(row[1], row[4]) for row in statuses] == [(run.status, "valid") for run in runs]
+
+
+def test_counts_are_text_and_match_networkx(published):
+    problem, _, counts, _, wb = published
+    ws = wb["Counts"]
+    header, rows = rows_of(ws)
+    from export_cases import reference_counts
+
+    # reference: networkx.chromatic_polynomial evaluated with sympy
+    reference = {c.slots: c.timetables for c in reference_counts(conflict_graph(problem), [3, 4, 5]).counts}
+    assert {r["Slots"]: r["Clash-free timetables"] for r in rows} == {k: str(v) for k, v in reference.items()}
+    column = header.index("Clash-free timetables") + 1
+    assert all(ws.cell(row=i, column=column).data_type == "s" for i in range(2, len(rows) + 2))
+    assert rows[1]["Ratio to previous"] == pytest.approx(reference[4] / reference[3])
+
+
+def test_lists_are_excel_tables_with_filters_and_frozen_headers(published):
+    _, _, _, _, wb = published
+    for name in wb.sheetnames:
+        ws = wb[name]
+        if name == "Overview" or name.startswith("Grid"):
+            continue
+        assert ws.freeze_panes == "A2", name
+        (table,) = ws.tables.values()
+        assert table.ref == f"A1:{ws.cell(row=1, column=ws.max_column).column_letter}{ws.max_row}", name
+        assert table.autoFilter is not None
+        assert [c.name for c in table.tableColumns] == [c.value for c in ws[1]]
+        assert ws.column_dimensions["A"].width >= 8
+    assert wb["Attendee load (4 slots)"].conditional_formatting  # problems are highlighted
+
+
+def test_counts_sheet_carries_a_native_chart_of_log10(published):
+    _, _, _, path, _ = published
+    with zipfile.ZipFile(path) as z:
+        charts = [n for n in z.namelist() if n.startswith("xl/charts/chart")]
+        assert len(charts) == 1
+        xml = z.read(charts[0]).decode("utf-8")
+    assert "scatterChart" in xml
+    assert "'Counts'!$D$2:$D$4" in xml or "Counts!$D$2:$D$4" in xml  # log10 column, three slot counts
+    assert "'Counts'!$A$2:$A$4" in xml or "Counts!$A$2:$A$4" in xml  # slots column
+
+
+def test_a_thirty_digit_count_survives_the_round_trip(tmp_path):
+    problem = small_problem()
+    big = 123456789012345678901234567891  # 30 digits: far past a spreadsheet number's 15
+    counts = RefReport([RefCount(40, big, True, 29.09), RefCount(41, big * 7 + 3, True, 29.94)])
+    path = write_workbook(tmp_path / "big.xlsx", problem=problem, runs=[], counts=counts)
+    _, rows = rows_of(load_workbook(path)["Counts"])
+    assert int(rows[0]["Clash-free timetables"]) == big
+    assert int(rows[1]["Clash-free timetables"]) == big * 7 + 3
+    assert rows[0]["Digits"] == 30
+
+
+def test_codes_that_look_like_formulas_stay_text(tmp_path):
+    problem = small_problem(rooms=False)
+    problem.enrolments.append(("HV-S0013", "=SUM(A1:A2)"))
+    problem.__post_init__()
+    run = solve_run(problem, dated_slots(5))
+    path = write_workbook(tmp_path / "f.xlsx", problem=problem, runs=[run])
+    ws = load_workbook(path)["Events"]
+    cells = [c for c in ws["A"] if c.value == "=SUM(A1:A2)"]
+    assert len(cells) == 1 and cells[0].data_type == "s"
+
+
+def test_infeasible_only_gives_overview_and_comparison_with_the_reason(tmp_path):
+    problem = small_problem()
+    run = solve_run(problem, dated_slots(2))
+    assert run.status == "infeasible"
+    path = write_workbook(tmp_path / "none.xlsx", problem=problem, runs=[run])
+    wb = load_workbook(path)
+    assert wb.sheetnames == ["Overview", "Comparison"]
+    _, rows = rows_of(wb["Comparison"])
+    assert rows[0]["Clash-free timetable exists"] == "no" and rows[0]["Reason"]
+    assert rows[0]["Validator"] is None
