@@ -1,0 +1,260 @@
+"""What the page works out from an upload, through the same public APIs the commands use.
+
+Reading (intake's :func:`~timetabler.intake.read_problem`), the figures of ``inspect``
+(:func:`~timetabler.conflicts.summarise`), the counts (:func:`timetabler.counting.count_timetables`),
+solve plans for :func:`timetabler.scheduling.solve`, the independent validator, and the
+files of :mod:`timetabler.export`. Nothing here is a second implementation of any of them;
+this module only chooses arguments and shapes results for the templates.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import zipfile
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import networkx as nx
+
+from ..conflicts import ConflictSummary, conflict_graph, summarise
+from ..errors import Finding, InputError
+from ..intake import ReadOptions, Reading, read_problem
+from ..model import Problem, Slot, Weights, days_of, generic_slots
+
+#: How many slot counts the first table shows, from the lower bound up.
+DEFAULT_COUNT_SPAN = 6
+
+#: Largest slot count the page accepts (a timetable of more slots than this is not an exam session).
+MAX_SLOTS = 200
+
+
+@dataclass
+class Analysis:
+    """An upload read and summarised: what the overview page shows before any solve."""
+
+    reading: Reading
+    graph: nx.Graph
+    summary: ConflictSummary
+    read_options: dict[str, str | None]
+    counts: dict[tuple[int, ...], Any] = field(default_factory=dict)
+
+    @property
+    def problem(self) -> Problem:
+        return self.reading.problem
+
+    @property
+    def lower_bound(self) -> int:
+        """Fewest slots any timetable needs by the clique found (1 when there are events)."""
+        if not self.summary.events:
+            return 0
+        return max(1, self.summary.max_clique)
+
+
+def analyse(path: Path, options: dict[str, str | None]) -> Analysis:
+    """Read the uploaded file and work out the inspect figures. Raises InputError on bad input."""
+    read = ReadOptions()
+    for key, value in options.items():
+        if value and hasattr(read, key):
+            setattr(read, key, value)
+    reading = read_problem(path, read)
+    graph = conflict_graph(reading.problem)
+    return Analysis(reading=reading, graph=graph, summary=summarise(reading.problem, graph), read_options=dict(options))
+
+
+def finding_rows(findings: list[Finding], private: Path, shown_name: str) -> list[dict]:
+    """Findings as dicts for the page, with the private upload path replaced by the user's file name."""
+    rows = []
+    for finding in findings:
+        row = finding.to_dict()
+        row["file"] = shown_name
+        for key in ("message", "found", "expected", "suggestion"):
+            if isinstance(row.get(key), str):
+                row[key] = row[key].replace(str(private), shown_name)
+        rows.append(row)
+    return rows
+
+
+def input_error_rows(exc: InputError, private: Path, shown_name: str) -> list[dict]:
+    return finding_rows(exc.findings, private, shown_name)
+
+
+def components(graph: nx.Graph, shown: int = 12) -> list[dict]:
+    """The groups of events linked by clashes, largest first: size, clashes, a few events."""
+    rows = []
+    for comp in sorted(nx.connected_components(graph), key=lambda c: (-len(c), min(map(str, c)))):
+        if len(comp) == 1:
+            continue
+        sub = graph.subgraph(comp)
+        events = sorted(comp, key=lambda v: (-graph.nodes[v].get("size", 0), str(v)))
+        rows.append(
+            {
+                "events": len(comp),
+                "clashes": sub.number_of_edges(),
+                "largest": [str(v) for v in events[:6]],
+                "more": max(0, len(comp) - 6),
+            }
+        )
+        if len(rows) >= shown:
+            break
+    return rows
+
+
+def default_slot_counts(analysis: Analysis) -> list[int]:
+    """The slot counts the first table shows: from the lower bound, a few up."""
+    problem = analysis.problem
+    if problem.slots:
+        n = len(problem.slots)
+        low = max(1, min(analysis.lower_bound, n))
+        return list(range(max(low, n - DEFAULT_COUNT_SPAN + 1), n + 1))
+    low = max(1, analysis.lower_bound)
+    return list(range(low, low + DEFAULT_COUNT_SPAN))
+
+
+def parse_slot_counts(text: str | list[str], *, limit: int) -> list[int]:
+    """Slot counts typed or ticked by the user: '5 6 7', '5-8', '5,6'. Raises ValueError in plain words."""
+    if isinstance(text, list):
+        text = " ".join(text)
+    found: list[int] = []
+    for part in text.replace(",", " ").split():
+        if "-" in part.strip("-"):
+            a, b = part.split("-", 1)
+            if not (a.isdigit() and b.isdigit()):
+                raise ValueError(f"'{part}' is not a range of slot counts such as 5-8.")
+            lo, hi = int(a), int(b)
+            if hi < lo:
+                lo, hi = hi, lo
+            found.extend(range(lo, hi + 1))
+        elif part.isdigit():
+            found.append(int(part))
+        else:
+            raise ValueError(f"'{part}' is not a number of slots.")
+    found = sorted(set(found))
+    if not found:
+        raise ValueError("Choose at least one number of slots.")
+    if found[0] < 1 or found[-1] > MAX_SLOTS:
+        raise ValueError(f"A number of slots must be between 1 and {MAX_SLOTS}.")
+    if len(found) > limit:
+        raise ValueError(f"Choose at most {limit} numbers of slots at once.")
+    return found
+
+
+def slot_list(problem: Problem, k: int, sessions_per_day: int) -> list[Slot]:
+    """The slots of a K-slot timetable: the first K of the slots sheet, or K generic slots."""
+    if problem.slots:
+        return list(problem.slots[:k])
+    return generic_slots(k, sessions_per_day)
+
+
+def fixed_and_barred(problem: Problem, slots: list[Slot]) -> tuple[dict[str, int], dict[str, set[int]]]:
+    """Fixed and barred slots of events as slot numbers 1..K (references that do not resolve are left out)."""
+    fixed: dict[str, int] = {}
+    barred: dict[str, set[int]] = {}
+    for code, event in problem.events.items():
+        if event.fixed_slot:
+            n = problem.slot_number(event.fixed_slot, slots)
+            if n is not None:
+                fixed[code] = n
+        numbers = {problem.slot_number(ref, slots) for ref in event.barred_slots}
+        numbers.discard(None)
+        if numbers:
+            barred[code] = numbers  # type: ignore[assignment]
+    return fixed, barred
+
+
+def count(analysis: Analysis, ks: list[int], budget_seconds: float) -> Any:
+    """The counting engine's report for these slot counts (cached per upload)."""
+    key = tuple(ks)
+    if key in analysis.counts:
+        return analysis.counts[key]
+    from ..counting import count_timetables
+
+    problem = analysis.problem
+    fixed: dict[str, int] = {}
+    barred: dict[str, set[int]] = {}
+    if not problem.slots:
+        # With generic slots a fixed or barred slot means the same slot number for every K.
+        fixed, barred = fixed_and_barred(problem, generic_slots(max(ks)))
+    report = count_timetables(
+        analysis.graph, ks, budget_seconds=budget_seconds, fixed=fixed or None, barred=barred or None
+    )
+    analysis.counts[key] = report
+    return report
+
+
+WEIGHT_LABELS = {
+    "back_to_back": "Back-to-back events on one day",
+    "overnight": "Last of one day, then first of the next",
+    "same_day": "Two events on one day",
+    "proximity": "Spread (Carter proximity cost)",
+    "large_late": "Large event late in the session",
+    "preferred_slot": "Event outside its preferred slots",
+    "penalised_slot": "Event in a penalised slot",
+    "room_split": "Event split over rooms",
+}
+
+
+def weight_fields(weights: Weights) -> list[dict]:
+    return [
+        {"name": f.name, "label": WEIGHT_LABELS[f.name], "value": getattr(weights, f.name)}
+        for f in dataclasses.fields(weights)
+        if f.name in WEIGHT_LABELS
+    ]
+
+
+def weights_from_form(form: dict[str, str], base: Weights) -> Weights:
+    """Weights as typed in the form; each must be a whole number from 0 to 1000."""
+    values = {}
+    for f in dataclasses.fields(base):
+        raw = form.get(f"weight_{f.name}")
+        if raw is None or raw.strip() == "":
+            continue
+        raw = raw.strip()
+        if not raw.isdigit() or int(raw) > 1000:
+            raise ValueError(f"The weight for '{WEIGHT_LABELS.get(f.name, f.name)}' must be a whole number from 0 to 1000; it was '{raw}'.")
+        values[f.name] = int(raw)
+    return dataclasses.replace(base, **values)
+
+
+def grid(problem: Problem, run: Any) -> dict:
+    """The timetable as a grid: one row per day, one column per session of the day."""
+    slots: list[Slot] = list(getattr(run, "slot_list", []) or [])
+    days = days_of(slots) if slots else []
+    by_slot: dict[int, list[str]] = {i: [] for i in range(1, len(slots) + 1)}
+    for code, n in sorted((getattr(run, "assignment", {}) or {}).items(), key=lambda kv: str(kv[0])):
+        by_slot.setdefault(n, []).append(code)
+    sizes = problem.event_sizes()
+    rows: dict[int, list[dict]] = {}
+    for i, slot in enumerate(slots, start=1):
+        rows.setdefault(days[i - 1], []).append(
+            {
+                "number": i,
+                "label": slot.label,
+                "when": _when(slot),
+                "events": [{"code": c, "size": sizes.get(c, 0), "title": problem.events[c].title if c in problem.events else None} for c in by_slot.get(i, [])],
+                "seats": sum(sizes.get(c, 0) for c in by_slot.get(i, [])),
+            }
+        )
+    width = max((len(r) for r in rows.values()), default=0)
+    return {"days": [{"day": d, "cells": cells + [None] * (width - len(cells))} for d, cells in sorted(rows.items())], "width": width}
+
+
+def _when(slot: Slot) -> str:
+    parts = []
+    if slot.date is not None:
+        parts.append(slot.date.strftime("%a %d %b %Y"))
+    if slot.start is not None:
+        text = slot.start.strftime("%H:%M")
+        if slot.end is not None:
+            text += "–" + slot.end.strftime("%H:%M")
+        parts.append(text)
+    return " ".join(parts)
+
+
+def zip_folder(folder: Path, target: Path) -> Path:
+    """Zip every file under ``folder`` (flat names relative to it) into ``target``."""
+    with zipfile.ZipFile(target, "w", compression=zipfile.ZIP_DEFLATED) as archive:
+        for path in sorted(folder.rglob("*")):
+            if path.is_file():
+                archive.write(path, path.relative_to(folder).as_posix())
+    return target

@@ -1,0 +1,78 @@
+"""How figures read on the page: big counts, seconds, shares. Jinja filters, nothing else."""
+
+from __future__ import annotations
+
+import math
+
+
+def group_digits(n: int) -> str:
+    """A whole number with thin spaces between groups of three digits (readable, copyable).
+
+    >>> group_digits(1234567)
+    '1 234 567'
+    """
+    text = str(abs(int(n)))
+    groups = []
+    while text:
+        groups.append(text[-3:])
+        text = text[:-3]
+    return ("-" if n < 0 else "") + "\u2009".join(reversed(groups))
+
+
+def short_count(n: int | None) -> str:
+    """A count short enough for a table cell: grouped digits up to 15 digits, else a power of ten.
+
+    >>> short_count(10**20 * 3)
+    '3.00 × 10^20'
+    """
+    if n is None:
+        return "—"
+    n = int(n)
+    digits = len(str(abs(n)))
+    if digits <= 15:
+        return group_digits(n)
+    head = str(abs(n))[:3]
+    return f"{head[0]}.{head[1:]} × 10^{digits - 1}"
+
+
+def power_of_ten(log10: float | None) -> str:
+    if log10 is None:
+        return "—"
+    if log10 == -math.inf:
+        return "0"
+    return f"10^{log10:.1f}"
+
+
+def seconds(value: float | None) -> str:
+    if value is None:
+        return "—"
+    if value < 60:
+        return f"{value:.1f} s"
+    minutes, secs = divmod(int(round(value)), 60)
+    return f"{minutes} min {secs:02d} s"
+
+
+def number(value) -> str:
+    if value is None:
+        return "—"
+    if isinstance(value, float):
+        if value.is_integer():
+            return group_digits(int(value))
+        return f"{value:.2f}"
+    if isinstance(value, int):
+        return group_digits(value)
+    return str(value)
+
+
+def digits(n: int | None) -> int:
+    return 0 if n is None else len(str(abs(int(n))))
+
+
+FILTERS = {
+    "group_digits": group_digits,
+    "short_count": short_count,
+    "power_of_ten": power_of_ten,
+    "seconds": seconds,
+    "number": number,
+    "digits": digits,
+}

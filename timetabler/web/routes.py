@@ -1,0 +1,549 @@
+"""The pages and their addresses.
+
+====================================  =============================================================
+``GET  /``                            upload a file; download the empty template workbook
+``GET  /template.xlsx``               the template workbook (intake's template writer)
+``POST /upload``                      receive a file (size cap, type by content), then its overview
+``GET  /files/{token}``               figures, findings, components, counts table and chart, solve form
+``POST /files/{token}/solve``         start a solve job (one at a time per file; 409 while one runs)
+``GET  /files/{token}/solving``       live progress (best penalty, bound) with a Stop button
+``GET  /files/{token}/solving.json``  the same progress for the page's script
+``POST /files/{token}/stop``          stop the running job
+``GET  /files/{token}/timetable``     slot counts side by side and the timetable grid
+``GET  /files/{token}/download/...``  timetable.xlsx, tables-csv.zip, calendars-ics.zip
+``POST /files/{token}/delete``        delete the upload and everything made from it
+====================================  =============================================================
+
+Tokens are random; a token that is not one of this server's uploads is a 404. The file
+names of downloads are fixed here, never taken from the request.
+"""
+
+from __future__ import annotations
+
+import asyncio
+import dataclasses
+import logging
+import shutil
+import tempfile
+from pathlib import Path
+from typing import Any
+
+from starlette.concurrency import run_in_threadpool
+from starlette.exceptions import HTTPException
+from starlette.formparsers import MultiPartException, MultiPartParser
+from starlette.requests import Request
+from starlette.responses import FileResponse, JSONResponse, RedirectResponse, Response
+from starlette.routing import Route
+
+from ..errors import InputError
+from . import analysis as an
+from .count_chart import bar_from_count, count_chart_svg
+from .jobs import SolveJob
+from .uploads import StoredUpload, UploadRejected, UploadStore
+
+log = logging.getLogger("timetabler.web")
+
+GONE = (
+    "This file is no longer here. Uploads are deleted when you press 'Delete this file', when they sit "
+    "unused for a few hours, and when the page server stops. Upload it again from the first page."
+)
+
+
+# -- shared bits -----------------------------------------------------------------------------
+
+
+def store_of(request: Request) -> UploadStore:
+    return request.app.state.store
+
+
+def upload_of(request: Request) -> StoredUpload:
+    upload = store_of(request).get(request.path_params["token"])
+    if upload is None:
+        raise HTTPException(404, GONE)
+    return upload
+
+
+def render(request: Request, name: str, context: dict, status: int = 200) -> Response:
+    return request.app.state.templates.TemplateResponse(request, name, context, status_code=status)
+
+
+def message(request: Request, status: int, title: str, text: str, **extra: Any) -> Response:
+    return render(request, "message.html", {"title": title, "text": text, **extra}, status)
+
+
+def job_of(upload: StoredUpload) -> SolveJob | None:
+    return upload.state.get("job")
+
+
+def job_running(upload: StoredUpload) -> bool:
+    job = job_of(upload)
+    return job is not None and job.running
+
+
+def stop_all_jobs(store: UploadStore) -> None:
+    for token in list(store._uploads):
+        upload = store.get(token)
+        if upload is not None and job_running(upload):
+            job_of(upload).cancel()  # type: ignore[union-attr]
+
+
+# -- first page and template -------------------------------------------------------------------
+
+
+async def home(request: Request) -> Response:
+    settings = request.app.state.settings
+    return render(request, "home.html", {"max_mb": settings.max_upload_bytes / (1024 * 1024)})
+
+
+async def template_workbook(request: Request) -> Response:
+    try:
+        from ..intake.template import write_template  # the same writer as `timetabler template`
+    except ImportError:
+        raise HTTPException(404, "The template workbook is not available in this version.") from None
+    folder = Path(tempfile.mkdtemp(dir=store_of(request).root))
+    target = folder / "timetabler-template.xlsx"
+    await run_in_threadpool(write_template, target)
+    return FileResponse(
+        target,
+        filename="timetabler-template.xlsx",
+        media_type="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
+        background=_remove_later(folder),
+    )
+
+
+def _remove_later(folder: Path):
+    from starlette.background import BackgroundTask
+
+    return BackgroundTask(shutil.rmtree, folder, ignore_errors=True)
+
+
+# -- upload -----------------------------------------------------------------------------------------
+
+
+class _TooLarge(Exception):
+    pass
+
+
+async def upload(request: Request) -> Response:
+    store = store_of(request)
+    cap = store.max_bytes
+    length = request.headers.get("content-length")
+    if length is not None and length.isdigit() and int(length) > cap + 64 * 1024:
+        return message(request, 413, "File too large", store.too_large_message(), back="/")
+    content_type = request.headers.get("content-type", "")
+    if not content_type.startswith("multipart/form-data"):
+        return message(request, 400, "No file received", "Choose a file with the button on the first page, then press Upload.", back="/")
+
+    async def limited():
+        received = 0
+        async for chunk in request.stream():
+            received += len(chunk)
+            if received > cap + 64 * 1024:
+                raise _TooLarge
+            yield chunk
+
+    parser = MultiPartParser(request.headers, limited(), max_files=1, max_fields=8, max_part_size=64 * 1024)
+    try:
+        form = await parser.parse()
+    except _TooLarge:
+        return message(request, 413, "File too large", store.too_large_message(), back="/")
+    except MultiPartException as exc:
+        return message(request, 400, "The upload could not be read", f"The browser's upload was not understood ({exc}). Try again.", back="/")
+    try:
+        sent = form.get("file")
+        if sent is None or isinstance(sent, str) or not sent.filename:
+            return message(request, 400, "No file received", "Choose a file with the button on the first page, then press Upload.", back="/")
+        token, folder = store.new_folder()
+        received = folder / "received"
+        try:
+            size = await run_in_threadpool(_copy_capped, sent.file, received, cap)
+        except _TooLarge:
+            shutil.rmtree(folder, ignore_errors=True)
+            return message(request, 413, "File too large", store.too_large_message(), back="/")
+        if size == 0:
+            shutil.rmtree(folder, ignore_errors=True)
+            return message(request, 400, "The file is empty", "The file you chose has nothing in it.", back="/")
+        try:
+            stored = await run_in_threadpool(store.keep, token, folder, received, sent.filename)
+        except UploadRejected as exc:
+            return message(request, exc.status, "This file cannot be used", str(exc), back="/")
+    finally:
+        await form.close()
+    return RedirectResponse(f"/files/{stored.token}", status_code=303)
+
+
+def _copy_capped(source, target: Path, cap: int) -> int:
+    size = 0
+    source.seek(0)
+    with open(target, "xb") as out:
+        while True:
+            chunk = source.read(1024 * 1024)
+            if not chunk:
+                break
+            size += len(chunk)
+            if size > cap:
+                raise _TooLarge
+            out.write(chunk)
+    target.chmod(0o600)
+    return size
+
+
+# -- overview ----------------------------------------------------------------------------------------
+
+READ_OPTION_KEYS = ("sheet", "attendee_column", "event_column")
+
+
+async def overview(request: Request) -> Response:
+    stored = upload_of(request)
+    settings = request.app.state.settings
+    options = {key: (request.query_params.get(key) or "").strip() or None for key in READ_OPTION_KEYS}
+    result = await _analysis(stored, options)
+    if isinstance(result, InputError):
+        return render(
+            request,
+            "unreadable.html",
+            {"upload": stored, "findings": an.input_error_rows(result, stored.path, stored.name), "options": options},
+            status=422,
+        )
+    analysis = result
+    ks_text = request.query_params.get("slots")
+    try:
+        ks = an.parse_slot_counts(ks_text, limit=12) if ks_text else an.default_slot_counts(analysis)
+        ks_error = None
+    except ValueError as exc:
+        ks, ks_error = an.default_slot_counts(analysis), str(exc)
+    counts = None
+    count_error = None
+    if analysis.summary.events:
+        try:
+            counts = await run_in_threadpool(an.count, analysis, ks, settings.count_budget_seconds)
+        except InputError as exc:
+            count_error = str(exc).replace(str(stored.path), stored.name)
+    rows = list(getattr(counts, "counts", []) or [])
+    chart = count_chart_svg([bar_from_count(c) for c in rows]) if rows else None
+    problem = analysis.problem
+    return render(
+        request,
+        "overview.html",
+        {
+            "upload": stored,
+            "analysis": analysis,
+            "summary": analysis.summary,
+            "reading": analysis.reading,
+            "warnings": an.finding_rows(analysis.reading.warnings, stored.path, stored.name),
+            "components": an.components(analysis.graph),
+            "counts": rows,
+            "count_report": counts,
+            "count_error": count_error,
+            "chart": chart,
+            "ks": ks,
+            "ks_text": " ".join(map(str, ks)),
+            "ks_error": ks_error,
+            "suggested": _suggested(rows, analysis),
+            "weights": an.weight_fields(problem.weights),
+            "rules": [rule.describe() for rule in problem.rules],
+            "has_slots_sheet": bool(problem.slots),
+            "settings": settings,
+            "job": job_of(stored),
+            "options": options,
+        },
+    )
+
+
+async def _analysis(stored: StoredUpload, options: dict[str, str | None]):
+    """The cached analysis for these read options, or the InputError that reading raised."""
+    cache: dict = stored.state.setdefault("analyses", {})
+    key = tuple(sorted(options.items(), key=lambda kv: kv[0]))
+    if key not in cache:
+        try:
+            cache[key] = await run_in_threadpool(an.analyse, stored.path, options)
+        except InputError as exc:
+            return exc
+    stored.state["current"] = key
+    return cache[key]
+
+
+def _current_analysis(stored: StoredUpload) -> an.Analysis | None:
+    key = stored.state.get("current")
+    value = stored.state.get("analyses", {}).get(key)
+    return value if isinstance(value, an.Analysis) else None
+
+
+def _suggested(rows: list, analysis: an.Analysis) -> list[int]:
+    """Slot counts to tick by default: the fewest with a clash-free timetable found, and one more."""
+    possible = [
+        int(r.slots)
+        for r in rows
+        if (getattr(r, "timetables", None) or 0) > 0 or (getattr(r, "lower", None) or 0) > 0
+    ]
+    if possible:
+        first = possible[0]
+        return [first, first + 1]
+    return [analysis.lower_bound, analysis.lower_bound + 1] if analysis.lower_bound else []
+
+
+# -- solving ------------------------------------------------------------------------------------------
+
+
+async def start_solve(request: Request) -> Response:
+    stored = upload_of(request)
+    settings = request.app.state.settings
+    if job_running(stored):
+        return message(
+            request,
+            409,
+            "A solve is already running for this file",
+            "Only one solve runs per file at a time. Watch it, or stop it and start again with other choices.",
+            link=(f"/files/{stored.token}/solving", "See the running solve"),
+        )
+    analysis = _current_analysis(stored)
+    if analysis is None:
+        return RedirectResponse(f"/files/{stored.token}", status_code=303)
+    form = await request.form(max_files=0, max_fields=200, max_part_size=16 * 1024)
+    fields = {key: str(value) for key, value in form.items()}
+    problem = analysis.problem
+    try:
+        ks = an.parse_slot_counts(form.getlist("slots") + [fields.get("more_slots", "")], limit=settings.max_slot_counts)
+        if problem.slots and ks[-1] > len(problem.slots):
+            raise ValueError(
+                f"The slots sheet of this file lists {len(problem.slots)} slots; a timetable cannot use more than that."
+            )
+        per_day = _whole(fields.get("sessions_per_day", "2"), "Sessions per day", 1, 12)
+        limit = _whole(fields.get("time_limit", str(settings.default_time_limit)), "Time limit", 1, settings.max_time_limit)
+        weights = an.weights_from_form(fields, problem.weights)
+        keep = {int(i) for i in form.getlist("rule") if str(i).isdigit()}
+        rules = [rule for i, rule in enumerate(problem.rules) if i in keep]
+    except ValueError as exc:
+        return message(request, 400, "Please check the choices", str(exc), back=f"/files/{stored.token}")
+    chosen = dataclasses.replace(problem, weights=weights, rules=rules)
+    plan = [(k, an.slot_list(chosen, k, per_day)) for k in ks]
+    from ..scheduling import SolveOptions
+
+    options = _solve_options(SolveOptions, time_limit=limit, sessions_per_day=per_day)
+    job = SolveJob(chosen, plan, options, time_limit=float(limit))
+    with stored.lock:
+        if job_running(stored):
+            return message(request, 409, "A solve is already running for this file", "Only one solve runs per file at a time.",
+                           link=(f"/files/{stored.token}/solving", "See the running solve"))
+        stored.state["job"] = job
+        stored.state["job_settings"] = {
+            "slot counts": " ".join(map(str, ks)),
+            "sessions per day": per_day,
+            "time limit per slot count (s)": limit,
+            "rules kept": len(rules),
+            "rules switched off": len(problem.rules) - len(rules),
+            **{f"weight: {w['label']}": getattr(weights, w["name"]) for w in an.weight_fields(weights)},
+        }
+        stored.state["job_problem"] = chosen
+        stored.state.pop("outputs", None)
+        await run_in_threadpool(job.start)
+    return RedirectResponse(f"/files/{stored.token}/solving", status_code=303)
+
+
+def _whole(text: str, label: str, low: int, high: int) -> int:
+    text = (text or "").strip()
+    if not text.isdigit() or not low <= int(text) <= high:
+        raise ValueError(f"{label} must be a whole number from {low} to {high}; it was '{text}'.")
+    return int(text)
+
+
+def _solve_options(options_class, **wanted):
+    """Build the engine's SolveOptions from the values the page collects, by the names it has."""
+    names = {f.name for f in dataclasses.fields(options_class)} if dataclasses.is_dataclass(options_class) else set()
+    aliases = {"time_limit": ("time_limit", "time_limit_seconds", "seconds")}
+    kwargs = {}
+    for key, value in wanted.items():
+        for name in aliases.get(key, (key,)):
+            if name in names:
+                kwargs[name] = value
+                break
+    return options_class(**kwargs)
+
+
+async def solving(request: Request) -> Response:
+    stored = upload_of(request)
+    job = job_of(stored)
+    if job is None:
+        return RedirectResponse(f"/files/{stored.token}", status_code=303)
+    if not job.running and job.state == "finished":
+        return RedirectResponse(f"/files/{stored.token}/timetable", status_code=303)
+    return render(request, "solving.html", {"upload": stored, "job": job, "progress": job.to_json()})
+
+
+async def solving_json(request: Request) -> Response:
+    stored = upload_of(request)
+    job = job_of(stored)
+    if job is None:
+        return JSONResponse({"state": "none"})
+    doc = job.to_json()
+    doc["next"] = f"/files/{stored.token}/timetable"
+    return JSONResponse(doc)
+
+
+async def stop(request: Request) -> Response:
+    stored = upload_of(request)
+    job = job_of(stored)
+    if job is not None:
+        await run_in_threadpool(job.cancel)
+    target = "timetable" if job is not None and job.runs else ""
+    return RedirectResponse(f"/files/{stored.token}/{target}".rstrip("/"), status_code=303)
+
+
+# -- results ----------------------------------------------------------------------------------------
+
+
+def _finished_runs(stored: StoredUpload) -> list:
+    job = job_of(stored)
+    if job is None:
+        return []
+    return [job.runs[k] for k, _ in job.plan if k in job.runs]
+
+
+async def timetable(request: Request) -> Response:
+    stored = upload_of(request)
+    job = job_of(stored)
+    runs = _finished_runs(stored)
+    if job is None:
+        return RedirectResponse(f"/files/{stored.token}", status_code=303)
+    if job.running:
+        return RedirectResponse(f"/files/{stored.token}/solving", status_code=303)
+    problem = stored.state["job_problem"]
+    analysis = _current_analysis(stored)
+    checks = await run_in_threadpool(_validate_all, problem, runs)
+    counts_by_k = _counts_by_k(analysis, [r.slots for r in runs])
+    shown_k = request.query_params.get("slots")
+    with_timetable = [r for r in runs if r.assignment]
+    shown = next((r for r in with_timetable if str(r.slots) == shown_k), with_timetable[0] if with_timetable else None)
+    return render(
+        request,
+        "timetable.html",
+        {
+            "upload": stored,
+            "job": job,
+            "runs": runs,
+            "checks": checks,
+            "counts_by_k": counts_by_k,
+            "shown": shown,
+            "grid": an.grid(problem, shown) if shown is not None else None,
+            "with_timetable": with_timetable,
+            "settings_used": stored.state.get("job_settings", {}),
+            "dated": bool(with_timetable) and all(s.date is not None for s in with_timetable[0].slot_list),
+        },
+    )
+
+
+def _validate_all(problem, runs: list) -> dict[int, Any]:
+    from ..scheduling import validate
+
+    out = {}
+    for run in runs:
+        if run.assignment:
+            out[run.slots] = validate(problem, run.slot_list, run.assignment, getattr(run, "rooms", None) or None)
+    return out
+
+
+def _counts_by_k(analysis: an.Analysis | None, ks: list[int]) -> dict[int, Any]:
+    if analysis is None:
+        return {}
+    out = {}
+    for report in analysis.counts.values():
+        for item in getattr(report, "counts", []) or []:
+            if item.slots in ks:
+                out.setdefault(item.slots, item)
+    return out
+
+
+# -- downloads --------------------------------------------------------------------------------------
+
+DOWNLOADS = {
+    "timetable.xlsx": ("xlsx", "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet"),
+    "tables-csv.zip": ("csv", "application/zip"),
+    "calendars-ics.zip": ("ics", "application/zip"),
+}
+
+
+async def download(request: Request) -> Response:
+    stored = upload_of(request)
+    name = request.path_params["name"]
+    if name not in DOWNLOADS:
+        raise HTTPException(404, "There is no such download.")
+    runs = _finished_runs(stored)
+    if not runs or job_running(stored):
+        return message(request, 409, "Nothing to download yet", "Solve first; the files are made from the finished timetables.",
+                       back=f"/files/{stored.token}")
+    kind, media_type = DOWNLOADS[name]
+    outputs: dict = stored.state.setdefault("outputs", {})
+    if kind not in outputs:
+        try:
+            budget = request.app.state.settings.count_budget_seconds
+            outputs[kind] = await run_in_threadpool(_make_output, stored, kind, runs, budget)
+        except InputError as exc:
+            return message(request, 500, "The file could not be written", str(exc).replace(str(stored.folder), "the private folder"),
+                           back=f"/files/{stored.token}/timetable")
+    return FileResponse(outputs[kind], filename=name, media_type=media_type)
+
+
+def _make_output(stored: StoredUpload, kind: str, runs: list, budget: float) -> Path:
+    """Write one download with the export layer's publish(), as ``solve --out/--csv/--ics`` do."""
+    from ..cli.output_options import publish
+
+    problem = stored.state["job_problem"]
+    analysis = _current_analysis(stored)
+    counts = _counts_report(analysis, [r.slots for r in runs], budget)
+    reading = analysis.reading if analysis is not None else None
+    settings = {"input file": stored.name, **stored.state.get("job_settings", {})}
+    out = stored.folder / "out"
+    out.mkdir(exist_ok=True)
+    if kind == "xlsx":
+        target = out / "timetable.xlsx"
+        publish({"out": str(target)}, problem=problem, runs=runs, counts=counts, reading=reading, settings=settings, quiet=True)
+        return target
+    folder = out / kind
+    if folder.exists():
+        shutil.rmtree(folder)
+    key = "csv" if kind == "csv" else "ics"
+    publish({key: str(folder)}, problem=problem, runs=runs, counts=counts, reading=reading, settings=settings, quiet=True)
+    return an.zip_folder(folder, out / f"{kind}.zip")
+
+
+def _counts_report(analysis: an.Analysis | None, ks: list[int], budget: float):
+    """A count report covering the solved slot counts (counted now if the page has not yet)."""
+    if analysis is None or not analysis.summary.events:
+        return None
+    for key, report in analysis.counts.items():
+        if set(ks) <= set(key):
+            return report
+    return an.count(analysis, sorted(set(ks)), budget)
+
+
+# -- delete -------------------------------------------------------------------------------------------
+
+
+async def delete(request: Request) -> Response:
+    stored = upload_of(request)
+    job = job_of(stored)
+    if job is not None and job.running:
+        await run_in_threadpool(job.cancel)
+    store_of(request).delete(stored.token)
+    return message(request, 200, "Deleted", f"'{stored.name}' and everything made from it have been deleted from this computer's temporary folder.",
+                   back="/")
+
+
+async def favicon(request: Request) -> Response:
+    return Response(status_code=204)
+
+
+ROUTES = [
+    Route("/", home, methods=["GET"]),
+    Route("/favicon.ico", favicon, methods=["GET"]),
+    Route("/template.xlsx", template_workbook, methods=["GET"]),
+    Route("/upload", upload, methods=["POST"]),
+    Route("/files/{token}", overview, methods=["GET"]),
+    Route("/files/{token}/solve", start_solve, methods=["POST"]),
+    Route("/files/{token}/solving", solving, methods=["GET"]),
+    Route("/files/{token}/solving.json", solving_json, methods=["GET"]),
+    Route("/files/{token}/stop", stop, methods=["POST"]),
+    Route("/files/{token}/timetable", timetable, methods=["GET"]),
+    Route("/files/{token}/download/{name}", download, methods=["GET"]),
+    Route("/files/{token}/delete", delete, methods=["POST"]),
+]

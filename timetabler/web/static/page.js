@@ -1,0 +1,75 @@
+// timetabler local page: two small helps, both optional (every page works without script).
+// 1. Drag and drop a file onto the upload box.
+// 2. Live progress of a solve, polled from this page's own server.
+(function () {
+  "use strict";
+
+  function setupDrop() {
+    var zone = document.getElementById("drop-zone");
+    var input = document.getElementById("file-input");
+    var form = document.getElementById("upload-form");
+    if (!zone || !input || !form) return;
+    ["dragenter", "dragover"].forEach(function (name) {
+      zone.addEventListener(name, function (e) { e.preventDefault(); zone.classList.add("over"); });
+    });
+    ["dragleave", "drop"].forEach(function (name) {
+      zone.addEventListener(name, function (e) { e.preventDefault(); zone.classList.remove("over"); });
+    });
+    zone.addEventListener("drop", function (e) {
+      if (!e.dataTransfer || !e.dataTransfer.files.length) return;
+      input.files = e.dataTransfer.files;
+      var hint = document.getElementById("drop-hint");
+      if (hint) hint.textContent = "Uploading " + e.dataTransfer.files[0].name + " …";
+      form.requestSubmit ? form.requestSubmit() : form.submit();
+    });
+  }
+
+  function text(value, digits) {
+    if (value === null || value === undefined) return "\u2014";
+    if (typeof value === "number") {
+      if (Number.isInteger(value)) return value.toLocaleString("en-GB").replace(/,/g, "\u2009");
+      return value.toFixed(digits === undefined ? 2 : digits);
+    }
+    return String(value);
+  }
+
+  function setupProgress() {
+    var box = document.getElementById("progress");
+    if (!box) return;
+    var source = box.getAttribute("data-source");
+    var stateLine = document.getElementById("job-state");
+    var stopping = false;
+    function update(doc) {
+      doc.slots.forEach(function (s) {
+        var row = document.getElementById("row-" + s.slots);
+        if (!row) return;
+        row.querySelector('[data-field="state"]').textContent = s.state + (s.phase ? " \u2014 " + s.phase : "");
+        var bar = row.querySelector("progress");
+        if (bar) bar.value = s.elapsed || 0;
+        row.querySelector('[data-field="elapsed-text"]').textContent = s.elapsed === null ? "\u2014" : s.elapsed.toFixed(1) + " s";
+        row.querySelector('[data-field="best"]').textContent = text(s.best);
+        row.querySelector('[data-field="bound"]').textContent = text(s.bound);
+        row.querySelector('[data-field="status"]').textContent = s.status || "";
+      });
+      if (doc.state === "finished") {
+        stateLine.textContent = "Finished. Opening the timetables \u2026";
+        window.location.assign(doc.next);
+        return false;
+      }
+      if (doc.state === "cancelled") { stateLine.textContent = "Stopped."; return false; }
+      if (doc.state === "failed") { stateLine.textContent = "The solve failed: " + doc.error; return false; }
+      return true;
+    }
+    function poll() {
+      fetch(source, { headers: { "Accept": "application/json" }, credentials: "same-origin" })
+        .then(function (r) { return r.json(); })
+        .then(function (doc) { if (update(doc) && !stopping) window.setTimeout(poll, 700); })
+        .catch(function () { if (!stopping) window.setTimeout(poll, 2000); });
+    }
+    var stopForm = document.getElementById("stop-form");
+    if (stopForm) stopForm.addEventListener("submit", function () { stopping = true; });
+    poll();
+  }
+
+  document.addEventListener("DOMContentLoaded", function () { setupDrop(); setupProgress(); });
+})();
