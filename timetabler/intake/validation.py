@@ -14,8 +14,8 @@ Warnings (the run goes on; they are shown and kept in the output):
 * an event with nobody enrolled;
 * an attendee with an implausible number of events (more than
   ``max(15, 4 × median)`` — a rule of thumb, common practice with no single source);
-* the attendee and event columns possibly swapped (more events than attendees, most
-  events with one attendee);
+* the attendee and event columns possibly swapped (at least 10 events and more than
+  twice as many events as attendees);
 * identifiers that differ only by leading zeros (``0123`` and ``123``), or event codes that
   differ only by case and were merged.
 """
@@ -119,13 +119,10 @@ def figure_warnings(problem: Problem, findings: FindingList, enrolment_where: Lo
         findings.warn(f"The attendee {a} has {load[a]} events, far more than most (median {median:g}).",
                       enrolment_where, found=a, suggestion="Check for a merged or mistyped attendee id.")
     n_events, n_attendees = len(problem.events), len(load)
-    if n_events > n_attendees >= 1:
-        singles = sum(1 for code in problem.events if sizes[code] == 1)
-        if singles > 0.5 * n_events:
-            findings.warn("There are more events than attendees and most events have one attendee: "
-                          "the attendee and event columns may be swapped.", enrolment_where,
-                          found=f"{n_attendees} attendees, {n_events} events",
-                          suggestion="Name the columns with --attendee-column and --event-column.")
+    if n_events >= 10 and n_events > 2 * n_attendees:
+        findings.warn("There are far more events than attendees: the attendee and event columns may be swapped.",
+                      enrolment_where, found=f"{n_attendees} attendees, {n_events} events",
+                      suggestion="Name the columns with --attendee-column and --event-column.")
     for short, long in leading_zero_pairs[:5]:
         findings.warn(f"The identifiers {long!r} and {short!r} differ only by leading zeros; they are read as "
                       "two different identifiers.", enrolment_where,
