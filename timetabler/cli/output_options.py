@@ -94,6 +94,19 @@ def publish(
     runs = list(runs)
     if counts is None and (outputs.get("out") or outputs.get("plot")) and runs:
         counts = _count_for(problem, sorted({int(r.slots) for r in runs}), float(settings.get("count_budget", 20.0)))
+    solved = [r for r in runs if r.assignment and r.status in ("optimal", "feasible")]
+    # check what each output needs before writing anything
+    if outputs.get("plot") and counts is None:
+        raise InputError(Finding("The chart (--plot) needs the numbers of timetables, and counting is not available "
+                                 "in this installation. Nothing was written."))
+    if outputs.get("ics"):
+        from ..export.icalendar_files import check_dated
+
+        if not solved:
+            raise InputError(Finding("No timetable was found, so there is nothing to write as iCalendar files (--ics). "
+                                     "Nothing was written."))
+        for run in solved:
+            check_dated(run)
     validations = dict(validations or {})
     for run in runs:
         if int(run.slots) not in validations and run.assignment and run.status in ("optimal", "feasible"):
@@ -114,13 +127,12 @@ def publish(
     if outputs.get("csv"):
         from ..export.csv_folder import write_csv_folder
 
-        written.extend(write_csv_folder(outputs["csv"], problem=problem, runs=runs, counts=counts, validations=validations))
+        written.extend(write_csv_folder(outputs["csv"], problem=problem, runs=runs, counts=counts, validations=validations,
+                                        fewest=fewest))
     if outputs.get("ics"):
         from ..export.icalendar_files import write_calendars
 
         solved = [r for r in runs if r.assignment and r.status in ("optimal", "feasible")]
-        if not solved:
-            raise InputError(Finding("No timetable was found, so there is nothing to write as iCalendar files."))
         for run in solved:
             folder = Path(outputs["ics"])
             if len(solved) > 1:
@@ -129,8 +141,6 @@ def publish(
     if outputs.get("plot"):
         from ..export.count_chart import write_count_chart
 
-        if counts is None:
-            raise InputError(Finding("The chart needs the numbers of timetables, and counting is not available in this installation."))
         written.append(write_count_chart(outputs["plot"], counts, inputs=(problem.source,)))
     if not quiet:
         _tell(written)

@@ -55,14 +55,14 @@ def prepare_folder(folder: str | Path) -> Path:
 
 
 def write_csv_folder(folder: str | Path, *, problem: Problem, runs: Sequence[Any], counts: Any = None,
-                     validations: dict | None = None) -> list[Path]:
+                     validations: dict | None = None, fewest: Any = None) -> list[Path]:
     """Write the lists as CSV files into ``folder`` (created if needed); return the files written."""
     target = prepare_folder(folder)
     runs = sorted(runs, key=lambda r: int(r.slots))
     tables: list[tuple[str, PublishedTable]] = []
     if runs:
         figures = {int(r.slots): run_figures(problem, r) for r in runs}
-        tables.append(("comparison", comparison_table(problem, runs, counts, validations, figures)))
+        tables.append(("comparison", comparison_table(problem, runs, counts, validations, figures, fewest)))
     if counts is not None and getattr(counts, "counts", None):
         tables.append(("counts", counts_table(counts)))
     with_timetable = [r for r in runs if has_timetable(r)]
@@ -75,8 +75,5 @@ def write_csv_folder(folder: str | Path, *, problem: Problem, runs: Sequence[Any
         if rooms is not None:
             tables.append(("rooms" + suffix, rooms))
         tables.append(("attendee-load" + suffix, load_table(problem, run)))
-    written = []
-    for stem, table in tables:
-        path = check_target(target / f"{stem}.csv", inputs=[problem.source])
-        written.append(write_safely(path, lambda tmp, t=table: write_table_csv(tmp, t)))
-    return written
+    paths = [check_target(target / f"{stem}.csv", inputs=[problem.source]) for stem, _ in tables]  # all, before any write
+    return [write_safely(path, lambda tmp, t=table: write_table_csv(tmp, t)) for path, (_, table) in zip(paths, tables)]

@@ -44,6 +44,7 @@ class Column:
     header: str
     kind: str = TEXT
     note: str = ""
+    key: str = ""  # name in JSON documents (snake_case); empty when the column is not in one
 
 
 @dataclass
@@ -464,6 +465,24 @@ def verdict_words(validation: Any) -> str:
     return f"{len(getattr(validation, 'violations', []) or [])} violation(s)"
 
 
+def fewest_words(fewest: Any, k: int) -> str:
+    """What the fewest-slots result says about K slots, in plain words."""
+    if fewest is None:
+        return ""
+    lower, upper = getattr(fewest, "lower", None), getattr(fewest, "upper", None)
+    reason = getattr(fewest, "lower_reason", "") or ""
+    proven = bool(getattr(fewest, "proven", False))
+    if lower is not None and k < lower:
+        return f"too few: at least {lower} needed ({reason})"
+    if proven and upper == k:
+        return f"the fewest possible, proven ({reason})"
+    if proven and upper is not None and k > upper:
+        return f"{k - upper} more than the fewest ({upper}, proven)"
+    if upper is not None and k >= upper:
+        return f"a timetable exists with {upper}; fewer than {upper} not ruled out (at least {lower})"
+    return f"at least {lower} needed ({reason}); {k} not settled"
+
+
 def comparison_table(problem: Problem, runs: Sequence[Any], counts: Any = None, validations: Mapping[int, Any] | None = None,
                      figures: Mapping[int, RunFigures] | None = None, fewest: Any = None) -> PublishedTable:
     """Every solved slot count side by side."""
@@ -471,12 +490,19 @@ def comparison_table(problem: Problem, runs: Sequence[Any], counts: Any = None, 
     table = PublishedTable(
         "Comparison",
         [
-            Column("Slots", INT), Column("Days", INT), Column("Clash-free timetable exists"), Column("Status"),
-            Column("Proven", FLAG), Column("Penalty", INT), Column("Bound", FLOAT), Column("Clash-free timetables", BIGINT),
-            Column("log10 timetables", FLOAT), Column("Attendees with back-to-back", INT),
-            Column("Attendees with two in a day", INT), Column("Back-to-back pairs", INT),
-            Column("Same-day pairs, not back-to-back", INT), Column("Overnight pairs", INT), Column("Proximity cost", INT),
-            Column("Peak seats", INT), Column("Peak slot"), Column("Validator"), Column("Solve seconds", FLOAT), Column("Reason"),
+            Column("Slots", INT, key="slots"), Column("Days", INT, key="days"),
+            Column("Clash-free timetable exists", key="exists"), Column("Fewest slots", key="fewest"),
+            Column("Status", key="status"), Column("Proven", FLAG, key="proven"), Column("Penalty", INT, key="penalty"),
+            Column("Bound", FLOAT, key="bound"), Column("Clash-free timetables", BIGINT, key="timetables"),
+            Column("log10 timetables", FLOAT, key="log10_timetables"),
+            Column("Attendees with back-to-back", INT, key="attendees_back_to_back"),
+            Column("Attendees with two in a day", INT, key="attendees_two_in_a_day"),
+            Column("Back-to-back pairs", INT, key="back_to_back_pairs"),
+            Column("Same-day pairs, not back-to-back", INT, key="same_day_pairs"),
+            Column("Overnight pairs", INT, key="overnight_pairs"), Column("Proximity cost", INT, key="proximity_cost"),
+            Column("Peak seats", INT, key="peak_seats"), Column("Peak slot", key="peak_slot"),
+            Column("Validator", key="validator"), Column("Solve seconds", FLOAT, key="solve_seconds"),
+            Column("Reason", key="reason"),
         ],
         title="Slot counts side by side",
     )
@@ -491,7 +517,7 @@ def comparison_table(problem: Problem, runs: Sequence[Any], counts: Any = None, 
         bound = getattr(run, "bound", None)
         reason = getattr(run, "reason", None) or ""
         table.rows.append([
-            k, fig.days, exists, status, bool(getattr(run, "proven", False)), getattr(run, "penalty", None),
+            k, fig.days, exists, fewest_words(fewest, k), status, bool(getattr(run, "proven", False)), getattr(run, "penalty", None),
             float(bound) if bound is not None else None, count_words(c), _count_log10(c) if c is not None else None,
             fig.attendees_back_to_back, fig.attendees_two_in_a_day, fig.back_to_back, fig.same_day, fig.overnight,
             fig.proximity, fig.peak_seats,
@@ -499,6 +525,23 @@ def comparison_table(problem: Problem, runs: Sequence[Any], counts: Any = None, 
             getattr(run, "wall_seconds", None), reason,
         ])
     return table
+
+
+def rows_as_json(table: PublishedTable) -> list[dict[str, Any]]:
+    """Rows as JSON-ready dicts keyed by the columns' ``key`` (big counts stay decimal text)."""
+    out = []
+    for row in table.rows:
+        doc = {}
+        for v, col in zip(row, table.columns):
+            if not col.key:
+                continue
+            if isinstance(v, float) and not math.isfinite(v):
+                v = None
+            if col.kind == FLOAT and isinstance(v, float):
+                v = round(v, 6)
+            doc[col.key] = (v or None) if col.kind in (BIGINT, TEXT) and v == "" else v
+        out.append(doc)
+    return out
 
 
 def rows_as_text(table: PublishedTable, formats: Mapping[str, Callable[[Any], str]] | None = None) -> list[list[str]]:

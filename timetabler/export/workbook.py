@@ -108,7 +108,7 @@ def write_workbook(
         _overview(book, problem, runs, counts, reading, settings or {}, validations, figures, fewest)
         if runs:
             book.table_sheet(
-                "Comparison", comparison_table(problem, runs, counts, validations, figures), highlight=_comparison_highlight
+                "Comparison", comparison_table(problem, runs, counts, validations, figures, fewest), highlight=_comparison_highlight
             )
         if counts is not None and getattr(counts, "counts", None):
             _counts_sheet(book, counts)
@@ -368,6 +368,10 @@ def _overview(book: _Book, problem: Problem, runs, counts, reading, settings, va
         ws.append([])
         ws.append([c(ws, "Settings", font=BOLD)])
         for key, value in settings.items():
+            if value is None or value == {} or value == []:
+                continue
+            if isinstance(value, dict):
+                value = ", ".join(f"{k2}={v2}" for k2, v2 in value.items())
             if isinstance(value, (list, tuple)):
                 value = ", ".join(str(v) for v in value)
             ws.append([c(ws, str(key)), c(ws, value if isinstance(value, (int, float, str)) else str(value))])

@@ -1,0 +1,171 @@
+"""``timetabler compare``: several numbers of slots side by side, to choose how many to book."""
+
+from __future__ import annotations
+
+import contextlib
+from typing import Any
+
+import click
+from rich.table import Table
+
+from ..conflicts import conflict_graph
+from ..errors import Finding, InputError
+from ..export.tables import comparison_table, count_for, has_timetable, rows_as_json, run_figures, value_text
+from ..model import Problem, generic_slots
+from ..scheduling import SolveOptions, fewest_slots, solve, validate
+from .common import console, err_console, input_options, print_json, read_input, show_warnings
+from .output_options import output_options, publish
+from .solve_command import _parse_counts, _SlotCountsOption
+
+
+@click.command("compare")
+@click.argument("file", type=click.Path(dir_okay=False))
+@input_options
+@click.option("--slots", "slot_counts", cls=_SlotCountsOption, metavar="K [K ...]", callback=_parse_counts,
+              required=True, help="The numbers of slots to put side by side, e.g. --slots 5 6 or --slots 8-12.")
+@click.option("--sessions-per-day", type=click.IntRange(1, 12), default=2, show_default=True,
+              help="Without a slots sheet: how many slots make a day (for back-to-back and two-in-a-day figures).")
+@click.option("--time-limit", type=click.FloatRange(0.5, None), default=20.0, show_default=True, metavar="SECONDS",
+              help="Time for each number of slots, and again for the fewest-slots search.")
+@click.option("--count-time", type=click.FloatRange(0.1, None), default=20.0, show_default=True, metavar="SECONDS",
+              help="Time for counting the clash-free timetables. Counts that take longer are estimated.")
+@click.option("--workers", type=click.IntRange(1, 64), default=2, show_default=True, help="Search threads.")
+@click.option("--seed", type=int, default=0, show_default=True, help="Random seed of the search.")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON document instead of a table.")
+@output_options
+def command(file, sheet, attendee_column, event_column, slot_counts, sessions_per_day, time_limit, count_time, workers,
+            seed, as_json, outputs, **_ignored):
+    """Put several numbers of slots for FILE side by side, to decide how many to book.
+
+    \b
+    For each number of slots: whether a clash-free timetable meeting every rule exists; what
+    the fewest-slots search proves about it; how many clash-free timetables there are (counted
+    exactly where the clash graph allows, else estimated; this count looks at clashes and
+    fixed or barred slots only, not rooms or other rules); the penalty of the best timetable
+    found; how many attendees get back-to-back events or two events in a day; the most seats
+    needed in one slot; and the independent validator's verdict.
+
+    \b
+    Examples:
+      timetabler compare enrolments.xlsx --slots 5 6
+      timetabler compare enrolments.xlsx --slots 8-12 --out choices.xlsx --plot counts.png
+    """
+    reading = read_input(file, sheet, attendee_column, event_column)
+    show_warnings(reading, as_json)
+    problem = reading.problem
+    ks = sorted(slot_counts)
+    if problem.slots and max(ks) > len(problem.slots):
+        raise InputError(Finding(
+            f"--slots asks for {max(ks)} slots but the slots sheet lists only {len(problem.slots)}.",
+            suggestion="Add slots to the slots sheet, or ask for fewer."))
+
+    def slots_for(k: int):
+        return list(problem.slots[:k]) if problem.slots else generic_slots(k, sessions_per_day)
+
+    graph = conflict_graph(problem)
+    options = SolveOptions(time_limit=time_limit, workers=workers, seed=seed)
+    with _step(not as_json, "counting clash-free timetables"):
+        counts, count_note = _count(problem, graph, ks, count_time, slots_for)
+    with _step(not as_json, "looking for the fewest slots"):
+        fewest = fewest_slots(problem, per_day=sessions_per_day, options=options, graph=graph)
+    runs = []
+    for k in ks:
+        with _step(not as_json, f"solving with {k} slots"):
+            slots = slots_for(k)
+            run = solve(problem, slots, options, graph=graph)
+            if run.assignment:
+                run.validation = validate(problem, slots, run.assignment, run.rooms or None)
+            runs.append(run)
+    validations = {r.slots: r.validation for r in runs if getattr(r, "validation", None) is not None}
+    settings = {"compared slot counts": ks, "time limit (s)": time_limit, "count time (s)": count_time,
+                "workers": workers, "seed": seed, "sessions per day": None if problem.slots else sessions_per_day}
+    written = publish(outputs, problem=problem, runs=runs, counts=counts, reading=reading, settings=settings,
+                      validations=validations, fewest=fewest, quiet=as_json)
+    figures = {r.slots: run_figures(problem, r) for r in runs}
+    table = comparison_table(problem, runs, counts, validations, figures, fewest)
+    if as_json:
+        doc: dict[str, Any] = {"file": file, "slots": ks, "comparison": rows_as_json(table)}
+        doc["fewest"] = {k: v for k, v in fewest.to_json().items() if k != "timetable"}
+        doc["counts"] = counts.to_json() if counts is not None and hasattr(counts, "to_json") else None
+        if count_note:
+            doc["counts_note"] = count_note
+        doc["written"] = [str(p) for p in written]
+        print_json(doc)
+        return
+    _print_side_by_side(table, counts, fewest, count_note)
+
+
+SHOWN = [
+    ("Clash-free timetable exists", "Timetable exists"),
+    ("Fewest slots", "Fewest slots"),
+    ("Status", "Best timetable"),
+    ("Clash-free timetables", "Clash-free timetables"),
+    ("Penalty", "Penalty"),
+    ("Attendees with back-to-back", "Attendees with back-to-back"),
+    ("Attendees with two in a day", "Attendees with two in a day"),
+    ("Peak seats", "Most seats in one slot"),
+    ("Validator", "Validator"),
+]
+
+
+def _print_side_by_side(table, counts, fewest, count_note: str | None) -> None:
+    out = Table(title="Slot counts side by side", title_justify="left", show_lines=False)
+    out.add_column("", style="bold", no_wrap=True)
+    for row in table.rows:
+        out.add_column(f"{row[0]} slots", justify="right", overflow="fold", min_width=12, max_width=44)
+    index = {h: i for i, h in enumerate(table.headers)}
+    for header, label in SHOWN:
+        cells = []
+        for row in table.rows:
+            value = row[index[header]]
+            col = table.columns[index[header]]
+            text = value_text(value, col.kind)
+            if header == "Status" and value:
+                text += " (proven)" if row[index["Proven"]] and value in ("optimal", "infeasible") else ""
+            if header == "Peak seats" and value is not None:
+                text += f" ({row[index['Peak slot']]})"
+            if header == "Clash-free timetables" and text.isdigit() and len(text) > 15:
+                text = f"{text[:6]}… ({len(text)} digits)"
+            cells.append(text)
+        out.add_row(label, *cells)
+    console.print(out)
+    for row in table.rows:
+        reason = row[index["Reason"]]
+        if reason and row[index["Status"]] in ("infeasible", "unknown"):
+            console.print(f"[bold]{row[0]} slots[/bold]: {reason}", soft_wrap=True)
+    if count_note:
+        console.print(count_note)
+    if fewest is not None and fewest.upper is not None:
+        state = "proven" if fewest.proven else f"not proven; at least {fewest.lower}"
+        console.print(f"Fewest slots: {fewest.upper} ({state}: {fewest.lower_reason}).")
+
+
+def _count(problem: Problem, graph, ks: list[int], budget: float, slots_for) -> tuple[Any, str | None]:
+    """Counts of clash-free timetables for every K (fixed and barred slots respected), or None with a note."""
+    try:
+        from ..counting import count_timetables
+    except ImportError:
+        return None, "Counting is not available in this installation; the number of timetables is not shown."
+    pinned = any(e.fixed_slot or e.barred_slots for e in problem.events.values())
+    if not pinned:
+        return count_timetables(graph, ks, budget_seconds=budget), None
+    reports = []
+    for k in ks:
+        slots = slots_for(k)
+        fixed = {c: problem.slot_number(e.fixed_slot, slots) for c, e in problem.events.items() if e.fixed_slot}
+        barred = {c: {n for n in (problem.slot_number(r, slots) for r in e.barred_slots) if n}
+                  for c, e in problem.events.items() if e.barred_slots}
+        fixed = {c: n for c, n in fixed.items() if n}
+        reports.append(count_timetables(graph, [k], budget_seconds=budget / len(ks), fixed=fixed, barred=barred))
+    merged = reports[0]
+    merged.counts = [c for r in reports for c in r.counts]
+    return merged, "Counts respect fixed and barred slots."
+
+
+@contextlib.contextmanager
+def _step(enabled: bool, text: str):
+    if enabled and err_console.is_terminal:
+        with err_console.status(text + " …"):
+            yield
+    else:
+        yield
