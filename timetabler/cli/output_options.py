@@ -102,9 +102,6 @@ def publish(
     if outputs.get("ics"):
         from ..export.icalendar_files import check_dated
 
-        if not solved:
-            raise InputError(Finding("No timetable was found, so there is nothing to write as iCalendar files (--ics). "
-                                     "Nothing was written."))
         for run in solved:
             check_dated(run)
     validations = dict(validations or {})
@@ -132,7 +129,8 @@ def publish(
     if outputs.get("ics"):
         from ..export.icalendar_files import write_calendars
 
-        solved = [r for r in runs if r.assignment and r.status in ("optimal", "feasible")]
+        if not solved and not quiet:
+            err_console.print("[yellow]warning:[/yellow] no timetable was found, so no iCalendar files were written.")
         for run in solved:
             folder = Path(outputs["ics"])
             if len(solved) > 1:
