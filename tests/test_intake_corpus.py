@@ -232,7 +232,7 @@ CASES = [
     # --- errors: the other sheets ------------------------------------------------------
     Case("a rule naming an unknown event",
          lambda t: _sheet_with_extras(t, "a.xlsx", {"Rules": [["Rule", "First event", "Other events"], ["before", "MAT101", "MAT999"]]}),
-         error=("not in the enrolments", "Rules", 2, None)),
+         error=("not in the enrolments", "Rules", 2, "C (Other events)")),
     Case("an unknown rule",
          lambda t: _sheet_with_extras(t, "a.xlsx", {"Rules": [["Rule", "First event", "Other events"], ["after", "MAT101", "PHY110"]]}),
          error=("not one timetabler knows", "Rules", 2, "A (Rule)")),

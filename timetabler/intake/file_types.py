@@ -217,21 +217,20 @@ def _strict(name: str, data: bytes, codec: str, label: str) -> str:
 def sniff_delimiter(text: str, prefer: str = ",") -> str:
     """The delimiter among comma, semicolon, tab and pipe that splits the lines most consistently.
 
-    For each candidate the lines (up to 200 non-blank ones) are split as CSV; the score is
-    the share of lines having the most common number of fields (when that number is at
-    least 2), then that number of fields. Title rows above the header rarely change the
-    most common count. With no candidate splitting anything, ``prefer`` is returned.
+    For each candidate the lines (up to 200 non-blank ones) are split as CSV; among the
+    lines it splits into two or more fields, the most common number of fields is found, and
+    the score is the share of all lines having that number, then the number itself. Title
+    rows above the header (one field) do not count against a delimiter. With no candidate splitting anything, ``prefer`` is returned.
     """
     lines = [line for line in text.splitlines()[:400] if line.strip()][:200]
     best: tuple[float, int, int] | None = None
     choice = prefer
     for d in DELIMITERS:
         counts = [len(r) for r in csv.reader(lines, delimiter=d)]
-        if not counts:
+        split = [c for c in counts if c >= 2]
+        if not split:
             continue
-        mode, freq = Counter(counts).most_common(1)[0]
-        if mode < 2:
-            continue
+        mode, freq = Counter(split).most_common(1)[0]
         score = (freq / len(counts), mode, 1 if d == prefer else 0)
         if best is None or score > best:
             best, choice = score, d

@@ -160,6 +160,8 @@ def time_value(value: object) -> _dt.time | None:
     if not isinstance(value, str):
         return None
     text = value.strip().casefold().replace(" ", "")
+    if text in ("noon", "midday"):
+        return _dt.time(12, 0)
     m = re.fullmatch(r"(\d{1,2})(?:[:.h](\d{2}))?(?::(\d{2}))?(am|pm)?", text)
     if not m or (m.group(2) is None and m.group(4) is None):
         return None

@@ -57,11 +57,15 @@ def cross_check(problem: Problem, extras: Extras, findings: FindingList, event_w
             return base
         return events_table.where(base.row, column)
 
+    rules_table = extras.tables.get("Rules")
     for rule in problem.rules:
-        for code in rule.events:
+        for i, code in enumerate(rule.events):
             if code not in problem.events:
+                where = rule.where
+                if rules_table is not None and where is not None:
+                    where = rules_table.where(where.row, "First event" if i == 0 else "Other events")
                 findings.error(f"The rule '{rule.describe()}' names an event that is not in the enrolments or the events sheet.",
-                               rule.where, found=code, expected="an event code used elsewhere in the workbook",
+                               where, found=code, expected="an event code used elsewhere in the workbook",
                                suggestion="Check the spelling of the code.")
     lengths = [s.length_minutes for s in slots if s.length_minutes]
     room_types = {(r.room_type or "").casefold() for r in problem.rooms}
