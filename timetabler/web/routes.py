@@ -219,6 +219,12 @@ async def overview(request: Request) -> Response:
             counts = await run_in_threadpool(an.count, analysis, ks, settings.count_budget_seconds)
         except InputError as exc:
             count_error = str(exc).replace(str(stored.path), stored.name)
+        except Exception:  # noqa: BLE001 - a counting bug must not hide the figures or stop a solve
+            log.exception("counting failed for slot counts %s", ks)
+            count_error = (
+                "Counting the timetables failed: this is a bug in timetabler (the details are in the window "
+                "where the page server runs). The figures above and solving below still work."
+            )
     rows = list(getattr(counts, "counts", []) or [])
     chart = count_chart_svg([bar_from_count(c) for c in rows]) if rows else None
     problem = analysis.problem
@@ -243,6 +249,7 @@ async def overview(request: Request) -> Response:
             "weights": an.weight_fields(problem.weights),
             "rules": [rule.describe() for rule in problem.rules],
             "has_slots_sheet": bool(problem.slots),
+            "has_rooms": bool(problem.rooms),
             "settings": settings,
             "job": job_of(stored),
             "options": options,
@@ -319,7 +326,9 @@ async def start_solve(request: Request) -> Response:
     plan = [(k, an.slot_list(chosen, k, per_day)) for k in ks]
     from ..scheduling import SolveOptions
 
-    options = _solve_options(SolveOptions, time_limit=limit, sessions_per_day=per_day)
+    rooms_shared = bool(problem.rooms) and fields.get("room_sharing") == "on"
+    rooms_split = bool(problem.rooms) and fields.get("room_splitting") == "on"
+    options = SolveOptions(time_limit=float(limit), room_sharing=rooms_shared, room_splitting=rooms_split)
     job = SolveJob(chosen, plan, options, time_limit=float(limit))
     with stored.lock:
         if job_running(stored):
@@ -330,6 +339,8 @@ async def start_solve(request: Request) -> Response:
             "slot counts": " ".join(map(str, ks)),
             "sessions per day": per_day,
             "time limit per slot count (s)": limit,
+            "rooms shared by events of equal length": "yes" if rooms_shared else "no",
+            "large events split over rooms": "yes" if rooms_split else "no",
             "rules kept": len(rules),
             "rules switched off": len(problem.rules) - len(rules),
             **{f"weight: {w['label']}": getattr(weights, w["name"]) for w in an.weight_fields(weights)},
@@ -345,19 +356,6 @@ def _whole(text: str, label: str, low: int, high: int) -> int:
     if not text.isdigit() or not low <= int(text) <= high:
         raise ValueError(f"{label} must be a whole number from {low} to {high}; it was '{text}'.")
     return int(text)
-
-
-def _solve_options(options_class, **wanted):
-    """Build the engine's SolveOptions from the values the page collects, by the names it has."""
-    names = {f.name for f in dataclasses.fields(options_class)} if dataclasses.is_dataclass(options_class) else set()
-    aliases = {"time_limit": ("time_limit", "time_limit_seconds", "seconds")}
-    kwargs = {}
-    for key, value in wanted.items():
-        for name in aliases.get(key, (key,)):
-            if name in names:
-                kwargs[name] = value
-                break
-    return options_class(**kwargs)
 
 
 async def solving(request: Request) -> Response:
@@ -409,7 +407,7 @@ async def timetable(request: Request) -> Response:
         return RedirectResponse(f"/files/{stored.token}/solving", status_code=303)
     problem = stored.state["job_problem"]
     analysis = _current_analysis(stored)
-    checks = await run_in_threadpool(_validate_all, problem, runs)
+    checks = await run_in_threadpool(_validate_all, problem, runs, job.options)
     counts_by_k = _counts_by_k(analysis, [r.slots for r in runs])
     shown_k = request.query_params.get("slots")
     with_timetable = [r for r in runs if r.assignment]
@@ -432,13 +430,18 @@ async def timetable(request: Request) -> Response:
     )
 
 
-def _validate_all(problem, runs: list) -> dict[int, Any]:
+def _validate_all(problem, runs: list, options: Any) -> dict[int, Any]:
+    """The independent validator's verdict on every timetable (the same check ``solve`` reports)."""
     from ..scheduling import validate
 
     out = {}
     for run in runs:
         if run.assignment:
-            out[run.slots] = validate(problem, run.slot_list, run.assignment, getattr(run, "rooms", None) or None)
+            out[run.slots] = validate(
+                problem, run.slot_list, run.assignment, getattr(run, "rooms", None) or None,
+                room_sharing=bool(getattr(options, "room_sharing", False)),
+                room_splitting=bool(getattr(options, "room_splitting", False)),
+            )
     return out
 
 
@@ -478,7 +481,7 @@ async def download(request: Request) -> Response:
             budget = request.app.state.settings.count_budget_seconds
             outputs[kind] = await run_in_threadpool(_make_output, stored, kind, runs, budget)
         except InputError as exc:
-            return message(request, 500, "The file could not be written", str(exc).replace(str(stored.folder), "the private folder"),
+            return message(request, 400, "This file cannot be made", str(exc).replace(str(stored.folder), "the private folder"),
                            back=f"/files/{stored.token}/timetable")
     return FileResponse(outputs[kind], filename=name, media_type=media_type)
 
@@ -513,7 +516,11 @@ def _counts_report(analysis: an.Analysis | None, ks: list[int], budget: float):
     for key, report in analysis.counts.items():
         if set(ks) <= set(key):
             return report
-    return an.count(analysis, sorted(set(ks)), budget)
+    try:
+        return an.count(analysis, sorted(set(ks)), budget)
+    except Exception:  # noqa: BLE001 - the files are still worth having without the counts
+        log.exception("counting failed for slot counts %s", ks)
+        return None
 
 
 # -- delete -------------------------------------------------------------------------------------------

@@ -1,0 +1,174 @@
+"""The whole job in a real browser: headless Chromium drives ``timetabler serve``.
+
+Uploads the sample workbook of the fictional Harrowgate Vale College, waits for the counts
+table, runs a solve, downloads the workbook and opens it with openpyxl. A screenshot of
+each page is written under the test's temporary folder; with
+``TIMETABLER_SCREENSHOT_DIR`` set, the overview and timetable screenshots are also copied
+there (that is how ``docs/screenshots/`` is made for the README).
+
+Needs Debian's ``chromium`` and ``chromium-driver`` packages and the ``selenium`` package;
+skips, saying so, when any is missing. The server binds 127.0.0.1 on a free port and is
+stopped at the end whatever happens; the browser fetches nothing but that address.
+"""
+
+from __future__ import annotations
+
+import os
+import shutil
+import signal
+import socket
+import subprocess
+import sys
+import time
+import urllib.request
+from pathlib import Path
+
+import openpyxl
+import pytest
+
+CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
+DRIVER = shutil.which("chromedriver")
+
+selenium = pytest.importorskip("selenium", reason="selenium is not installed (pip install '.[test]')")
+if CHROMIUM is None or DRIVER is None:
+    pytest.skip(
+        "Chromium or its driver is not installed (Debian: apt-get install chromium chromium-driver); "
+        "the real-browser test is skipped",
+        allow_module_level=True,
+    )
+
+from selenium import webdriver  # noqa: E402
+from selenium.webdriver.chrome.service import Service  # noqa: E402
+from selenium.webdriver.common.by import By  # noqa: E402
+from selenium.webdriver.support import expected_conditions as EC  # noqa: E402
+from selenium.webdriver.support.ui import WebDriverWait  # noqa: E402
+
+SAMPLE = Path(__file__).resolve().parents[2] / "sample_data" / "exam_week.xlsx"
+
+
+def _free_port() -> int:
+    with socket.socket() as sock:
+        sock.bind(("127.0.0.1", 0))
+        return sock.getsockname()[1]
+
+
+@pytest.fixture
+def server(tmp_path):
+    """``timetabler serve`` on a free loopback port; stopped (Ctrl+C, then kill) at the end."""
+    port = _free_port()
+    log = open(tmp_path / "server.log", "wb")
+    process = subprocess.Popen(
+        [sys.executable, "-m", "timetabler", "serve", "--port", str(port), "--count-seconds", "10"],
+        stdout=log, stderr=subprocess.STDOUT, env={**os.environ, "PYTHONUNBUFFERED": "1"},
+    )
+    url = f"http://127.0.0.1:{port}/"
+    deadline = time.monotonic() + 30
+    while True:
+        try:
+            with urllib.request.urlopen(url, timeout=2) as response:
+                if response.status == 200:
+                    break
+        except OSError:
+            pass
+        if process.poll() is not None or time.monotonic() > deadline:
+            process.kill()
+            log.close()
+            pytest.fail("the page server did not start:\n" + (tmp_path / "server.log").read_text(errors="replace"))
+        time.sleep(0.2)
+    try:
+        yield url
+    finally:
+        process.send_signal(signal.SIGINT)
+        try:
+            process.wait(15)
+        except subprocess.TimeoutExpired:
+            process.kill()
+            process.wait(5)
+        log.close()
+
+
+@pytest.fixture
+def browser(tmp_path):
+    downloads = tmp_path / "downloads"
+    downloads.mkdir()
+    options = webdriver.ChromeOptions()
+    options.binary_location = CHROMIUM
+    for arg in ("--headless=new", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+                "--disable-background-networking", "--disable-component-update", "--disable-sync",
+                "--disable-default-apps", "--disable-extensions", "--disable-dev-shm-usage",
+                "--window-size=1280,1700", f"--user-data-dir={tmp_path / 'profile'}"):
+        options.add_argument(arg)
+    options.add_experimental_option("prefs", {
+        "download.default_directory": str(downloads),
+        "download.prompt_for_download": False,
+        "safebrowsing.enabled": False,
+    })
+    driver = webdriver.Chrome(service=Service(executable_path=DRIVER), options=options)
+    driver.execute_cdp_cmd("Browser.setDownloadBehavior", {"behavior": "allow", "downloadPath": str(downloads)})
+    driver.downloads = downloads
+    try:
+        yield driver
+    finally:
+        driver.quit()
+
+
+def _shot(driver, folder: Path, name: str) -> Path:
+    """Screenshot of the whole page (the window is grown to the page's height first)."""
+    height = driver.execute_script("return Math.max(document.body.scrollHeight, document.documentElement.scrollHeight)")
+    driver.set_window_size(1280, min(max(int(height) + 40, 900), 6000))
+    path = folder / f"{name}.png"
+    assert driver.save_screenshot(str(path))
+    assert path.stat().st_size > 10_000  # a blank page compresses to far less
+    return path
+
+
+def test_upload_count_solve_download_in_chromium(server, browser, tmp_path):
+    shots = tmp_path / "screenshots"
+    shots.mkdir()
+    wait = WebDriverWait(browser, 60)
+
+    browser.get(server)
+    assert "Build a timetable" in browser.find_element(By.TAG_NAME, "h1").text
+    home = _shot(browser, shots, "1-upload")
+
+    browser.find_element(By.ID, "file-input").send_keys(str(SAMPLE))
+    browser.find_element(By.CSS_SELECTOR, "#upload-form button[type=submit]").click()
+    counts = wait.until(EC.presence_of_element_located((By.ID, "counts")))
+    rows = counts.find_elements(By.CSS_SELECTOR, "tbody tr")
+    assert len(rows) >= 3
+    assert "exact" in counts.text
+    assert browser.find_element(By.CSS_SELECTOR, "figure.chart svg").is_displayed()
+    overview = _shot(browser, shots, "2-overview")
+
+    limit = browser.find_element(By.ID, "time_limit")
+    limit.clear()
+    limit.send_keys("8")
+    ticked = [box for box in browser.find_elements(By.CSS_SELECTOR, "input[name=slots]") if box.is_selected()]
+    assert ticked, "the page suggests slot counts to solve"
+    browser.find_element(By.ID, "solve-button").click()
+    wait.until(EC.presence_of_element_located((By.ID, "progress")))
+    progress = _shot(browser, shots, "3-solving")
+
+    grid = WebDriverWait(browser, 120).until(EC.presence_of_element_located((By.ID, "grid")))
+    assert "Session 1" in grid.text
+    assert "passed" in browser.find_element(By.ID, "compare").text
+    timetable = _shot(browser, shots, "4-timetable")
+
+    browser.find_element(By.ID, "download-xlsx").click()
+    deadline = time.monotonic() + 60
+    target = browser.downloads / "timetable.xlsx"
+    while not target.exists() and time.monotonic() < deadline:
+        time.sleep(0.2)
+    assert target.exists(), f"no download; folder holds {list(browser.downloads.iterdir())}"
+    book = openpyxl.load_workbook(target)
+    assert len(book.sheetnames) >= 3
+    codes = {str(c.value) for sheet in book.worksheets for row in sheet.iter_rows() for c in row if c.value}
+    assert {"BIO101", "MTH110"} <= codes
+
+    for path in (home, overview, progress, timetable):
+        assert path.exists()
+    keep = os.environ.get("TIMETABLER_SCREENSHOT_DIR")
+    if keep:
+        Path(keep).mkdir(parents=True, exist_ok=True)
+        for path in (overview, timetable):
+            shutil.copy(path, Path(keep) / f"web-{path.stem.split('-', 1)[1]}.png")

@@ -1,0 +1,412 @@
+"""Every route of the local web page through the ASGI test client, bad uploads included.
+
+The page must call the same engines as the commands: its figures are checked against
+``timetabler inspect --json`` on the same file, its counts against closed forms of the
+chromatic polynomial, its timetables against a direct clash check from the enrolments
+and the independent validator, and its downloads are opened with openpyxl and zipfile.
+"""
+
+from __future__ import annotations
+
+import html
+import io
+import re
+import time
+import zipfile
+from pathlib import Path
+
+import openpyxl
+import pytest
+from starlette.testclient import TestClient
+
+from timetabler.web import analysis as web_analysis
+from timetabler.web.app import WebSettings, create_app
+
+pytestmark = pytest.mark.filterwarnings("ignore::DeprecationWarning")
+
+BASE = "http://127.0.0.1:8765"
+SAME = {"origin": BASE}
+THIN = "\u2009"
+
+# A triangle of clashing exams (A, B, C pairwise share a student) and one free exam D.
+# Its conflict graph is K3 plus an isolated vertex, so the number of clash-free timetables
+# with k slots is k(k-1)(k-2) * k: the chromatic polynomial of a complete graph is the
+# falling factorial, and it multiplies over components (standard; e.g. Read, "An
+# introduction to chromatic polynomials", J. Combin. Theory 4 (1968)).
+TRIANGLE_CSV = "Student,Exam\nHV-S0001,A\nHV-S0001,B\nHV-S0002,B\nHV-S0002,C\nHV-S0003,A\nHV-S0003,C\nHV-S0004,D\n"
+
+
+def triangle_count(k: int) -> int:
+    return k * (k - 1) * (k - 2) * k
+
+
+@pytest.fixture
+def client():
+    with TestClient(create_app(WebSettings(count_budget_seconds=5.0)), base_url=BASE) as c:
+        yield c
+
+
+def post_file(client, name: str, data: bytes, **headers):
+    return client.post("/upload", files={"file": (name, io.BytesIO(data), "application/octet-stream")},
+                       headers={**SAME, **headers}, follow_redirects=False)
+
+
+def upload_ok(client, name: str, data: bytes) -> str:
+    response = post_file(client, name, data)
+    assert response.status_code == 303, response.text[:500]
+    location = response.headers["location"]
+    assert re.fullmatch(r"/files/[A-Za-z0-9_-]{16,64}", location)
+    return location.rsplit("/", 1)[1]
+
+
+def plain(text: str) -> str:
+    """Page text with tags removed and thin spaces dropped (for finding numbers)."""
+    return re.sub(r"\s+", " ", re.sub(r"<[^>]+>", " ", text)).replace(THIN, "")
+
+
+# -- first page, template, static files --------------------------------------------------------
+
+
+def test_first_page_offers_an_accessible_upload_and_the_template(client):
+    r = client.get("/")
+    assert r.status_code == 200
+    assert '<label for="file-input">' in r.text and 'id="file-input" name="file"' in r.text
+    assert 'href="/template.xlsx"' in r.text
+    csp = r.headers["content-security-policy"]
+    assert "default-src 'none'" in csp and "http" not in csp
+    assert r.headers["x-frame-options"] == "DENY" and r.headers["x-content-type-options"] == "nosniff"
+
+
+def test_nothing_is_fetched_from_anywhere_else():
+    """Templates, styles and scripts name no other site: the page works offline."""
+    web = Path(__file__).resolve().parent.parent / "timetabler" / "web"
+    files = [p for p in web.rglob("*") if p.suffix in (".html", ".css", ".js", ".py")]
+    assert len(files) >= 10
+    for path in files:
+        text = path.read_text(encoding="utf-8")
+        for url in re.findall(r"https?://[^\s\"'<>)]+", text):
+            assert url.startswith("http://www.w3.org/2000/svg") or "127.0.0.1" in url, f"{path.name}: {url}"
+        assert "@import" not in text and "fonts.googleapis" not in text
+
+
+def test_static_files_are_served(client):
+    assert client.get("/static/style.css").headers["content-type"].startswith("text/css")
+    js = client.get("/static/page.js")
+    assert js.status_code == 200 and "solving" not in js.text.split("\n")[0]
+    assert client.get("/static/../app.py").status_code == 404
+
+
+def test_template_workbook_downloads_and_opens(client):
+    r = client.get("/template.xlsx")
+    assert r.status_code == 200
+    assert 'filename="timetabler-template.xlsx"' in r.headers["content-disposition"]
+    book = openpyxl.load_workbook(io.BytesIO(r.content))
+    assert "Enrolments" in book.sheetnames
+
+
+# -- upload and overview -----------------------------------------------------------------------
+
+
+def test_overview_shows_the_same_figures_as_inspect(client, run_command, exam_week_xlsx):
+    reference = run_command("inspect", exam_week_xlsx, "--json").json()
+    token = upload_ok(client, "exam_week.xlsx", exam_week_xlsx.read_bytes())
+    r = client.get(f"/files/{token}")
+    assert r.status_code == 200
+    figures = re.search(r'<table class="figures" id="figures">(.*?)</table>', r.text, re.S).group(1)
+    cells = dict(re.findall(r'<th scope="row">([^<]+)</th><td>([^<]+)</td>', figures))
+    assert int(cells["Events"].replace(THIN, "")) == reference["events"]
+    assert int(cells["Attendees"].replace(THIN, "")) == reference["attendees"]
+    assert int(cells["Enrolments"].replace(THIN, "")) == reference["enrolments"]
+    assert int(cells["Clashing pairs of events"].replace(THIN, "")) == reference["conflict_pairs"]
+    assert int(cells["Largest set of mutually clashing events"]) == reference["max_clique"]
+    assert int(cells["Groups of events linked by clashes"]) == reference["components"]
+    assert f"At least <strong>{reference['max_clique']}</strong> slots" in r.text
+    # The private folder never shows; the user's own file name does.
+    assert "exam_week.xlsx" in r.text and "timetabler-web-" not in r.text
+
+
+def test_counts_table_matches_the_closed_form(client):
+    token = upload_ok(client, "triangle.csv", TRIANGLE_CSV.encode())
+    r = client.get(f"/files/{token}?slots=2-5")
+    assert r.status_code == 200
+    table = re.search(r'<table class="counts" id="counts">(.*?)</table>', r.text, re.S).group(1)
+    rows = re.findall(r'<th scope="row" class="num">(\d+)</th>\s*<td class="num">(.*?)</td>', table, re.S)
+    shown = {int(k): plain(cell) for k, cell in rows}
+    assert sorted(shown) == [2, 3, 4, 5]
+    assert shown[2].startswith("none")
+    for k in (3, 4, 5):
+        assert shown[k].split()[0] == str(triangle_count(k)) and "exact" in shown[k]
+    assert "<svg" in r.text and 'role="img"' in r.text
+
+
+def test_big_counts_show_every_digit(client):
+    # 30 exams with no shared student: P = k^30 (edgeless graph), 5^30 has 21 digits.
+    csv = "Student,Exam\n" + "".join(f"HV-S{i:04d},E{i:02d}\n" for i in range(30))
+    token = upload_ok(client, "free.csv", csv.encode())
+    r = client.get(f"/files/{token}?slots=5")
+    assert str(5**30) in r.text.replace(THIN, "")
+    assert "9.31 × 10^20" in r.text
+
+
+def test_bad_slot_choices_are_explained(client):
+    token = upload_ok(client, "triangle.csv", TRIANGLE_CSV.encode())
+    r = client.get(f"/files/{token}?slots=five")
+    assert r.status_code == 200 and "'five' is not a number of slots" in html.unescape(r.text)
+
+
+def test_unreadable_file_lists_findings_and_can_be_read_again(client):
+    csv = "Col1,Col2\nHV-S0001,A\nHV-S0001,B\n"
+    token = upload_ok(client, "odd-headers.csv", csv.encode())
+    r = client.get(f"/files/{token}")
+    assert r.status_code == 422
+    text = html.unescape(r.text)
+    assert '<table class="findings">' in text and "Col1, Col2" in text
+    assert "Header of the attendee column" in text and "--attendee-column" not in text
+    assert "Traceback" not in text and "timetabler-web-" not in text
+    r = client.get(f"/files/{token}", params={"attendee_column": "Col1", "event_column": "Col2"})
+    assert r.status_code == 200
+    assert re.search(r"<th scope=\"row\">Events</th><td>2</td>", r.text)
+
+
+def test_warnings_are_shown_with_their_row_and_column(client):
+    csv = "Student,Exam\nHV-S0001,X1\nHV-S0001,X2\n,X3\nTotal,5\n"
+    token = upload_ok(client, "with-gaps.csv", csv.encode())
+    r = client.get(f"/files/{token}")
+    assert r.status_code == 200
+    table = html.unescape(re.search(r'<table class="findings">(.*?)</table>', r.text, re.S).group(1))
+    rows = re.findall(r"<tr class=\"warning\">\s*<td>(.*?)</td>\s*<td>(.*?)</td>", table, re.S)
+    where = [plain(w) for w, _ in rows]
+    # Header on row 1, so the blank attendee is on row 4 and the total on row 5 (as a spreadsheet shows them).
+    assert any("row 4" in w and "Student" in w for w in where), where
+    assert any("row 5" in w for w in where), where
+
+
+@pytest.mark.parametrize(
+    "name, data, status, words",
+    [
+        ("enrolments.csv", b"%PDF-1.5 not a table", 400, "PDF"),
+        ("enrolments.xlsx", b"\x89PNG\r\n\x1a\n" + b"\x00" * 64, 400, "PNG"),
+        ("enrolments.xls", b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1" + b"\x00" * 64, 400, ".xlsx workbook"),
+        ("empty.csv", b"", 400, "nothing in it"),
+        ("notes.zip", None, 400, "not a workbook"),
+    ],
+)
+def test_bad_uploads_are_refused_with_a_message(client, name, data, status, words):
+    if data is None:
+        buffer = io.BytesIO()
+        with zipfile.ZipFile(buffer, "w") as archive:
+            archive.writestr("notes.txt", "hello")
+        data = buffer.getvalue()
+    r = post_file(client, name, data)
+    assert r.status_code == status
+    assert words in r.text and "Traceback" not in r.text
+    assert len(client.app.state.store) == 0  # nothing kept
+
+
+def test_too_large_uploads_are_refused_before_they_are_kept():
+    with TestClient(create_app(WebSettings(max_upload_bytes=2048)), base_url=BASE) as c:
+        r = post_file(c, "big.csv", b"Student,Exam\n" + b"HV-S0001,A\n" * 1000)
+        assert r.status_code == 413 and "larger than" in r.text
+        # Just under the cap passes (with the form's own bytes on top).
+        assert post_file(c, "ok.csv", b"Student,Exam\n" + b"HV-S0001,A\n" * 150).status_code == 303
+        assert len(c.app.state.store) == 1
+
+
+def test_a_request_without_a_file_is_answered(client):
+    r = client.post("/upload", data={"nothing": "here"}, headers=SAME)
+    assert r.status_code == 400 and "Choose a file" in r.text
+    r = client.post("/upload", content=b"raw", headers={**SAME, "content-type": "text/plain"})
+    assert r.status_code == 400
+
+
+def test_client_file_names_never_reach_the_file_system(client):
+    token = upload_ok(client, "../../../../tmp/evil.csv", TRIANGLE_CSV.encode())
+    upload = client.app.state.store.get(token)
+    assert upload.path.parent.parent == client.app.state.store.root
+    assert upload.path.name == "enrolments.csv" and upload.name == "evil.csv"
+
+
+# -- safety: origin, host, unknown tokens, errors ------------------------------------------------
+
+
+def test_posts_from_elsewhere_are_refused(client):
+    data = {"file": ("t.csv", io.BytesIO(TRIANGLE_CSV.encode()), "text/csv")}
+    assert client.post("/upload", files=data).status_code == 403  # no Origin, no Referer
+    data["file"][1].seek(0)
+    assert client.post("/upload", files=data, headers={"origin": "http://evil.example"}).status_code == 403
+    data["file"][1].seek(0)
+    r = client.post("/upload", files=data, headers={**SAME, "sec-fetch-site": "cross-site"})
+    assert r.status_code == 403 and "did not come from the timetabler page" in r.text
+    data["file"][1].seek(0)
+    # A Referer of the page itself is enough when a browser sends no Origin.
+    r = client.post("/upload", files=data, headers={"referer": BASE + "/"}, follow_redirects=False)
+    assert r.status_code == 303
+    assert len(client.app.state.store) == 1
+
+
+def test_other_host_names_are_refused():
+    with TestClient(create_app(), base_url="http://timetabler.evil.example") as c:
+        r = c.get("/")
+        assert r.status_code == 400 and "only at its own address" in r.text
+
+
+def test_unknown_files_are_a_plain_404(client):
+    for path in ("/files/AAAAAAAAAAAAAAAAAAAAAAAA", "/files/..%2F..%2Fetc", "/files/AAAAAAAAAAAAAAAAAAAAAAAA/timetable",
+                 "/files/AAAAAAAAAAAAAAAAAAAAAAAA/download/timetable.xlsx"):
+        r = client.get(path)
+        assert r.status_code == 404, path
+        assert "no longer here" in r.text or "Not here" in r.text
+    assert client.get("/nowhere").status_code == 404
+
+
+def test_a_bug_shows_a_message_not_a_traceback(monkeypatch):
+    def broken(path, options):
+        raise RuntimeError("secret internals /home/clerk")
+
+    monkeypatch.setattr(web_analysis, "analyse", broken)
+    with TestClient(create_app(), base_url=BASE, raise_server_exceptions=False) as c:
+        token = upload_ok(c, "t.csv", TRIANGLE_CSV.encode())
+        r = c.get(f"/files/{token}")
+        assert r.status_code == 500
+        assert "bug in timetabler" in r.text
+        assert "Traceback" not in r.text and "secret internals" not in r.text
+
+
+# -- solve, progress, stop, results, downloads, delete ------------------------------------------
+
+
+def wait_finished(client, token: str, seconds: float = 90.0) -> dict:
+    deadline = time.monotonic() + seconds
+    while time.monotonic() < deadline:
+        doc = client.get(f"/files/{token}/solving.json").json()
+        if doc["state"] not in ("running", "starting"):
+            return doc
+        time.sleep(0.2)
+    raise AssertionError("the solve did not finish in time")
+
+
+def test_solve_then_timetable_then_downloads(client):
+    token = upload_ok(client, "triangle.csv", TRIANGLE_CSV.encode())
+    assert client.get(f"/files/{token}").status_code == 200
+    assert client.get(f"/files/{token}/solving.json").json() == {"state": "none"}
+    r = client.post(f"/files/{token}/solve", data={"slots": ["2", "3"], "more_slots": "4", "sessions_per_day": "2",
+                                                   "time_limit": "5"}, headers=SAME, follow_redirects=False)
+    assert r.status_code == 303 and r.headers["location"] == f"/files/{token}/solving"
+    doc = wait_finished(client, token)
+    assert doc["state"] == "finished"
+    states = {s["slots"]: s["status"] for s in doc["slots"]}
+    assert states[2] == "infeasible" and states[3] in ("optimal", "feasible") and states[4] in ("optimal", "feasible")
+
+    page = client.get(f"/files/{token}/timetable")
+    assert page.status_code == 200
+    assert "passed" in page.text  # the independent validator's verdict
+    assert re.search(r"A, B, C|pairwise share|3 events", page.text)  # the reason 2 slots cannot work
+    grid = re.search(r'<table class="grid" id="grid">(.*?)</table>', page.text, re.S).group(1)
+    placed = dict()
+    for number, cell in re.findall(r'<td><div class="slot-head">Slot (\d+).*?</div>(.*?)</td>', grid, re.S):
+        for code in re.findall(r'<span class="code">([^<]+)</span>', cell):
+            placed[code] = int(number)
+    # Direct check from the enrolments, not through any project code: nobody sits two exams at once.
+    assert sorted(placed) == ["A", "B", "C", "D"]
+    assert len({placed["A"], placed["B"], placed["C"]}) == 3
+
+    book_bytes = client.get(f"/files/{token}/download/timetable.xlsx")
+    assert book_bytes.status_code == 200
+    book = openpyxl.load_workbook(io.BytesIO(book_bytes.content))
+    texts = {str(cell.value) for sheet in book.worksheets for row in sheet.iter_rows() for cell in row if cell.value is not None}
+    assert {"A", "B", "C", "D"} <= texts and "HV-S0001" in texts
+
+    csv_zip = client.get(f"/files/{token}/download/tables-csv.zip")
+    assert csv_zip.status_code == 200
+    with zipfile.ZipFile(io.BytesIO(csv_zip.content)) as archive:
+        names = archive.namelist()
+        assert names and all(n.endswith(".csv") for n in names)
+        assert any("HV-S0003" in archive.read(n).decode("utf-8-sig") for n in names)
+
+    # Generic slots have no dates, so calendars are not offered, and asking anyway is answered.
+    assert "need slots with dates" in page.text
+    r = client.get(f"/files/{token}/download/calendars-ics.zip")
+    assert r.status_code == 400 and "Traceback" not in r.text
+    assert client.get(f"/files/{token}/download/passwd").status_code == 404
+
+    # Delete: the folder goes, and the page says so afterwards.
+    folder = client.app.state.store.get(token).folder
+    r = client.post(f"/files/{token}/delete", headers=SAME)
+    assert r.status_code == 200 and "deleted" in r.text
+    assert not folder.exists()
+    assert client.get(f"/files/{token}").status_code == 404
+
+
+def test_one_solve_at_a_time_and_stop_ends_the_child(client, exam_week_xlsx):
+    token = upload_ok(client, "exam_week.xlsx", exam_week_xlsx.read_bytes())
+    assert client.get(f"/files/{token}?slots=6").status_code == 200
+    form = {"slots": ["6", "7"], "sessions_per_day": "2", "time_limit": "30"}
+    assert client.post(f"/files/{token}/solve", data=form, headers=SAME, follow_redirects=False).status_code == 303
+    second = client.post(f"/files/{token}/solve", data=form, headers=SAME)
+    assert second.status_code == 409 and "already running" in second.text
+    page = client.get(f"/files/{token}/solving")
+    assert page.status_code == 200 and 'id="stop-button"' in page.text
+    job = client.app.state.store.get(token).state["job"]
+    r = client.post(f"/files/{token}/stop", headers=SAME, follow_redirects=False)
+    assert r.status_code == 303
+    assert job.state == "cancelled" and job.wait(10)
+    assert job._process.poll() is not None  # the solver's process is gone
+    assert client.get(f"/files/{token}/solving.json").json()["state"] == "cancelled"
+    # After a stop a new solve may start at once.
+    assert client.post(f"/files/{token}/solve", data={**form, "slots": ["7"], "time_limit": "3"},
+                       headers=SAME, follow_redirects=False).status_code == 303
+    assert wait_finished(client, token)["state"] == "finished"
+
+
+def test_bad_solve_choices_are_explained(client):
+    token = upload_ok(client, "triangle.csv", TRIANGLE_CSV.encode())
+    client.get(f"/files/{token}")
+    for data, words in [
+        ({"time_limit": "5"}, "at least one number of slots"),
+        ({"slots": ["3"], "time_limit": "zero"}, "Time limit must be a whole number"),
+        ({"slots": ["3"], "weight_back_to_back": "-4"}, "must be a whole number from 0 to 1000"),
+        ({"more_slots": "1-40"}, "at most"),
+    ]:
+        r = client.post(f"/files/{token}/solve", data=data, headers=SAME)
+        assert r.status_code == 400 and words in r.text, data
+
+
+def test_calendars_download_for_dated_slots(client, tmp_path):
+    from timetabler.intake.template import write_template
+
+    example = write_template(tmp_path / "example.xlsx", example=True)
+    token = upload_ok(client, "example.xlsx", Path(example).read_bytes())
+    page = client.get(f"/files/{token}")
+    assert page.status_code == 200, page.text[:2000]
+    slots = re.findall(r'name="slots" value="(\d+)"', page.text)
+    r = client.post(f"/files/{token}/solve", data={"slots": slots[-1:], "time_limit": "5"}, headers=SAME, follow_redirects=False)
+    assert r.status_code == 303
+    assert wait_finished(client, token)["state"] == "finished"
+    r = client.get(f"/files/{token}/download/calendars-ics.zip")
+    assert r.status_code == 200, r.text[:1000]
+    with zipfile.ZipFile(io.BytesIO(r.content)) as archive:
+        calendars = [n for n in archive.namelist() if n.endswith(".ics")]
+        assert calendars
+        assert archive.read(calendars[0]).startswith(b"BEGIN:VCALENDAR")
+
+
+def test_uploads_are_deleted_when_the_server_stops():
+    with TestClient(create_app(), base_url=BASE) as c:
+        upload_ok(c, "t.csv", TRIANGLE_CSV.encode())
+        root = c.app.state.store.root
+        assert any(root.iterdir())
+    assert not root.exists()
+
+
+def test_serve_command_help_teaches_and_a_busy_port_is_a_clear_error(run_command):
+    import socket
+
+    help_text = run_command("serve", "--help")
+    assert help_text.status == 0 and "nothing is sent" in help_text.stdout.replace("\n", " ").lower() or \
+        "stays on this computer" in help_text.stdout
+    with socket.socket() as sock:
+        sock.bind(("127.0.0.1", 0))
+        sock.listen()
+        port = sock.getsockname()[1]
+        result = run_command("serve", "--port", str(port))
+    assert result.status == 2 and "already in use" in result.stderr
