@@ -86,10 +86,14 @@ def command(port: int, open_browser: bool, host: str, max_upload_mb: int, count_
                 bound = sock.getsockname()[1]
         shown = f"[{host}]" if ":" in host else host
         url = f"http://{shown}:{bound}/"
-        err_console.print(f"timetabler page ready at [bold]{url}[/bold]  (Ctrl+C stops it and deletes the uploads)")
+        err_console.print(f"timetabler page ready at [bold]{url}[/bold]  (Ctrl+C stops it and deletes the uploads)",
+                          soft_wrap=True)
         if open_browser:
             webbrowser.open(url)
 
     threading.Thread(target=announce, daemon=True).start()
-    server.run()
-    err_console.print("Page stopped; uploaded files deleted.")
+    try:
+        server.run()
+    except KeyboardInterrupt:
+        pass  # uvicorn has already shut down cleanly (uploads deleted); Ctrl+C is the normal way to stop
+    err_console.print("Page stopped; uploaded files deleted.", soft_wrap=True)
