@@ -93,11 +93,12 @@ def test_icalendar_files_parse_back_with_the_icalendar_library(tmp_path, case):
 
 def test_icalendar_with_a_time_zone_carries_vtimezone(tmp_path, case):
     problem, run = case
-    write_calendars(tmp_path / "cal", problem=problem, run=run, personal=False, timezone="Europe/London")
-    cal = Calendar.from_ical((tmp_path / "cal" / "session.ics").read_bytes())
-    assert [str(tz["tzid"]) for tz in cal.walk("VTIMEZONE")] == ["Europe/London"]
-    start = next(iter(cal.walk("VEVENT"))).decoded("dtstart")
-    assert start.utcoffset() == dt.timedelta(hours=1)  # British Summer Time in June
+    write_calendars(tmp_path / "cal", problem=problem, run=run, timezone="Europe/London")
+    for path in [tmp_path / "cal" / "session.ics", tmp_path / "cal" / "attendees" / "HV-S0001.ics"]:
+        cal = Calendar.from_ical(path.read_bytes())
+        assert [str(tz["tzid"]) for tz in cal.walk("VTIMEZONE")] == ["Europe/London"]
+        start = next(iter(cal.walk("VEVENT"))).decoded("dtstart")
+        assert start.utcoffset() == dt.timedelta(hours=1)  # British Summer Time in June
 
 
 def test_icalendar_needs_dated_slots(tmp_path, case):

@@ -100,17 +100,30 @@ def write_calendars(folder: str | Path, *, problem: Problem, run: Any, show: Cal
     target = prepare_folder(folder)
     stamp = dt.datetime.now(dt.timezone.utc).replace(microsecond=0)
     entries = {code: _entry(problem, run, code, tz, stamp) for code in sorted(run.assignment)}
-    written = []
+    order = sorted(entries, key=lambda c: (run.assignment[c], c))
     session = _calendar(f"Timetable ({int(run.slots)} slots)")
-    for code in sorted(entries, key=lambda c: (run.assignment[c], c)):
+    for code in order:
         session.add_component(entries[code])
+    timezones = b""
     if tz is not None:
         session.add_missing_timezones()
+        timezones = b"".join(c.to_ical() for c in session.walk("VTIMEZONE"))
+    written = []
     path = check_target(target / "session.ics", inputs=[problem.source])
     written.append(write_safely(path, lambda tmp, cal=session: tmp.write_bytes(cal.to_ical())))
     if personal:
+        # Each VEVENT is serialised once and shared by every personal calendar that holds it:
+        # a personal calendar is its header, the time zones, its events, and the closing line.
+        blobs = {code: entries[code].to_ical() for code in order}
+        rank = {code: i for i, code in enumerate(order)}
         people = prepare_folder(target / "attendees")
+        head = _calendar(f"Personal timetable ({int(run.slots)} slots)").to_ical()
+        closing = b"END:VCALENDAR\r\n"
+        if not head.endswith(closing):  # pragma: no cover - the icalendar library's own layout
+            raise RuntimeError("unexpected iCalendar layout from the icalendar library")
+        head = head[: -len(closing)] + timezones
         used: set[str] = set()
+        jobs = []
         for attendee, codes in sorted(problem.events_by_attendee().items()):
             shown = show(attendee)
             stem = safe_file_stem(shown)
@@ -118,11 +131,9 @@ def write_calendars(folder: str | Path, *, problem: Problem, run: Any, show: Cal
             while stem.casefold() in used:
                 stem, i = f"{base}-{i}", i + 1
             used.add(stem.casefold())
-            cal = _calendar(f"Timetable of {shown}")
-            for code in sorted((c for c in codes if c in entries), key=lambda c: (run.assignment[c], c)):
-                cal.add_component(entries[code])
-            if tz is not None:
-                cal.add_missing_timezones()
-            path = check_target(people / f"{stem}.ics", inputs=[problem.source])
-            written.append(write_safely(path, lambda tmp, cal=cal: tmp.write_bytes(cal.to_ical())))
+            body = b"".join(blobs[c] for c in sorted((c for c in codes if c in blobs), key=rank.__getitem__))
+            jobs.append((check_target(people / f"{stem}.ics", inputs=[problem.source]),
+                         head + body + closing))
+        for path, data in jobs:
+            written.append(write_safely(path, lambda tmp, data=data: tmp.write_bytes(data)))
     return written
