@@ -244,3 +244,25 @@ def test_infeasible_only_gives_overview_and_comparison_with_the_reason(tmp_path)
     _, rows = rows_of(wb["Comparison"])
     assert rows[0]["Clash-free timetable exists"] == "no" and rows[0]["Reason"]
     assert rows[0]["Validator"] is None
+
+
+def test_overview_lists_rules_and_pinned_events_and_the_timetable_keeps_them(tmp_path):
+    from timetabler.model import Rule, RuleKind
+
+    problem = small_problem(rooms=False)
+    problem.rules = [Rule(RuleKind.BEFORE, ("PHY102", "MAT101")), Rule(RuleKind.DIFFERENT_DAYS, ("BIO104", "GEO106"))]
+    problem.events["HIS105"].fixed_slot = "1"
+    problem.events["CHE103"].barred_slots = ("2", "3")
+    slots = dated_slots(6)
+    run = solve_run(problem, slots)
+    verdict = validate(problem, slots, run.assignment)
+    assert verdict.ok, verdict.violations
+    path = write_workbook(tmp_path / "rules.xlsx", problem=problem, runs=[run])
+    wb = load_workbook(path)
+    text = [row[0] for row in wb["Overview"].iter_rows(values_only=True) if row and row[0]]
+    for rule in problem.rules:
+        assert rule.describe() in text
+    assert "HIS105: fixed to slot 1" in text and "CHE103: barred from 2, 3" in text
+    _, rows = rows_of(wb["Events"])
+    slot = {r["Event"]: r["Slot"] for r in rows}
+    assert slot["HIS105"] == 1 and slot["CHE103"] not in (2, 3) and slot["PHY102"] < slot["MAT101"]

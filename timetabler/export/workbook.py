@@ -278,6 +278,14 @@ def _free_seats_highlight(ws, table: PublishedTable, last_row: int) -> None:
         )
 
 
+def _estimate_highlight(ws, table: PublishedTable, last_row: int) -> None:
+    e = _col(table, "Exact")
+    ws.conditional_formatting.add(
+        f"A2:{get_column_letter(len(table.columns))}{last_row}",
+        FormulaRule(formula=[f'${e}2="no"'], fill=AMBER, font=AMBER_FONT),
+    )
+
+
 def _load_highlight(ws, table: PublishedTable, last_row: int) -> None:
     ws.conditional_formatting.add(
         _range(table, "Clashes", last_row), CellIsRule(operator="greaterThan", formula=["0"], fill=RED, font=RED_FONT)
@@ -359,6 +367,16 @@ def _overview(book: _Book, problem: Problem, runs, counts, reading, settings, va
         ws.append(["No rules given: only clashes are forbidden."])
     if problem.max_per_day:
         ws.append([f"At most {problem.max_per_day} events per attendee per day"])
+    pinned = [e for e in sorted(problem.events.values(), key=lambda e: e.code) if e.fixed_slot or e.barred_slots]
+    for event in pinned[:500]:
+        parts = []
+        if event.fixed_slot:
+            parts.append(f"fixed to slot {event.fixed_slot}")
+        if event.barred_slots:
+            parts.append(f"barred from {', '.join(event.barred_slots)}")
+        ws.append([c(ws, f"{event.code}: {'; '.join(parts)}")])
+    if len(pinned) > 500:
+        ws.append([f"… and {len(pinned) - 500} more events with fixed or barred slots (see the input file)"])
     ws.append([])
     ws.append([c(ws, "Weights (penalty per occurrence)", font=BOLD)])
     weights = problem.weights if isinstance(problem.weights, Weights) else Weights()
@@ -396,13 +414,17 @@ def _overview(book: _Book, problem: Problem, runs, counts, reading, settings, va
             ws.append([c(ws, str(w))])
     ws.append([])
     ws.append([c(ws, "Notes", font=BOLD)])
-    ws.append(["Numbers of timetables are written as text: a spreadsheet number keeps only 15 significant digits."])
+    if counts is None or not getattr(counts, "counts", None):
+        ws.append(["The numbers of clash-free timetables were not counted for this workbook."])
+    else:
+        ws.append(["Numbers of timetables are written as text: a spreadsheet number keeps only 15 significant digits."])
+        ws.append(["The numbers of timetables count clash-free timetables only; rooms and other rules may rule some out."])
     ws.append(["Attendee figures (back-to-back, two in a day) are recomputed from the enrolments, not taken from the solver."])
 
 
 def _counts_sheet(book: _Book, counts: Any) -> None:
     table = counts_table(counts)
-    ws = book.table_sheet("Counts", table)
+    ws = book.table_sheet("Counts", table, highlight=_estimate_highlight)
     n = len(table.rows)
     if n == 0:
         return
