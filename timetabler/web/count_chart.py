@@ -76,7 +76,10 @@ def count_chart_svg(bars: list[ChartBar], *, width: int = 560, height: int = 260
     while tick <= top_value:
         ty = top + plot_h - plot_h * tick / top_value
         out.append(f'<line x1="{left}" y1="{ty:.1f}" x2="{width - right}" y2="{ty:.1f}" class="grid" stroke="#ccc" stroke-width="1"/>')
-        out.append(f'<text x="{left - 6}" y="{ty + 4:.1f}" text-anchor="end" class="tick" font-size="12">10^{tick}</text>')
+        out.append(
+            f'<text x="{left - 6}" y="{ty + 4:.1f}" text-anchor="end" class="tick" font-size="12">'
+            f'10<tspan baseline-shift="super" font-size="9">{tick}</tspan></text>'
+        )
         tick += step
     out.append(f'<line x1="{left}" y1="{top}" x2="{left}" y2="{top + plot_h}" stroke="#333" stroke-width="1"/>')
     out.append(f'<line x1="{left}" y1="{top + plot_h}" x2="{width - right}" y2="{top + plot_h}" stroke="#333" stroke-width="1"/>')
@@ -99,7 +102,7 @@ def count_chart_svg(bars: list[ChartBar], *, width: int = 560, height: int = 260
             label_y = y - 6
         else:
             label_y = top + plot_h - 6
-        out.append(f'<text x="{cx:.1f}" y="{label_y:.1f}" text-anchor="middle" class="value" font-size="12">{escape(b.label)}</text>')
+        out.append(f'<text x="{cx:.1f}" y="{label_y:.1f}" text-anchor="middle" class="value" font-size="12">{_label_markup(b.label)}</text>')
         out.append(f'<text x="{cx:.1f}" y="{top + plot_h + 18:.1f}" text-anchor="middle" class="slots" font-size="13">{b.slots}</text>')
     out.append(f'<text x="{left + plot_w / 2:.1f}" y="{height - 6}" text-anchor="middle" font-size="13">number of slots</text>')
     out.append(
@@ -107,6 +110,14 @@ def count_chart_svg(bars: list[ChartBar], *, width: int = 560, height: int = 260
     )
     out.append("</svg>")
     return "\n".join(out)
+
+
+def _label_markup(label: str) -> str:
+    """``≈ 10^40.5`` as SVG text with the power raised."""
+    if "10^" not in label:
+        return escape(label)
+    head, power = label.split("10^", 1)
+    return f'{escape(head)}10<tspan baseline-shift="super" font-size="9">{escape(power)}</tspan>'
 
 
 def _nice_step(top: float) -> int:

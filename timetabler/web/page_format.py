@@ -3,13 +3,16 @@
 from __future__ import annotations
 
 import math
+import re
+
+from markupsafe import Markup
 
 
 def group_digits(n: int) -> str:
     """A whole number with thin spaces between groups of three digits (readable, copyable).
 
-    >>> group_digits(1234567)
-    '1 234 567'
+    >>> group_digits(1234567) == "1\u2009234\u2009567"
+    True
     """
     text = str(abs(int(n)))
     groups = []
@@ -41,6 +44,16 @@ def power_of_ten(log10: float | None) -> str:
     if log10 == -math.inf:
         return "0"
     return f"10^{log10:.1f}"
+
+
+def superscripts(text: str) -> Markup:
+    """Write the powers of ten of a formatted figure as superscripts, for the page.
+
+    >>> str(superscripts("9.31 × 10^20"))
+    '9.31 × 10<sup>20</sup>'
+    """
+    escaped = Markup.escape(text)
+    return Markup(re.sub(r"10\^(-?[0-9.]+)", r"10<sup>\1</sup>", str(escaped)))
 
 
 def seconds(value: float | None) -> str:
@@ -75,4 +88,5 @@ FILTERS = {
     "seconds": seconds,
     "number": number,
     "digits": digits,
+    "sup": superscripts,
 }
