@@ -266,3 +266,28 @@ def test_overview_lists_rules_and_pinned_events_and_the_timetable_keeps_them(tmp
     _, rows = rows_of(wb["Events"])
     slot = {r["Event"]: r["Slot"] for r in rows}
     assert slot["HIS105"] == 1 and slot["CHE103"] not in (2, 3) and slot["PHY102"] < slot["MAT101"]
+
+
+def test_moves_sheet_lists_every_event_the_repair_moved(tmp_path):
+    pytest.importorskip("timetabler.scheduling")
+    from timetabler.scheduling import SolveOptions, solve
+
+    problem = small_problem(rooms=False)
+    slots = dated_slots(5)
+    before = solve(problem, slots, SolveOptions(time_limit=5, seed=1, deterministic=True))
+    # a late enrolment that clashes with the earlier timetable: six papers in five slots, so
+    # some slot holds two papers; a new candidate sits both
+    by_slot = defaultdict(list)
+    for code, n in before.assignment.items():
+        by_slot[n].append(code)
+    first, second = next(sorted(codes) for codes in by_slot.values() if len(codes) > 1)[:2]
+    problem.enrolments.append(("HV-S0099", first))
+    problem.enrolments.append(("HV-S0099", second))
+    after = solve(problem, slots, SolveOptions(time_limit=5, seed=1, deterministic=True), previous=before.assignment)
+    assert after.status in ("optimal", "feasible") and after.moves
+    path = write_workbook(tmp_path / "repair.xlsx", problem=problem, runs=[after])
+    _, rows = rows_of(load_workbook(path)["Moves"])
+    assert [(r["Event"], r["From slot"], r["To slot"]) for r in rows] == [(m["event"], m["from"], m["to"]) for m in after.moves]
+    for r in rows:
+        assert r["To slot"] == after.assignment[r["Event"]] != before.assignment[r["Event"]]
+        assert r["New date"].date() == slots[r["To slot"] - 1].date

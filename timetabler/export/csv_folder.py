@@ -19,7 +19,7 @@ from ..errors import Finding, InputError
 from ..model import Problem
 from .safe_write import check_target, write_safely
 from .tables import (
-    TEXT, PublishedTable, comparison_table, counts_table, events_table, has_timetable, load_table, personal_table,
+    TEXT, PublishedTable, comparison_table, counts_table, events_table, has_timetable, load_table, moves_table, personal_table,
     rooms_table, run_figures, seats_table, value_text,
 )
 
@@ -75,5 +75,8 @@ def write_csv_folder(folder: str | Path, *, problem: Problem, runs: Sequence[Any
         if rooms is not None:
             tables.append(("rooms" + suffix, rooms))
         tables.append(("attendee-load" + suffix, load_table(problem, run)))
+        moves = moves_table(problem, run)
+        if moves is not None:
+            tables.append(("moves" + suffix, moves))
     paths = [check_target(target / f"{stem}.csv", inputs=[problem.source]) for stem, _ in tables]  # all, before any write
     return [write_safely(path, lambda tmp, t=table: write_table_csv(tmp, t)) for path, (_, table) in zip(paths, tables)]

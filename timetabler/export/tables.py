@@ -357,6 +357,27 @@ def rooms_table(problem: Problem, run: Any) -> PublishedTable | None:
     return table
 
 
+def moves_table(problem: Problem, run: Any) -> PublishedTable | None:
+    """Events moved from an earlier timetable (repair mode), with the attendees each move affects."""
+    moves = getattr(run, "moves", None) or []
+    if not moves:
+        return None
+    slots = _run_slots(run)
+    sizes = problem.event_sizes()
+    table = PublishedTable(
+        "Moves",
+        [Column("Event"), Column("From slot", INT), Column("To slot", INT), Column("New slot label"), Column("New date", DATE),
+         Column("New start", TIME), Column("Attendees affected", INT)],
+        title="Events moved from the earlier timetable",
+    )
+    for move in moves:
+        code, to = move.get("event"), move.get("to")
+        slot = slots[to - 1] if isinstance(to, int) and 1 <= to <= len(slots) else None
+        table.rows.append([code, move.get("from"), to, slot.label if slot else "", slot.date if slot else None,
+                           slot.start if slot else None, sizes.get(code, 0)])
+    return table
+
+
 def grid_rows(problem: Problem, run: Any) -> tuple[list[str], list[tuple[str, dt.date | None, list[str]]]]:
     """The timetable as a grid: session headers, and per day (label, date, cell text per session)."""
     slots = _run_slots(run)

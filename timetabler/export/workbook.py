@@ -20,6 +20,8 @@ Personal timetables
     One row per attendee and event (sortable, filterable: personal timetables).
 Seats / Rooms
     Seats needed in each slot against the seat limit; room occupancy by slot (when rooms are given).
+Moves
+    In repair mode: every event moved from the earlier timetable, and how many attendees it affects.
 Attendee load
     Per attendee: events, most in one day, clashes, back-to-back, same day, overnight,
     Carter proximity cost, flagged.
@@ -55,7 +57,7 @@ from ..model import Problem, Weights
 from .safe_write import check_target, write_safely
 from .tables import (
     BIGINT, DATE, FLAG, FLOAT, INT, TIME, PublishedTable, RunFigures, comparison_table, counts_table, events_table,
-    grid_rows, has_timetable, load_table, personal_table, rooms_table, run_figures, seats_table, value_text,
+    grid_rows, has_timetable, load_table, moves_table, personal_table, rooms_table, run_figures, seats_table, value_text,
     verdict_words,
 )
 
@@ -125,6 +127,9 @@ def write_workbook(
             book.table_sheet(
                 "Attendee load" + suffix, load_table(problem, run, loads=figures[int(run.slots)].loads), highlight=_load_highlight
             )
+            moves = moves_table(problem, run)
+            if moves is not None:
+                book.table_sheet("Moves" + suffix, moves)
         wb.save(tmp)
 
     return write_safely(target, build)
