@@ -95,3 +95,14 @@ def test_solve_plot_needs_counts_or_says_why(run_command, dated_input, tmp_path)
     assert result.status == 0, result.stderr
     assert png.read_bytes()[:4] == b"\x89PNG"
     assert "Counts" in load_workbook(tmp_path / "x.xlsx").sheetnames
+
+
+def test_a_published_workbook_can_be_kept_and_repaired(run_command, dated_input, tmp_path):
+    first = tmp_path / "first.xlsx"
+    result = run_command("solve", dated_input, "--slots", "6", "--time-limit", "5", "--json", "--out", first)
+    assert result.status == 0, result.stderr
+    before = result.json()["runs"][0]["assignment"]
+    again = run_command("solve", dated_input, "--slots", "6", "--time-limit", "5", "--json", "--keep", first)
+    assert again.status == 0, again.stderr
+    run = again.json()["runs"][0]
+    assert run["assignment"] == before  # nothing changed, so nothing moves
