@@ -290,16 +290,24 @@ def test_solve_then_timetable_then_downloads(client):
     assert client.get(f"/files/{token}").status_code == 200
     assert client.get(f"/files/{token}/solving.json").json() == {"state": "none"}
     r = client.post(f"/files/{token}/solve", data={"slots": ["2", "3"], "more_slots": "4", "sessions_per_day": "2",
-                                                   "time_limit": "5"}, headers=SAME, follow_redirects=False)
+                                                   "time_limit": "5", "find_fewest": "on"},
+                    headers=SAME, follow_redirects=False)
     assert r.status_code == 303 and r.headers["location"] == f"/files/{token}/solving"
     doc = wait_finished(client, token)
     assert doc["state"] == "finished"
     states = {s["slots"]: s["status"] for s in doc["slots"]}
     assert states[2] == "infeasible" and states[3] in ("optimal", "feasible") and states[4] in ("optimal", "feasible")
 
+    assert doc["fewest"]["upper"] == 3 and doc["fewest"]["proven"] is True
+
     page = client.get(f"/files/{token}/timetable")
     assert page.status_code == 200
-    assert "passed" in page.text  # the independent validator's verdict
+    # A triangle needs exactly 3 slots (its chromatic number), and the clique proves it.
+    assert re.search(r'id="fewest">Fewest slots: <strong>3</strong> — proven', page.text)
+    compare = re.search(r'<table class="compare" id="compare">(.*?)</table>', page.text, re.S).group(1)
+    verdicts = re.search(r'<th scope="row">Validator</th>(.*?)</tr>', compare, re.S).group(1)
+    # The independent validator's verdict: nothing for 2 slots (no timetable), valid for 3 and 4.
+    assert [plain(c).strip() for c in re.findall(r"<td[^>]*>(.*?)</td>", verdicts, re.S)] == ["", "valid", "valid"]
     assert re.search(r"A, B, C|pairwise share|3 events", page.text)  # the reason 2 slots cannot work
     grid = re.search(r'<table class="grid" id="grid">(.*?)</table>', page.text, re.S).group(1)
     placed = dict()

@@ -151,7 +151,7 @@ def test_upload_count_solve_download_in_chromium(server, browser, tmp_path):
 
     grid = WebDriverWait(browser, 120).until(EC.presence_of_element_located((By.ID, "grid")))
     assert "Session 1" in grid.text
-    assert "passed" in browser.find_element(By.ID, "compare").text
+    assert "valid" in browser.find_element(By.ID, "compare").text
     timetable = _shot(browser, shots, "4-timetable")
 
     browser.find_element(By.ID, "download-xlsx").click()

@@ -78,33 +78,59 @@ def _receive(stream: Any) -> tuple | None:
     return pickle.loads(data)
 
 
+def _throttled(out: Any, tag: str, key: Any):
+    last = [0.0]
+
+    def progress(*args: Any, **kwargs: Any) -> None:
+        now = time.monotonic()
+        if now - last[0] < PROGRESS_EVERY:
+            return
+        last[0] = now
+        _send(out, (tag, key, progress_fields(args, kwargs)))
+
+    return progress
+
+
 def _child_main() -> None:
-    """Body of the child process: read the job from stdin, solve each slot count, report on stdout."""
+    """Body of the child process: read the job from stdin, solve each slot count, report on stdout.
+
+    Each timetable is checked by the independent validator here, as the ``compare`` command
+    does, and the check travels with the run (``run.validation``). With ``fewest_per_day``
+    set, the fewest-slots search runs last.
+    """
     out = sys.stdout.buffer
     sys.stdout = sys.stderr  # anything the engine prints must not corrupt the channel
     try:
-        problem, plan, options, previous = pickle.load(sys.stdin.buffer)
-        from timetabler.scheduling import solve
+        problem, plan, options, previous, fewest_per_day = pickle.load(sys.stdin.buffer)
+        from timetabler.conflicts import conflict_graph
+        from timetabler.scheduling import fewest_slots, solve, validate
 
+        graph = conflict_graph(problem)
         for k, slots in plan:
             _send(out, ("start", k, time.time()))
-            last = [0.0]
-
-            def progress(*args: Any, _k: int = k, **kwargs: Any) -> None:
-                now = time.monotonic()
-                if now - last[0] < PROGRESS_EVERY:
-                    return
-                last[0] = now
-                _send(out, ("progress", _k, progress_fields(args, kwargs)))
-
-            run = solve(problem, slots, options, previous=previous, progress=progress)
+            run = solve(problem, slots, options, previous=previous, progress=_throttled(out, "progress", k), graph=graph.copy())
+            if run.assignment:
+                run.validation = validate(
+                    problem, slots, run.assignment, run.rooms or None,
+                    room_sharing=bool(getattr(options, "room_sharing", False)),
+                    room_splitting=bool(getattr(options, "room_splitting", False)),
+                )
             _send(out, ("run", k, run))
+        if fewest_per_day is not None:
+            _send(out, ("start", FEWEST, time.time()))
+            result = fewest_slots(problem, per_day=fewest_per_day, options=options,
+                                  progress=_throttled(out, "progress", FEWEST), graph=graph.copy())
+            _send(out, ("fewest", FEWEST, result))
         _send(out, ("done",))
     except BaseException as exc:  # noqa: BLE001 - reported to the parent, never shown as a traceback
         try:
             _send(out, ("error", f"{type(exc).__name__}: {exc}", traceback.format_exc()))
         except OSError:
             pass
+
+
+#: Key of the fewest-slots search among the progress rows (slot counts are 1 and up).
+FEWEST = 0
 
 
 @dataclass
@@ -156,6 +182,9 @@ class SolveJob:
     options: Any = None
     previous: dict | None = None
     time_limit: float = 30.0
+    #: Sessions per day for the fewest-slots search, run after the slot counts; None: no search.
+    fewest_per_day: int | None = None
+    fewest: Any = None
     state: str = "starting"  # starting | running | finished | cancelled | failed
     error: str | None = None
     runs: dict[int, Any] = field(default_factory=dict)
@@ -165,6 +194,8 @@ class SolveJob:
 
     def __post_init__(self) -> None:
         self.slots = {k: SlotProgress(k) for k, _ in self.plan}
+        if self.fewest_per_day is not None:
+            self.slots[FEWEST] = SlotProgress(FEWEST)
         self._lock = threading.Lock()
         self._process: Any = None
         self._watcher: threading.Thread | None = None
@@ -179,7 +210,8 @@ class SolveJob:
             stdout=subprocess.PIPE,
             close_fds=True,
         )
-        payload = pickle.dumps((self.problem, self.plan, self.options, self.previous), protocol=pickle.HIGHEST_PROTOCOL)
+        payload = pickle.dumps((self.problem, self.plan, self.options, self.previous, self.fewest_per_day),
+                               protocol=pickle.HIGHEST_PROTOCOL)
         self.state = "running"
         self._watcher = threading.Thread(target=self._watch, args=(payload,), name="timetabler-solve-watch", daemon=True)
         self._watcher.start()
@@ -281,6 +313,11 @@ class SolveJob:
                 bound = getattr(run, "bound", None)
                 if bound is not None:
                     item.bound = bound
+            elif kind == "fewest":
+                self.fewest = message[2]
+                item = self.slots[FEWEST]
+                item.state, item.finished = "finished", time.time()
+                item.status = "proven" if getattr(self.fewest, "proven", False) else "not proven"
             elif kind == "done":
                 self.state, self.finished = "finished", time.time()
                 return True
@@ -299,7 +336,20 @@ class SolveJob:
                 "time_limit": self.time_limit,
                 "elapsed": round((self.finished or time.time()) - self.started, 1),
                 "slots": [self.slots[k].to_json() for k, _ in self.plan],
+                "fewest": self._fewest_json(),
             }
+
+    def _fewest_json(self) -> dict | None:
+        item = self.slots.get(FEWEST)
+        if item is None:
+            return None
+        doc = item.to_json()
+        doc.pop("slots")
+        found = self.fewest
+        doc["lower"] = getattr(found, "lower", None)
+        doc["upper"] = getattr(found, "upper", None)
+        doc["proven"] = getattr(found, "proven", None)
+        return doc
 
 
 if __name__ == "__main__":

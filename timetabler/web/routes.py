@@ -329,7 +329,8 @@ async def start_solve(request: Request) -> Response:
     rooms_shared = bool(problem.rooms) and fields.get("room_sharing") == "on"
     rooms_split = bool(problem.rooms) and fields.get("room_splitting") == "on"
     options = SolveOptions(time_limit=float(limit), room_sharing=rooms_shared, room_splitting=rooms_split)
-    job = SolveJob(chosen, plan, options, time_limit=float(limit))
+    find_fewest = fields.get("find_fewest") == "on"
+    job = SolveJob(chosen, plan, options, time_limit=float(limit), fewest_per_day=per_day if find_fewest else None)
     with stored.lock:
         if job_running(stored):
             return message(request, 409, "A solve is already running for this file", "Only one solve runs per file at a time.",
@@ -341,6 +342,7 @@ async def start_solve(request: Request) -> Response:
             "time limit per slot count (s)": limit,
             "rooms shared by events of equal length": "yes" if rooms_shared else "no",
             "large events split over rooms": "yes" if rooms_split else "no",
+            "fewest slots searched": "yes" if find_fewest else "no",
             "rules kept": len(rules),
             "rules switched off": len(problem.rules) - len(rules),
             **{f"weight: {w['label']}": getattr(weights, w["name"]) for w in an.weight_fields(weights)},
@@ -400,15 +402,15 @@ def _finished_runs(stored: StoredUpload) -> list:
 async def timetable(request: Request) -> Response:
     stored = upload_of(request)
     job = job_of(stored)
-    runs = _finished_runs(stored)
     if job is None:
         return RedirectResponse(f"/files/{stored.token}", status_code=303)
     if job.running:
         return RedirectResponse(f"/files/{stored.token}/solving", status_code=303)
+    runs = _finished_runs(stored)
     problem = stored.state["job_problem"]
     analysis = _current_analysis(stored)
-    checks = await run_in_threadpool(_validate_all, problem, runs, job.options)
-    counts_by_k = _counts_by_k(analysis, [r.slots for r in runs])
+    counts = _cached_counts(analysis, [r.slots for r in runs])
+    table = await run_in_threadpool(_comparison, problem, runs, counts, job.fewest)
     shown_k = request.query_params.get("slots")
     with_timetable = [r for r in runs if r.assignment]
     shown = next((r for r in with_timetable if str(r.slots) == shown_k), with_timetable[0] if with_timetable else None)
@@ -419,8 +421,8 @@ async def timetable(request: Request) -> Response:
             "upload": stored,
             "job": job,
             "runs": runs,
-            "checks": checks,
-            "counts_by_k": counts_by_k,
+            "comparison": table,
+            "fewest": job.fewest,
             "shown": shown,
             "grid": an.grid(problem, shown) if shown is not None else None,
             "with_timetable": with_timetable,
@@ -430,30 +432,42 @@ async def timetable(request: Request) -> Response:
     )
 
 
-def _validate_all(problem, runs: list, options: Any) -> dict[int, Any]:
-    """The independent validator's verdict on every timetable (the same check ``solve`` reports)."""
-    from ..scheduling import validate
+def _comparison(problem, runs: list, counts: Any, fewest: Any) -> dict:
+    """The side-by-side of the ``compare`` command and the workbook (export.tables), turned for the page:
+    one row per figure, one column per slot count."""
+    from ..export.tables import comparison_table, value_text
 
-    out = {}
-    for run in runs:
-        if run.assignment:
-            out[run.slots] = validate(
-                problem, run.slot_list, run.assignment, getattr(run, "rooms", None) or None,
-                room_sharing=bool(getattr(options, "room_sharing", False)),
-                room_splitting=bool(getattr(options, "room_splitting", False)),
-            )
-    return out
+    validations = {r.slots: r.validation for r in runs if getattr(r, "validation", None) is not None}
+    table = comparison_table(problem, runs, counts, validations, None, fewest)
+    skip = {"Slots"}
+    rows = []
+    for i, column in enumerate(table.columns):
+        if column.header in skip:
+            continue
+        values = [row[i] for row in table.rows]
+        if all(v in (None, "") for v in values):
+            continue
+        rows.append({"label": column.header, "kind": column.kind, "values": [_cell(v, column.kind, value_text) for v in values]})
+    return {"slots": [row[0] for row in table.rows], "rows": rows}
 
 
-def _counts_by_k(analysis: an.Analysis | None, ks: list[int]) -> dict[int, Any]:
+def _cell(value: Any, kind: str, value_text) -> dict:
+    numeric = isinstance(value, (int, float)) and not isinstance(value, bool)
+    if kind == "bigint" and isinstance(value, int):
+        return {"text": value, "big": True, "numeric": True}
+    if numeric and kind == "float" and isinstance(value, float):
+        return {"text": f"{value:.1f}" if abs(value) >= 10 else f"{value:.2f}", "numeric": True}
+    return {"text": value_text(value, kind), "numeric": numeric}
+
+
+def _cached_counts(analysis: an.Analysis | None, ks: list[int]) -> Any:
+    """A count report the overview already made that covers these slot counts, or None."""
     if analysis is None:
-        return {}
-    out = {}
-    for report in analysis.counts.values():
-        for item in getattr(report, "counts", []) or []:
-            if item.slots in ks:
-                out.setdefault(item.slots, item)
-    return out
+        return None
+    for key, report in analysis.counts.items():
+        if set(ks) <= set(key):
+            return report
+    return None
 
 
 # -- downloads --------------------------------------------------------------------------------------
@@ -495,17 +509,24 @@ def _make_output(stored: StoredUpload, kind: str, runs: list, budget: float) -> 
     counts = _counts_report(analysis, [r.slots for r in runs], budget)
     reading = analysis.reading if analysis is not None else None
     settings = {"input file": stored.name, **stored.state.get("job_settings", {})}
+    job = job_of(stored)
+    extra = {
+        "validations": {r.slots: r.validation for r in runs if getattr(r, "validation", None) is not None},
+        "fewest": job.fewest if job is not None else None,
+    }
     out = stored.folder / "out"
     out.mkdir(exist_ok=True)
     if kind == "xlsx":
         target = out / "timetable.xlsx"
-        publish({"out": str(target)}, problem=problem, runs=runs, counts=counts, reading=reading, settings=settings, quiet=True)
+        publish({"out": str(target)}, problem=problem, runs=runs, counts=counts, reading=reading, settings=settings,
+                quiet=True, **extra)
         return target
     folder = out / kind
     if folder.exists():
         shutil.rmtree(folder)
     key = "csv" if kind == "csv" else "ics"
-    publish({key: str(folder)}, problem=problem, runs=runs, counts=counts, reading=reading, settings=settings, quiet=True)
+    publish({key: str(folder)}, problem=problem, runs=runs, counts=counts, reading=reading, settings=settings,
+            quiet=True, **extra)
     return an.zip_folder(folder, out / f"{kind}.zip")
 
 
@@ -513,9 +534,9 @@ def _counts_report(analysis: an.Analysis | None, ks: list[int], budget: float):
     """A count report covering the solved slot counts (counted now if the page has not yet)."""
     if analysis is None or not analysis.summary.events:
         return None
-    for key, report in analysis.counts.items():
-        if set(ks) <= set(key):
-            return report
+    cached = _cached_counts(analysis, ks)
+    if cached is not None:
+        return cached
     try:
         return an.count(analysis, sorted(set(ks)), budget)
     except Exception:  # noqa: BLE001 - the files are still worth having without the counts

@@ -40,7 +40,13 @@
     var stateLine = document.getElementById("job-state");
     var stopping = false;
     function update(doc) {
-      doc.slots.forEach(function (s) {
+      var rows = doc.slots.slice();
+      if (doc.fewest) {
+        var f = Object.assign({}, doc.fewest, { slots: "fewest", best: null, bound: null });
+        f.status = doc.fewest.upper === null || doc.fewest.upper === undefined ? "" : doc.fewest.upper + " slots, " + doc.fewest.status;
+        rows.push(f);
+      }
+      rows.forEach(function (s) {
         var row = document.getElementById("row-" + s.slots);
         if (!row) return;
         row.querySelector('[data-field="state"]').textContent = s.state + (s.phase ? " \u2014 " + s.phase : "");
