@@ -108,3 +108,12 @@ def test_compare_refuses_bad_arguments_with_status_2(run_command, enrolment_csv)
     assert result.status == 2 and "need a date for every slot" in result.stderr
     assert not (enrolment_csv.parent / "comparison.csv").exists()  # nothing written when an output cannot be made
     assert not same.exists()
+
+
+def test_big_counts_read_as_powers_of_ten_in_the_terminal():
+    from timetabler.cli.compare_command import readable_count
+
+    assert readable_count("1260") == "1,260"
+    assert readable_count("123456789012345") == "123,456,789,012,345"
+    assert readable_count("123456789012345678901234567890") == "1.23 × 10^29 (30 digits)"
+    assert readable_count("9" * 30) == "1.00 × 10^30 (30 digits)"  # rounds, never truncates

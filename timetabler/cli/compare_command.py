@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import contextlib
+from decimal import Decimal
 from typing import Any
 
 import click
@@ -129,8 +130,8 @@ def _print_side_by_side(table, counts, fewest, count_note: str | None) -> None:
                 text += " (proven)" if row[index["Proven"]] and value in ("optimal", "infeasible") else ""
             if header == "Peak seats" and value is not None:
                 text += f" ({row[index['Peak slot']]})"
-            if header == "Clash-free timetables" and text.isdigit() and len(text) > 15:
-                text = f"{text[:6]}… ({len(text)} digits)"
+            if header == "Clash-free timetables" and text.isdigit():
+                text = readable_count(text)
             cells.append(text)
         out.add_row(label, *cells)
     console.print(out)
@@ -143,6 +144,18 @@ def _print_side_by_side(table, counts, fewest, count_note: str | None) -> None:
     if fewest is not None and fewest.upper is not None:
         state = "proven" if fewest.proven else f"not proven; at least {fewest.lower}"
         console.print(f"Fewest slots: {fewest.upper} ({state}: {fewest.lower_reason}).")
+
+
+def readable_count(digits: str) -> str:
+    """An exact count for a reader: 1,260 up to 15 digits; beyond, 1.23 × 10^29 (30 digits).
+
+    >>> readable_count("1260"), readable_count("123456789012345678901234567890")
+    ('1,260', '1.23 × 10^29 (30 digits)')
+    """
+    if len(digits) <= 15:
+        return f"{int(digits):,}"
+    mantissa, exponent = f"{Decimal(digits):.2e}".split("e")
+    return f"{mantissa} × 10^{int(exponent)} ({len(digits)} digits)"
 
 
 def _count(problem: Problem, graph, ks: list[int], budget: float, slots_for) -> tuple[Any, str | None]:

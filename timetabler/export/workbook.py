@@ -68,7 +68,8 @@ RED_FONT = Font(color="9C0006")
 AMBER_FONT = Font(color="9C5700")
 BOLD = Font(bold=True)
 TITLE = Font(bold=True, size=14)
-WRAP = Alignment(wrap_text=True, vertical="top")
+WRAP = Alignment(wrap_text=True, vertical="top", horizontal="left")
+LEFT = Alignment(horizontal="left")
 NUMBER_FORMATS = {DATE: "yyyy-mm-dd", TIME: "hh:mm", FLOAT: "0.000", INT: "0"}
 TABLE_STYLE = "TableStyleMedium2"
 
@@ -166,7 +167,8 @@ class _Book:
     def sheet(self, name: str):
         return self.wb.create_sheet(_sheet_name(name))
 
-    def cell(self, ws, value: Any, kind: str | None = None, font: Font | None = None, wrap: bool = False) -> Any:
+    def cell(self, ws, value: Any, kind: str | None = None, font: Font | None = None, wrap: bool = False,
+             left: bool = False) -> Any:
         value = _clean(value)
         if isinstance(value, float) and value != value:  # NaN
             value = None
@@ -174,7 +176,7 @@ class _Book:
             value = None if value is None else ("yes" if value else "no")
         if kind == BIGINT and value is not None:
             value = str(value)
-        needs_cell = font is not None or wrap or kind in (DATE, TIME, FLOAT) or (isinstance(value, str) and value.startswith("="))
+        needs_cell = font is not None or wrap or left or kind in (DATE, TIME, FLOAT) or (isinstance(value, str) and value.startswith("="))
         if not needs_cell:
             return value
         c = WriteOnlyCell(ws, value=value)
@@ -186,6 +188,8 @@ class _Book:
             c.font = font
         if wrap:
             c.alignment = WRAP
+        elif left:
+            c.alignment = LEFT
         return c
 
     def table_name(self, base: str) -> str:
@@ -312,10 +316,11 @@ def _load_highlight(ws, table: PublishedTable, last_row: int) -> None:
 
 def _overview(book: _Book, problem: Problem, runs, counts, reading, settings, validations, figures, fewest) -> None:
     ws = book.sheet("Overview")
-    ws.column_dimensions["A"].width = 34
-    for letter in "BCDEFG":
+    ws.column_dimensions["A"].width = 50
+    ws.column_dimensions["B"].width = 40
+    for letter in "CDEF":
         ws.column_dimensions[letter].width = 16
-    ws.column_dimensions["F"].width = 18
+    ws.column_dimensions["F"].width = 24
     ws.column_dimensions["G"].width = 60
     c = book.cell
     source = getattr(problem, "source", "") or ""
@@ -329,13 +334,13 @@ def _overview(book: _Book, problem: Problem, runs, counts, reading, settings, va
         pass
     ws.append([])
     ws.append([c(ws, "Input", font=BOLD)])
-    ws.append(["File", c(ws, source)])
+    ws.append(["File", c(ws, source, left=True)])
     if reading is not None:
         for label, attr in (("Sheet", "sheet"), ("Attendee column", "attendee_column"), ("Event column", "event_column"),
                             ("Duplicate rows dropped", "duplicates_dropped")):
             value = getattr(reading, attr, None)
             if value is not None:
-                ws.append([label, c(ws, value)])
+                ws.append([label, c(ws, value, left=True)])
     graph = conflict_graph(problem)
     ws.append([])
     ws.append([c(ws, "Figures", font=BOLD)])
@@ -362,7 +367,8 @@ def _overview(book: _Book, problem: Problem, runs, counts, reading, settings, va
             rows.append(("How it was found", fewest.upper_reason))
         rows.append(("Fewest slots proven", bool(getattr(fewest, "proven", False))))
     for label, value in rows:
-        ws.append([label, c(ws, value, FLAG if isinstance(value, bool) else None, wrap=isinstance(value, str) and len(value) > 40)])
+        ws.append([label, c(ws, value, FLAG if isinstance(value, bool) else None, wrap=isinstance(value, str) and len(value) > 40,
+                            left=True)])
     ws.append([])
     ws.append([c(ws, "Rules", font=BOLD)])
     if problem.rules:
@@ -386,7 +392,7 @@ def _overview(book: _Book, problem: Problem, runs, counts, reading, settings, va
     ws.append([c(ws, "Weights (penalty per occurrence)", font=BOLD)])
     weights = problem.weights if isinstance(problem.weights, Weights) else Weights()
     for f in dataclasses.fields(weights):
-        ws.append([f.name.replace("_", " "), getattr(weights, f.name)])
+        ws.append([f.name.replace("_", " "), c(ws, getattr(weights, f.name), left=True)])
     if settings:
         ws.append([])
         ws.append([c(ws, "Settings", font=BOLD)])
@@ -397,7 +403,7 @@ def _overview(book: _Book, problem: Problem, runs, counts, reading, settings, va
                 value = ", ".join(f"{k2}={v2}" for k2, v2 in value.items())
             if isinstance(value, (list, tuple)):
                 value = ", ".join(str(v) for v in value)
-            ws.append([c(ws, str(key)), c(ws, value if isinstance(value, (int, float, str)) else str(value))])
+            ws.append([c(ws, str(key)), c(ws, value if isinstance(value, (int, float, str)) else str(value), left=True)])
     if runs:
         ws.append([])
         ws.append([c(ws, "Timetables", font=BOLD)])
