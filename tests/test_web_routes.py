@@ -285,7 +285,8 @@ def wait_finished(client, token: str, seconds: float = 90.0) -> dict:
     raise AssertionError("the solve did not finish in time")
 
 
-def test_solve_then_timetable_then_downloads(client):
+def test_solve_then_timetable_then_downloads(client, tmp_path, monkeypatch):
+    monkeypatch.setenv("XDG_CONFIG_HOME", str(tmp_path / "config"))  # the pseudonym key goes here
     token = upload_ok(client, "triangle.csv", TRIANGLE_CSV.encode())
     assert client.get(f"/files/{token}").status_code == 200
     assert client.get(f"/files/{token}/solving.json").json() == {"state": "none"}
@@ -323,6 +324,13 @@ def test_solve_then_timetable_then_downloads(client):
     book = openpyxl.load_workbook(io.BytesIO(book_bytes.content))
     texts = {str(cell.value) for sheet in book.worksheets for row in sheet.iter_rows() for cell in row if cell.value is not None}
     assert {"A", "B", "C", "D"} <= texts and "HV-S0001" in texts
+
+    hidden = client.get(f"/files/{token}/download/timetable.xlsx?pseudonyms=1")
+    assert hidden.status_code == 200 and "timetable-pseudonyms.xlsx" in hidden.headers["content-disposition"]
+    book = openpyxl.load_workbook(io.BytesIO(hidden.content))
+    texts = {str(cell.value) for sheet in book.worksheets for row in sheet.iter_rows() for cell in row if cell.value is not None}
+    assert not any("HV-S000" in t for t in texts) and any(t.startswith("P-") for t in texts)
+    assert (tmp_path / "config" / "timetabler" / "pseudonym-key").exists()
 
     csv_zip = client.get(f"/files/{token}/download/tables-csv.zip")
     assert csv_zip.status_code == 200

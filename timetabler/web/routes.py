@@ -277,7 +277,10 @@ def _current_analysis(stored: StoredUpload) -> an.Analysis | None:
 
 
 def _suggested(rows: list, analysis: an.Analysis) -> list[int]:
-    """Slot counts to tick by default: the fewest with a clash-free timetable found, and one more."""
+    """Slot counts to tick by default: every slot of the slots sheet when there is one; else the
+    fewest slots with a clash-free timetable counted, and one more."""
+    if analysis.problem.slots:
+        return [len(analysis.problem.slots)]
     possible = [
         int(r.slots)
         for r in rows
@@ -489,18 +492,20 @@ async def download(request: Request) -> Response:
         return message(request, 409, "Nothing to download yet", "Solve first; the files are made from the finished timetables.",
                        back=f"/files/{stored.token}")
     kind, media_type = DOWNLOADS[name]
+    pseudonyms = request.query_params.get("pseudonyms") == "1"
     outputs: dict = stored.state.setdefault("outputs", {})
-    if kind not in outputs:
+    if (kind, pseudonyms) not in outputs:
         try:
             budget = request.app.state.settings.count_budget_seconds
-            outputs[kind] = await run_in_threadpool(_make_output, stored, kind, runs, budget)
+            outputs[(kind, pseudonyms)] = await run_in_threadpool(_make_output, stored, kind, runs, budget, pseudonyms)
         except InputError as exc:
             return message(request, 400, "This file cannot be made", str(exc).replace(str(stored.folder), "the private folder"),
                            back=f"/files/{stored.token}/timetable")
-    return FileResponse(outputs[kind], filename=name, media_type=media_type)
+    shown = name.replace(".", "-pseudonyms.", 1) if pseudonyms else name
+    return FileResponse(outputs[(kind, pseudonyms)], filename=shown, media_type=media_type)
 
 
-def _make_output(stored: StoredUpload, kind: str, runs: list, budget: float) -> Path:
+def _make_output(stored: StoredUpload, kind: str, runs: list, budget: float, pseudonyms: bool = False) -> Path:
     """Write one download with the export layer's publish(), as ``solve --out/--csv/--ics`` do."""
     from ..cli.output_options import publish
 
@@ -514,18 +519,19 @@ def _make_output(stored: StoredUpload, kind: str, runs: list, budget: float) -> 
         "validations": {r.slots: r.validation for r in runs if getattr(r, "validation", None) is not None},
         "fewest": job.fewest if job is not None else None,
     }
-    out = stored.folder / "out"
+    wanted = {"pseudonyms": True} if pseudonyms else {}
+    out = stored.folder / ("out-pseudonyms" if pseudonyms else "out")
     out.mkdir(exist_ok=True)
     if kind == "xlsx":
         target = out / "timetable.xlsx"
-        publish({"out": str(target)}, problem=problem, runs=runs, counts=counts, reading=reading, settings=settings,
+        publish({"out": str(target), **wanted}, problem=problem, runs=runs, counts=counts, reading=reading, settings=settings,
                 quiet=True, **extra)
         return target
     folder = out / kind
     if folder.exists():
         shutil.rmtree(folder)
     key = "csv" if kind == "csv" else "ics"
-    publish({key: str(folder)}, problem=problem, runs=runs, counts=counts, reading=reading, settings=settings,
+    publish({key: str(folder), **wanted}, problem=problem, runs=runs, counts=counts, reading=reading, settings=settings,
             quiet=True, **extra)
     return an.zip_folder(folder, out / f"{kind}.zip")
 
