@@ -259,6 +259,13 @@ CASES = [
     Case("an event with nobody enrolled",
          lambda t: _sheet_with_extras(t, "a.xlsx", {"Events": [["Event", "Title"], ["MAT101", "Maths"], ["LAT200", "Latin"]]}),
          check=_warned("Nobody is enrolled on the event LAT200", row=3)),
+    Case("an events sheet under another name is still read",
+         lambda t: _sheet_with_extras(t, "a.xlsx", {"Exam details": [["Exam", "Title", "Duration"], ["MAT101", "Maths", 120]]}),
+         check=lambda r: (r.other_sheets == {"Events": "Exam details"} and r.problem.events["MAT101"].duration_minutes == 120)
+         or pytest.fail(r.describe())),
+    Case("a sheet whose name says nothing is reported, not guessed",
+         lambda t: _sheet_with_extras(t, "a.xlsx", {"Sheet2": [["Exam", "Title"], ["MAT101", "Maths"]]}),
+         check=_warned("'Sheet2' was not read")),
     Case("an event title that looks like a total row",
          lambda t: _sheet_with_extras(t, "a.xlsx", {"Events": [["Event", "Title"], ["MAT101", "Total"]]}),
          check=_warned("title looks like a total row", row=2, column="Title")),

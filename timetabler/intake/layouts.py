@@ -61,22 +61,45 @@ def _cell(row: list[object], i: int | None) -> object:
 def _attendee_rows(sheet: RawSheet, layout: Layout, file: str, findings: FindingList) -> RawEnrolments:
     out = RawEnrolments()
     header_keys = [key(h) for h in layout.headers]
+    attendee_header = layout.headers[layout.attendee] if layout.attendee is not None else None
+    totals: dict[object, bool] = {}
+
+    def total(value: object) -> bool:
+        try:
+            return totals[value]
+        except KeyError:
+            totals[value] = found = looks_like_total(value)
+            return found
+        except TypeError:
+            return looks_like_total(value)
     repeated_header_warned = False
+    memo: dict[object, str] = {}
+
+    def ident(value: object) -> str:
+        """identifier(), remembered per distinct cell value (ids repeat on many rows)."""
+        try:
+            return memo[value]
+        except KeyError:
+            memo[value] = text = identifier(value)
+            return text
+        except TypeError:  # unhashable cell value
+            return identifier(value)
+
     for r in range(layout.header_row + 1, len(sheet.rows) + 1):
         row = sheet.rows[r - 1]
         if all(is_blank(c) for c in row):
             out.blank_rows += 1
             continue
         out.rows_read += 1
-        who = identifier(_cell(row, layout.attendee))
+        who = ident(_cell(row, layout.attendee))
         cells = [_cell(row, i) for i in layout.events]
-        if [key(identifier(c)) for c in row] == header_keys[: len(row)] and who:
+        if who == attendee_header and [key(identifier(c)) for c in row] == header_keys[: len(row)]:
             if not repeated_header_warned:
                 findings.warn("The header row is repeated here (two exports pasted together?); the row was skipped.",
                               _where(file, sheet, r, layout, layout.attendee), found=who)
                 repeated_header_warned = True
             continue
-        if looks_like_total(who) or any(looks_like_total(c) for c in cells):
+        if total(who) or any(total(c) for c in cells):
             findings.warn("This looks like a total row, not an enrolment; it was skipped.",
                           _where(file, sheet, r, layout, layout.attendee), found=" | ".join(identifier(c) for c in row),
                           suggestion="Delete summary rows from the enrolment sheet.")
@@ -86,7 +109,7 @@ def _attendee_rows(sheet: RawSheet, layout: Layout, file: str, findings: Finding
             if layout.split_cells:
                 events.extend(split_list(c))
             else:
-                text = identifier(c)
+                text = ident(c)
                 if text:
                     if ";" in text or "," in text:
                         out.separators_seen += 1

@@ -24,6 +24,8 @@ LIST_SEPARATORS = re.compile(r"\s*[;,\n]\s*")
 def is_blank(value: object) -> bool:
     if value is None:
         return True
+    if type(value) is str:
+        return not value.strip()
     if isinstance(value, float) and math.isnan(value):
         return True
     if isinstance(value, str) and not value.strip():
@@ -39,6 +41,13 @@ def identifier(value: object) -> str:
     >>> identifier("00123"), identifier("  MA   101 ")
     ('00123', 'MA 101')
     """
+    if type(value) is str:
+        text = value.strip()
+        if "  " in text or "\u00a0" in text or "\t" in text or "\n" in text or "\r" in text:
+            text = " ".join(text.replace("\u00a0", " ").split())
+        if text.endswith("0") and "." in text and _FLOAT_INTEGER.match(text):  # "40001.0": a number exported as text
+            text = text.split(".")[0]
+        return text
     if is_blank(value):
         return ""
     if isinstance(value, bool):
@@ -187,9 +196,16 @@ def yes_no(value: object) -> bool | None:
     return None
 
 
+_TOTAL_STARTS = tuple(sorted({w.split()[0] for w in TOTAL_WORDS}))
+
+
 def looks_like_total(value: object) -> bool:
     """True for a cell such as ``Total``, ``Grand total:`` or ``TOTALS`` typed under the data."""
-    return key(identifier(value)) in TOTAL_WORDS
+    if type(value) is not str or len(value) > 20 or not value.lstrip()[:1].isalpha():
+        return False
+    if not value.strip().casefold().startswith(_TOTAL_STARTS):
+        return False
+    return key(value) in TOTAL_WORDS
 
 
 def fold(code: str, case_sensitive: bool) -> str:

@@ -200,6 +200,13 @@ def read_problem(path: str | Path, options: ReadOptions | None = None) -> Readin
                               f"only '{other[role].name}' was read.", Location(name, s.name))
                 continue
             other[role] = s
+    for s in book.sheets:
+        if s is sheet or s.name is None or not s.rows or is_note_sheet(s.name) or any(s is o for o in other.values()):
+            continue
+        findings.warn(f"The sheet '{s.name}' was not read: its name does not say what it holds.",
+                      Location(name, s.name),
+                      expected="Enrolments, or an optional sheet named Events, Slots, Rooms, Rules or Weights",
+                      suggestion="Rename it if it holds details timetabler should use.")
     extras = read_extras(other, name, findings)
     event_where = attach_event_details(problem, extras.events, lambda c: canonical(event_names, c))
     problem.slots = [s for s, _ in extras.slots]

@@ -101,10 +101,21 @@ def key(text: object) -> str:
 
 
 def sheet_role(name: str) -> str | None:
-    """Which optional sheet a sheet name denotes (``Events``, ``Slots``, ...), or None."""
+    """Which optional sheet a sheet name denotes (``Events``, ``Slots``, ...), or None.
+
+    The whole name is tried first (``Exams``), then each of its words, singular or plural
+    (``Exam details`` -> Events, ``Room list`` -> Rooms).
+
+    >>> sheet_role("Exams"), sheet_role("Exam details"), sheet_role("Entries")
+    ('Events', 'Events', None)
+    """
     k = key(name)
     for role, names in SHEET_NAMES.items():
         if k in names:
+            return role
+    words = k.split()
+    for role, names in SHEET_NAMES.items():
+        if any(w in names or w + "s" in names for w in words):
             return role
     return None
 

@@ -1,0 +1,98 @@
+"""Read an earlier timetable (for repair: ``solve --keep PREVIOUS``).
+
+Accepts a workbook written by ``timetabler solve --out`` (its "Events" sheet), or any
+.xlsx/.csv whose header row (within the first 15 rows) has an event column ("Event",
+"Exam", "Code", ...) and a "Slot" column holding slot numbers or slot labels.
+"""
+
+from __future__ import annotations
+
+import csv
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from ..errors import Finding, InputError
+from ..model import Location
+
+EVENT_HEADERS = ("event", "exam", "code", "module", "meeting", "paper")
+SLOT_HEADERS = ("slot", "slot number", "slot label", "session")
+
+
+@dataclass
+class PreviousTimetable:
+    """Event code -> slot reference (number or label, as written), and where each came from."""
+
+    slots: dict[str, str] = field(default_factory=dict)
+    where: dict[str, Location] = field(default_factory=dict)
+    sheet: str | None = None
+
+
+def _norm(text: object) -> str:
+    return " ".join(str(text or "").replace("_", " ").split()).casefold()
+
+
+def _cell(value: object) -> str:
+    if isinstance(value, float) and value.is_integer():
+        return str(int(value))
+    return " ".join(str(value).split()) if value is not None else ""
+
+
+def read_previous_timetable(path: str | Path) -> PreviousTimetable:
+    """Read ``path``; raise :class:`InputError` naming the file and sheet when no timetable is found."""
+    path = Path(path)
+    name = str(path)
+    if not path.exists():
+        raise InputError(f"The earlier timetable {name} does not exist.")
+    suffix = path.suffix.lower()
+    tables: list[tuple[str | None, list[list[object]]]] = []
+    if suffix in (".xlsx", ".xlsm"):
+        from openpyxl import load_workbook
+
+        try:
+            wb = load_workbook(path, read_only=True, data_only=True)
+        except Exception as exc:  # noqa: BLE001 - any unreadable workbook is bad input
+            raise InputError(Finding(f"{name} could not be opened as a workbook ({exc}).",
+                                     suggestion="Save it again as .xlsx, or give a .csv with Event and Slot columns."))
+        names = sorted(wb.sheetnames, key=lambda s: (not s.casefold().startswith("events"), wb.sheetnames.index(s)))
+        for sheet in names:
+            rows = [list(r) for r in wb[sheet].iter_rows(values_only=True)]
+            tables.append((sheet, rows))
+        wb.close()
+    elif suffix in (".csv", ".txt"):
+        with path.open(newline="", encoding="utf-8-sig") as fh:
+            tables.append((None, [list(r) for r in csv.reader(fh)]))
+    else:
+        raise InputError(Finding(f"{name}: an earlier timetable must be an .xlsx or .csv file.", found=suffix))
+    for sheet, rows in tables:
+        found = _read_table(name, sheet, rows)
+        if found is not None:
+            return found
+    raise InputError(Finding(
+        f"{name}: no sheet has a header row with an event column and a 'Slot' column.",
+        expected="a header such as 'Event' and 'Slot' in the first 15 rows",
+        suggestion="Give the workbook that 'timetabler solve --out' wrote, or a .csv with columns Event,Slot."))
+
+
+def _read_table(name: str, sheet: str | None, rows: list[list[object]]) -> PreviousTimetable | None:
+    for r, row in enumerate(rows[:15]):
+        heads = [_norm(c) for c in row]
+        ev = next((i for i, h in enumerate(heads) if h in EVENT_HEADERS), None)
+        sl = next((i for h_name in SLOT_HEADERS for i, h in enumerate(heads) if h == h_name), None)
+        if ev is None or sl is None:
+            continue
+        out = PreviousTimetable(sheet=sheet)
+        for n, data in enumerate(rows[r + 1:], start=r + 2):
+            code = _cell(data[ev]) if ev < len(data) else ""
+            slot = _cell(data[sl]) if sl < len(data) else ""
+            if not code:
+                continue
+            where = Location(name, sheet, n, str(row[sl]))
+            if not slot:
+                continue  # an event without a slot in the earlier timetable is simply new
+            if code in out.slots and out.slots[code] != slot:
+                raise InputError(Finding(f"{code} appears twice with different slots.", where=where,
+                                         found=slot, expected=out.slots[code]))
+            out.slots[code] = slot
+            out.where[code] = where
+        return out
+    return None
