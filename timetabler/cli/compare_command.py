@@ -11,7 +11,7 @@ from rich.table import Table
 
 from ..conflicts import conflict_graph
 from ..errors import Finding, InputError
-from ..export.tables import comparison_table, count_for, has_timetable, rows_as_json, run_figures, value_text
+from ..export.tables import comparison_table, rows_as_json, run_figures, value_text
 from ..model import Problem, generic_slots
 from ..scheduling import SolveOptions, fewest_slots, solve, validate
 from .common import console, err_console, input_options, print_json, read_input, show_warnings

@@ -108,7 +108,6 @@ def publish(
     for run in runs:
         if int(run.slots) not in validations and run.assignment and run.status in ("optimal", "feasible"):
             validations[int(run.slots)] = validate_run(problem, run)
-    show = str
     if outputs.get("pseudonyms"):
         from ..export.pseudonyms import Pseudonyms, load_or_create_key, pseudonymise
 
@@ -135,7 +134,7 @@ def publish(
             folder = Path(outputs["ics"])
             if len(solved) > 1:
                 folder = folder / f"{int(run.slots)} slots"
-            written.extend(write_calendars(folder, problem=problem, run=run, show=show, timezone=outputs.get("ics_time_zone")))
+            written.extend(write_calendars(folder, problem=problem, run=run, timezone=outputs.get("ics_time_zone")))
     if outputs.get("plot"):
         from ..export.count_chart import write_count_chart
 

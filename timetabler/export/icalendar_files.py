@@ -15,7 +15,7 @@ import datetime as dt
 import hashlib
 import re
 from pathlib import Path
-from typing import Any, Callable, Sequence
+from typing import Any, Callable
 from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 
 from icalendar import Calendar, Event as CalEvent

@@ -30,7 +30,7 @@ import datetime as dt
 import math
 from collections import Counter, defaultdict
 from dataclasses import dataclass, field
-from typing import Any, Callable, Iterable, Mapping, Sequence
+from typing import Any, Callable, Mapping, Sequence
 
 from ..model import Problem, Slot, days_of
 
@@ -565,7 +565,7 @@ def rows_as_json(table: PublishedTable) -> list[dict[str, Any]]:
     return out
 
 
-def rows_as_text(table: PublishedTable, formats: Mapping[str, Callable[[Any], str]] | None = None) -> list[list[str]]:
+def rows_as_text(table: PublishedTable) -> list[list[str]]:
     """Rows with every value as text (ISO dates, HH:MM times, yes/no flags), for CSV and terminals."""
     out = []
     for row in table.rows:
@@ -589,7 +589,3 @@ def value_text(value: Any, kind: str = TEXT) -> str:
             return ""
         return f"{value:.6g}" if kind == FLOAT else repr(value)
     return str(value)
-
-
-def all_event_codes(problem: Problem) -> Iterable[str]:
-    return sorted(problem.events)

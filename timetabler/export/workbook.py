@@ -39,7 +39,7 @@ import datetime as dt
 import re
 import warnings
 from pathlib import Path
-from typing import Any, Iterable, Mapping, Sequence
+from typing import Any, Mapping, Sequence
 
 import networkx as nx
 from openpyxl import Workbook
