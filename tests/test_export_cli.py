@@ -106,3 +106,12 @@ def test_a_published_workbook_can_be_kept_and_repaired(run_command, dated_input,
     assert again.status == 0, again.stderr
     run = again.json()["runs"][0]
     assert run["assignment"] == before  # nothing changed, so nothing moves
+
+
+def test_the_kept_timetable_is_never_written_over(run_command, dated_input, tmp_path):
+    first = tmp_path / "first.xlsx"
+    assert run_command("solve", dated_input, "--slots", "6", "--time-limit", "5", "--out", first).status == 0
+    before = first.read_bytes()
+    result = run_command("solve", dated_input, "--slots", "6", "--time-limit", "5", "--keep", first, "--out", first)
+    assert result.status == 2 and "never writes over its input" in result.stderr
+    assert first.read_bytes() == before

@@ -118,8 +118,9 @@ def publish(
         settings["attendees shown as"] = "pseudonyms"
     written: list[Path] = []
     if outputs.get("out"):
+        kept = [settings[k] for k in ("kept from",) if settings.get(k)]
         written.append(write_workbook(outputs["out"], problem=problem, runs=runs, counts=counts, reading=reading,
-                                      settings=settings, validations=validations, fewest=fewest))
+                                      settings=settings, validations=validations, fewest=fewest, inputs=kept))
     if outputs.get("csv"):
         from ..export.csv_folder import write_csv_folder
 

@@ -84,6 +84,7 @@ def write_workbook(
     settings: Mapping[str, Any] | None = None,
     validations: Mapping[int, Any] | None = None,
     fewest: Any = None,
+    inputs: Sequence[str | Path] = (),
 ) -> Path:
     """Write the published workbook to ``path`` (``.xlsx``) and return the path written.
 
@@ -92,10 +93,11 @@ def write_workbook(
     ``validations`` maps a slot count to a validator result; when absent, each timetable is
     checked here by :func:`timetabler.scheduling.validate` when that is available.
 
-    The file is written to a temporary name and renamed when complete; the input file is
-    never overwritten; a target open in another program gives a clear InputError.
+    The file is written to a temporary name and renamed when complete; the input file (and
+    any other file in ``inputs``, such as a kept earlier timetable) is never overwritten; a
+    target open in another program gives a clear InputError.
     """
-    inputs = [getattr(problem, "source", "")]
+    inputs = [getattr(problem, "source", ""), *inputs]
     target = check_target(path, inputs=inputs, suffixes=(".xlsx",))
     runs = sorted(runs, key=lambda r: int(r.slots))
     validations = dict(validations or {})
