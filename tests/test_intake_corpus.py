@@ -123,6 +123,12 @@ CASES = [
     Case("whitespace trimmed and collapsed",
          lambda t: write_xlsx(t / "a.xlsx", {"S": [["Student", "Exam"]] + [[f"  {a} ", f"\u00a0{e}  "] for a, e in BASE]}),
          check=_check_figures()),
+    Case("merged attendee cells over several rows (and a merged title)",
+         lambda t: _merged_book(t / "a.xlsx"),
+         check=_check_figures(header_row=2)),
+    Case("an attendee written only on their first row (not merged)",
+         lambda t: write_xlsx(t / "a.xlsx", {"S": long_rows(BASE[:2]) + [[None, "CHM120"]]}),
+         check=_warned("event but no attendee", row=4, column="A (Student)", pairs=BASE[:2])),
     Case("duplicate enrolments dropped and counted",
          lambda t: write_xlsx(t / "a.xlsx", {"S": long_rows(BASE + BASE[:3] + [(BASE[0][0].lower(), BASE[0][1])])}),
          check=_check_figures(duplicates_dropped=4)),
@@ -299,6 +305,24 @@ def _wide_columns(pairs):
 
 def _wide_cell(pairs, sep):
     return [["Candidate", "Exams"]] + [[a, sep.join(evs)] for a, evs in _grouped(pairs).items()]
+
+
+def _merged_book(path: Path) -> Path:
+    import openpyxl
+
+    book = openpyxl.Workbook()
+    ws = book.active
+    ws.append(["Harrowgate Vale College: entries", None])
+    ws.append(["Student", "Exam"])
+    for a, evs in _grouped(BASE).items():
+        first = ws.max_row + 1
+        for e in evs:
+            ws.append([a, e])
+        if len(evs) > 1:
+            ws.merge_cells(start_row=first, start_column=1, end_row=first + len(evs) - 1, end_column=1)
+    ws.merge_cells("A1:B1")
+    book.save(path)
+    return path
 
 
 def _formula_book(path: Path) -> Path:

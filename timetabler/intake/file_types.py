@@ -19,7 +19,9 @@ from __future__ import annotations
 import codecs
 import csv
 import io
+import re
 import warnings
+import zipfile
 from collections import Counter
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -273,7 +275,72 @@ def _read_xlsx(name: str, data: bytes, budget: CellBudget, progress: Progress | 
             sheets.append(RawSheet(ws.title, rows, hidden=getattr(ws, "sheet_state", "visible") != "visible"))
     finally:
         book.close()
+    merges = merged_ranges(data)
+    for sheet in sheets:
+        fill_merged(sheet, merges.get(sheet.name, []))
     return sheets
+
+
+_MERGE = re.compile(rb'<(?:\w+:)?mergeCell\s+ref="([A-Z]+)(\d+):([A-Z]+)(\d+)"')
+
+
+def merged_ranges(data: bytes) -> dict[str, list[tuple[int, int, int, int]]]:
+    """Merged cell ranges of each sheet of an .xlsx, as (first row, first col, last row, last col), 0-based.
+
+    openpyxl's read-only mode does not report merged cells, so they are read from the sheet
+    parts directly: the workbook part names the sheets, its relationships give each sheet's
+    part, and ``<mergeCell ref="A2:A4"/>`` elements list the ranges.
+    """
+    from defusedxml import ElementTree
+
+    out: dict[str, list[tuple[int, int, int, int]]] = {}
+    try:
+        with zipfile.ZipFile(io.BytesIO(data)) as archive:
+            workbook = ElementTree.fromstring(archive.read("xl/workbook.xml"))
+            rels = ElementTree.fromstring(archive.read("xl/_rels/workbook.xml.rels"))
+            targets = {r.get("Id"): r.get("Target", "") for r in rels}
+            for sheet in workbook.iter():
+                if not sheet.tag.endswith("}sheet"):
+                    continue
+                rid = next((v for k, v in sheet.attrib.items() if k.endswith("}id")), None)
+                target = targets.get(rid, "")
+                part = target.lstrip("/") if target.startswith("/") else "xl/" + target
+                if part not in archive.namelist():
+                    continue
+                xml = archive.read(part)
+                found = [
+                    (int(r1) - 1, _column_index(c1), int(r2) - 1, _column_index(c2))
+                    for c1, r1, c2, r2 in _MERGE.findall(xml)
+                ]
+                if found:
+                    out[sheet.get("name", "")] = found
+    except Exception:  # noqa: BLE001 - merged cells are a convenience; never fail the read on them
+        return {}
+    return out
+
+
+def _column_index(letters: bytes) -> int:
+    n = 0
+    for ch in letters.decode("ascii"):
+        n = n * 26 + (ord(ch) - 64)
+    return n - 1
+
+
+def fill_merged(sheet: RawSheet, ranges: list[tuple[int, int, int, int]]) -> None:
+    """Give every cell of a merged range the value shown in it (its top-left cell's)."""
+    for r1, c1, r2, c2 in ranges:
+        if r1 >= len(sheet.rows) or (r2 - r1 + 1) * (c2 - c1 + 1) > 100_000:
+            continue
+        top = sheet.rows[r1]
+        value = top[c1] if c1 < len(top) else None
+        if value is None:
+            continue
+        for r in range(r1, min(r2, len(sheet.rows) - 1) + 1):
+            row = sheet.rows[r]
+            if len(row) <= c2:
+                row.extend([None] * (c2 + 1 - len(row)))
+            for c in range(c1, c2 + 1):
+                row[c] = value
 
 
 def _read_ods(name: str, data: bytes, budget: CellBudget, progress: Progress | None) -> list[RawSheet]:

@@ -117,7 +117,9 @@ def _attendee_rows(sheet: RawSheet, layout: Layout, file: str, findings: Finding
         if not who and events:
             findings.warn("This row names an event but no attendee; it was skipped.",
                           _where(file, sheet, r, layout, layout.attendee), found=", ".join(events),
-                          expected="an attendee in this column")
+                          expected="an attendee in this column",
+                          suggestion="If each attendee is written only on the first of their rows, "
+                          "fill the attendee down into the rows below.")
             continue
         if who and not events:
             findings.warn("This row names an attendee but no event; it was skipped.",
