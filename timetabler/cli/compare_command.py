@@ -12,10 +12,10 @@ from rich.table import Table
 from ..conflicts import conflict_graph
 from ..errors import Finding, InputError
 from ..export.tables import comparison_table, rows_as_json, run_figures, value_text
-from ..model import Problem, generic_slots
+from ..model import generic_slots
 from ..scheduling import SolveOptions, fewest_slots, solve, validate
 from .common import console, err_console, input_options, print_json, read_input, show_warnings
-from .output_options import output_options, publish
+from .output_options import count_for_runs, output_options, publish
 from .solve_command import _parse_counts, _SlotCountsOption
 
 
@@ -68,8 +68,6 @@ def command(file, sheet, attendee_column, event_column, slot_counts, sessions_pe
     graph = conflict_graph(problem)
     options = SolveOptions(time_limit=time_limit, workers=workers, seed=seed, room_sharing=share_rooms,
                            room_splitting=split_rooms)
-    with _step(not as_json, "counting clash-free timetables"):
-        counts, count_note = _count(problem, graph, ks, count_time, slots_for)
     with _step(not as_json, "looking for the fewest slots"):
         fewest = fewest_slots(problem, per_day=sessions_per_day, options=options, graph=graph)
     runs = []
@@ -81,6 +79,8 @@ def command(file, sheet, attendee_column, event_column, slot_counts, sessions_pe
                 run.validation = validate(problem, slots, run.assignment, run.rooms or None,
                                           room_sharing=share_rooms, room_splitting=split_rooms)
             runs.append(run)
+    with _step(not as_json, "counting clash-free timetables"):
+        counts, count_note = count_for_runs(problem, runs, count_time, graph=graph)
     validations = {r.slots: r.validation for r in runs if getattr(r, "validation", None) is not None}
     settings = {"compared slot counts": ks, "time limit (s)": time_limit, "count time (s)": count_time,
                 "workers": workers, "seed": seed, "sessions per day": None if problem.slots else sessions_per_day,
@@ -156,28 +156,6 @@ def readable_count(digits: str) -> str:
         return f"{int(digits):,}"
     mantissa, exponent = f"{Decimal(digits):.2e}".split("e")
     return f"{mantissa} × 10^{int(exponent)} ({len(digits)} digits)"
-
-
-def _count(problem: Problem, graph, ks: list[int], budget: float, slots_for) -> tuple[Any, str | None]:
-    """Counts of clash-free timetables for every K (fixed and barred slots respected), or None with a note."""
-    try:
-        from ..counting import count_timetables
-    except ImportError:
-        return None, "Counting is not available in this installation; the number of timetables is not shown."
-    pinned = any(e.fixed_slot or e.barred_slots for e in problem.events.values())
-    if not pinned:
-        return count_timetables(graph, ks, budget_seconds=budget), None
-    reports = []
-    for k in ks:
-        slots = slots_for(k)
-        fixed = {c: problem.slot_number(e.fixed_slot, slots) for c, e in problem.events.items() if e.fixed_slot}
-        barred = {c: {n for n in (problem.slot_number(r, slots) for r in e.barred_slots) if n}
-                  for c, e in problem.events.items() if e.barred_slots}
-        fixed = {c: n for c, n in fixed.items() if n}
-        reports.append(count_timetables(graph, [k], budget_seconds=budget / len(ks), fixed=fixed, barred=barred))
-    merged = reports[0]
-    merged.counts = [c for r in reports for c in r.counts]
-    return merged, "Counts respect fixed and barred slots."
 
 
 @contextlib.contextmanager

@@ -93,7 +93,7 @@ def publish(
     settings = dict(settings or {})
     runs = list(runs)
     if counts is None and (outputs.get("out") or outputs.get("plot")) and runs:
-        counts = _count_for(problem, sorted({int(r.slots) for r in runs}), float(settings.get("count_budget", 20.0)))
+        counts, _ = count_for_runs(problem, runs, float(settings.get("count_budget", 20.0)))
     solved = [r for r in runs if r.assignment and r.status in ("optimal", "feasible")]
     # check what each output needs before writing anything
     if outputs.get("plot") and counts is None:
@@ -145,13 +145,36 @@ def publish(
     return written
 
 
-def _count_for(problem: Any, ks: list[int], budget: float) -> Any:
+def count_for_runs(problem: Any, runs: Sequence[Any], budget: float, *, graph: Any = None) -> tuple[Any, str | None]:
+    """Count clash-free timetables for the slot counts of ``runs``, or (None, why not).
+
+    Fixed and barred slots are respected, resolved against each run's own slots; without
+    any, all slot counts are counted in one call (the polynomial is shared).
+    """
     try:
-        from ..conflicts import conflict_graph
         from ..counting import count_timetables
     except ImportError:
-        return None
-    return count_timetables(conflict_graph(problem), ks, budget_seconds=budget)
+        return None, "Counting is not available in this installation; the number of timetables is not shown."
+    from ..conflicts import conflict_graph
+
+    graph = conflict_graph(problem) if graph is None else graph
+    runs = sorted({int(r.slots): r for r in runs}.values(), key=lambda r: int(r.slots))
+    if not runs:
+        return None, None
+    pinned = any(e.fixed_slot or e.barred_slots for e in problem.events.values())
+    if not pinned:
+        return count_timetables(graph, [int(r.slots) for r in runs], budget_seconds=budget), None
+    reports = []
+    for run in runs:
+        slots = list(run.slot_list)
+        fixed = {c: problem.slot_number(e.fixed_slot, slots) for c, e in problem.events.items() if e.fixed_slot}
+        barred = {c: {n for n in (problem.slot_number(r, slots) for r in e.barred_slots) if n}
+                  for c, e in problem.events.items() if e.barred_slots}
+        reports.append(count_timetables(graph, [int(run.slots)], budget_seconds=budget / len(runs),
+                                        fixed={c: n for c, n in fixed.items() if n}, barred=barred))
+    merged = reports[0]
+    merged.counts = [c for r in reports for c in r.counts]
+    return merged, "Counts respect fixed and barred slots."
 
 
 def _tell(written: list[Path]) -> None:
