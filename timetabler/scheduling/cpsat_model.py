@@ -249,8 +249,13 @@ def build_model(
     for clique in cliques:
         if len(clique) < 2:
             continue
+        # a clique of exactly K events fills every slot once (pigeonhole): exactly-one is valid and stronger
+        tight = len(clique) == k
         for s in range(k):
-            m.AddAtMostOne(x[c][s] for c in clique)
+            if tight:
+                m.AddExactlyOne(x[c][s] for c in clique)
+            else:
+                m.AddAtMostOne(x[c][s] for c in clique)
 
     # fixed and barred slots
     for c in codes:

@@ -3,7 +3,8 @@
 D. Brélaz, "New methods to color the vertices of a graph", Comm. ACM 22 (1979) 251-256.
 At each step the uncoloured vertex whose neighbours already use the most distinct colours
 (its *saturation*) is coloured with the smallest colour it may take; ties go to the vertex
-with most uncoloured neighbours. Here colours are slot numbers 1, 2, ..., and each vertex
+with most uncoloured neighbours. With per-vertex allowed colours the rule generalises to
+"fewest colours still open" (the same order when every vertex may take every colour). Here colours are slot numbers 1, 2, ..., and each vertex
 may carry a set of allowed slots (fixed and barred slots, slot lengths), so the same
 routine gives the upper bound of :func:`~timetabler.scheduling.fewest_slots` and the
 warm start of the CP-SAT model.
@@ -47,12 +48,21 @@ def dsatur(
     seen: dict[Hashable, set[int]] = {v: set() for v in graph}
     uncoloured_deg = {v: graph.degree(v) for v in graph}
     order = {v: i for i, v in enumerate(sorted(graph, key=lambda v: (-graph.degree(v), str(v))))}
-    heap = [(0, -uncoloured_deg[v], order[v], v) for v in graph]
+    big = (limit if limit is not None else graph.number_of_nodes() + 1)
+
+    def free_count(v) -> int:
+        # colours still open to v; with no restrictions this is big - saturation, so the order is DSATUR's
+        options = allowed.get(v)
+        if options is None:
+            return big - len(seen[v])
+        return sum(1 for x in options if x not in seen[v] and (limit is None or x <= limit))
+
+    heap = [(free_count(v), -uncoloured_deg[v], order[v], v) for v in graph]
     heapq.heapify(heap)
     done: set = set()
     while heap:
-        sat, negdeg, _, v = heapq.heappop(heap)
-        if v in done or -sat != len(seen[v]) or -negdeg != uncoloured_deg[v]:
+        free, negdeg, _, v = heapq.heappop(heap)
+        if v in done or free != free_count(v) or -negdeg != uncoloured_deg[v]:
             continue  # stale entry
         done.add(v)
         options = allowed.get(v)
@@ -72,7 +82,7 @@ def dsatur(
             uncoloured_deg[u] -= 1
             if c is not None:
                 seen[u].add(c)
-            heapq.heappush(heap, (-len(seen[u]), -uncoloured_deg[u], order[u], u))
+            heapq.heappush(heap, (free_count(u), -uncoloured_deg[u], order[u], u))
         if c is not None:
             colour[v] = c
     return colour

@@ -321,7 +321,12 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
     run = SolveRun(slots=k, slot_list=list(slots), status="unknown")
     block_set = set(block)
     sub = graph.subgraph(block)
-    allowed = {c: domains.allowed[c] for c in block}
+    allowed = {c: set(domains.allowed[c]) for c in block}
+    for c in block:  # fixed and barred slots too, so a complete DSATUR colouring meets them
+        ev = problem.events[c]
+        if ev.fixed_slot is not None and str(ev.fixed_slot).strip():
+            allowed[c] &= {problem.slot_number(ev.fixed_slot, slots)}
+        allowed[c] -= {problem.slot_number(r, slots) for r in ev.barred_slots}
     hint = dsatur(sub, allowed, limit=k)
     symmetric = slots_interchangeable(problem, slots, block)
     order_free = _objective_order_free(problem, slots, previous)
@@ -616,7 +621,8 @@ def fewest_slots(
             break
         mid = lo if first_try else (lo + hi) // 2
         first_try = False
-        quick.time_limit = left / 2 if hi - lo > 1 else left
+        # the lower bound is often the answer (cliques decide most real sessions): give it most of the time
+        quick.time_limit = left if hi - lo <= 1 else (left * 0.7 if mid == lo else left / 2)
         if progress:
             progress({"event": "phase", "phase": f"trying {mid} slots", "slots": mid,
                       "seconds": time.perf_counter() - start})

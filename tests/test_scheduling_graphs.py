@@ -1,0 +1,185 @@
+"""Clash-free timetables on plain conflict graphs, checked against the graph-theory literature
+and against networkx's chromatic polynomial (a reference outside this project)."""
+
+from __future__ import annotations
+
+import itertools
+import random
+
+import networkx as nx
+import pytest
+import sympy
+
+from timetabler.conflicts import conflict_graph
+from timetabler.model import Problem, Weights, generic_slots
+from timetabler.scheduling import SolveOptions, fewest_slots, solve, validate
+from timetabler.scheduling.cliques import clique_cover, largest_clique_found
+from timetabler.scheduling.dsatur import dsatur
+
+ZERO = Weights(**{k: 0 for k in Weights().__dict__})
+FAST = SolveOptions(time_limit=10, workers=2, seed=1)
+
+
+def graph_problem(g: nx.Graph, weights: Weights = ZERO) -> Problem:
+    """One attendee per edge (HV-Exxxx), one per isolated vertex: the conflict graph is ``g``."""
+    enrol = []
+    for i, (u, v) in enumerate(g.edges):
+        enrol += [(f"HV-E{i:04d}", f"X{u}"), (f"HV-E{i:04d}", f"X{v}")]
+    for v in g:
+        if g.degree(v) == 0:
+            enrol.append((f"HV-I{v}", f"X{v}"))
+    return Problem(enrol, weights=weights)
+
+
+def chromatic_from_networkx(g: nx.Graph) -> int:
+    """Smallest k with P(G, k) > 0, P from networkx.chromatic_polynomial (sympy expression)."""
+    poly = nx.chromatic_polynomial(g)
+    x = sorted(poly.free_symbols, key=str)[0] if poly.free_symbols else sympy.Symbol("x")
+    k = 0
+    while sympy.Integer(poly.subs(x, k)) <= 0:
+        k += 1
+    return k
+
+
+def random_graphs(count: int, n_range=(4, 8), seed=7, max_edges: int | None = None):
+    rng = random.Random(seed)
+    made = 0
+    while made < count:
+        n = rng.randint(*n_range)
+        p = rng.choice([0.3, 0.5, 0.7])
+        g = nx.gnp_random_graph(n, p, seed=rng.randrange(10**6))
+        if max_edges is not None and g.number_of_edges() > max_edges:
+            continue  # networkx.chromatic_polynomial is exponential in the edges
+        made += 1
+        yield g
+
+
+@pytest.mark.parametrize("g", list(random_graphs(8, (4, 7), max_edges=10)), ids=lambda g: f"n{g.number_of_nodes()}m{g.number_of_edges()}")
+def test_feasible_exactly_when_chromatic_polynomial_is_positive(g):
+    # Reference: networkx.chromatic_polynomial (Whitney's expansion, evaluated with sympy).
+    poly = nx.chromatic_polynomial(g)
+    x = sorted(poly.free_symbols, key=str)[0] if poly.free_symbols else sympy.Symbol("x")
+    p = graph_problem(g)
+    for k in range(1, 5):
+        run = solve(p, generic_slots(k), FAST)
+        positive = sympy.Integer(poly.subs(x, k)) > 0
+        assert run.status in ("optimal", "infeasible")
+        assert (run.status == "optimal") == positive, (k, run.status, run.reason)
+        if positive:
+            assert validate(p, generic_slots(k), run.assignment).ok
+        else:
+            assert run.reason
+
+
+@pytest.mark.parametrize("g", list(random_graphs(6, (5, 7), seed=11, max_edges=10)), ids=lambda g: f"n{g.number_of_nodes()}")
+def test_fewest_slots_matches_networkx(g):
+    res = fewest_slots(graph_problem(g), per_day=1, options=FAST)
+    assert res.proven
+    assert res.upper == res.lower == chromatic_from_networkx(g)
+    if res.run and res.run.assignment:
+        assert validate(graph_problem(g), generic_slots(res.upper, 1), res.run.assignment).ok
+
+
+@pytest.mark.parametrize(
+    "name,g,chi",
+    [
+        # closed forms: chi(C_odd) = 3, chi(K_n) = n, bipartite graphs 2 (textbook facts)
+        ("C9", nx.cycle_graph(9), 3),
+        ("K7", nx.complete_graph(7), 7),
+        ("grid", nx.grid_2d_graph(4, 5), 2),
+        # Petersen graph: chromatic number 3 (Holton & Sheehan, "The Petersen Graph", 1993)
+        ("petersen", nx.petersen_graph(), 3),
+        # Mycielski graphs: triangle-free with chi = k (Mycielski 1955); clique bound is 2
+        ("grotzsch", nx.mycielski_graph(4), 4),
+        ("myciel5", nx.mycielski_graph(5), 5),
+        # wheel W_n on n nodes: chi = 3 when the rim (n-1) is even, 4 when odd (textbook)
+        ("wheel8", nx.wheel_graph(8), 4),
+    ],
+)
+def test_fewest_slots_on_graphs_with_known_chromatic_number(name, g, chi):
+    p = graph_problem(g)
+    res = fewest_slots(p, per_day=1, options=FAST)
+    assert res.upper == chi and res.proven, res.to_json()
+    run = solve(p, generic_slots(chi), FAST)
+    assert run.status == "optimal" and validate(p, generic_slots(chi), run.assignment).ok
+    below = solve(p, generic_slots(chi - 1), FAST)
+    assert below.status == "infeasible" and below.proven
+
+
+def queen_graph(n: int) -> nx.Graph:
+    g = nx.Graph()
+    cells = [(r, c) for r in range(n) for c in range(n)]
+    g.add_nodes_from(cells)
+    for (a, b), (c, d) in itertools.combinations(cells, 2):
+        if a == c or b == d or abs(a - c) == abs(b - d):
+            g.add_edge((a, b), (c, d))
+    return g
+
+
+def test_queen_graph_needs_exactly_n_slots_when_n_is_prime_to_6():
+    # chi(queen_n) = n exactly when gcd(n, 6) = 1 (a classical result on n-queens colourings,
+    # recalled from memory: Chvatal's notes on queen graph colourings); queen7_7 in the DIMACS table has 7.
+    g = queen_graph(7)
+    p = graph_problem(g)
+    run = solve(p, generic_slots(7), SolveOptions(time_limit=20, workers=2, seed=3))
+    assert run.status == "optimal"
+    assert validate(p, generic_slots(7), run.assignment).ok
+
+
+def test_dsatur_is_proper_and_exact_on_bipartite_graphs():
+    # Brelaz (1979): DSATUR colours every bipartite graph with 2 colours.
+    for seed in range(5):
+        g = nx.bipartite.random_graph(8, 9, 0.4, seed=seed)
+        c = dsatur(g)
+        assert all(c[u] != c[v] for u, v in g.edges)
+        if g.number_of_edges():
+            assert max(c.values()) == 2
+    for g in random_graphs(10, (10, 30), seed=5):
+        c = dsatur(g)
+        assert len(c) == g.number_of_nodes() and all(c[u] != c[v] for u, v in g.edges)
+
+
+def test_dsatur_respects_allowed_colours_and_limit():
+    g = nx.path_graph(3)
+    c = dsatur(g, {0: {2}, 1: {2, 3}}, limit=3)
+    assert c[0] == 2 and c[1] == 3 and c[2] in (1, 2)
+    partial = dsatur(nx.complete_graph(4), limit=3)
+    assert len(partial) == 3
+
+
+def test_clique_cover_covers_every_edge_with_cliques():
+    for g in random_graphs(10, (10, 40), seed=3):
+        cover = clique_cover(g)
+        covered = set()
+        for clique in cover:
+            for a, b in itertools.combinations(clique, 2):
+                assert g.has_edge(a, b)
+                covered.add(frozenset((a, b)))
+        assert covered == {frozenset(e) for e in g.edges}
+        q = largest_clique_found(g, cover)
+        assert all(g.has_edge(a, b) for a, b in itertools.combinations(q, 2))
+        assert len(q) == max((len(c) for c in nx.find_cliques(g)), default=0)
+
+
+def test_enrolment_built_graph_is_the_instance():
+    g = nx.petersen_graph()
+    cg = conflict_graph(graph_problem(g))
+    assert cg.number_of_edges() == g.number_of_edges()
+
+
+def test_components_are_solved_apart_and_joined():
+    g = nx.disjoint_union_all([nx.complete_graph(4), nx.cycle_graph(5), nx.empty_graph(3)])
+    p = graph_problem(g)
+    seen = []
+    run = solve(p, generic_slots(4), FAST, progress=seen.append)
+    assert run.status == "optimal" and len(run.assignment) == g.number_of_nodes()
+    assert validate(p, generic_slots(4), run.assignment).ok
+    assert any(e.get("event") == "phase" for e in seen)
+
+
+def test_time_limit_is_respected_on_a_hard_instance():
+    # queen8_8 with 8 slots is infeasible (published chi = 9) and hard to prove quickly.
+    p = graph_problem(queen_graph(8))
+    run = solve(p, generic_slots(8), SolveOptions(time_limit=2, workers=2, explain=False))
+    assert run.status in ("unknown", "infeasible")
+    assert run.wall_seconds < 2 + 3.0  # model building and clean-up on a busy machine

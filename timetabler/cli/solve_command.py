@@ -1,0 +1,307 @@
+"""``timetabler solve``: a good timetable for each number of slots asked for, or why none exists."""
+
+from __future__ import annotations
+
+import dataclasses
+import time
+
+import click
+from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
+from rich.table import Table
+
+from ..conflicts import conflict_graph
+from ..errors import Finding, InputError
+from ..model import Weights, generic_slots
+from ..scheduling import SolveOptions, fewest_slots, solve, validate
+from .common import console, err_console, input_options, print_json, read_input, show_warnings
+from .output_options import output_options, publish
+
+WEIGHT_NAMES = {f.name.replace("_", "-"): f.name for f in dataclasses.fields(Weights)}
+
+
+class _SlotCountsOption(click.Option):
+    """``--slots 5 6 7``: an option that takes every following whole number (or range like 5-8)."""
+
+    def add_to_parser(self, parser, ctx):
+        result = super().add_to_parser(parser, ctx)
+        for name in self.opts:
+            target = parser._long_opt.get(name) or parser._short_opt.get(name)
+            if target is None:
+                continue
+            original = target.process
+
+            def process(value, state, original=original):
+                values = [value]
+                while state.rargs and _looks_like_count(state.rargs[0]):
+                    values.append(state.rargs.pop(0))
+                original(" ".join(values), state)
+
+            target.process = process
+            break
+        return result
+
+
+def _looks_like_count(token: str) -> bool:
+    parts = token.replace("..", "-").split("-")
+    return 1 <= len(parts) <= 2 and all(p.strip().isdigit() for p in parts)
+
+
+def _parse_counts(ctx, param, value):
+    if value is None:
+        return ()
+    counts: list[int] = []
+    for token in str(value).replace(",", " ").split():
+        if not _looks_like_count(token):
+            raise click.BadParameter(f"'{token}' is not a number of slots (give whole numbers like 6, or a range like 5-8)")
+        parts = [int(p) for p in token.replace("..", "-").split("-")]
+        lo, hi = parts[0], parts[-1]
+        if lo > hi:
+            raise click.BadParameter(f"the range '{token}' runs backwards")
+        counts.extend(range(lo, hi + 1))
+    if any(k < 1 for k in counts):
+        raise click.BadParameter("the number of slots must be at least 1")
+    return tuple(dict.fromkeys(counts))
+
+
+def _parse_weights(ctx, param, values):
+    out: dict[str, int] = {}
+    for item in values or ():
+        name, sep, number = item.partition("=")
+        key = WEIGHT_NAMES.get(name.strip().lower().replace("_", "-"))
+        if not sep or key is None:
+            raise click.BadParameter(
+                f"'{item}' should be NAME=NUMBER with NAME one of {', '.join(sorted(WEIGHT_NAMES))}")
+        try:
+            n = int(number)
+        except ValueError:
+            raise click.BadParameter(f"the weight in '{item}' must be a whole number") from None
+        if n < 0:
+            raise click.BadParameter(f"the weight in '{item}' cannot be negative")
+        out[key] = n
+    return out
+
+
+@click.command("solve")
+@click.argument("file", type=click.Path(dir_okay=False))
+@input_options
+@click.option("--slots", "slot_counts", cls=_SlotCountsOption, metavar="K [K ...]", callback=_parse_counts,
+              help="Numbers of slots to try, e.g. --slots 10 11 12 or --slots 10-12. With a slots sheet, K uses its "
+                   "first K slots (default: all of them).")
+@click.option("--fewest", is_flag=True,
+              help="Find the fewest slots that hold a timetable meeting every rule, say whether that is proven, "
+                   "and give that timetable.")
+@click.option("--sessions-per-day", type=click.IntRange(1, 12), default=2, show_default=True,
+              help="Without a slots sheet: how many slots make a day (for back-to-back and same-day counts).")
+@click.option("--time-limit", type=click.FloatRange(0.5, None), default=30.0, show_default=True, metavar="SECONDS",
+              help="Time for each number of slots. The best timetable found by then is given.")
+@click.option("--workers", type=click.IntRange(1, 64), default=2, show_default=True,
+              help="Search threads. More finish sooner on a machine with more cores.")
+@click.option("--seed", type=int, default=0, show_default=True, help="Random seed of the search.")
+@click.option("--repeatable", is_flag=True,
+              help="Give exactly the same timetable on every run with the same seed and workers (stops on work done, "
+                   "not on the clock, so the time limit is approximate).")
+@click.option("--weight", "weights", multiple=True, metavar="NAME=N", callback=_parse_weights,
+              help="Change a soft-goal weight, e.g. --weight back-to-back=20 --weight proximity=1. Names: "
+                   + ", ".join(sorted(WEIGHT_NAMES)) + ".")
+@click.option("--max-per-day", type=click.IntRange(1, 24), metavar="N",
+              help="No attendee may have more than N events on one day (overrides the rules sheet).")
+@click.option("--share-rooms", is_flag=True, help="Let several events of the same length share a room.")
+@click.option("--split-rooms", is_flag=True, help="Let a large event spread over several rooms (each extra room is penalised).")
+@click.option("--keep", "keep", metavar="PREVIOUS", type=click.Path(dir_okay=False),
+              help="Repair an earlier timetable (a workbook from --out, or a CSV with Event and Slot columns): move as "
+                   "few events as possible and list every move.")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON document instead of tables.")
+@output_options
+def command(file, sheet, attendee_column, event_column, slot_counts, fewest, sessions_per_day, time_limit, workers,
+            seed, repeatable, weights, max_per_day, share_rooms, split_rooms, keep, as_json, outputs, **_ignored):
+    """Give every event in FILE a slot so that nobody is booked twice, and report how good it is.
+
+    \b
+    For each number of slots (--slots) the answer is one of:
+      optimal     the best timetable for the soft goals, proven best
+      feasible    a clash-free timetable meeting every rule; better ones may exist
+      infeasible  no timetable exists, with the reason (events that pairwise share
+                  attendees, an attendee with too many events, rules that cannot all hold)
+      unknown     the time ran out before a timetable was found or ruled out
+
+    \b
+    Soft goals and their default weights (penalty per attendee affected, change with --weight
+    or the weights sheet): back-to-back on one day 10, last of a day then first of the next 3,
+    two on one day 2, Carter proximity cost 0 (off), large events late 0 (off), event outside its
+    preferred slots 1, event in a penalised slot 1, extra room for a split event 5, event moved
+    from the earlier timetable (--keep) 20.
+
+    \b
+    Every timetable is re-checked by an independent validator against the enrolments and every
+    rule; its verdict is shown. Examples:
+      timetabler solve enrolments.xlsx --slots 12 --out timetable.xlsx
+      timetabler solve enrolments.xlsx --slots 10-14 --time-limit 60
+      timetabler solve enrolments.xlsx --fewest
+      timetabler solve enrolments.xlsx --slots 12 --keep last-week.xlsx --out repaired.xlsx
+    """
+    reading = read_input(file, sheet, attendee_column, event_column)
+    show_warnings(reading, as_json)
+    problem = reading.problem
+    if weights:
+        problem.weights = dataclasses.replace(problem.weights, **weights)
+    if max_per_day is not None:
+        problem.max_per_day = max_per_day
+    if not slot_counts and not fewest and not problem.slots:
+        raise click.UsageError("Say how many slots to use (--slots 12, or several: --slots 10-14), or ask for the "
+                               "fewest (--fewest). The file has no slots sheet to take them from.")
+    if problem.slots and slot_counts and max(slot_counts) > len(problem.slots):
+        raise InputError(Finding(
+            f"--slots asks for {max(slot_counts)} slots but the slots sheet lists only {len(problem.slots)}.",
+            suggestion="Add slots to the slots sheet, or ask for fewer."))
+    options = SolveOptions(time_limit=time_limit, workers=workers, seed=seed, deterministic=repeatable,
+                           room_sharing=share_rooms, room_splitting=split_rooms)
+    previous_refs = None
+    if keep:
+        from ..intake.previous_timetable import read_previous_timetable
+
+        previous_refs = read_previous_timetable(keep)
+    graph = conflict_graph(problem)
+
+    def slots_for(k: int):
+        return list(problem.slots[:k]) if problem.slots else generic_slots(k, sessions_per_day)
+
+    counts = list(slot_counts) or ([len(problem.slots)] if problem.slots and not fewest else [])
+    fewest_result = None
+    runs = []
+    with _progress_display(not as_json) as show:
+        if fewest:
+            task = show.add(f"fewest slots", time_limit)
+            fewest_result = fewest_slots(problem, per_day=sessions_per_day, options=options, graph=graph,
+                                         progress=lambda e: show.update(task, e))
+            show.finish(task)
+            if fewest_result.upper is not None and fewest_result.upper not in counts:
+                counts.insert(0, fewest_result.upper)
+        for k in counts:
+            slots = slots_for(k)
+            previous = _resolve_previous(problem, previous_refs, slots) if previous_refs else None
+            task = show.add(f"{k} slots", time_limit)
+            run = solve(problem, slots, options, previous=previous, graph=graph,
+                        progress=lambda e, task=task: show.update(task, e))
+            show.finish(task)
+            if run.assignment:
+                run.validation = validate(problem, slots, run.assignment, run.rooms or None, previous=previous,
+                                          room_sharing=share_rooms, room_splitting=split_rooms)
+            runs.append(run)
+    settings = {"time limit (s)": time_limit, "workers": workers, "seed": seed,
+                "sessions per day": None if problem.slots else sessions_per_day,
+                "weights": dataclasses.asdict(problem.weights), "share rooms": share_rooms,
+                "split rooms": split_rooms, "kept from": keep}
+    written = publish(outputs, problem=problem, runs=runs, reading=reading, settings=settings,
+                      validations={r.slots: r.validation for r in runs if r.validation is not None},
+                      fewest=fewest_result, quiet=as_json)
+    if as_json:
+        doc = {"file": file, "runs": [r.to_json() for r in runs]}
+        if fewest_result is not None:
+            doc["fewest"] = {k: v for k, v in fewest_result.to_json().items() if k != "timetable"}
+        doc["written"] = [str(p) for p in written]
+        print_json(doc)
+        return
+    _print_runs(problem, runs, fewest_result)
+
+
+def _resolve_previous(problem, refs, slots) -> dict[str, int]:
+    out: dict[str, int] = {}
+    bad: list[Finding] = []
+    for code, ref in refs.slots.items():
+        if code not in problem.events:
+            continue  # an event dropped since: nothing to keep
+        s = problem.slot_number(ref, slots)
+        if s is None:
+            bad.append(Finding(f"{code} was in slot '{ref}', which is not one of the {len(slots)} slots now.",
+                               where=refs.where.get(code), severity="warning"))
+            continue
+        out[code] = s
+    for finding in bad[:10]:
+        err_console.print(f"[yellow]warning:[/yellow] {finding}", soft_wrap=True)
+    return out
+
+
+class _progress_display:
+    """A rich progress bar per slot count on stderr: time used, best penalty, bound and gap."""
+
+    def __init__(self, enabled: bool):
+        self.enabled = enabled and err_console.is_terminal
+        self.progress = None
+        self.starts: dict = {}
+
+    def __enter__(self):
+        if self.enabled:
+            self.progress = Progress(TextColumn("{task.description}"), BarColumn(), TimeElapsedColumn(),
+                                     TextColumn("{task.fields[state]}"), console=err_console, transient=True)
+            self.progress.__enter__()
+        return self
+
+    def __exit__(self, *exc):
+        if self.progress is not None:
+            self.progress.__exit__(*exc)
+        return False
+
+    def add(self, label: str, total: float):
+        if self.progress is None:
+            return None
+        task = self.progress.add_task(label, total=total, state="starting")
+        self.starts[task] = time.perf_counter()
+        return task
+
+    def update(self, task, event: dict) -> None:
+        if self.progress is None or task is None:
+            return
+        state = None
+        if event.get("event") == "solution":
+            state = f"best penalty {event['penalty']}, bound {event['bound']:.0f}, gap {event['gap']:.0%}"
+        elif event.get("event") == "phase":
+            state = event.get("phase", "")
+        fields = {"state": state} if state else {}
+        self.progress.update(task, completed=time.perf_counter() - self.starts[task], **fields)
+
+    def finish(self, task) -> None:
+        if self.progress is not None and task is not None:
+            self.progress.update(task, completed=self.progress.tasks[task].total)
+
+
+def _print_runs(problem, runs, fewest_result) -> None:
+    if fewest_result is not None:
+        f = fewest_result
+        if f.upper is None:
+            console.print(f"Fewest slots: at least [bold]{f.lower}[/bold] ({f.lower_reason}); "
+                          "no timetable was found within the time limit.")
+        elif f.proven:
+            console.print(f"Fewest slots: [bold]{f.upper}[/bold], proven ({f.lower_reason}).")
+        else:
+            console.print(f"Fewest slots: between [bold]{f.lower}[/bold] ({f.lower_reason}) and "
+                          f"[bold]{f.upper}[/bold] (a timetable was found); not proven within the time limit.")
+    table = Table(title="Timetables", title_justify="left")
+    for name in ("Slots", "Result", "Penalty", "Best possible ≥", "Back-to-back", "Two in a day", "Overnight",
+                 "Moves", "Validator", "Seconds"):
+        table.add_column(name, justify="right" if name not in ("Result", "Validator") else "left")
+    for r in runs:
+        v = r.validation
+        soft = v.soft if v else {}
+        table.add_row(str(r.slots), r.status, _num(r.penalty), _num(None if r.bound is None else round(r.bound)),
+                      _num(soft.get("back_to_back")), _num(soft.get("same_day")), _num(soft.get("overnight")),
+                      str(len(r.moves)) if r.moves or r.status in ("optimal", "feasible") else "",
+                      ("passed" if v.ok else f"FAILED ({len(v.violations)})") if v else "",
+                      f"{r.wall_seconds:.1f}")
+    console.print(table)
+    for r in runs:
+        if r.status in ("infeasible", "unknown") and r.reason:
+            console.print(f"[bold]{r.slots} slots[/bold] — {r.status}:")
+            for reason in r.reasons[:8] or [r.reason]:
+                console.print(f"  • {reason}", soft_wrap=True)
+        if r.validation is not None and not r.validation.ok:
+            console.print(f"[bold red]{r.slots} slots: the validator found problems[/bold red] (this is a bug):")
+            for text in r.validation.violations[:10]:
+                console.print(f"  • {text}", soft_wrap=True)
+        if r.moves:
+            console.print(f"[bold]{r.slots} slots[/bold] — {len(r.moves)} event(s) moved from the earlier timetable:")
+            for mv in r.moves[:50]:
+                console.print(f"  • {mv['event']}: slot {mv['from']} → slot {mv['to']}")
+
+
+def _num(value) -> str:
+    return "" if value is None else str(value)
