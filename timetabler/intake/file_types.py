@@ -129,7 +129,7 @@ def load_book(path: Path, limits: Limits, progress: Progress | None = None) -> R
             if suffix in TEXT_SUFFIXES + ODS_SUFFIXES:
                 notes.append(Finding(f"The file is named '{suffix}' but is an Excel workbook; it was read as one.",
                                      where=Location(name), severity="warning"))
-            return RawBook("xlsx", _read_xlsx(name, data, budget, progress), notes=notes)
+            return RawBook("xlsx", _read_xlsx(name, data, budget, progress, notes), notes=notes)
         raise InputError(
             Finding(
                 "The file is a zip archive but not a spreadsheet workbook.",
@@ -242,7 +242,8 @@ def sniff_delimiter(text: str, prefer: str = ",") -> str:
 # --- workbooks --------------------------------------------------------------------------
 
 
-def _read_xlsx(name: str, data: bytes, budget: CellBudget, progress: Progress | None) -> list[RawSheet]:
+def _read_xlsx(name: str, data: bytes, budget: CellBudget, progress: Progress | None,
+               notes: list[Finding]) -> list[RawSheet]:
     import openpyxl
 
     try:
@@ -275,25 +276,38 @@ def _read_xlsx(name: str, data: bytes, budget: CellBudget, progress: Progress | 
             sheets.append(RawSheet(ws.title, rows, hidden=getattr(ws, "sheet_state", "visible") != "visible"))
     finally:
         book.close()
-    merges = merged_ranges(data)
+    merges, uncalculated = sheet_part_facts(data)
     for sheet in sheets:
         fill_merged(sheet, merges.get(sheet.name, []))
+        if uncalculated.get(sheet.name):
+            cells = uncalculated[sheet.name]
+            notes.append(Finding(
+                f"{len(cells)} formula cells have no calculated value (the file was not saved by a spreadsheet "
+                "program) and read as blank.",
+                where=Location(name, sheet.name, None, None), found=", ".join(cells[:5]) + (", ..." if len(cells) > 5 else ""),
+                suggestion="Open the file in your spreadsheet program and save it, so the values are stored.",
+                severity="warning"))
     return sheets
 
 
 _MERGE = re.compile(rb'<(?:\w+:)?mergeCell\s+ref="([A-Z]+)(\d+):([A-Z]+)(\d+)"')
 
 
-def merged_ranges(data: bytes) -> dict[str, list[tuple[int, int, int, int]]]:
-    """Merged cell ranges of each sheet of an .xlsx, as (first row, first col, last row, last col), 0-based.
+_UNCALCULATED = re.compile(rb'<(?:\w+:)?c\s+r="([A-Z]+\d+)"[^>]*>\s*<(?:\w+:)?f\b[^>]*(?:/>|>[^<]*</(?:\w+:)?f>)\s*(?:<(?:\w+:)?v\s*/>|<(?:\w+:)?v>\s*</(?:\w+:)?v>)?\s*</(?:\w+:)?c>')
 
-    openpyxl's read-only mode does not report merged cells, so they are read from the sheet
-    parts directly: the workbook part names the sheets, its relationships give each sheet's
-    part, and ``<mergeCell ref="A2:A4"/>`` elements list the ranges.
+
+def sheet_part_facts(data: bytes) -> tuple[dict[str, list[tuple[int, int, int, int]]], dict[str, list[str]]]:
+    """Merged cell ranges and uncalculated formula cells of each sheet of an .xlsx.
+
+    Ranges are (first row, first col, last row, last col), 0-based. openpyxl's read-only
+    mode reports neither, so they are read from the sheet parts directly: the workbook part
+    names the sheets, its relationships give each sheet's part, ``<mergeCell ref="A2:A4"/>``
+    elements list the ranges, and a formula cell with no ``<v>`` value was never calculated.
     """
     from defusedxml import ElementTree
 
     out: dict[str, list[tuple[int, int, int, int]]] = {}
+    uncalculated: dict[str, list[str]] = {}
     try:
         with zipfile.ZipFile(io.BytesIO(data)) as archive:
             workbook = ElementTree.fromstring(archive.read("xl/workbook.xml"))
@@ -314,9 +328,13 @@ def merged_ranges(data: bytes) -> dict[str, list[tuple[int, int, int, int]]]:
                 ]
                 if found:
                     out[sheet.get("name", "")] = found
-    except Exception:  # noqa: BLE001 - merged cells are a convenience; never fail the read on them
-        return {}
-    return out
+                if b"<f" in xml:
+                    bare = [m.decode("ascii") for m in _UNCALCULATED.findall(xml)]
+                    if bare:
+                        uncalculated[sheet.get("name", "")] = bare
+    except Exception:  # noqa: BLE001 - these facts are a convenience; never fail the read on them
+        return {}, {}
+    return out, uncalculated
 
 
 def _column_index(letters: bytes) -> int:
