@@ -117,3 +117,18 @@ def test_big_counts_read_as_powers_of_ten_in_the_terminal():
     assert readable_count("123456789012345") == "123,456,789,012,345"
     assert readable_count("123456789012345678901234567890") == "1.23 × 10^29 (30 digits)"
     assert readable_count("9" * 30) == "1.00 × 10^30 (30 digits)"  # rounds, never truncates
+
+
+def test_slot_counts_read_as_registrars_type_them(run_command, enrolment_csv):
+    import click
+
+    from timetabler.cli.slot_counts import parse_slot_counts
+
+    assert parse_slot_counts(None, None, "5 6") == (5, 6)
+    assert parse_slot_counts(None, None, "5-7,9 6") == (5, 6, 7, 9)
+    for bad in ("0", "7-5", "x"):
+        with pytest.raises(click.BadParameter):
+            parse_slot_counts(None, None, bad)
+    result = run_command("compare", enrolment_csv, "--slots", "3", "4-5", "--time-limit", "2", "--count-time", "1", "--json")
+    assert result.status == 0, result.stderr
+    assert [r["slots"] for r in result.json()["comparison"]] == [3, 4, 5]

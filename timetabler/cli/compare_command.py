@@ -16,13 +16,13 @@ from ..model import generic_slots
 from ..scheduling import SolveOptions, fewest_slots, solve, validate
 from .common import console, err_console, input_options, print_json, read_input, show_warnings
 from .output_options import count_for_runs, output_options, publish
-from .solve_command import _parse_counts, _SlotCountsOption
+from .slot_counts import SlotCountsOption, parse_slot_counts
 
 
 @click.command("compare")
 @click.argument("file", type=click.Path(dir_okay=False))
 @input_options
-@click.option("--slots", "slot_counts", cls=_SlotCountsOption, metavar="K [K ...]", callback=_parse_counts,
+@click.option("--slots", "slot_counts", cls=SlotCountsOption, metavar="K [K ...]", callback=parse_slot_counts,
               required=True, help="The numbers of slots to put side by side, e.g. --slots 5 6 or --slots 8-12.")
 @click.option("--sessions-per-day", type=click.IntRange(1, 12), default=2, show_default=True,
               help="Without a slots sheet: how many slots make a day (for back-to-back and two-in-a-day figures).")
