@@ -143,7 +143,12 @@ def load_book(path: Path, limits: Limits, progress: Progress | None = None) -> R
         notes.append(Finding(f"The file is named '{suffix}' but holds plain text; it was read as a CSV file.",
                              where=Location(name), severity="warning"))
     text, encoding = decode(name, data)
-    delimiter = sniff_delimiter(text, prefer="\t" if suffix in (".tsv", ".tab") else ",")
+    hint = re.match(r"\s*sep=(.)[ \t]*\r?\n", text)  # Excel's "sep=;" first line names the delimiter
+    if hint:
+        delimiter = hint.group(1)
+        text = "\n" + text[hint.end():]  # keep row numbers equal to line numbers
+    else:
+        delimiter = sniff_delimiter(text, prefer="\t" if suffix in (".tsv", ".tab") else ",")
     rows = []
     for i, row in enumerate(csv.reader(io.StringIO(text, newline=""), delimiter=delimiter), start=1):
         while row and not row[-1].strip():

@@ -26,7 +26,7 @@ from ..model import Location
 from .file_types import RawSheet
 from .findings import FindingList
 from .header_detection import CLASH_LIST, Layout
-from .normalising import identifier, is_blank, looks_like_total, split_list, whole_number
+from .normalising import identifier, is_blank, looks_like_total, looks_scientific, split_list, whole_number
 from .vocabulary import key
 
 SYNTHETIC_PREFIX = "shared:"
@@ -81,9 +81,13 @@ def _attendee_rows(sheet: RawSheet, layout: Layout, file: str, findings: Finding
             return memo[value]
         except KeyError:
             memo[value] = text = identifier(value)
+            if looks_scientific(text) and len(scientific) < 5:
+                scientific.append((text, r))
             return text
         except TypeError:  # unhashable cell value
             return identifier(value)
+
+    scientific: list[tuple[str, int]] = []
 
     for r in range(layout.header_row + 1, len(sheet.rows) + 1):
         row = sheet.rows[r - 1]
@@ -130,6 +134,12 @@ def _attendee_rows(sheet: RawSheet, layout: Layout, file: str, findings: Finding
             continue  # other columns filled, the two that matter blank
         for e in events:
             out.pairs.append((who, e, r))
+    if scientific:
+        text, row = scientific[0]
+        findings.warn("Some identifiers look like long numbers shown in scientific notation; digits may have been "
+                      "lost when the file was saved, so different ids may have become one.",
+                      Location(file, sheet.name, row, None), found=", ".join(t for t, _ in scientific),
+                      suggestion="Format the id column as text in the spreadsheet, then export the file again.")
     return out
 
 

@@ -18,6 +18,7 @@ import pandas as pd
 from .vocabulary import NO_WORDS, TOTAL_WORDS, YES_WORDS, key
 
 _FLOAT_INTEGER = re.compile(r"^[+-]?\d+\.0+$")
+_SCIENTIFIC = re.compile(r"^\d(\.\d+)?E\+\d+$", re.IGNORECASE)
 LIST_SEPARATORS = re.compile(r"\s*[;,\n]\s*")
 
 
@@ -68,6 +69,11 @@ def identifier(value: object) -> str:
     if _FLOAT_INTEGER.match(text):  # a number cell exported as text: "40001.0"
         text = text.split(".")[0]
     return text
+
+
+def looks_scientific(text: str) -> bool:
+    """True for ``1.23457E+11``: a long number that a spreadsheet exported in scientific notation, losing digits."""
+    return bool(_SCIENTIFIC.match(text))
 
 
 def split_list(value: object) -> list[str]:
