@@ -118,7 +118,7 @@ def _print_side_by_side(table, counts, fewest, count_note: str | None) -> None:
     out = Table(title="Slot counts side by side", title_justify="left", show_lines=False)
     out.add_column("", style="bold", no_wrap=True)
     for row in table.rows:
-        out.add_column(f"{row[0]} slots", justify="right", overflow="fold", min_width=12, max_width=44)
+        out.add_column(f"{row[0]} slots", justify="left", overflow="fold", min_width=12, max_width=44)
     index = {h: i for i, h in enumerate(table.headers)}
     for header, label in SHOWN:
         cells = []
