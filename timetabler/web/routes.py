@@ -299,13 +299,7 @@ async def start_solve(request: Request) -> Response:
     stored = upload_of(request)
     settings = request.app.state.settings
     if job_running(stored):
-        return message(
-            request,
-            409,
-            "A solve is already running for this file",
-            "Only one solve runs per file at a time. Watch it, or stop it and start again with other choices.",
-            link=(f"/files/{stored.token}/solving", "See the running solve"),
-        )
+        return _busy(request, stored)
     analysis = _current_analysis(stored)
     if analysis is None:
         return RedirectResponse(f"/files/{stored.token}", status_code=303)
@@ -321,8 +315,11 @@ async def start_solve(request: Request) -> Response:
         per_day = _whole(fields.get("sessions_per_day", "2"), "Sessions per day", 1, 12)
         limit = _whole(fields.get("time_limit", str(settings.default_time_limit)), "Time limit", 1, settings.max_time_limit)
         weights = an.weights_from_form(fields, problem.weights)
-        keep = {int(i) for i in form.getlist("rule") if str(i).isdigit()}
-        rules = [rule for i, rule in enumerate(problem.rules) if i in keep]
+        if fields.get("rules_listed") == "yes":  # the form listed the rules: keep the ticked ones
+            keep = {int(i) for i in form.getlist("rule") if str(i).isdigit()}
+            rules = [rule for i, rule in enumerate(problem.rules) if i in keep]
+        else:
+            rules = list(problem.rules)
     except ValueError as exc:
         return message(request, 400, "Please check the choices", str(exc), back=f"/files/{stored.token}")
     chosen = dataclasses.replace(problem, weights=weights, rules=rules)
@@ -334,26 +331,36 @@ async def start_solve(request: Request) -> Response:
     options = SolveOptions(time_limit=float(limit), room_sharing=rooms_shared, room_splitting=rooms_split)
     find_fewest = fields.get("find_fewest") == "on"
     job = SolveJob(chosen, plan, options, time_limit=float(limit), fewest_per_day=per_day if find_fewest else None)
-    with stored.lock:
-        if job_running(stored):
-            return message(request, 409, "A solve is already running for this file", "Only one solve runs per file at a time.",
-                           link=(f"/files/{stored.token}/solving", "See the running solve"))
-        stored.state["job"] = job
-        stored.state["job_settings"] = {
-            "slot counts": " ".join(map(str, ks)),
-            "sessions per day": per_day,
-            "time limit per slot count (s)": limit,
-            "rooms shared by events of equal length": "yes" if rooms_shared else "no",
-            "large events split over rooms": "yes" if rooms_split else "no",
-            "fewest slots searched": "yes" if find_fewest else "no",
-            "rules kept": len(rules),
-            "rules switched off": len(problem.rules) - len(rules),
-            **{f"weight: {w['label']}": getattr(weights, w["name"]) for w in an.weight_fields(weights)},
-        }
-        stored.state["job_problem"] = chosen
-        stored.state.pop("outputs", None)
-        await run_in_threadpool(job.start)
+    # Checked again after the form's await; from here to job.start() nothing awaits, so on the one
+    # event loop no other request can start a job for this file in between.
+    if job_running(stored):
+        return _busy(request, stored)
+    stored.state["job"] = job
+    stored.state["job_settings"] = {
+        "slot counts": " ".join(map(str, ks)),
+        "sessions per day": per_day,
+        "time limit per slot count (s)": limit,
+        "rooms shared by events of equal length": "yes" if rooms_shared else "no",
+        "large events split over rooms": "yes" if rooms_split else "no",
+        "fewest slots searched": "yes" if find_fewest else "no",
+        "rules kept": len(rules),
+        "rules switched off": len(problem.rules) - len(rules),
+        **{f"weight: {w['label']}": getattr(weights, w["name"]) for w in an.weight_fields(weights)},
+    }
+    stored.state["job_problem"] = chosen
+    stored.state.pop("outputs", None)
+    job.start()
     return RedirectResponse(f"/files/{stored.token}/solving", status_code=303)
+
+
+def _busy(request: Request, stored: StoredUpload) -> Response:
+    return message(
+        request,
+        409,
+        "A solve is already running for this file",
+        "Only one solve runs per file at a time. Watch it, or stop it and start again with other choices.",
+        link=(f"/files/{stored.token}/solving", "See the running solve"),
+    )
 
 
 def _whole(text: str, label: str, low: int, high: int) -> int:
