@@ -291,3 +291,14 @@ def test_moves_sheet_lists_every_event_the_repair_moved(tmp_path):
     for r in rows:
         assert r["To slot"] == after.assignment[r["Event"]] != before.assignment[r["Event"]]
         assert r["New date"].date() == slots[r["To slot"] - 1].date
+
+
+def test_control_characters_and_overlong_text_do_not_break_the_file(tmp_path):
+    problem = small_problem(rooms=False)
+    run = solve_run(problem, dated_slots(2))  # infeasible: carries a reason
+    run.reason = "bell\x07 " + "x" * 40000
+    path = write_workbook(tmp_path / "odd.xlsx", problem=problem, runs=[run])
+    _, rows = rows_of(load_workbook(path)["Comparison"])
+    reason = rows[0]["Reason"]
+    assert reason.startswith("bell x") and "\x07" not in reason
+    assert len(reason) <= 32767 and reason.endswith("(cut: too long for one cell)")

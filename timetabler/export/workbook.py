@@ -153,9 +153,15 @@ def validate_run(problem: Problem, run: Any) -> Any:
 # --------------------------------------------------------------------------- writing helpers
 
 
+CELL_TEXT_LIMIT = 32767  # the most characters a spreadsheet cell holds (Excel's documented limit)
+
+
 def _clean(value: Any) -> Any:
+    """Text a spreadsheet accepts: no control characters, at most CELL_TEXT_LIMIT characters."""
     if isinstance(value, str):
-        return ILLEGAL_CHARACTERS_RE.sub("", value)
+        value = ILLEGAL_CHARACTERS_RE.sub("", value)
+        if len(value) > CELL_TEXT_LIMIT:
+            value = value[: CELL_TEXT_LIMIT - 40] + " … (cut: too long for one cell)"
     return value
 
 
