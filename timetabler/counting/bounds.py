@@ -1,0 +1,177 @@
+"""Rigorous bounds and an unbiased estimate when the exact count is out of budget.
+
+upper bound — a chordal *subgraph* ``H ⊆ G``
+    Removing clashes never removes a timetable, so ``P(G, k) ≤ P(H, k)``. ``H`` keeps, for
+    each vertex in turn, only the edges to a clique among its earlier neighbours, so the
+    order is a perfect elimination order of ``H`` read backwards and
+    ``P(H, k) = Π_v (k − |C_v|)`` (Fulkerson & Gross 1965; Read 1968).
+lower bound — a chordal *supergraph* ``H ⊇ G`` and a found colouring
+    Adding clashes never adds one, so ``P(G, k) ≥ P(H, k)`` for the fill-in graph of the
+    elimination game (Parter 1961; Rose 1970) with ``P(H, k) = Π_v (k − d_v)``, ``d_v``
+    the neighbours of ``v`` still present when it is eliminated. Also any proper
+    colouring with ``c ≤ k`` colours gives ``k(k−1)…(k−c+1)`` timetables by relabelling
+    its groups, so that falling factorial is a lower bound too (DSATUR, Brélaz 1979).
+estimate — Knuth's random probe (Knuth, "Estimating the efficiency of backtrack
+programs", Math. Comp. 29 (1975))
+    Colour the vertices in a fixed order, each time picking uniformly one of the ``c_v``
+    colours its earlier neighbours leave free; the product ``Π c_v`` (0 at a dead end) is
+    an unbiased estimate of the number of leaves of the backtrack tree, which is exactly
+    ``P(G, k)``. The mean of many probes and its standard error give the estimate and its
+    error bar. Allowed-slot lists (fixed and barred slots) are respected the same way.
+"""
+
+from __future__ import annotations
+
+import math
+import random
+import time
+from dataclasses import dataclass
+from typing import Sequence
+
+import networkx as nx
+
+from .polynomial import falling_factorial
+
+
+def chordal_subgraph_upper(graph: nx.Graph, k: int, order: Sequence | None = None) -> int:
+    """``P(H, k)`` for a chordal subgraph ``H`` of ``graph``: an upper bound on ``P(G, k)``."""
+    order = list(order) if order is not None else _smallest_last(graph)
+    seen: set = set()
+    kept: dict = {}
+    value = 1
+    for v in order:
+        earlier = sorted((u for u in graph[v] if u in seen), key=lambda u: -graph.degree(u))
+        clique: list = []
+        for u in earlier:
+            if all(w in kept[u] or u in kept[w] for w in clique):
+                clique.append(u)
+        kept[v] = set(clique)
+        seen.add(v)
+        value *= max(k - len(clique), 0)
+        if value == 0:
+            return 0
+    return value
+
+
+def chordal_supergraph_lower(graph: nx.Graph, k: int) -> int:
+    """``P(H, k)`` for the minimum-degree fill-in ``H ⊇ graph``: a lower bound on ``P(G, k)``."""
+    adj = {v: set(graph[v]) for v in graph}
+    value = 1
+    while adj:
+        v = min(adj, key=lambda x: (len(adj[x]), str(x)))
+        nbrs = adj.pop(v)
+        value *= max(k - len(nbrs), 0)
+        if value == 0:
+            return 0
+        for u in nbrs:
+            adj[u].discard(v)
+            adj[u] |= nbrs - {u}
+    return value
+
+
+def colouring_lower(graph: nx.Graph, k: int) -> int:
+    """``k(k−1)…(k−c+1)`` for a DSATUR colouring with ``c`` colours (0 when ``c > k``)."""
+    if graph.number_of_nodes() == 0:
+        return 1
+    colours = nx.greedy_color(graph, strategy="saturation_largest_first")
+    c = max(colours.values()) + 1
+    return falling_factorial(k, c) if c <= k else 0
+
+
+def lower_bound(graph: nx.Graph, k: int) -> int:
+    return max(chordal_supergraph_lower(graph, k), colouring_lower(graph, k))
+
+
+def _smallest_last(graph: nx.Graph) -> list:
+    """Reverse of repeatedly removing a vertex of least degree (Matula & Beck 1983)."""
+    adj = {v: set(graph[v]) for v in graph}
+    out = []
+    while adj:
+        v = min(adj, key=lambda x: (len(adj[x]), str(x)))
+        out.append(v)
+        for u in adj.pop(v):
+            adj[u].discard(v)
+    return out[::-1]
+
+
+@dataclass
+class Estimate:
+    """Mean of Knuth probes, as log10, with the relative standard error of the mean."""
+
+    log10: float | None  # None when every probe hit a dead end (the mean is 0)
+    relative_error: float | None
+    probes: int
+    zero: bool
+
+    def interval_log10(self) -> tuple[float, float] | None:
+        """log10 of mean ± 2 standard errors (the lower end omitted when it is ≤ 0)."""
+        if self.log10 is None or self.relative_error is None:
+            return None
+        hi = self.log10 + math.log10(1 + 2 * self.relative_error)
+        lo_factor = 1 - 2 * self.relative_error
+        lo = self.log10 + math.log10(lo_factor) if lo_factor > 0 else float("-inf")
+        return lo, hi
+
+
+def knuth_estimate(
+    graph: nx.Graph,
+    k: int,
+    *,
+    allowed: dict | None = None,
+    probes: int = 2000,
+    seconds: float = 1.0,
+    seed: int = 20260412,
+    order: Sequence | None = None,
+) -> Estimate:
+    """Knuth's unbiased random-probe estimate of the number of colourings with ``k`` colours.
+
+    ``allowed`` maps a vertex to the set of colours (0-based) it may take; others take any.
+    """
+    order = list(order) if order is not None else _smallest_last(graph)
+    earlier = {}
+    seen: set = set()
+    for v in order:
+        earlier[v] = [u for u in graph[v] if u in seen]
+        seen.add(v)
+    rng = random.Random(seed)
+    every = list(range(k))
+    total = 0
+    total_sq = 0
+    done = 0
+    stop = time.monotonic() + seconds
+    while done < probes and (done < 20 or time.monotonic() < stop):
+        colour: dict = {}
+        product = 1
+        for v in order:
+            used = {colour[u] for u in earlier[v]}
+            pool = allowed.get(v, every) if allowed else every
+            free = [c for c in pool if c not in used]
+            if not free:
+                product = 0
+                break
+            product *= len(free)
+            colour[v] = free[rng.randrange(len(free))]
+        total += product
+        total_sq += product * product
+        done += 1
+    if total == 0:
+        return Estimate(None, None, done, True)
+    mean_log10 = _log10_int(total) - math.log10(done)
+    # variance of the mean = (E[x²] − E[x]²) / (N − 1) / N ... in exact integers
+    if done > 1:
+        # standard error / mean = sqrt((N Σx² − (Σx)²) / (N − 1)) / Σx, in logs (huge ints)
+        num = done * total_sq - total * total
+        rel = 10 ** (0.5 * (_log10_int(num) - math.log10(done - 1)) - _log10_int(total)) if num > 0 else 0.0
+    else:
+        rel = None
+    return Estimate(mean_log10, rel, done, False)
+
+
+def _log10_int(x: int) -> float:
+    if x <= 0:
+        raise ValueError("log10 of a non-positive number")
+    bits = x.bit_length()
+    if bits < 1000:
+        return math.log10(x)
+    shift = bits - 64
+    return math.log10(x >> shift) + shift * math.log10(2)
