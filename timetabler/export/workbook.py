@@ -184,7 +184,8 @@ class _Book:
             value = None if value is None else ("yes" if value else "no")
         if kind == BIGINT and value is not None:
             value = str(value)
-        needs_cell = font is not None or wrap or left or kind in (DATE, TIME, FLOAT) or (isinstance(value, str) and value.startswith("="))
+        # openpyxl formats a bare date as yyyy-mm-dd by itself (no cell object needed: faster)
+        needs_cell = font is not None or wrap or left or kind in (TIME, FLOAT) or (isinstance(value, str) and value.startswith("="))
         if not needs_cell:
             return value
         c = WriteOnlyCell(ws, value=value)
