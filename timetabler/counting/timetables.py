@@ -432,15 +432,16 @@ def _fewest_reason(graph: nx.Graph, results: list[ComponentCount], chromatic: in
     if chromatic <= 1:
         return "no two events clash, so one slot holds them all" if graph.number_of_nodes() else "no events"
     worst = max(results, key=lambda r: (r.chromatic_number or 0, len(r.events)))
-    clique_size = len(max(nx.find_cliques(graph.subgraph(worst.events)), key=len)) if len(worst.events) <= 400 else 0
+    clique = max(nx.find_cliques(graph.subgraph(worst.events)), key=len) if len(worst.events) <= 400 else []
     text = (
         f"with {chromatic - 1} slots there are exactly 0 clash-free timetables for the group of "
         f"{len(worst.events)} events starting {', '.join(worst.events[:3])}"
     )
-    if clique_size == chromatic:
-        text += f"; {clique_size} of its events pairwise share attendees"
+    if len(clique) == chromatic:
+        text += f"; {', '.join(sorted(map(str, clique)))} pairwise share attendees"
     else:
-        text += f" (its largest set of pairwise clashing events has only {clique_size}, yet no {chromatic - 1}-slot timetable exists)"
+        text += (f" (its largest set of pairwise clashing events has only {len(clique)}, "
+                 f"yet no {chromatic - 1}-slot timetable exists)")
     return text
 
 

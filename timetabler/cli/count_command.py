@@ -1,0 +1,227 @@
+"""``timetabler count``: how many clash-free timetables each number of slots allows."""
+
+from __future__ import annotations
+
+import click
+from rich.table import Table
+
+from ..conflicts import conflict_graph
+from ..counting import count_timetables
+from ..counting.polynomial import ChromaticPolynomial, edgeless_power, poly_mul
+from ..errors import Finding, InputError
+from ..model import generic_slots
+from .common import console, err_console, input_options, print_json, read_input, show_warnings
+from .slot_counts import SlotCountsOption, parse_slot_counts
+
+
+@click.command("count")
+@click.argument("file", type=click.Path(dir_okay=False))
+@input_options
+@click.option("--slots", "slot_counts", cls=SlotCountsOption, metavar="K [K ...]", callback=parse_slot_counts,
+              help="The numbers of slots to count for, e.g. --slots 5 6 or --slots 5-8 "
+                   "(default: the number of slots in the slots sheet).")
+@click.option("--time-limit", type=click.FloatRange(min=0.1), default=20.0, show_default=True, metavar="SECONDS",
+              help="Time for exact counting. A group of events that takes longer is given bounds and an estimate, "
+                   "marked not exact.")
+@click.option("--polynomial", "show_polynomial", is_flag=True,
+              help="Also print the counting polynomial P(k) and the number of ways to split the events into "
+                   "j clash-free groups, for every j.")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON document instead of tables.")
+def command(file: str, sheet, attendee_column, event_column, slot_counts, time_limit: float,
+            show_polynomial: bool, as_json: bool) -> None:
+    """Count the clash-free timetables of FILE for each number of slots.
+
+    \b
+    A clash-free timetable gives every event one of K labelled slots so that nobody has
+    two events in the same slot. The count measures slack: a choice of K with a dozen
+    timetables breaks at the first late enrolment, one with a billion does not.
+
+    \b
+    For each K the table shows the count (exact, or proven bounds and an estimate when
+    the time limit is reached — never a guessed number shown as exact), how many times
+    more timetables K allows than K - 1, and the number of ways to split the events
+    into at most K clash-free groups (slots unlabelled). It also shows the fewest slots
+    possible and why, the groups of events linked by clashes with their own counts,
+    and, for small groups, the missing clashes that would hurt most if a new enrolment
+    created them and the clashes whose removal would free the most timetables.
+
+    \b
+    Fixed and barred slots from the events sheet are respected: counts are then of the
+    timetables that keep every fixed event in its slot and no event in a barred slot.
+
+    \b
+    Examples:
+      timetabler count enrolments.xlsx --slots 5 6
+      timetabler count enrolments.csv --slots 8-12 --json
+      timetabler count enrolments.csv --slots 4 --polynomial
+    """
+    reading = read_input(file, sheet, attendee_column, event_column)
+    show_warnings(reading, as_json)
+    problem = reading.problem
+    ks = sorted(slot_counts) if slot_counts else ([len(problem.slots)] if problem.slots else [])
+    if not ks:
+        raise InputError(Finding(
+            "Say how many slots to count for.",
+            suggestion="Add --slots with one or more numbers, e.g. --slots 5 6 (or a range, --slots 5-8).",
+        ))
+    if problem.slots and max(ks) > len(problem.slots):
+        raise InputError(Finding(
+            f"--slots asks for {max(ks)} slots but the slots sheet of {file} lists only {len(problem.slots)}.",
+            suggestion="Add slots to the slots sheet, or ask for fewer.",
+        ))
+    graph = conflict_graph(problem)
+    pinned = [e for e in problem.events.values() if (e.fixed_slot and str(e.fixed_slot).strip()) or e.barred_slots]
+    notes: list[str] = []
+
+    def work(progress=None):
+        if not pinned:
+            return count_timetables(graph, ks, budget_seconds=time_limit, progress=progress)
+        reports = []
+        for k in ks:
+            slots = list(problem.slots[:k]) if problem.slots else generic_slots(k)
+            fixed, barred = {}, {}
+            for e in pinned:
+                if e.fixed_slot and str(e.fixed_slot).strip():
+                    n = problem.slot_number(e.fixed_slot, slots)
+                    if n is None:
+                        notes.append(f"With {k} slots, {e.code} is fixed to '{e.fixed_slot}', which is not one of "
+                                     f"the slots: no timetable can honour it, so the count is 0.")
+                    fixed[e.code] = n or 0
+                refs = {problem.slot_number(r, slots) for r in e.barred_slots}
+                if refs - {None}:
+                    barred[e.code] = refs - {None}
+            reports.append(count_timetables(graph, [k], budget_seconds=time_limit / len(ks), fixed=fixed,
+                                            barred=barred, progress=progress))
+        merged = reports[0]
+        merged.counts = [c for r in reports for c in r.counts]
+        for r in reports[1:]:  # per-component counts for every K
+            for mine, theirs in zip(merged.components, r.components):
+                mine.counts.extend(theirs.counts)
+        return merged
+
+    if as_json:
+        report = work()
+        doc = report.to_json()
+        doc["file"] = file
+        doc["slots"] = ks
+        if notes:
+            doc["notes"] = notes
+        if show_polynomial:
+            poly = whole_polynomial(report, graph)
+            doc["polynomial"] = poly.to_json() if poly is not None else None
+        doc["warnings"] = [w.to_dict() for w in reading.warnings]
+        print_json(doc)
+        return
+
+    with err_console.status("Counting clash-free timetables…") as status:
+        def progress(done: int, total: int, message: str) -> None:
+            status.update(f"Counting clash-free timetables… group {done} of {total} done ({message})")
+
+        report = work(progress)
+    _print_report(file, report, notes)
+    if show_polynomial:
+        _print_polynomial(report, graph)
+
+
+def whole_polynomial(report, graph) -> ChromaticPolynomial | None:
+    """P(G, k) of the whole conflict graph when every group was counted exactly without pins."""
+    if report.constrained or any(c.polynomial is None for c in report.components):
+        return None
+    power = edgeless_power(report.isolated_events)
+    for comp in report.components:
+        power = poly_mul(power, comp.polynomial.power)
+    return ChromaticPolynomial(power, "product over groups")
+
+
+def readable_count(value: int | None) -> str:
+    if value is None:
+        return "?"
+    text = str(value)
+    if len(text) <= 24:
+        return f"{value:,}"
+    return f"{text[0]}.{text[1:4]} × 10^{len(text) - 1} ({len(text)} digits)"
+
+
+def _log_text(log10: float | None) -> str:
+    if log10 is None:
+        return "?"
+    exponent = int(log10 // 1)
+    mantissa = 10 ** (log10 - exponent)
+    return f"{mantissa:.2f} × 10^{exponent}" if exponent >= 6 else f"{10 ** log10:,.0f}"
+
+
+def _print_report(file: str, report, notes: list[str]) -> None:
+    console.print(f"[bold]{file}[/bold]: {report.events} events, {report.clashes} clashing pairs, "
+                  f"{len(report.components)} groups linked by clashes, {report.isolated_events} events with no clash")
+    table = Table(title="Clash-free timetables", title_justify="left")
+    table.add_column("Slots", justify="right")
+    table.add_column("Timetables", justify="right")
+    table.add_column("Exact", justify="center")
+    table.add_column("× vs one slot fewer", justify="right")
+    table.add_column("Groupings (slots unlabelled)", justify="right")
+    for c in report.counts:
+        if c.exact:
+            shown = readable_count(c.timetables)
+        else:
+            err = f" ± {100 * c.estimate_relative_error:.0f}%" if c.estimate_relative_error is not None else ""
+            shown = f"about {_log_text(c.estimate_log10)}{err}"
+        ratio = f"{c.ratio_to_previous:,.2f}" if c.ratio_to_previous is not None else "—"
+        table.add_row(str(c.slots), shown, "yes" if c.exact else "no", ratio, readable_count(c.groupings)
+                      if c.groupings is not None else "—")
+    console.print(table)
+    for c in report.counts:
+        if not c.exact:
+            console.print(f"  {c.slots} slots: not exact within the time limit; proven between "
+                          f"{readable_count(c.lower)} and {readable_count(c.upper)} "
+                          f"(estimate by random probes of the search tree).")
+    if report.constrained:
+        console.print("Counts keep every fixed event in its slot and no event in a barred slot.")
+    for note in notes:
+        console.print(f"[yellow]note:[/yellow] {note}")
+    if report.chromatic_number is not None:
+        console.print(f"\nFewest slots: [bold]{report.chromatic_number}[/bold] — {report.fewest_slots_reason}.")
+    else:
+        console.print("\nFewest slots: not known exactly (a group was too large to count within the time limit; "
+                      "`timetabler solve` can still find timetables).")
+    if report.components:
+        groups = Table(title="Groups of events linked by clashes (largest first)", title_justify="left")
+        groups.add_column("Events")
+        groups.add_column("Size", justify="right")
+        groups.add_column("Clashes", justify="right")
+        groups.add_column("Fewest slots", justify="right")
+        for k in [c.slots for c in report.counts]:
+            groups.add_column(f"{k} slots", justify="right")
+        shown = sorted(report.components, key=lambda c: -len(c.events))[:10]
+        for comp in shown:
+            names = ", ".join(comp.events[:4]) + (f", … (+{len(comp.events) - 4})" if len(comp.events) > 4 else "")
+            cells = []
+            for c in comp.counts:
+                cells.append(readable_count(c.timetables) if c.exact else f"~{_log_text(c.estimate_log10)}")
+            groups.add_row(names, str(len(comp.events)), str(comp.clashes),
+                           str(comp.chromatic_number) if comp.chromatic_number is not None else "?", *cells)
+        console.print(groups)
+        if len(report.components) > len(shown):
+            console.print(f"… and {len(report.components) - len(shown)} smaller groups.")
+    if report.riskiest_absent_clashes:
+        k = report.riskiest_absent_clashes[0]["slots"]
+        console.print(f"\nIf one new enrolment made these events clash, with {k} slots it would remove this share of "
+                      f"the timetables:")
+        for item in report.riskiest_absent_clashes:
+            console.print(f"  {item['events'][0]} and {item['events'][1]}: {item['share_lost']:.0%}")
+    if report.most_freeing_clashes:
+        k = report.most_freeing_clashes[0]["slots"]
+        console.print(f"\nClashes whose removal (e.g. moving the shared attendees) multiplies the {k}-slot count most:")
+        for item in report.most_freeing_clashes:
+            console.print(f"  {item['events'][0]} and {item['events'][1]}: × {item['gain']:,.2f}")
+
+
+def _print_polynomial(report, graph) -> None:
+    poly = whole_polynomial(report, graph)
+    if poly is None:
+        console.print("\nThe polynomial is not shown: a group was not counted exactly, or fixed/barred slots apply.")
+        return
+    console.print(f"\nP(k) = {poly.pretty()}")
+    console.print("Ways to split the events into exactly j clash-free groups:")
+    for j, a in enumerate(poly.falling):
+        if a:
+            console.print(f"  j = {j}: {a:,}")
