@@ -77,6 +77,15 @@ def number(value) -> str:
     return str(value)
 
 
+def ratio(value: float | None) -> str:
+    """A ratio between counts: grouped whole numbers when large, two decimals when small."""
+    if value is None:
+        return "—"
+    if value >= 100:
+        return "×\u2009" + group_digits(int(round(value)))
+    return f"×\u2009{value:.2f}"
+
+
 def digits(n: int | None) -> int:
     return 0 if n is None else len(str(abs(int(n))))
 
@@ -88,5 +97,6 @@ FILTERS = {
     "seconds": seconds,
     "number": number,
     "digits": digits,
+    "ratio": ratio,
     "sup": superscripts,
 }

@@ -39,6 +39,7 @@ from ..errors import InputError
 from . import analysis as an
 from .count_chart import bar_from_count, count_chart_svg
 from .jobs import SolveJob
+from .page_format import group_digits
 from .uploads import StoredUpload, UploadRejected, UploadStore
 
 log = logging.getLogger("timetabler.web")
@@ -462,12 +463,20 @@ def _comparison(problem, runs: list, counts: Any, fewest: Any) -> dict:
 
 
 def _cell(value: Any, kind: str, value_text) -> dict:
-    numeric = isinstance(value, (int, float)) and not isinstance(value, bool)
-    if kind == "bigint" and isinstance(value, int):
-        return {"text": value, "big": True, "numeric": True}
-    if numeric and kind == "float" and isinstance(value, float):
+    """One value of the side-by-side, shaped for the page: big counts short, numbers grouped."""
+    if isinstance(value, bool) or value is None:
+        return {"text": value_text(value, kind), "numeric": False}
+    if isinstance(value, str) and value.isdigit():
+        value = int(value)  # counts travel as decimal text
+    if isinstance(value, int):
+        if len(str(value)) > 15:
+            return {"text": value, "big": True, "numeric": True}
+        return {"text": group_digits(value), "numeric": True}
+    if isinstance(value, float):
+        if value.is_integer() and abs(value) < 1e15:
+            return {"text": group_digits(int(value)), "numeric": True}
         return {"text": f"{value:.1f}" if abs(value) >= 10 else f"{value:.2f}", "numeric": True}
-    return {"text": value_text(value, kind), "numeric": numeric}
+    return {"text": value_text(value, kind), "numeric": False}
 
 
 def _cached_counts(analysis: an.Analysis | None, ks: list[int]) -> Any:
