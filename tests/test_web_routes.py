@@ -13,6 +13,7 @@ import io
 import re
 import time
 import zipfile
+from html.parser import HTMLParser
 from pathlib import Path
 
 import openpyxl
@@ -363,6 +364,15 @@ def test_one_solve_at_a_time_and_stop_ends_the_child(client, exam_week_xlsx):
     page = client.get(f"/files/{token}/solving")
     assert page.status_code == 200 and 'id="stop-button"' in page.text
     job = client.app.state.store.get(token).state["job"]
+    # Live progress: the best penalty so far and the bound arrive while the solver runs.
+    deadline = time.monotonic() + 20
+    seen = None
+    while time.monotonic() < deadline and seen is None:
+        rows = client.get(f"/files/{token}/solving.json").json()["slots"]
+        seen = next((row for row in rows if row["state"] == "solving" and row["best"] is not None), None)
+        time.sleep(0.2)
+    assert seen is not None, "no progress reached the page"
+    assert seen["bound"] is None or seen["bound"] <= seen["best"]
     r = client.post(f"/files/{token}/stop", headers=SAME, follow_redirects=False)
     assert r.status_code == 303
     assert job.state == "cancelled" and job.wait(10)
@@ -426,3 +436,38 @@ def test_serve_command_help_teaches_and_a_busy_port_is_a_clear_error(run_command
         port = sock.getsockname()[1]
         result = run_command("serve", "--port", str(port))
     assert result.status == 2 and "already in use" in result.stderr
+
+
+class _FormAudit(HTMLParser):
+    """Collects the form controls of a page and the labels that name them."""
+
+    def __init__(self):
+        super().__init__()
+        self.controls, self.labelled, self.open_labels, self.buttons = [], set(), 0, []
+
+    def handle_starttag(self, tag, attrs):
+        a = dict(attrs)
+        if tag == "label":
+            self.open_labels += 1
+            if a.get("for"):
+                self.labelled.add(a["for"])
+        elif tag in ("input", "select", "textarea") and a.get("type") not in ("hidden", "submit"):
+            self.controls.append((a.get("id"), self.open_labels > 0, a.get("name")))
+        elif tag == "button":
+            self.buttons.append(a)
+
+    def handle_endtag(self, tag):
+        if tag == "label":
+            self.open_labels -= 1
+
+
+def test_every_control_has_a_label(client):
+    """Keyboard and screen-reader use: each input is named by a label (wrapped or by for=id)."""
+    token = upload_ok(client, "triangle.csv", TRIANGLE_CSV.encode())
+    for path in ("/", f"/files/{token}"):
+        audit = _FormAudit()
+        audit.feed(client.get(path).text)
+        assert audit.controls, path
+        for control_id, wrapped, name in audit.controls:
+            assert wrapped or control_id in audit.labelled, f"{path}: control {name!r} has no label"
+        assert all(b.get("type") == "submit" for b in audit.buttons)
