@@ -451,7 +451,7 @@ def _add_objective(tm: TimetableModel, problem, slots, sub, day, t, d, previous,
     tm.terms = terms
     objective = [coef * expr for name in terms for coef, expr in terms[name]]
     if objective:
-        m.Minimize(sum(objective))
+        m.Minimize(sum(objective) + sum(tm.constant.values()))
 
 
 def _attendee_event_sets(problem: Problem, code_set: set[str]) -> list[tuple[str, ...]]:

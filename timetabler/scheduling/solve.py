@@ -148,6 +148,26 @@ class _Watcher(cp_model.CpSolverSolutionCallback):
                            "gap": gap, "seconds": time.perf_counter() - self.start})
 
 
+class _Budget:
+    """Time left for a run: wall-clock seconds, or CP-SAT deterministic time in repeatable mode
+    (so that how the time is shared between phases does not depend on the machine's load)."""
+
+    def __init__(self, seconds: float, deterministic: bool):
+        self.total = seconds
+        self.deterministic = deterministic
+        self.used = 0.0
+        self.start = time.perf_counter()
+
+    def left(self) -> float:
+        if self.deterministic:
+            return self.total - self.used
+        return self.total - (time.perf_counter() - self.start)
+
+    def charge(self, solver: cp_model.CpSolver) -> None:
+        if self.deterministic:
+            self.used += solver.ResponseProto().deterministic_time
+
+
 def _parameters(solver: cp_model.CpSolver, options: SolveOptions, seconds: float, *, workers: int | None = None) -> None:
     p = solver.parameters
     p.num_workers = max(1, workers if workers is not None else options.workers)
@@ -156,7 +176,7 @@ def _parameters(solver: cp_model.CpSolver, options: SolveOptions, seconds: float
     if options.deterministic:
         p.interleave_search = True
         p.max_deterministic_time = max(0.05, seconds)
-        p.max_time_in_seconds = max(0.05, seconds) * 20
+        p.max_time_in_seconds = max(0.05, seconds) * 100  # a safety net only
     else:
         p.max_time_in_seconds = max(0.05, seconds)
 
@@ -257,13 +277,13 @@ def solve(
     blocks = _blocks(problem, graph, slots, options)
     total_events = max(1, len(codes))
     results: list[SolveRun] = []
+    budget = _Budget(options.time_limit - (time.perf_counter() - start), options.deterministic)
     for i, block in enumerate(blocks):
-        spent = time.perf_counter() - start
-        left = max(0.2, options.time_limit - spent)
+        left = max(0.2, budget.left())
         share = left if i == len(blocks) - 1 else max(0.2, left * len(block) / max(1, sum(map(len, blocks[i:]))))
         block_cover = cover if len(blocks) == 1 else [c for c in cover if c[0] in set(block)]
         results.append(_solve_block(problem, slots, graph, block, sizes, domains, block_cover, clique, large,
-                                    previous, options, share, progress, info, start))
+                                    previous, options, share, progress, info, start, budget))
         if results[-1].status in ("infeasible", "unknown"):
             break
     _combine(run, results, len(blocks))
@@ -314,10 +334,13 @@ def _objective_order_free(problem: Problem, slots: list[Slot], previous: dict) -
 
 
 def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, large, previous, options,
-                 seconds, progress, info, start) -> SolveRun:
+                 seconds, progress, info, start, budget: _Budget) -> SolveRun:
     k = len(slots)
     t0 = time.perf_counter()
-    deadline = t0 + seconds
+    left_at_start = budget.left()
+
+    def left() -> float:  # this block's share still unused
+        return seconds - (left_at_start - budget.left())
     run = SolveRun(slots=k, slot_list=list(slots), status="unknown")
     block_set = set(block)
     sub = graph.subgraph(block)
@@ -349,14 +372,15 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
     # step 3: a feasibility search with slot symmetry broken
     if symmetric and feasible_hint is None:
         say("searching for a clash-free timetable")
-        phase_seconds = (deadline - time.perf_counter()) * (1.0 if order_free else 0.5)
+        phase_seconds = left() * (1.0 if order_free else 0.5)
         tm = build_model(problem, slots, graph, block, sizes=sizes, domains=domains, objective=False,
                          symmetry=sym_clique, large=large, room_splitting=options.room_splitting,
                          room_sharing=options.room_sharing, cover=cover)
         _add_hint(tm, hint)
         status, solver, watcher = _run(tm, options, phase_seconds, progress, {**info, "phase": "clash-free"}, start)
+        budget.charge(solver)
         if status == cp_model.INFEASIBLE:
-            return _explain(problem, slots, graph, block, sizes, domains, options, deadline, run, cover)
+            return _explain(problem, slots, graph, block, sizes, domains, options, left, run, cover)
         if status in (cp_model.OPTIMAL, cp_model.FEASIBLE):
             feasible_hint = tm.assignment(solver)
             if run.first_feasible_seconds is None:
@@ -370,7 +394,7 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
 
     # step 4: the full model (with the goals), hinted; step 5: rooms, with cuts
     for round_ in range(6):
-        remaining = deadline - time.perf_counter()
+        remaining = left()
         if order_free and feasible_hint is not None and not problem.rooms:
             # nothing to optimise: the clash-free timetable is optimal (penalty 0 is the least possible)
             run.assignment = dict(feasible_hint)
@@ -383,6 +407,7 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
                          nogoods=nogoods, cover=cover)
         _add_hint(tm, feasible_hint or _repair_hint(previous, hint, block))
         status, solver, watcher = _run(tm, options, max(0.2, remaining), progress, {**info, "phase": "goals"}, start)
+        budget.charge(solver)
         if status == cp_model.INFEASIBLE:
             if nogoods:
                 run.status, run.proven = "infeasible", True
@@ -390,7 +415,7 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
                               f"{len(nogoods)} room check(s) no timetable is left")
                 run.reasons = [run.reason]
                 return run
-            return _explain(problem, slots, graph, block, sizes, domains, options, deadline, run, cover)
+            return _explain(problem, slots, graph, block, sizes, domains, options, left, run, cover)
         if status not in (cp_model.OPTIMAL, cp_model.FEASIBLE):
             run.status = "unknown"
             run.reason = (f"no timetable with {k} slots was found within the time limit, and none was ruled out; "
@@ -411,7 +436,7 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
         say("seating events in rooms")
         seating = seat_events(problem, slots, assignment, sizes, sharing=options.room_sharing,
                               splitting=options.room_splitting, seed=options.seed,
-                              seconds_per_slot=min(5.0, max(0.5, (deadline - time.perf_counter()) / 10)))
+                              seconds_per_slot=min(5.0, max(0.5, left() / 10)))
         if not seating.failed_slots:
             run.rooms = seating.rooms
             splits = sum(len(v) - 1 for v in seating.rooms.values())
@@ -423,7 +448,7 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
             break
         nogoods.extend(seating.failed_slots.items())
         feasible_hint = None
-        if time.perf_counter() >= deadline or round_ == 5:
+        if left() <= 0 or round_ == 5:
             run.status = "unknown"
             run.assignment = {}
             run.reason = ("a clash-free timetable was found but its events could not be seated in the rooms of "
@@ -461,7 +486,7 @@ def _run(tm: TimetableModel, options: SolveOptions, seconds: float, progress, in
     return status, solver, watcher
 
 
-def _explain(problem, slots, graph, block, sizes, domains, options, deadline, run: SolveRun, cover) -> SolveRun:
+def _explain(problem, slots, graph, block, sizes, domains, options, left, run: SolveRun, cover) -> SolveRun:
     """Infeasible: name a small set of rules that cannot all hold together."""
     k = len(slots)
     run.status, run.proven = "infeasible", True
@@ -471,7 +496,7 @@ def _explain(problem, slots, graph, block, sizes, domains, options, deadline, ru
         run.reason = generic
         run.reasons = [generic]
         return run
-    seconds = max(1.0, min(30.0, deadline - time.perf_counter()))
+    seconds = max(1.0, min(30.0, left()))
     tm = build_model(problem, slots, graph, block, sizes=sizes, domains=domains, objective=False, explain=True,
                      room_splitting=options.room_splitting, room_sharing=options.room_sharing, cover=cover)
     solver = cp_model.CpSolver()
@@ -488,25 +513,25 @@ def _explain(problem, slots, graph, block, sizes, domains, options, deadline, ru
                       "without booking someone twice")
         run.reasons = [run.reason]
         return run
-    core = _shrink(tm, core, options, deadline)
+    core = _shrink(tm, core, options, left)
     run.reasons = [r.text for r in core]
     run.reason = ("these rules cannot all hold together with the clashes in " f"{k} slots: " + "; ".join(run.reasons))
     return run
 
 
-def _shrink(tm: TimetableModel, core, options: SolveOptions, deadline: float):
+def _shrink(tm: TimetableModel, core, options: SolveOptions, left):
     """Deletion filter: drop each rule in turn while the rest stays infeasible (within the time left)."""
     if len(core) > 15:
         return core
     kept = list(core)
     for rule in list(core):
-        if time.perf_counter() > deadline:
+        if left() <= 0:
             break
         trial = [r for r in kept if r is not rule]
         tm.model.ClearAssumptions()
         tm.model.AddAssumptions([r.literal for r in trial])
         solver = cp_model.CpSolver()
-        _parameters(solver, options, max(0.5, min(5.0, deadline - time.perf_counter())), workers=1)
+        _parameters(solver, options, max(0.5, min(5.0, left())), workers=1)
         if solver.Solve(tm.model) == cp_model.INFEASIBLE:
             kept = trial
     return kept

@@ -1,0 +1,141 @@
+"""Soft goals, repair mode, determinism and progress.
+
+The solver's penalty is checked against the independent validator's recount and, on tiny
+instances, against brute force over every assignment (the reference is exhaustive search).
+"""
+
+from __future__ import annotations
+
+import itertools
+import random
+
+import pytest
+
+from timetabler.model import Event, Problem, Slot, Weights, generic_slots
+from timetabler.scheduling import SolveOptions, solve, validate
+
+OPT = SolveOptions(time_limit=20, workers=2, seed=4)
+
+
+def random_session(seed: int, events: int = 6, students: int = 14) -> Problem:
+    rng = random.Random(seed)
+    codes = [f"HV{100 + i}" for i in range(events)]
+    enrol = []
+    for s in range(students):
+        for c in rng.sample(codes, rng.randint(1, 3)):
+            enrol.append((f"HV-S{s:04d}", c))
+    present = {c for _, c in enrol}
+    enrol += [(f"HV-X{i:04d}", c) for i, c in enumerate(codes) if c not in present]
+    return Problem(enrol)
+
+
+def brute_force_best(problem: Problem, slots, previous=None) -> int | None:
+    best = None
+    codes = sorted(problem.events)
+    for combo in itertools.product(range(1, len(slots) + 1), repeat=len(codes)):
+        v = validate(problem, slots, dict(zip(codes, combo)), previous=previous)
+        if v.ok and (best is None or v.penalty < best):
+            best = v.penalty
+    return best
+
+
+WEIGHT_SETS = [
+    Weights(),  # the defaults
+    Weights(back_to_back=5, overnight=7, same_day=1, proximity=1, large_late=2, preferred_slot=3, penalised_slot=2),
+]
+
+
+@pytest.mark.parametrize("seed", [1, 2, 3])
+@pytest.mark.parametrize("wi", [0, 1])
+def test_optimal_penalty_equals_brute_force_and_the_validator(seed, wi):
+    p = random_session(seed, events=5, students=10)
+    p.weights = WEIGHT_SETS[wi]
+    p.events["HV101"].preferred_slots = ("2",)
+    slots = generic_slots(4, 2)
+    slots[3].penalised = True
+    run = solve(p, slots, OPT)
+    assert run.status == "optimal"
+    v = validate(p, slots, run.assignment)
+    assert v.ok, v.violations
+    assert run.penalty == v.penalty == brute_force_best(p, slots)
+    w = p.weights.__dict__
+    for name, amount in run.penalty_breakdown.items():
+        assert amount == w[name] * v.soft[name], name
+
+
+@pytest.mark.parametrize("seed", [5, 6])
+def test_penalty_breakdown_matches_recount_on_larger_sessions(seed):
+    p = random_session(seed, events=25, students=120)
+    p.weights = Weights(back_to_back=10, overnight=3, same_day=2, proximity=1, large_late=1)
+    slots = generic_slots(12, 3)
+    run = solve(p, slots, SolveOptions(time_limit=1.5, workers=2, seed=seed))
+    assert run.status in ("optimal", "feasible")
+    v = validate(p, slots, run.assignment)
+    assert v.ok and run.penalty == v.penalty
+    assert run.bound is not None and run.bound <= run.penalty + 1e-6
+
+
+def test_real_slots_with_dates_and_lengths():
+    import datetime as dt
+    days = [dt.date(2026, 6, d) for d in (1, 2, 3, 4)]
+    slots = [Slot(f"{d:%a %d %b} {h}:00", date=d, start=dt.time(h), length_minutes=L)
+             for d in days for h, L in ((9, 180), (14, 120))]
+    p = random_session(9, events=6, students=20)
+    p.events["HV100"].duration_minutes = 150
+    run = solve(p, slots, OPT)
+    assert run.status == "optimal", run.reasons
+    v = validate(p, slots, run.assignment)
+    assert v.ok and slots[run.assignment["HV100"] - 1].length_minutes == 180
+    assert run.penalty == v.penalty
+
+
+def test_repair_moves_as_few_events_as_possible_and_lists_them():
+    p = random_session(11, events=6, students=14)
+    slots = generic_slots(5, 1)
+    first = solve(p, slots, OPT)
+    assert first.status == "optimal"
+    # a late change: a new student joins two exams that sat in one slot
+    by_slot: dict[int, list[str]] = {}
+    for c, s in first.assignment.items():
+        by_slot.setdefault(s, []).append(c)
+    pair = next(v for v in by_slot.values() if len(v) >= 2)[:2] if any(len(v) >= 2 for v in by_slot.values()) else None
+    if pair is None:
+        pair = sorted(first.assignment)[:2]
+    late = Problem(p.enrolments + [("HV-S9999", pair[0]), ("HV-S9999", pair[1])],
+                   weights=Weights(back_to_back=0, overnight=0, same_day=0, moved=1))
+    run = solve(late, slots, OPT, previous=first.assignment)
+    v = validate(late, slots, run.assignment, previous=first.assignment)
+    assert run.status == "optimal" and v.ok
+    assert len(run.moves) == v.soft["moved"] == brute_force_best(late, slots, previous=first.assignment)
+    assert all(first.assignment[m["event"]] == m["from"] and run.assignment[m["event"]] == m["to"]
+               for m in run.moves)
+    assert 1 <= len(run.moves) <= 1 if first.assignment[pair[0]] == first.assignment[pair[1]] else True
+
+
+def test_same_seed_and_workers_give_the_same_timetable():
+    p = random_session(21, events=14, students=70)
+    slots = generic_slots(10, 2)
+    one = SolveOptions(time_limit=0.3, workers=1, seed=7, deterministic=True)
+    a, b = solve(p, slots, one), solve(p, slots, one)
+    assert a.assignment == b.assignment and a.penalty == b.penalty
+    two = SolveOptions(time_limit=0.3, workers=2, seed=7, deterministic=True)
+    c, d = solve(p, slots, two), solve(p, slots, two)
+    assert c.assignment == d.assignment
+
+
+def test_progress_reports_penalty_bound_and_gap():
+    p = random_session(31, events=20, students=150)
+    seen: list[dict] = []
+    run = solve(p, generic_slots(8, 2), SolveOptions(time_limit=1.5, workers=2), progress=seen.append)
+    sols = [e for e in seen if e["event"] == "solution"]
+    assert run.status in ("optimal", "feasible") and sols
+    assert all({"penalty", "bound", "gap", "seconds", "slots"} <= e.keys() for e in sols)
+    assert sols[-1]["penalty"] >= run.penalty
+    assert [e["penalty"] for e in sols] == sorted((e["penalty"] for e in sols), reverse=True)
+
+
+def test_large_events_go_early_when_asked():
+    enrol = [(f"HV-S{i:04d}", "BIG") for i in range(40)] + [(f"HV-T{i:04d}", f"E{i}") for i in range(9)]
+    p = Problem(enrol, weights=Weights(back_to_back=0, overnight=0, same_day=0, large_late=5))
+    run = solve(p, generic_slots(6, 2), OPT)
+    assert run.assignment["BIG"] == 1 and run.penalty == 0
