@@ -84,6 +84,7 @@ class ComponentCount:
     counts: list[SlotCount]
     reason: str | None = None  # why it is not exact
     values: dict[int, int] = field(default_factory=dict, repr=False)  # exact counts at K and K − 1
+    nodes: list = field(default_factory=list, repr=False)  # the graph's own node objects
 
     @property
     def chromatic_number(self) -> int | None:
@@ -349,7 +350,8 @@ def _count_component(sub, needed, ks, budget, fixed, barred, constrained_events)
             est = knuth_estimate(sub, k, allowed=allowed or None, seconds=0.5)
             counts.append(_inexact_count(k, lower, upper, est))
     return ComponentCount(events, sub.number_of_edges(), exact, method if exact else "bounds + Knuth estimate",
-                          poly, constrained, counts, None if exact else reason, values if exact else {})
+                          poly, constrained, counts, None if exact else reason, values if exact else {},
+                          sorted(sub, key=str))
 
 
 def _inexact_count(k: int, lower: int, upper: int, est: Estimate) -> SlotCount:
@@ -432,7 +434,7 @@ def _fewest_reason(graph: nx.Graph, results: list[ComponentCount], chromatic: in
     if chromatic <= 1:
         return "no two events clash, so one slot holds them all" if graph.number_of_nodes() else "no events"
     worst = max(results, key=lambda r: (r.chromatic_number or 0, len(r.events)))
-    clique = max(nx.find_cliques(graph.subgraph(worst.events)), key=len) if len(worst.events) <= 400 else []
+    clique = max(nx.find_cliques(graph.subgraph(worst.nodes)), key=len) if len(worst.events) <= 400 else []
     text = (
         f"with {chromatic - 1} slots there are exactly 0 clash-free timetables for the group of "
         f"{len(worst.events)} events starting {', '.join(worst.events[:3])}"
@@ -466,7 +468,7 @@ def _what_if(graph: nx.Graph, report: CountReport, ks: list[int], deadline: floa
         base = comp.polynomial(k)
         if base == 0:
             continue
-        sub = nx.Graph(graph.subgraph(comp.events))
+        sub = nx.Graph(graph.subgraph(comp.nodes))
         nodes = list(sub)
         for i, u in enumerate(nodes):
             for v in nodes[i + 1:]:
