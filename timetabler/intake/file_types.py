@@ -150,9 +150,19 @@ def load_book(path: Path, limits: Limits, progress: Progress | None = None) -> R
     else:
         delimiter = sniff_delimiter(text, prefer="\t" if suffix in (".tsv", ".tab") else ",")
     rows = []
-    for i, row in enumerate(csv.reader(io.StringIO(text, newline=""), delimiter=delimiter), start=1):
+    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)
+    for i, row in enumerate(reader, start=1):
         while row and not row[-1].strip():
             row.pop()
+        for j, cell in enumerate(row):
+            if cell.count("\n") >= 10:  # a stray double quote swallowed the lines that follow
+                raise InputError(Finding(
+                    "A cell runs over many lines: a double quote (\") that is opened and never closed has "
+                    "joined the following lines into one cell, and their rows would be lost.",
+                    where=Location(name, None, i, f"column {j + 1}"),
+                    found=cell[:60].replace("\n", " | ") + " ...",
+                    suggestion="Remove the stray double quote in this row, or enclose the whole cell in double quotes.",
+                ))
         budget.take(len(row), None, i)
         rows.append(list(row))
         if progress and i % 50_000 == 0:
