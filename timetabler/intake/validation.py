@@ -107,7 +107,8 @@ def figure_warnings(problem: Problem, findings: FindingList, enrolment_where: Lo
                     event_where: dict[str, Location], leading_zero_pairs: list[tuple[str, str]],
                     case_merges: list[tuple[str, str]]) -> None:
     sizes = problem.event_sizes()
-    empty = [code for code, n in sizes.items() if n == 0]
+    # In a clash list an event with no synthetic attendee simply clashes with nothing.
+    empty = [] if synthetic else [code for code, n in sizes.items() if n == 0]
     for code in sorted(empty)[:20]:
         findings.warn(f"Nobody is enrolled on the event {code}.", event_where.get(code, enrolment_where),
                       suggestion="It still gets a slot; delete it from the events sheet if it is not sat this session.")
