@@ -60,6 +60,19 @@ def upload_ok(client, name: str, data: bytes) -> str:
     return location.rsplit("/", 1)[1]
 
 
+def overview(client, token: str, query: str = ""):
+    """The overview page once its count is ready (a big count first shows a placeholder)."""
+    r = client.get(f"/files/{token}{query}")
+    deadline = time.monotonic() + 60
+    while 'id="counting"' in r.text and time.monotonic() < deadline:
+        source = html.unescape(re.search(r'id="counting" class="key-fact" data-source="([^"]+)"', r.text).group(1))
+        if client.get(source).json()["state"] == "running":
+            time.sleep(0.2)
+            continue
+        r = client.get(f"/files/{token}{query}")
+    return r
+
+
 def plain(text: str) -> str:
     """Page text with tags removed and thin spaces dropped (for finding numbers)."""
     return re.sub(r"\s+", " ", re.sub(r"<[^>]+>", " ", text)).replace(THIN, "")
@@ -128,7 +141,7 @@ def test_overview_shows_the_same_figures_as_inspect(client, run_command, exam_we
 
 def test_counts_table_matches_the_closed_form(client):
     token = upload_ok(client, "triangle.csv", TRIANGLE_CSV.encode())
-    r = client.get(f"/files/{token}?slots=2-5")
+    r = overview(client, token, "?slots=2-5")
     assert r.status_code == 200
     table = re.search(r'<table class="counts" id="counts">(.*?)</table>', r.text, re.S).group(1)
     rows = re.findall(r'<th scope="row" class="num">(\d+)</th>\s*<td class="num">(.*?)</td>', table, re.S)
@@ -144,9 +157,31 @@ def test_big_counts_show_every_digit(client):
     # 30 exams with no shared student: P = k^30 (edgeless graph), 5^30 has 21 digits.
     csv = "Student,Exam\n" + "".join(f"HV-S{i:04d},E{i:02d}\n" for i in range(30))
     token = upload_ok(client, "free.csv", csv.encode())
-    r = client.get(f"/files/{token}?slots=5")
+    r = overview(client, token, "?slots=5")
     assert str(5**30) in r.text.replace(THIN, "")
     assert "9.31 × 10<sup>20</sup>" in r.text
+
+
+def test_a_long_count_shows_the_page_first_and_fills_in(client, monkeypatch):
+    from timetabler.web import routes
+
+    real = web_analysis.count
+
+    def slow(*args, **kwargs):
+        time.sleep(1.0)
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(routes, "FIRST_COUNT_WAIT", 0.0)
+    monkeypatch.setattr(web_analysis, "count", slow)
+    token = upload_ok(client, "triangle.csv", TRIANGLE_CSV.encode())
+    first = client.get(f"/files/{token}?slots=3")
+    assert first.status_code == 200 and 'id="counting"' in first.text and 'id="counts"' not in first.text
+    assert '<noscript><meta http-equiv="refresh"' in first.text  # without script, the page refreshes itself
+    assert 'id="figures"' in first.text and 'id="solve-form"' in first.text  # the rest is there at once
+    assert client.get(f"/files/{token}/counts.json?slots=3").json()["state"] == "running"
+    done = overview(client, token, "?slots=3")
+    assert 'id="counts"' in done.text and client.get(f"/files/{token}/counts.json?slots=3").json()["state"] == "done"
+    assert str(triangle_count(3)) in plain(done.text)
 
 
 def test_bad_slot_choices_are_explained(client):

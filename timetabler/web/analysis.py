@@ -10,6 +10,8 @@ this module only chooses arguments and shapes results for the templates.
 from __future__ import annotations
 
 import dataclasses
+import logging
+import threading
 import zipfile
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -21,6 +23,8 @@ from ..conflicts import ConflictSummary, conflict_graph, summarise
 from ..errors import Finding, InputError
 from ..intake import ReadOptions, Reading, read_problem
 from ..model import Problem, Slot, Weights, days_of, generic_slots
+
+log = logging.getLogger("timetabler.web")
 
 #: How many slot counts the first table shows, from the lower bound up.
 DEFAULT_COUNT_SPAN = 6
@@ -38,6 +42,8 @@ class Analysis:
     summary: ConflictSummary
     read_options: dict[str, str | None]
     counts: dict[tuple[int, ...], Any] = field(default_factory=dict)
+    tasks: dict[tuple[int, ...], Any] = field(default_factory=dict)
+    lock: threading.Lock = field(default_factory=threading.Lock)
 
     @property
     def problem(self) -> Problem:
@@ -174,24 +180,87 @@ def fixed_and_barred(problem: Problem, slots: list[Slot]) -> tuple[dict[str, int
     return fixed, barred
 
 
-def count(analysis: Analysis, ks: list[int], budget_seconds: float) -> Any:
-    """The counting engine's report for these slot counts (cached per upload)."""
+def count(analysis: Analysis, ks: list[int], budget_seconds: float, progress: Any = None) -> Any:
+    """The counting engine's report for these slot counts (cached per upload).
+
+    Fixed and barred slots are honoured as the ``count`` command honours them: resolved
+    against the first K slots for each K, a fixed slot outside them making the count 0.
+    """
     key = tuple(ks)
     if key in analysis.counts:
         return analysis.counts[key]
     from ..counting import count_timetables
 
     problem = analysis.problem
-    fixed: dict[str, int] = {}
-    barred: dict[str, set[int]] = {}
-    if not problem.slots:
-        # With generic slots a fixed or barred slot means the same slot number for every K.
-        fixed, barred = fixed_and_barred(problem, generic_slots(max(ks)))
-    report = count_timetables(
-        analysis.graph, ks, budget_seconds=budget_seconds, fixed=fixed or None, barred=barred or None
-    )
+    pinned = [e for e in problem.events.values() if (e.fixed_slot and str(e.fixed_slot).strip()) or e.barred_slots]
+    if not pinned:
+        report = count_timetables(analysis.graph, ks, budget_seconds=budget_seconds, progress=progress)
+    else:
+        reports = []
+        for k in ks:
+            slots = list(problem.slots[:k]) if problem.slots else generic_slots(k)
+            fixed: dict[str, int] = {}
+            barred: dict[str, set[int]] = {}
+            for event in pinned:
+                if event.fixed_slot and str(event.fixed_slot).strip():
+                    fixed[event.code] = problem.slot_number(event.fixed_slot, slots) or 0
+                refs = {problem.slot_number(r, slots) for r in event.barred_slots} - {None}
+                if refs:
+                    barred[event.code] = refs  # type: ignore[assignment]
+            reports.append(count_timetables(analysis.graph, [k], budget_seconds=budget_seconds / len(ks),
+                                            fixed=fixed, barred=barred, progress=progress))
+        report = reports[0]
+        report.counts = [c for r in reports for c in r.counts]
+        for other in reports[1:]:
+            for mine, theirs in zip(report.components, other.components):
+                mine.counts.extend(theirs.counts)
     analysis.counts[key] = report
     return report
+
+
+@dataclass
+class CountTask:
+    """A count running in a thread so the overview page can show at once and fill in the counts."""
+
+    ks: tuple[int, ...]
+    done: int = 0
+    total: int | None = None
+    message: str = ""
+    error: str | None = None
+    finished: threading.Event = field(default_factory=threading.Event)
+
+    def run(self, analysis: Analysis, budget_seconds: float) -> None:
+        def progress(done: int, total: int, message: str = "") -> None:
+            self.done, self.total, self.message = done, total, message
+
+        try:
+            count(analysis, list(self.ks), budget_seconds, progress)
+        except InputError as exc:
+            self.error = str(exc)
+        except Exception:  # noqa: BLE001 - a counting bug must not hide the figures or stop a solve
+            log.exception("counting failed for slot counts %s", list(self.ks))
+            self.error = (
+                "Counting the timetables failed: this is a bug in timetabler (the details are in the window "
+                "where the page server runs). The figures above and solving below still work."
+            )
+        finally:
+            self.finished.set()
+
+    def to_json(self) -> dict:
+        state = "failed" if self.error else ("done" if self.finished.is_set() else "running")
+        return {"state": state, "done": self.done, "total": self.total, "message": self.message, "error": self.error}
+
+
+def start_count(analysis: Analysis, ks: list[int], budget_seconds: float) -> CountTask:
+    """The running or finished count task for these slot counts, started if need be."""
+    key = tuple(ks)
+    with analysis.lock:
+        task = analysis.tasks.get(key)
+        if task is None or (task.error and task.finished.is_set()):
+            task = CountTask(key)
+            analysis.tasks[key] = task
+            threading.Thread(target=task.run, args=(analysis, budget_seconds), name="timetabler-count", daemon=True).start()
+    return task
 
 
 WEIGHT_LABELS = {

@@ -193,6 +193,23 @@ def _copy_capped(source, target: Path, cap: int) -> int:
 
 READ_OPTION_KEYS = ("sheet", "attendee_column", "event_column")
 
+#: Seconds the overview waits for a count before showing the page without it.
+FIRST_COUNT_WAIT = 1.5
+
+
+async def counts_json(request: Request) -> Response:
+    """Progress of the count the overview started (polled by the page's script)."""
+    stored = upload_of(request)
+    analysis = _current_analysis(stored)
+    if analysis is None:
+        return JSONResponse({"state": "none"})
+    try:
+        ks = an.parse_slot_counts(request.query_params.get("slots", ""), limit=12)
+    except ValueError as exc:
+        return JSONResponse({"state": "none", "error": str(exc)}, status_code=400)
+    task = analysis.tasks.get(tuple(ks))
+    return JSONResponse(task.to_json() if task is not None else {"state": "none"})
+
 
 async def overview(request: Request) -> Response:
     stored = upload_of(request)
@@ -215,17 +232,18 @@ async def overview(request: Request) -> Response:
         ks, ks_error = an.default_slot_counts(analysis), str(exc)
     counts = None
     count_error = None
+    counting = None
     if analysis.summary.events:
-        try:
-            counts = await run_in_threadpool(an.count, analysis, ks, settings.count_budget_seconds)
-        except InputError as exc:
-            count_error = str(exc).replace(str(stored.path), stored.name)
-        except Exception:  # noqa: BLE001 - a counting bug must not hide the figures or stop a solve
-            log.exception("counting failed for slot counts %s", ks)
-            count_error = (
-                "Counting the timetables failed: this is a bug in timetabler (the details are in the window "
-                "where the page server runs). The figures above and solving below still work."
-            )
+        task = an.start_count(analysis, ks, settings.count_budget_seconds)
+        # Small files count in a blink: wait a moment so the page comes complete; else show it now
+        # and let the page's script (or a refresh) fill in the counts.
+        await run_in_threadpool(task.finished.wait, FIRST_COUNT_WAIT)
+        if task.error:
+            count_error = task.error.replace(str(stored.path), stored.name)
+        elif task.finished.is_set():
+            counts = analysis.counts.get(tuple(ks))
+        else:
+            counting = task.to_json()
     rows = list(getattr(counts, "counts", []) or [])
     chart = count_chart_svg([bar_from_count(c) for c in rows]) if rows else None
     problem = analysis.problem
@@ -242,6 +260,8 @@ async def overview(request: Request) -> Response:
             "counts": rows,
             "count_report": counts,
             "count_error": count_error,
+            "counting": counting,
+            "counts_source": f"/files/{stored.token}/counts.json?slots={'+'.join(map(str, ks))}",
             "chart": chart,
             "ks": ks,
             "ks_text": " ".join(map(str, ks)),
@@ -589,6 +609,7 @@ ROUTES = [
     Route("/template.xlsx", template_workbook, methods=["GET"]),
     Route("/upload", upload, methods=["POST"]),
     Route("/files/{token}", overview, methods=["GET"]),
+    Route("/files/{token}/counts.json", counts_json, methods=["GET"]),
     Route("/files/{token}/solve", start_solve, methods=["POST"]),
     Route("/files/{token}/solving", solving, methods=["GET"]),
     Route("/files/{token}/solving.json", solving_json, methods=["GET"]),

@@ -77,5 +77,26 @@
     poll();
   }
 
-  document.addEventListener("DOMContentLoaded", function () { setupDrop(); setupProgress(); });
+  function setupCounting() {
+    var box = document.getElementById("counting");
+    if (!box) return;
+    var source = box.getAttribute("data-source");
+    var line = document.getElementById("counting-progress");
+    function poll() {
+      fetch(source, { headers: { "Accept": "application/json" }, credentials: "same-origin" })
+        .then(function (r) { return r.json(); })
+        .then(function (doc) {
+          if (doc.state === "running") {
+            if (doc.total) line.textContent = "group " + doc.done + " of " + doc.total + " done";
+            window.setTimeout(poll, 700);
+          } else {
+            window.location.reload();
+          }
+        })
+        .catch(function () { window.setTimeout(poll, 2000); });
+    }
+    poll();
+  }
+
+  document.addEventListener("DOMContentLoaded", function () { setupDrop(); setupProgress(); setupCounting(); });
 })();
