@@ -162,7 +162,9 @@ def read_problem(path: str | Path, options: ReadOptions | None = None) -> Readin
     if layout.kind == LONG and options.layout == "auto" and raw.separators_seen:
         if 2 * raw.separators_seen >= len(raw.pairs):
             layout.kind, layout.split_cells = WIDE, True
-            findings = _fresh(findings, options, book)
+            findings = FindingList(cap=options.max_findings)  # the second pass finds the row warnings again
+            for note in book.notes:
+                findings.add(note)
             raw = read_enrolments(sheet, layout, name, findings, options.limits.max_cells)
         else:
             findings.warn(f"{raw.separators_seen} event cells hold a comma or semicolon; each was read as one event code.",
@@ -249,15 +251,6 @@ def read_problem(path: str | Path, options: ReadOptions | None = None) -> Readin
         blank_rows=raw.blank_rows,
         case_sensitive_codes=cs,
     )
-
-
-def _fresh(old: FindingList, options: ReadOptions, book: RawBook) -> FindingList:
-    """A new finding list for a second pass over the enrolment rows (keeping the file notes)."""
-    new = FindingList(cap=options.max_findings)
-    for note in book.notes:
-        new.add(note)
-    del old
-    return new
 
 
 def choose_sheet(book: RawBook, name: str, options: ReadOptions, event_columns: tuple[str, ...]) -> tuple[RawSheet, Layout]:

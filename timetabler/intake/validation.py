@@ -11,6 +11,8 @@ Errors (the run stops):
 
 Warnings (the run goes on; they are shown and kept in the output):
 
+* a ``same slot`` rule between events that share attendees (no clash-free timetable can
+  then exist; the solver reports it as infeasible, this says why before any solving);
 * an event with nobody enrolled;
 * an attendee with an implausible number of events (more than
   ``max(15, 4 × median)`` — a rule of thumb, common practice with no single source);
@@ -25,7 +27,7 @@ from __future__ import annotations
 import re
 import statistics
 
-from ..model import Event, Location, Problem, Slot
+from ..model import Event, Location, Problem, RuleKind, Slot
 from .findings import FindingList
 from .sheets import Extras
 
@@ -67,6 +69,20 @@ def cross_check(problem: Problem, extras: Extras, findings: FindingList, event_w
                 findings.error(f"The rule '{rule.describe()}' names an event that is not in the enrolments or the events sheet.",
                                where, found=code, expected="an event code used elsewhere in the workbook",
                                suggestion="Check the spelling of the code.")
+    if any(rule.kind is RuleKind.SAME_SLOT for rule in problem.rules):
+        by_event = {code: set(names) for code, names in problem.attendees_by_event().items()}
+        for rule in problem.rules:
+            if rule.kind is not RuleKind.SAME_SLOT:
+                continue
+            for i, a in enumerate(rule.events):
+                for b in rule.events[i + 1:]:
+                    shared = by_event.get(a, set()) & by_event.get(b, set())
+                    if shared:
+                        findings.warn(f"The rule '{rule.describe()}' cannot hold: "
+                                      + (f"{len(shared)} attendees are" if len(shared) > 1 else "1 attendee is")
+                                      + f" enrolled on both {a} and {b}, so no clash-free timetable exists.", rule.where,
+                                      found=", ".join(sorted(shared)[:3]) + (", ..." if len(shared) > 3 else ""),
+                                      suggestion="Check the rule, or the enrolments of these attendees.")
     lengths = [s.length_minutes for s in slots if s.length_minutes]
     room_types = {(r.room_type or "").casefold() for r in problem.rooms}
     for code, event in problem.events.items():
