@@ -24,7 +24,7 @@ keeps them apart.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Callable
 
@@ -142,7 +142,7 @@ def read_problem(path: str | Path, options: ReadOptions | None = None) -> Readin
     """
     options = options or ReadOptions()
     if key(options.layout) in ("clashes", "clash list", "clash"):
-        options.layout = CLASH_LIST
+        options = replace(options, layout=CLASH_LIST)  # never change the caller's options
     if options.layout not in LAYOUT_CHOICES:
         raise InputError(Finding("Unknown layout.", found=options.layout, expected=", ".join(LAYOUT_CHOICES)))
     path = Path(path)
