@@ -45,6 +45,19 @@ from selenium.webdriver.support.ui import WebDriverWait  # noqa: E402
 
 SAMPLE = Path(__file__).resolve().parents[2] / "sample_data" / "exam_week.xlsx"
 
+# Selenium Manager is never needed (the driver's path is given); make sure it would send nothing either.
+os.environ.setdefault("SE_AVOID_STATS", "true")
+
+DROP_SCRIPT = """
+const [name, text] = arguments;
+const data = new DataTransfer();
+data.items.add(new File([text], name, {type: "text/csv"}));
+const zone = document.getElementById("drop-zone");
+for (const type of ["dragenter", "dragover", "drop"]) {
+  zone.dispatchEvent(new DragEvent(type, {dataTransfer: data, bubbles: true, cancelable: true}));
+}
+"""
+
 
 def _free_port() -> int:
     with socket.socket() as sock:
@@ -164,6 +177,13 @@ def test_upload_count_solve_download_in_chromium(server, browser, tmp_path):
     assert len(book.sheetnames) >= 3
     codes = {str(c.value) for sheet in book.worksheets for row in sheet.iter_rows() for c in row if c.value}
     assert {"BIO101", "MTH110"} <= codes
+
+    # Drag and drop on the first page uploads too (the page's script puts the file in the form).
+    browser.get(server)
+    browser.execute_script(DROP_SCRIPT, "dropped.csv", "Student,Exam\nHV-S0001,A\nHV-S0001,B\nHV-S0002,B\n")
+    figures = wait.until(EC.presence_of_element_located((By.ID, "figures")))
+    assert "dropped.csv" in browser.find_element(By.TAG_NAME, "h1").text
+    assert "Events" in figures.text
 
     for path in (home, overview, progress, timetable):
         assert path.exists()
