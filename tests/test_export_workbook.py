@@ -39,7 +39,8 @@ def published(tmp_path_factory):
 def test_sheets_are_all_there_in_order(published):
     _, _, _, _, wb = published
     per_run = ["Grid", "Events", "Personal timetables", "Seats", "Rooms", "Attendee load"]
-    expected = ["Overview", "Comparison", "Counts"] + [f"{s} ({k} slots)" for k in (4, 5) for s in per_run]
+    expected = ["Overview", "Comparison", "Counts", "Count groups", "What if"]
+    expected += [f"{s} ({k} slots)" for k in (4, 5) for s in per_run]
     assert wb.sheetnames == expected
 
 
@@ -302,3 +303,54 @@ def test_control_characters_and_overlong_text_do_not_break_the_file(tmp_path):
     reason = rows[0]["Reason"]
     assert reason.startswith("bell x") and "\x07" not in reason
     assert len(reason) <= 32767 and reason.endswith("(cut: too long for one cell)")
+
+
+def test_count_groups_multiply_to_the_total_and_match_networkx(tmp_path):
+    import sympy
+    import networkx as nx
+
+    problem = small_problem(rooms=False)
+    problem.enrolments += [("HV-S0020", "ART201"), ("HV-S0020", "ART202"), ("HV-S0021", "MUS301")]
+    problem.__post_init__()  # a second group (ART201-ART202) and an event with no clash (MUS301)
+    counts = count_report(problem, [3, 4])
+    path = write_workbook(tmp_path / "groups.xlsx", problem=problem, runs=[], counts=counts)
+    wb = load_workbook(path)
+    _, groups = rows_of(wb["Count groups"])
+    _, totals = rows_of(wb["Counts"])
+    graph = conflict_graph(problem)
+    x = sympy.Symbol("x")
+    for k, total in zip((3, 4), totals):
+        product = 1
+        for g in groups:
+            product *= int(g[f"Timetables with {k} slots"])
+        assert product == int(total["Clash-free timetables"])
+    assert [g["Events"] for g in groups] == [6, 2, 1]
+    for g in groups[:2]:
+        codes = g["Event codes"].split(", ")
+        # reference: networkx.chromatic_polynomial of the group's own clash graph
+        poly = sympy.Poly(nx.chromatic_polynomial(graph.subgraph(codes)), x)
+        assert [int(g[f"Timetables with {k} slots"]) for k in (3, 4)] == [int(poly.eval(k)) for k in (3, 4)]
+    assert groups[2]["Event codes"] == "events with no clash: any slot each"
+
+
+def test_what_if_figures_match_networkx(published):
+    import sympy
+    import networkx as nx
+
+    problem, _, _, _, wb = published
+    _, rows = rows_of(wb["What if"])
+    assert rows
+    graph = conflict_graph(problem)
+    x = sympy.Symbol("x")
+    poly = lambda g, k: int(sympy.Poly(nx.chromatic_polynomial(g), x).eval(k))  # reference library
+    for r in rows:
+        k, u, v = r["Slots"], r["Event"], r["Other event"]
+        base = poly(graph, k)
+        if r["Change"] == "a new shared attendee":
+            assert not graph.has_edge(u, v)
+            expected = poly(nx.contracted_nodes(graph, u, v, self_loops=False), k) / base
+        else:
+            cut = nx.Graph(graph)
+            cut.remove_edge(u, v)
+            expected = poly(cut, k) / base
+        assert r["Effect"] == pytest.approx(expected)

@@ -85,7 +85,8 @@ def publish(
     clash-free timetables for the slot counts of ``runs`` are counted here (within the
     ``count_budget`` seconds of ``settings``, default 20).
     """
-    from ..export.workbook import validate_run, write_workbook
+    from ..export.tables import validate_run
+    from ..export.workbook import write_workbook
 
     outputs = dict(outputs or {})
     if not wants_output(outputs):

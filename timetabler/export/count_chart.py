@@ -59,12 +59,13 @@ def write_count_chart(path: str | Path, counts: Any, *, inputs: tuple = (), titl
             if lo is not None and hi is not None:
                 ax.vlines(x, lo, hi, color="#1f5f8b", alpha=0.5, linewidth=1)
     for x, y, ex, _, _ in points:
-        ax.annotate(f"10^{y:.1f}" if y >= 6 else f"{round(10 ** y):,}", (x, y), textcoords="offset points", xytext=(0, 8),
-                    ha="center", fontsize=8)
+        ax.annotate(f"$10^{{{y:.1f}}}$" if y >= 6 else f"{round(10 ** y):,}", (x, y), textcoords="offset points",
+                    xytext=(0, 8), ha="center", fontsize=8)
     ax.set_xlabel("Slots")
     ax.set_ylabel("log10(number of clash-free timetables)")
     ax.set_title(title or "Clash-free timetables against slots")
     ax.set_xticks(xs)
+    ax.margins(x=0.06, y=0.15)  # room for the labels above the points
     ax.grid(True, alpha=0.3)
     if exact and estimated:
         ax.legend()

@@ -2,7 +2,7 @@
 
 Files are UTF-8 with a byte-order mark (so spreadsheet programs detect the encoding),
 comma-separated, one header row; dates as ``YYYY-MM-DD``, times as ``HH:MM``, flags as
-``yes``/``no``, counts of timetables as exact decimal digits. A text value that a
+``yes``/``no``, counts of timetables as exact decimal digits, other numbers in full precision. A text value that a
 spreadsheet would run as a formula (starting with ``=``, ``+``, ``@``, or ``-`` when it is
 not a number) is written with a leading apostrophe, the usual defence against formula
 injection in CSV files (OWASP, "CSV Injection").
@@ -11,6 +11,7 @@ injection in CSV files (OWASP, "CSV Injection").
 from __future__ import annotations
 
 import csv
+import math
 import re
 from pathlib import Path
 from typing import Any, Sequence
@@ -19,8 +20,8 @@ from ..errors import Finding, InputError
 from ..model import Problem
 from .safe_write import check_target, write_safely
 from .tables import (
-    TEXT, PublishedTable, comparison_table, counts_table, events_table, has_timetable, load_table, moves_table, personal_table,
-    rooms_table, run_figures, seats_table, value_text,
+    TEXT, PublishedTable, comparison_table, counts_table, events_table, groups_table, has_timetable, load_table, moves_table, personal_table, what_if_table,
+    rooms_table, run_figures, seats_table, validations_for, value_text,
 )
 
 _NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
@@ -38,9 +39,14 @@ def write_table_csv(path: Path, table: PublishedTable) -> None:
         writer = csv.writer(fh)
         writer.writerow(table.headers)
         for row in table.rows:
-            writer.writerow(
-                [guard_text(value_text(v, c.kind)) if c.kind == TEXT else value_text(v, c.kind) for v, c in zip(row, table.columns)]
-            )
+            writer.writerow([_csv_text(v, c.kind) for v, c in zip(row, table.columns)])
+
+
+def _csv_text(value, kind: str) -> str:
+    if isinstance(value, float) and not isinstance(value, bool) and math.isfinite(value):
+        return repr(value)  # full precision: a CSV file is data for other programs too
+    text = value_text(value, kind)
+    return guard_text(text) if kind == TEXT else text
 
 
 def prepare_folder(folder: str | Path) -> Path:
@@ -59,12 +65,16 @@ def write_csv_folder(folder: str | Path, *, problem: Problem, runs: Sequence[Any
     """Write the lists as CSV files into ``folder`` (created if needed); return the files written."""
     target = prepare_folder(folder)
     runs = sorted(runs, key=lambda r: int(r.slots))
+    validations = validations_for(problem, runs, validations)
     tables: list[tuple[str, PublishedTable]] = []
     if runs:
         figures = {int(r.slots): run_figures(problem, r) for r in runs}
         tables.append(("comparison", comparison_table(problem, runs, counts, validations, figures, fewest)))
     if counts is not None and getattr(counts, "counts", None):
         tables.append(("counts", counts_table(counts)))
+        for stem, table in (("count-groups", groups_table(counts)), ("what-if", what_if_table(counts))):
+            if table is not None:
+                tables.append((stem, table))
     with_timetable = [r for r in runs if has_timetable(r)]
     for run in with_timetable:
         suffix = f"-{int(run.slots)}-slots" if len(with_timetable) > 1 else ""

@@ -460,6 +460,60 @@ def counts_table(counts: Any) -> PublishedTable:
     return table
 
 
+def groups_table(counts: Any) -> PublishedTable | None:
+    """Per group of events linked by clashes: its size, clashes, how it was counted, and its counts.
+
+    The total for K slots is the product of the groups' counts and K for every event with no
+    clash (that factor is shown as its own row when no fixed or barred slot applies).
+    """
+    components = list(getattr(counts, "components", None) or [])
+    if not components:
+        return None
+    ks = [int(c.slots) for c in counts.counts]
+    columns = [Column("Group", INT), Column("Events", INT), Column("Event codes"), Column("Clashes", INT),
+               Column("Exact", FLAG), Column("Method"), Column("Fewest slots", INT)]
+    columns += [Column(f"Timetables with {k} slots", BIGINT) for k in ks]
+    table = PublishedTable("Count groups", columns, title="Counts by group of events linked by clashes")
+    order = sorted(components, key=lambda c: (-len(c.events), sorted(map(str, c.events))))
+    for i, comp in enumerate(order, start=1):
+        codes = sorted(map(str, comp.events))
+        shown = ", ".join(codes[:30]) + (f", … {len(codes) - 30} more" if len(codes) > 30 else "")
+        by_k = {int(c.slots): c for c in comp.counts}
+        table.rows.append([i, len(codes), shown, getattr(comp, "clashes", None), bool(comp.exact),
+                           getattr(comp, "method", "") or "", getattr(comp, "chromatic_number", None)]
+                          + [count_text(getattr(by_k.get(k), "timetables", None)) for k in ks])
+    isolated = int(getattr(counts, "isolated_events", 0) or 0)
+    if isolated and not getattr(counts, "constrained", False):
+        table.rows.append([None, isolated, "events with no clash: any slot each", 0, True, "closed form (K per event)",
+                           1] + [str(k ** isolated) for k in ks])
+    return table
+
+
+def what_if_table(counts: Any) -> PublishedTable | None:
+    """The counting engine's what-if figures: absent clashes that would hurt most, clashes whose removal frees most."""
+    risky = list(getattr(counts, "riskiest_absent_clashes", None) or [])
+    freeing = list(getattr(counts, "most_freeing_clashes", None) or [])
+    if not risky and not freeing:
+        return None
+    table = PublishedTable(
+        "What if",
+        [Column("Change"), Column("Event"), Column("Other event"), Column("Slots", INT), Column("Effect", FLOAT),
+         Column("Meaning")],
+        title="What one change of enrolments would do to the number of timetables",
+    )
+    for item in risky:
+        a, b = (list(item.get("events", [])) + ["", ""])[:2]
+        share = float(item.get("share_lost", 0.0))
+        table.rows.append(["a new shared attendee", a, b, item.get("slots"), share,
+                           f"one attendee sitting both would rule out {share:.0%} of the timetables"])
+    for item in freeing:
+        a, b = (list(item.get("events", [])) + ["", ""])[:2]
+        gain = float(item.get("gain", 0.0))
+        table.rows.append(["clash removed", a, b, item.get("slots"), gain,
+                           f"with no attendee sitting both there would be {gain:.3g} times as many timetables"])
+    return table
+
+
 def count_for(counts: Any, k: int) -> Any:
     for c in getattr(counts, "counts", None) or []:
         if int(c.slots) == int(k):
@@ -476,6 +530,27 @@ def count_words(c: Any) -> str:
         return str(int(t))
     lg = _count_log10(c)
     return f"about 10^{lg:.1f}" if lg is not None and math.isfinite(lg) else "not counted"
+
+
+def validate_run(problem: Problem, run: Any) -> Any:
+    """The independent validator's verdict on a run, or None when the validator is not available."""
+    attached = getattr(run, "validation", None)
+    if attached is not None:
+        return attached
+    try:
+        from ..scheduling import validate
+    except ImportError:
+        return None
+    return validate(problem, list(run.slot_list), dict(run.assignment), getattr(run, "rooms", None) or None)
+
+
+def validations_for(problem: Problem, runs: Sequence[Any], given: Mapping[int, Any] | None = None) -> dict[int, Any]:
+    """The validator's verdict for every run with a timetable (given ones kept)."""
+    out = dict(given or {})
+    for run in runs:
+        if int(run.slots) not in out and has_timetable(run):
+            out[int(run.slots)] = validate_run(problem, run)
+    return out
 
 
 def verdict_words(validation: Any) -> str:

@@ -12,6 +12,12 @@ Counts
     Per slot count: the exact number of clash-free timetables **as text** (Excel keeps
     only 15 significant digits of a number), its number of digits, log10, the ratio to the
     previous count, exact or estimated; and a native Excel chart of log10(count) against slots.
+Count groups
+    The counts of each group of events linked by clashes (their product, times K for each
+    event with no clash, is the total).
+What if
+    Absent clashes that would rule out the largest share of timetables if one attendee sat
+    both events, and clashes whose removal would multiply the timetables most.
 Grid
     The timetable as a grid: one row per day, one column per session.
 Events
@@ -57,6 +63,7 @@ from ..model import Problem, Weights
 from .safe_write import check_target, write_safely
 from .tables import (
     BIGINT, DATE, FLAG, FLOAT, INT, TIME, PublishedTable, RunFigures, comparison_table, counts_table, events_table,
+    groups_table, validations_for, what_if_table,
     grid_rows, has_timetable, load_table, moves_table, personal_table, rooms_table, run_figures, seats_table, value_text,
     verdict_words,
 )
@@ -100,11 +107,7 @@ def write_workbook(
     inputs = [getattr(problem, "source", ""), *inputs]
     target = check_target(path, inputs=inputs, suffixes=(".xlsx",))
     runs = sorted(runs, key=lambda r: int(r.slots))
-    validations = dict(validations or {})
-    for run in runs:
-        k = int(run.slots)
-        if k not in validations and has_timetable(run):
-            validations[k] = validate_run(problem, run)
+    validations = validations_for(problem, runs, validations)
     figures = {int(r.slots): run_figures(problem, r) for r in runs}
 
     def build(tmp: Path) -> None:
@@ -117,6 +120,12 @@ def write_workbook(
             )
         if counts is not None and getattr(counts, "counts", None):
             _counts_sheet(book, counts)
+            groups = groups_table(counts)
+            if groups is not None:
+                book.table_sheet("Count groups", groups)
+            what_if = what_if_table(counts)
+            if what_if is not None:
+                book.table_sheet("What if", what_if)
         with_timetable = [r for r in runs if has_timetable(r)]
         for run in with_timetable:
             suffix = f" ({int(run.slots)} slots)" if len(with_timetable) > 1 else ""
@@ -136,18 +145,6 @@ def write_workbook(
         wb.save(tmp)
 
     return write_safely(target, build)
-
-
-def validate_run(problem: Problem, run: Any) -> Any:
-    """The independent validator's verdict on a run, or None when the validator is not available."""
-    attached = getattr(run, "validation", None)
-    if attached is not None:
-        return attached
-    try:
-        from ..scheduling import validate
-    except ImportError:
-        return None
-    return validate(problem, list(run.slot_list), dict(run.assignment), getattr(run, "rooms", None) or None)
 
 
 # --------------------------------------------------------------------------- writing helpers
