@@ -116,6 +116,12 @@ def test_template_workbook_downloads_and_opens(client):
     assert 'filename="timetabler-template.xlsx"' in r.headers["content-disposition"]
     book = openpyxl.load_workbook(io.BytesIO(r.content))
     assert "Enrolments" in book.sheetnames
+    # The filled-in example reads back through intake as a problem with events.
+    example = client.get("/template.xlsx?example=1")
+    assert 'filename="timetabler-example.xlsx"' in example.headers["content-disposition"]
+    token = upload_ok(client, "timetabler-example.xlsx", example.content)
+    r = client.get(f"/files/{token}")
+    assert r.status_code == 200 and re.search(r'<th scope="row">Events</th><td>[1-9]', r.text)
 
 
 # -- upload and overview -----------------------------------------------------------------------

@@ -101,12 +101,14 @@ async def template_workbook(request: Request) -> Response:
         from ..intake.template import write_template  # the same writer as `timetabler template`
     except ImportError:
         raise HTTPException(404, "The template workbook is not available in this version.") from None
+    example = request.query_params.get("example") == "1"
+    name = "timetabler-example.xlsx" if example else "timetabler-template.xlsx"
     folder = Path(tempfile.mkdtemp(dir=store_of(request).root))
-    target = folder / "timetabler-template.xlsx"
-    await run_in_threadpool(write_template, target)
+    target = folder / name
+    await run_in_threadpool(lambda: write_template(target, example=example))
     return FileResponse(
         target,
-        filename="timetabler-template.xlsx",
+        filename=name,
         media_type="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
         background=_remove_later(folder),
     )
