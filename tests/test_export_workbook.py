@@ -354,3 +354,26 @@ def test_what_if_figures_match_networkx(published):
             cut.remove_edge(u, v)
             expected = poly(cut, k) / base
         assert r["Effect"] == pytest.approx(expected)
+
+
+def test_estimated_counts_are_marked_with_their_bounds(tmp_path):
+    import networkx as nx
+
+    from timetabler.counting import count_timetables
+
+    # a dense random clash graph and half a second: too hard to count exactly, so the
+    # engine gives rigorous bounds and an estimate
+    graph = nx.relabel_nodes(nx.gnp_random_graph(60, 0.3, seed=3), lambda i: f"E{i:02d}")
+    counts = count_timetables(graph, [12, 14], budget_seconds=0.5, what_if=False)
+    assert not any(c.exact for c in counts.counts)
+    path = write_workbook(tmp_path / "estimate.xlsx", problem=small_problem(), runs=[], counts=counts)
+    _, rows = rows_of(load_workbook(path)["Counts"])
+    for row, c in zip(rows, counts.counts):
+        assert row["Exact"] == "no" and row["Clash-free timetables"] is None
+        assert row["log10"] == pytest.approx(c.estimate_log10)
+        assert int(row["Lower bound"]) == c.lower and int(row["Upper bound"]) == c.upper  # exact text, 60+ digits
+        assert c.lower <= 10 ** c.estimate_log10 <= c.upper
+        assert row["Estimate relative error"] == pytest.approx(c.estimate_relative_error)
+    from timetabler.export.count_chart import chart_points
+
+    assert [(x, exact) for x, _, exact, _, _ in chart_points(counts)] == [(12, False), (14, False)]

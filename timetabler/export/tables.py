@@ -446,7 +446,7 @@ def counts_table(counts: Any) -> PublishedTable:
         [
             Column("Slots", INT), Column("Clash-free timetables", BIGINT), Column("Digits", INT), Column("log10", FLOAT),
             Column("Ratio to previous", FLOAT), Column("Exact", FLAG), Column("Lower bound", BIGINT),
-            Column("Upper bound", BIGINT), Column("Groupings", BIGINT),
+            Column("Upper bound", BIGINT), Column("Estimate relative error", FLOAT), Column("Groupings", BIGINT),
         ],
         title="Number of clash-free timetables for each number of slots",
     )
@@ -455,7 +455,8 @@ def counts_table(counts: Any) -> PublishedTable:
         table.rows.append([
             int(c.slots), count_text(t), len(str(int(t))) if t else (1 if t == 0 else None), _count_log10(c),
             getattr(c, "ratio_to_previous", None), bool(getattr(c, "exact", False)), count_text(getattr(c, "lower", None)),
-            count_text(getattr(c, "upper", None)), count_text(getattr(c, "groupings", None)),
+            count_text(getattr(c, "upper", None)), getattr(c, "estimate_relative_error", None),
+            count_text(getattr(c, "groupings", None)),
         ])
     return table
 
