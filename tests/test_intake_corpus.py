@@ -8,6 +8,7 @@ column of the finding it must raise.
 
 from __future__ import annotations
 
+import datetime as dt
 import hashlib
 import os
 import zipfile
@@ -261,6 +262,10 @@ CASES = [
     Case("a duration longer than every slot",
          lambda t: _sheet_with_extras(t, "a.xlsx", {"Slots": GOOD_SLOTS, "Events": [["Event", "Duration (minutes)"], ["CHM120", 240]]}),
          error=("longer than every slot", "Events", 2, "B (Duration")),
+    Case("slots given as date-and-time cells without a Start column",
+         lambda t: _sheet_with_extras(t, "a.xlsx", {"Slots": [["Slot", "Date"], ["Mon AM", dt.datetime(2027, 5, 3, 9, 30)]]}),
+         check=lambda r: (r.problem.slots[0].start == dt.time(9, 30) and r.problem.slots[0].date == dt.date(2027, 5, 3))
+         or pytest.fail(str(r.problem.slots))),
     Case("a date that is not a date",
          lambda t: _sheet_with_extras(t, "a.xlsx", {"Slots": _slots([["Mon AM", "31/02/2027", "09:00", 180, 100]])}),
          error=("not a date", "Slots", 2, "B (Date)")),

@@ -9,6 +9,7 @@ slot that does not exist) are in :mod:`timetabler.intake.validation`.
 
 from __future__ import annotations
 
+import datetime as _dt
 from dataclasses import dataclass, field
 
 from ..model import Event, Location, Room, Rule, RuleKind, Slot, Weights
@@ -184,6 +185,8 @@ def read_slots(table: Table, findings: FindingList, extras: Extras) -> None:
             findings.error("This is not a date.", table.where(r, "Date"), found=identifier(raw_date),
                            expected="a date cell, or text such as 2027-01-11 or 11/01/2027 (day first)")
         start = time_value(raw_start)
+        if is_blank(raw_start) and isinstance(raw_date, _dt.datetime) and raw_date.time() != _dt.time(0):
+            start = raw_date.time()  # a date-and-time cell gives the start when there is no Start column
         if not is_blank(raw_start) and start is None:
             findings.error("This is not a time of day.", table.where(r, "Start"), found=identifier(raw_start),
                            expected="a time cell, or text such as 09:00 or 2pm")
