@@ -148,6 +148,8 @@ def test_template_has_drop_downs_and_instructions(tmp_path: Path):
     lists = [dv.formula1 for dv in rules.data_validations.dataValidation if dv.type == "list"]
     assert any("before" in f and "different days" in f for f in lists)
     assert book["Enrolments"].column_dimensions["A"].number_format == "@"  # keeps leading zeros
+    for ws in book.worksheets[1:]:
+        assert all(c.comment is not None for c in ws[1] if c.value), ws.title  # every header explains itself
     assert "Enrolments" in " ".join(str(c.value) for c in book["Instructions"]["A"] if c.value)
 
 

@@ -17,8 +17,9 @@ def command(file: str, force: bool, example: bool) -> None:
 
     \b
     Sheets: Instructions, Enrolments (required: one row per attendee and event),
-    Events, Slots, Rooms, Rules and Weights (optional). Each header explains itself when
-    selected; columns that take fixed words have drop-down lists. Fill it in, then run:
+    Events, Slots, Rooms, Rules and Weights (optional). Each header has a note that
+    explains it; columns that take fixed words have drop-down lists, and numbers, dates
+    and times are checked as they are typed. Fill it in, then run:
       timetabler inspect FILE.xlsx
     """
     path = write_template(file, force=force, example=example)

@@ -1,7 +1,7 @@
 """The blank input workbook that ``timetabler template`` writes.
 
-Every sheet of :mod:`timetabler.intake.vocabulary` with its headers, a help text on each
-header (shown when the cell is selected), drop-down lists and number checks on the columns
+Every sheet of :mod:`timetabler.intake.vocabulary` with its headers, a note on each
+header explaining it, a help text on the cells of checked columns (shown when a cell is selected), drop-down lists and number checks on the columns
 that take fixed words or numbers, and an *Instructions* sheet first. Identifier columns are
 formatted as text so spreadsheet programs keep leading zeros. Intake reads the blank
 workbook back without error (it warns that there are no enrolments yet).
@@ -131,6 +131,7 @@ def write_template(path: str | Path, *, force: bool = False, example: bool = Fal
 def build_template(example: bool = False):
     """The template as an openpyxl Workbook (not yet saved)."""
     from openpyxl import Workbook
+    from openpyxl.comments import Comment
     from openpyxl.styles import Alignment, Font, PatternFill
     from openpyxl.utils import get_column_letter
     from openpyxl.worksheet.datavalidation import DataValidation
@@ -147,6 +148,10 @@ def build_template(example: bool = False):
             cell = ws.cell(row=1, column=j, value=col.name)
             cell.font = bold
             cell.fill = header_fill
+            if col.help:
+                note = Comment(f"{col.name}: {col.help}", "timetabler")
+                note.width, note.height = 260, 80
+                cell.comment = note
             ws.column_dimensions[get_column_letter(j)].width = max(14, len(col.name) + 4)
             if col.name in TEXT_COLUMNS.get(sheet_name, ()):
                 ws.column_dimensions[get_column_letter(j)].number_format = "@"
