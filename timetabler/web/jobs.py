@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import dataclasses
 import logging
+import os
 import pickle
 import struct
 import subprocess
@@ -25,6 +26,7 @@ import threading
 import time
 import traceback
 from dataclasses import dataclass, field
+from pathlib import Path
 from typing import Any
 
 log = logging.getLogger("timetabler.web")
@@ -100,6 +102,10 @@ def _child_main() -> None:
     """
     out = sys.stdout.buffer
     sys.stdout = sys.stderr  # anything the engine prints must not corrupt the channel
+    try:
+        os.nice(5)  # the solver yields to the page and the browser on a busy laptop
+    except (AttributeError, OSError):
+        pass
     try:
         problem, plan, options, previous, fewest_per_day = pickle.load(sys.stdin.buffer)
         from timetabler.conflicts import conflict_graph
@@ -204,11 +210,15 @@ class SolveJob:
     # -- control --------------------------------------------------------------------------
 
     def start(self) -> "SolveJob":
+        env = dict(os.environ)
+        package_root = str(Path(__file__).resolve().parents[2])  # so the child finds this very package
+        env["PYTHONPATH"] = os.pathsep.join(p for p in (package_root, env.get("PYTHONPATH")) if p)
         self._process = subprocess.Popen(
             [sys.executable, "-m", "timetabler.web.jobs"],
             stdin=subprocess.PIPE,
             stdout=subprocess.PIPE,
             close_fds=True,
+            env=env,
         )
         payload = pickle.dumps((self.problem, self.plan, self.options, self.previous, self.fewest_per_day),
                                protocol=pickle.HIGHEST_PROTOCOL)
