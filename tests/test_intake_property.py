@@ -133,3 +133,38 @@ def test_messy_renderings_read_back_to_the_same_enrolments(pairs, rendering):
     got = {(a.casefold(), e.casefold()) for a, e in reading.problem.enrolments}
     assert got == {(a.casefold(), e.casefold()) for a, e in pairs}
     assert len(reading.problem.enrolments) == len(pairs)
+
+
+@st.composite
+def weighted_graphs(draw):
+    codes = [f"HV{i:03d}" for i in range(draw(st.integers(2, 9)))]
+    pairs = [(a, b) for i, a in enumerate(codes) for b in codes[i + 1:]]
+    chosen = draw(st.lists(st.sampled_from(pairs), unique=True, max_size=len(pairs))) if pairs else []
+    return codes, {p: draw(st.integers(1, 6)) for p in chosen}
+
+
+@settings(max_examples=30, deadline=None)
+@given(weighted_graphs(), st.sampled_from(["xlsx", "csv"]), st.booleans())
+def test_clash_lists_give_the_listed_weighted_graph(graph, kind, reversed_order):
+    """Reference: the weighted graph built directly with networkx from the same list."""
+    import networkx as nx
+
+    from timetabler.conflicts import conflict_graph
+
+    codes, weights = graph
+    rows = [["Exam", "Other exam", "Shared students"]]
+    for (a, b), w in weights.items():
+        rows.append([b, a, w] if reversed_order else [a, b, w])
+    touched = {c for pair in weights for c in pair}
+    rows += [[c, None, None] for c in codes if c not in touched]
+    with tempfile.TemporaryDirectory() as folder:
+        path = Path(folder) / f"clashes.{kind}"
+        (write_xlsx(path, {"Clashes": rows}) if kind == "xlsx" else write_text(path, rows))
+        reading = read_problem(path)
+    got = conflict_graph(reading.problem)
+    reference = nx.Graph()
+    reference.add_nodes_from(codes)
+    reference.add_weighted_edges_from(((a, b, w) for (a, b), w in weights.items()), weight="shared")
+    assert reading.synthetic_attendees
+    assert set(got.nodes) == set(reference.nodes)
+    assert {frozenset(e): w for *e, w in got.edges(data="shared")} == {frozenset(e): w for *e, w in reference.edges(data="shared")}
