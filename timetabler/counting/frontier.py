@@ -274,7 +274,11 @@ def frontier_polynomial(
         project = _Projection(keep, grown_len)
         new: dict[bytes, int] = {}
         get = new.get
-        for s, w in states.items():
+        per_state = _STATE_OVERHEAD + bits * (t + 1) / 8
+        for count, (s, w) in enumerate(states.items()):
+            if count & 4095 == 4095:
+                budget.check_time("the frontier count")
+                budget.check_memory((len(new) + len(states)) * per_state, "the frontier count")
             b = (max(s) + 1) if s else 0
             labels = sorted({s[i] for i in nbpos})
             # options: (state, number of blocks in it, signed weight)
@@ -330,7 +334,11 @@ def colourings(
         canon = _Canon(keep) if len(keep) < grown_len else None
         new: dict[bytes, int] = {}
         get = new.get
-        for s, w in states.items():
+        per_state = _STATE_OVERHEAD + n * max(k, 2).bit_length() / 8
+        for count, (s, w) in enumerate(states.items()):
+            if count & 4095 == 4095:
+                budget.check_time("the colouring count")
+                budget.check_memory((len(new) + len(states)) * per_state, "the colouring count")
             b = (max(s) + 1) if s else 0
             banned = {s[i] for i in nbpos}
             options = [(s + bytes((lab,)), w) for lab in range(b) if lab not in banned]
