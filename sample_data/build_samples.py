@@ -116,16 +116,24 @@ def build_term(rng: random.Random) -> dict[str, pd.DataFrame]:
         date = first_day + dt.timedelta(days=day + 2 * (day // 5))  # weekdays of two weeks
         for session, (start, length) in enumerate([(dt.time(9, 0), 180), (dt.time(14, 0), 180)]):
             label = f"{date:%a %d %b} {'AM' if session == 0 else 'PM'}"
-            slot_rows.append((label, date, start, length, 900))
+            slot_rows.append((label, date, start, length, 1500))
     slots = pd.DataFrame(slot_rows, columns=["Slot", "Date", "Start", "Length (minutes)", "Seats"])
 
     # A few rules of the kind registrars receive.
     events.loc[events["Exam"] == "LAW100", "Fixed slot"] = slot_rows[0][0]
     events.loc[events["Exam"] == "EDU300", "Barred slots"] = f"{slot_rows[0][0]}; {slot_rows[1][0]}"
+    # Two papers set together (say, sharing an external examiner) must share no student.
+    takers = enrolments.groupby("Exam")["Student"].apply(set)
+    together = next(
+        (a, b)
+        for a in by_faculty["ART"]
+        for b in by_faculty["LAW"]
+        if not takers.get(a, set()) & takers.get(b, set())
+    )
     rules = pd.DataFrame(
         [
             ("before", "SCI100", "SCI101"),
-            ("same slot", "HUM100", "HUM101"),
+            ("same slot", *together),
             ("different days", "BUS100", "BUS101"),
         ],
         columns=["Rule", "First exam", "Second exam"],
@@ -137,7 +145,7 @@ def build_term(rng: random.Random) -> dict[str, pd.DataFrame]:
     for i in range(1, 13):
         rooms.append((f"Room {100 + i}", rng.choice([30, 40, 60]), "Hall", ""))
     for i in range(1, 5):
-        rooms.append((f"Lab {i}", 40, "Lab", slot_rows[-1][0] if i == 1 else ""))
+        rooms.append((f"Lab {i}", 60, "Lab", slot_rows[-1][0] if i == 1 else ""))
     rooms = pd.DataFrame(rooms, columns=["Room", "Capacity", "Room type", "Unavailable slots"])
     del sizes
     return {"Enrolments": enrolments, "Exams": events, "Slots": slots, "Rooms": rooms, "Rules": rules}
