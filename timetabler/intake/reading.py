@@ -155,7 +155,11 @@ def read_problem(path: str | Path, options: ReadOptions | None = None) -> Readin
         findings.add(note)
 
     event_columns = tuple(options.event_columns) or ((options.event_column,) if options.event_column else ())
-    sheet, layout = choose_sheet(book, name, options, event_columns)
+    sheet, layout, also_fit = choose_sheet(book, name, options, event_columns)
+    if also_fit:
+        findings.warn(f"Other sheets also look like enrolments ({', '.join(repr(n) for n in also_fit[:5])}); "
+                      f"only '{sheet.name}', the one with most rows, was read.", Location(name, sheet.name),
+                      suggestion="Name the sheet to read with --sheet.")
     if options.progress:
         options.progress(f"reading enrolments from {sheet.name or name}", 0, len(sheet.rows))
     raw = read_enrolments(sheet, layout, name, findings, options.limits.max_cells)
@@ -203,7 +207,8 @@ def read_problem(path: str | Path, options: ReadOptions | None = None) -> Readin
                 continue
             other[role] = s
     for s in book.sheets:
-        if s is sheet or s.name is None or not s.rows or is_note_sheet(s.name) or any(s is o for o in other.values()):
+        if (s is sheet or s.name is None or not s.rows or is_note_sheet(s.name) or s.name in also_fit
+                or any(s is o for o in other.values())):
             continue
         findings.warn(f"The sheet '{s.name}' was not read: its name does not say what it holds.",
                       Location(name, s.name),
@@ -253,8 +258,13 @@ def read_problem(path: str | Path, options: ReadOptions | None = None) -> Readin
     )
 
 
-def choose_sheet(book: RawBook, name: str, options: ReadOptions, event_columns: tuple[str, ...]) -> tuple[RawSheet, Layout]:
-    """The enrolment sheet and its layout: the named sheet, else the first that fits (visible, larger first)."""
+def choose_sheet(book: RawBook, name: str, options: ReadOptions,
+                 event_columns: tuple[str, ...]) -> tuple[RawSheet, Layout, list[str]]:
+    """The enrolment sheet, its layout, and the other visible sheets that would also fit.
+
+    The sheet named in the options, else among the sheets whose headers fit: visible ones
+    first, then the one with most rows.
+    """
     detect = dict(layout=options.layout, attendee_column=options.attendee_column, event_columns=event_columns)
     if options.sheet is not None:
         wanted = [s for s in book.sheets if s.name == options.sheet] or [
@@ -270,14 +280,15 @@ def choose_sheet(book: RawBook, name: str, options: ReadOptions, event_columns: 
         layout = detect_layout(sheet, **detect)
         if layout is None:
             raise _no_header(name, [sheet], options, event_columns)
-        return sheet, layout
+        return sheet, layout, []
     plain = [s for s in book.sheets if not is_note_sheet(str(s.name or "")) and sheet_role(str(s.name or "")) is None]
     named = [s for s in book.sheets if s not in plain and not is_note_sheet(str(s.name or ""))]
     for group in (plain, named):
         fits = [(s, lay) for s in group if (lay := detect_layout(s, **detect)) is not None]
         if fits:
             fits.sort(key=lambda sl: (sl[0].hidden, -len(sl[0].rows)))
-            return fits[0]
+            sheet, layout = fits[0]
+            return sheet, layout, [str(s.name) for s, _ in fits[1:] if not s.hidden]
     raise _no_header(name, book.sheets, options, event_columns)
 
 
