@@ -82,9 +82,8 @@ def job_running(upload: StoredUpload) -> bool:
 
 
 def stop_all_jobs(store: UploadStore) -> None:
-    for token in list(store._uploads):
-        upload = store.get(token)
-        if upload is not None and job_running(upload):
+    for upload in store.all():
+        if job_running(upload):
             job_of(upload).cancel()  # type: ignore[union-attr]
 
 

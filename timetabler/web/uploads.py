@@ -267,6 +267,11 @@ class UploadStore:
             self._uploads.clear()
         shutil.rmtree(self.root, ignore_errors=True)
 
+    def all(self) -> list[StoredUpload]:
+        """Every upload kept now."""
+        with self._lock:
+            return list(self._uploads.values())
+
     def __len__(self) -> int:
         return len(self._uploads)
 
