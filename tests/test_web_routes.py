@@ -253,6 +253,16 @@ def test_too_large_uploads_are_refused_before_they_are_kept():
         assert post_file(c, "ok.csv", b"Student,Exam\n" + b"HV-S0001,A\n" * 150).status_code == 303
         assert len(c.app.state.store) == 1
 
+        # Without a Content-Length (a chunked body) the cap holds while the body streams in.
+        def body():
+            yield b"--cut\r\nContent-Disposition: form-data; name=\"file\"; filename=\"big.csv\"\r\n\r\n"
+            for _ in range(100):
+                yield b"HV-S0001,A\n" * 100
+            yield b"\r\n--cut--\r\n"
+
+        r = c.post("/upload", content=body(), headers={**SAME, "content-type": "multipart/form-data; boundary=cut"})
+        assert r.status_code == 413 and len(c.app.state.store) == 1
+
 
 def test_a_request_without_a_file_is_answered(client):
     r = client.post("/upload", data={"nothing": "here"}, headers=SAME)
@@ -299,6 +309,8 @@ def test_unknown_files_are_a_plain_404(client):
         assert r.status_code == 404, path
         assert "no longer here" in r.text or "Not here" in r.text
     assert client.get("/nowhere").status_code == 404
+    wrong = client.get("/upload")  # a GET where only POST is served
+    assert wrong.status_code == 405 and "<h1>" in wrong.text and "Traceback" not in wrong.text
 
 
 def test_a_bug_shows_a_message_not_a_traceback(monkeypatch):
