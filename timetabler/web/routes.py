@@ -2,9 +2,10 @@
 
 ====================================  =============================================================
 ``GET  /``                            upload a file; download the empty template workbook
-``GET  /template.xlsx``               the template workbook (intake's template writer)
+``GET  /template.xlsx``               the template workbook (intake's template writer; ?example=1 filled in)
 ``POST /upload``                      receive a file (size cap, type by content), then its overview
 ``GET  /files/{token}``               figures, findings, components, counts table and chart, solve form
+``GET  /files/{token}/counts.json``   progress of the count the overview started (for the page's script)
 ``POST /files/{token}/solve``         start a solve job (one at a time per file; 409 while one runs)
 ``GET  /files/{token}/solving``       live progress (best penalty, bound) with a Stop button
 ``GET  /files/{token}/solving.json``  the same progress for the page's script
@@ -20,7 +21,6 @@ names of downloads are fixed here, never taken from the request.
 
 from __future__ import annotations
 
-import asyncio
 import dataclasses
 import logging
 import shutil
