@@ -525,3 +525,20 @@ def test_every_control_has_a_label(client):
         for control_id, wrapped, name in audit.controls:
             assert wrapped or control_id in audit.labelled, f"{path}: control {name!r} has no label"
         assert all(b.get("type") == "submit" for b in audit.buttons)
+
+
+def test_weights_from_the_form_reach_the_solver(client):
+    # One student sits A and B; with 2 slots on one day they are back to back whatever the order,
+    # so the penalty is the back-to-back weight: 10 by default (model.Weights), 0 when switched off.
+    token = upload_ok(client, "pair.csv", b"Student,Exam\nHV-S0001,A\nHV-S0001,B\n")
+    client.get(f"/files/{token}")
+    penalties = {}
+    for weight in ("10", "0"):
+        r = client.post(f"/files/{token}/solve", data={"slots": ["2"], "sessions_per_day": "2", "time_limit": "5",
+                                                       "weight_back_to_back": weight}, headers=SAME, follow_redirects=False)
+        assert r.status_code == 303
+        assert wait_finished(client, token)["state"] == "finished"
+        job = client.app.state.store.get(token).state["job"]
+        penalties[weight] = job.runs[2].penalty
+        assert job.runs[2].validation.soft.get("back_to_back") == 1
+    assert penalties == {"10": 10, "0": 0}
