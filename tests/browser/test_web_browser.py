@@ -127,6 +127,7 @@ def browser(tmp_path):
 
 def _shot(driver, folder: Path, name: str) -> Path:
     """Screenshot of the whole page (the window is grown to the page's height first)."""
+    driver.set_window_size(1280, 900)
     height = driver.execute_script("return Math.max(document.body.scrollHeight, document.documentElement.scrollHeight)")
     driver.set_window_size(1280, min(max(int(height) + 40, 900), 6000))
     path = folder / f"{name}.png"
@@ -160,6 +161,8 @@ def test_upload_count_solve_download_in_chromium(server, browser, tmp_path):
     assert ticked, "the page suggests slot counts to solve"
     browser.find_element(By.ID, "solve-button").click()
     wait.until(EC.presence_of_element_located((By.ID, "progress")))
+    # The page's script fills in the live figures once the solver has started.
+    wait.until(lambda d: "solving" in d.find_element(By.ID, "progress").text or "grid" in d.page_source)
     progress = _shot(browser, shots, "3-solving")
 
     grid = WebDriverWait(browser, 120).until(EC.presence_of_element_located((By.ID, "grid")))
@@ -190,5 +193,5 @@ def test_upload_count_solve_download_in_chromium(server, browser, tmp_path):
     keep = os.environ.get("TIMETABLER_SCREENSHOT_DIR")
     if keep:
         Path(keep).mkdir(parents=True, exist_ok=True)
-        for path in (overview, timetable):
+        for path in (overview, progress, timetable):
             shutil.copy(path, Path(keep) / f"web-{path.stem.split('-', 1)[1]}.png")

@@ -34,6 +34,9 @@ log = logging.getLogger("timetabler.web")
 #: Fewest seconds between two progress messages from the child for one slot count.
 PROGRESS_EVERY = 0.25
 
+#: The engine's short phase names, in the words the page shows.
+PHASE_WORDS = {"goals": "improving the timetable", "clash-free": "looking for a clash-free timetable"}
+
 #: Fields of a progress report the page shows (any others are ignored).
 _PROGRESS_KEYS = ("best", "penalty", "objective", "bound", "gap", "solutions", "elapsed", "wall_seconds", "phase", "message")
 
@@ -310,7 +313,7 @@ class SolveJob:
                 if "bound" in fields:
                     item.bound = fields["bound"]
                 if "phase" in fields:
-                    item.phase = fields["phase"]
+                    item.phase = PHASE_WORDS.get(fields["phase"], fields["phase"])
             elif kind == "run":
                 k, run = message[1], message[2]
                 self.runs[k] = run
