@@ -276,6 +276,12 @@ def test_client_file_names_never_reach_the_file_system(client):
     upload = client.app.state.store.get(token)
     assert upload.path.parent.parent == client.app.state.store.root
     assert upload.path.name == "enrolments.csv" and upload.name == "evil.csv"
+    # Names and cell values are shown escaped: markup in them stays text.
+    token = upload_ok(client, "<img src=x onerror=alert(1)>.csv",
+                      b"Student,Exam\n<b>HV-S0001</b>,<script>alert(2)</script>\nHV-S0002,X\n")
+    page = client.get(f"/files/{token}").text
+    assert "<img src=x" not in page and "&lt;img src=x onerror=alert(1)&gt;.csv" in page
+    assert "<script>alert(2)</script>" not in page
 
 
 # -- safety: origin, host, unknown tokens, errors ------------------------------------------------
