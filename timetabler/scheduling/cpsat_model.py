@@ -71,6 +71,38 @@ class TimetableModel:
     symmetry_clique: list[str] = field(default_factory=list)
     cover_size: int = 0
     constant: dict[str, int] = field(default_factory=dict)
+    derived: list[tuple] = field(default_factory=list)  # (var, kind, args...) to complete hints
+    day: list[int] = field(default_factory=list)
+    pairs: int = 0  # clashing pairs in the model
+
+    def hint(self, assignment: dict[str, int]) -> None:
+        """Hint a full solution: ``x`` from ``assignment`` and every derived variable computed from it,
+        so CP-SAT can take the hint as its first solution without search."""
+        m, k, day = self.model, self.k, self.day
+        for c, s in assignment.items():
+            if c in self.x and 1 <= s <= k:
+                for i, v in enumerate(self.x[c], start=1):
+                    m.AddHint(v, i == s)
+        if any(c not in assignment for c in self.codes):
+            return
+        a = assignment
+        for var, kind, *args in self.derived:
+            if kind == "t":
+                value = a[args[0]]
+            elif kind == "d":
+                value = day[a[args[0]] - 1]
+            elif kind in ("adj", "sday", "b2b", "over", "twoday", "gap", "prox"):
+                e, f = args
+                gap = abs(a[e] - a[f])
+                same = day[a[e] - 1] == day[a[f] - 1]
+                value = {"adj": gap == 1, "sday": same, "b2b": gap == 1 and same, "over": gap == 1 and not same,
+                         "twoday": gap != 1 and same, "gap": gap,
+                         "prox": PROXIMITY_WEIGHTS[gap - 1] if 1 <= gap <= 5 else 0}[kind]
+            elif kind == "miss":
+                value = a[args[0]] not in args[1]
+            else:
+                continue
+            m.AddHint(var, int(value))
 
     def assignment(self, solver: cp_model.CpSolver) -> dict[str, int]:
         out: dict[str, int] = {}
@@ -215,7 +247,7 @@ def build_model(
     sub = graph.subgraph(codes)
     day = days_of(slots)
     x = {c: [m.NewBoolVar(f"x[{c}][{s}]") for s in range(1, k + 1)] for c in codes}
-    tm = TimetableModel(model=m, codes=list(codes), k=k, x=x)
+    tm = TimetableModel(model=m, codes=list(codes), k=k, x=x, day=list(day), pairs=sub.number_of_edges())
 
     def rule_literal(text: str, kind: str):
         if not explain:
@@ -281,6 +313,7 @@ def build_model(
             v = m.NewIntVar(1, max(k, 1), f"t[{c}]")
             m.Add(v == sum((s + 1) * x[c][s] for s in range(k)))
             t_cache[c] = v
+            tm.derived.append((v, "t", c))
         return t_cache[c]
 
     def d(c: str):
@@ -288,6 +321,7 @@ def build_model(
             v = m.NewIntVar(min(day, default=1), max(day, default=1), f"d[{c}]")
             m.Add(v == sum(day[s] * x[c][s] for s in range(k)))
             d_cache[c] = v
+            tm.derived.append((v, "d", c))
         return d_cache[c]
 
     day_slots: dict[int, list[int]] = {}
@@ -379,27 +413,37 @@ def _add_objective(tm: TimetableModel, problem, slots, sub, day, t, d, previous,
     # a pair of consecutive slots exists on one day / across a day boundary?
     same_day_adjacent = any(day[s] == day[s + 1] for s in range(k - 1))
     cross_day_adjacent = any(day[s] != day[s + 1] for s in range(k - 1))
+    per_day_count: dict[int, int] = {}
+    for dd in day:
+        per_day_count[dd] = per_day_count.get(dd, 0) + 1
+    at_most_two_a_day = max(per_day_count.values(), default=0) <= 2
     want_b2b = w.back_to_back > 0 and same_day_adjacent
     want_over = w.overnight > 0 and cross_day_adjacent
-    want_two = w.same_day > 0 and not one_day_each
+    want_two = w.same_day > 0 and not one_day_each and not at_most_two_a_day
     want_prox = w.proximity > 0 and k > 1
     if k > 1 and (want_b2b or want_over or want_two or want_prox):
         for a, b, shared in sub.edges(data="shared", default=1):
             c = int(shared or 1)
             delta = t(a) - t(b)
             adj = sday = None
-            if want_b2b or want_over or want_two:
+            if (want_b2b and not at_most_two_a_day) or want_over or want_two:
                 adj = m.NewBoolVar(f"adj[{a},{b}]")
+                tm.derived.append((adj, "adj", a, b))
                 near = cp_model.Domain.FromValues([-1, 1])
                 far = cp_model.Domain.FromIntervals([[-k, -2], [0, 0], [2, k]])
                 m.AddLinearExpressionInDomain(delta, near).OnlyEnforceIf(adj)
                 m.AddLinearExpressionInDomain(delta, far).OnlyEnforceIf(adj.Not())
             if (want_b2b or want_two or want_over) and not one_day_each:
                 sday = m.NewBoolVar(f"sday[{a},{b}]")
+                tm.derived.append((sday, "sday", a, b))
                 m.Add(d(a) == d(b)).OnlyEnforceIf(sday)
                 m.Add(d(a) != d(b)).OnlyEnforceIf(sday.Not())
-            if want_b2b and sday is not None:
+            if want_b2b and sday is not None and at_most_two_a_day:
+                # at most two slots a day: two events of one day always sit back-to-back
+                terms.setdefault("back_to_back", []).append((c * w.back_to_back, sday))
+            elif want_b2b and sday is not None:
                 v = m.NewBoolVar(f"b2b[{a},{b}]")
+                tm.derived.append((v, "b2b", a, b))
                 m.AddBoolAnd([adj, sday]).OnlyEnforceIf(v)
                 m.AddBoolOr([adj.Not(), sday.Not(), v])
                 terms.setdefault("back_to_back", []).append((c * w.back_to_back, v))
@@ -408,19 +452,23 @@ def _add_objective(tm: TimetableModel, problem, slots, sub, day, t, d, previous,
                     v = adj
                 else:
                     v = m.NewBoolVar(f"over[{a},{b}]")
+                    tm.derived.append((v, "over", a, b))
                     m.AddBoolAnd([adj, sday.Not()]).OnlyEnforceIf(v)
                     m.AddBoolOr([adj.Not(), sday, v])
                 terms.setdefault("overnight", []).append((c * w.overnight, v))
             if want_two and sday is not None:
                 v = m.NewBoolVar(f"twoday[{a},{b}]")
+                tm.derived.append((v, "twoday", a, b))
                 m.AddBoolAnd([adj.Not(), sday]).OnlyEnforceIf(v)
                 m.AddBoolOr([adj, sday.Not(), v])
                 terms.setdefault("same_day", []).append((c * w.same_day, v))
             if want_prox:
                 gap = m.NewIntVar(1, k - 1, f"gap[{a},{b}]")
+                tm.derived.append((gap, "gap", a, b))
                 m.AddAbsEquality(gap, delta)
                 table = [0] + [PROXIMITY_WEIGHTS[g - 1] if g <= 5 else 0 for g in range(1, k)]
                 prox = m.NewIntVar(0, 16, f"prox[{a},{b}]")
+                tm.derived.append((prox, "prox", a, b))
                 m.AddElement(gap, table, prox)
                 terms.setdefault("proximity", []).append((c * w.proximity, prox))
     if w.large_late > 0:
@@ -435,6 +483,7 @@ def _add_objective(tm: TimetableModel, problem, slots, sub, day, t, d, previous,
                 continue
             wanted = {n for r in refs if (n := problem.slot_number(r, slots)) is not None}
             miss = m.NewBoolVar(f"miss_preferred[{c}]")
+            tm.derived.append((miss, "miss", c, frozenset(wanted)))
             m.Add(sum(x[c][s - 1] for s in wanted) + miss >= 1)
             m.Add(sum(x[c][s - 1] for s in wanted) + miss <= 1)
             terms.setdefault("preferred_slot", []).append((w.preferred_slot, miss))
