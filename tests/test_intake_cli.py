@@ -43,6 +43,8 @@ def _renderings(tmp: Path, pairs) -> dict[str, Path]:
     width = max(len(v) for v in grouped.values())
     wide = [["Candidate"] + [f"Paper {i}" for i in range(1, width + 1)]] + [[a, *evs] for a, evs in grouped.items()]
     cell = [["Member ID", "Exams"]] + [[a, "; ".join(evs)] for a, evs in grouped.items()]
+    codes = sorted({e for _, e in pairs})
+    grid = [["Student", *codes]] + [[a, *["x" if c in evs else None for c in codes]] for a, evs in grouped.items()]
     return {
         "xlsx long": write_xlsx(tmp / "long.xlsx", {"Notes": [["Made for the demo"]], "Enrolments": [["Winter session"], [], *long]}),
         "csv long": write_text(tmp / "long.csv", long),
@@ -52,6 +54,7 @@ def _renderings(tmp: Path, pairs) -> dict[str, Path]:
         "xlsx wide columns": write_xlsx(tmp / "wide.xlsx", {"Wide": wide}),
         "csv wide cell": write_text(tmp / "cell.csv", cell),
         "ods wide cell": write_ods(tmp / "cell.ods", {"Cell": cell}),
+        "xlsx tick grid": write_xlsx(tmp / "grid.xlsx", {"Grid": grid}),
     }
 
 

@@ -214,6 +214,16 @@ CASES = [
     Case("wide: events listed in one cell",
          lambda t: write_xlsx(t / "a.xlsx", {"S": _wide_cell(BASE, "; ")}),
          check=_check_figures(layout="wide")),
+    Case("wide: a tick grid with event codes as headers",
+         lambda t: write_xlsx(t / "a.xlsx", {"Grid": _grid(BASE, "x")}),
+         check=_check_figures(layout="wide")),
+    Case("wide: a grid of 1s with a text column and a totals row",
+         lambda t: write_text(t / "a.csv", [row[:1] + ["BSc"] + row[1:] for row in _grid(BASE, 1)]
+                              + [["Total", "", *[sum(1 for _, e in BASE if e == c) for c in _codes()]]]),
+         check=_warned("total row", pairs=BASE)),
+    Case("wide: a grid cell that is not a tick",
+         lambda t: write_xlsx(t / "a.xlsx", {"Grid": _grid(BASE, "x") + [["HV-S0009", "x", "late"] + [None] * 3]}),
+         check=_warned("should hold a tick", row=7, column="C (PHY110)", pairs=BASE + [("HV-S0009", "MAT101")])),
     Case("long header but list cells: read as wide",
          lambda t: write_text(t / "a.csv", [["Student", "Exam"]] + [[a, ", ".join(e)] for a, e in _grouped(BASE).items()]),
          check=_check_figures(layout="wide")),
@@ -318,6 +328,15 @@ def _grouped(pairs):
     for a, e in pairs:
         out.setdefault(a, []).append(e)
     return out
+
+
+def _codes():
+    return sorted({e for _, e in BASE}, key=[e for _, e in BASE].index)
+
+
+def _grid(pairs, mark):
+    codes = _codes()
+    return [["Student", *codes]] + [[a, *[mark if e in evs else None for e in codes]] for a, evs in _grouped(pairs).items()]
 
 
 def _wide_columns(pairs):

@@ -2,7 +2,7 @@
 
 Hypothesis draws a small enrolment table (Harrowgate Vale College, fictional) and a
 rendering of it: file type and encoding, delimiter, layout (long, wide in columns, wide
-in one cell), header spelling, title rows, blank rows, duplicated rows, shuffled and extra
+in one cell, a grid of ticks under event-code headers), header spelling, title rows, blank rows, duplicated rows, shuffled and extra
 columns, upper/lower case and padding of codes, numeric ids as float numbers or as
 ``"40001.0"`` text. Reading it back must give exactly the drawn enrolments (compared
 without regard to case, the documented default).
@@ -38,7 +38,8 @@ def renderings(draw):
     return {
         "kind": draw(st.sampled_from(FILE_KINDS)),
         "delimiter": draw(st.sampled_from([",", ";", "|", "\t"])),
-        "layout": draw(st.sampled_from(["long", "wide-columns", "wide-cell"])),
+        "layout": draw(st.sampled_from(["long", "wide-columns", "wide-cell", "grid"])),
+        "tick": draw(st.sampled_from(["x", "X", 1, "yes", "\u2713", "TRUE"])),
         "attendee_header": draw(st.sampled_from(ATTENDEE_HEADERS)),
         "event_header": draw(st.sampled_from(EVENT_HEADERS)),
         "list_header": draw(st.sampled_from(LIST_HEADERS)),
@@ -94,6 +95,11 @@ def render(pairs, r, folder: Path) -> Path:
         width = max(len(v) for v in grouped.values())
         header = [r["attendee_header"]] + [f"{r['event_header'].strip().split()[0].split('-')[0]} {i}" for i in range(1, width + 1)]
         body = [[attendee_cell(a)] + [event_cell(e) for e in evs] for a, evs in grouped.items()]
+    elif r["layout"] == "grid":
+        codes = sorted({e for _, e in pairs})
+        header = [r["attendee_header"]] + [_mess(c, r["case_seed"], i) for i, c in enumerate(codes)]
+        mark = "x" if r["kind"] == "csv-cp1252" and r["tick"] == "\u2713" else r["tick"]  # no tick sign in Windows-1252
+        body = [[attendee_cell(a)] + [mark if c in evs else None for c in codes] for a, evs in grouped.items()]
     else:
         header = [r["attendee_header"], r["list_header"]]
         body = [[attendee_cell(a), r["separator"].join(str(event_cell(e)) for e in evs)] for a, evs in grouped.items()]

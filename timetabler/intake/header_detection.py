@@ -12,7 +12,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 from .file_types import RawSheet
-from .normalising import identifier
+from .normalising import identifier, is_blank, looks_like_total, yes_no
 from .vocabulary import (
     ATTENDEE,
     EVENT,
@@ -43,6 +43,7 @@ class Layout:
     attendee: int | None = None
     events: list[int] = field(default_factory=list)
     split_cells: bool = False
+    grid: bool = False  # wide layout with event codes as headers and ticks in the cells
     other: int | None = None
     shared: int | None = None
 
@@ -93,7 +94,47 @@ def detect_layout(
         found = _layout_at(headers, r, layout, attendee_column, event_columns)
         if found is not None:
             return found
+    if layout in ("auto", WIDE) and not event_columns:
+        return _tick_grid(sheet, attendee_column)
     return None
+
+
+GRID_SAMPLE_ROWS = 500
+
+
+def _tick_grid(sheet: RawSheet, attendee_column: str | None) -> Layout | None:
+    """A wide layout with one column per event, headed by its code, and a tick where the attendee is enrolled.
+
+    Tried only when no other layout fits. The event columns are those of the header row
+    (after the attendee column is found) whose cells, in the first rows below, are
+    ticks (``x``, ``1``, ``yes``, ``✓`` ...), blank or ``no``/``0`` — all but one, or
+    all but 10%, of the filled ones, so that a stray note warns rather than dropping the
+    column — with at least one tick.
+    """
+    for r, row in enumerate(sheet.rows[:SCAN_ROWS], start=1):
+        headers = [identifier(c) for c in row]
+        att = find_named(headers, attendee_column) if attendee_column else best_match(ATTENDEE, headers)
+        if att is None:
+            continue
+        below = [row for row in sheet.rows[r : r + GRID_SAMPLE_ROWS]
+                 if not (att < len(row) and looks_like_total(row[att]))]
+        columns = []
+        for i, h in enumerate(headers):
+            if i == att or not h:
+                continue
+            marks = [tick(row[i]) for row in below if i < len(row) and not is_blank(row[i])]
+            if any(marks) and sum(1 for m in marks if m is None) <= max(1, 0.1 * len(marks)):
+                columns.append(i)
+        if columns:
+            return Layout(WIDE, r, headers, attendee=att, events=columns, grid=True)
+    return None
+
+
+def tick(value: object) -> bool | None:
+    """True for a tick (x, 1, yes, ✓ ...), False for no/0/blank, None for anything else."""
+    if isinstance(value, str) and value.strip() in ("\u2713", "\u2714", "\u2611", "\u2022", "*"):
+        return True
+    return yes_no(value)
 
 
 def _layout_at(headers, r, layout, attendee_column, event_columns) -> Layout | None:

@@ -6,7 +6,8 @@ long
     one row per enrolment: an attendee column and an event column;
 wide
     one row per attendee: the events in several columns (``Exam 1``, ``Exam 2``, ...), or
-    listed in one cell separated by ``;`` or ``,``;
+    listed in one cell separated by ``;`` or ``,``, or one column per event headed by its
+    code with a tick (``x``, ``1``, ``yes``, ``✓``) where the attendee is enrolled;
 clash list
     no attendees, one row per pair of events with the number of attendees they share.
     Each shared attendee becomes a *synthetic* attendee ``shared:A|B#i`` enrolled on both
@@ -25,7 +26,7 @@ from dataclasses import dataclass, field
 from ..model import Location
 from .file_types import RawSheet
 from .findings import FindingList
-from .header_detection import CLASH_LIST, Layout
+from .header_detection import CLASH_LIST, Layout, tick
 from .normalising import identifier, is_blank, looks_like_total, looks_scientific, split_list, whole_number
 from .vocabulary import key
 
@@ -109,6 +110,15 @@ def _attendee_rows(sheet: RawSheet, layout: Layout, file: str, findings: Finding
                           suggestion="Delete summary rows from the enrolment sheet.")
             continue
         events: list[str] = []
+        if layout.grid:
+            for i, c in zip(layout.events, cells):
+                mark = tick(c)
+                if mark:
+                    events.append(layout.headers[i])
+                elif mark is None:
+                    findings.warn("This cell should hold a tick (x, 1, yes) or be blank; it was read as not enrolled.",
+                                  _where(file, sheet, r, layout, i), found=identifier(c))
+            cells = []
         for c in cells:
             if layout.split_cells:
                 events.extend(split_list(c))

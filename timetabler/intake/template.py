@@ -249,7 +249,8 @@ def _write_instructions(ws, example: bool) -> None:
     lines += [
         ("Other layouts", "heading"),
         ("Instead of the Enrolments sheet, timetabler also reads one row per attendee with the events "
-         "in columns 'Event 1', 'Event 2', ... or listed in one 'Events' cell separated by ; "
+         "in columns 'Event 1', 'Event 2', ..., listed in one 'Events' cell separated by ;, or "
+         "as a grid with one column per event code and an x where the attendee is enrolled; "
          "and, when only clash counts are known, a sheet with columns 'Event', 'Other event' and "
          "'Shared' (how many attendees the two events share).", None),
         ("Slots are named in the Slots sheet ('Mon 3 May AM') or numbered 1, 2, 3 ... in time order. "

@@ -50,7 +50,9 @@ Weights       Goal                one of the soft goals below, or ``most events 
 Two other enrolment layouts are read from the first sheet that fits:
 
 * **wide**: one row per attendee, with the events in several columns (``Exam 1``, ``Exam 2``,
-  ...) or listed in one cell (header ``Exams`` or ``Events``; separated by ``;`` or ``,``);
+  ...), or listed in one cell (header ``Exams`` or ``Events``; separated by ``;`` or ``,``),
+  or one column per event headed by its code, with a tick (``x``, ``1``, ``yes``, ``✓``)
+  where the attendee is enrolled;
 * **clash list**: no attendees, one row per pair of events that share attendees, with
   columns ``Event``, ``Other event`` and ``Shared`` (how many attendees they share).
 
