@@ -157,6 +157,9 @@ def test_counts_table_matches_the_closed_form(client):
     for k in (3, 4, 5):
         assert shown[k].split()[0] == str(triangle_count(k)) and "exact" in shown[k]
     assert "<svg" in r.text and 'role="img"' in r.text
+    # The triangle's group needs 3 slots on its own (K3's chromatic number); D stands alone.
+    groups = re.search(r'<table class="components">(.*?)</table>', r.text, re.S).group(1)
+    assert re.search(r'<td class="num">3</td><td class="num">3</td><td class="num">3</td><td>A, B, C</td>', groups)
 
 
 def test_big_counts_show_every_digit(client):

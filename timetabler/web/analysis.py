@@ -97,8 +97,10 @@ def input_error_rows(exc: InputError, private: Path, shown_name: str) -> list[di
     return finding_rows(exc.findings, private, shown_name)
 
 
-def components(graph: nx.Graph, shown: int = 12) -> list[dict]:
-    """The groups of events linked by clashes, largest first: size, clashes, a few events."""
+def components(graph: nx.Graph, shown: int = 12, report: Any = None) -> list[dict]:
+    """The groups of events linked by clashes, largest first: size, clashes, a few events, and
+    (with the counting engine's ``report``) the fewest slots each group needs on its own."""
+    counted = {frozenset(map(str, c.events)): c for c in getattr(report, "components", None) or []}
     rows = []
     for comp in sorted(nx.connected_components(graph), key=lambda c: (-len(c), min(map(str, c)))):
         if len(comp) == 1:
@@ -111,6 +113,7 @@ def components(graph: nx.Graph, shown: int = 12) -> list[dict]:
                 "clashes": sub.number_of_edges(),
                 "largest": [str(v) for v in events[:6]],
                 "more": max(0, len(comp) - 6),
+                "fewest": getattr(counted.get(frozenset(map(str, comp))), "chromatic_number", None),
             }
         )
         if len(rows) >= shown:

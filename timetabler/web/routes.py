@@ -257,7 +257,7 @@ async def overview(request: Request) -> Response:
             "summary": analysis.summary,
             "reading": analysis.reading,
             "warnings": an.finding_rows(analysis.reading.warnings, stored.path, stored.name),
-            "components": an.components(analysis.graph),
+            "components": an.components(analysis.graph, report=counts),
             "counts": rows,
             "count_report": counts,
             "count_error": count_error,
