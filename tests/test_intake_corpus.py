@@ -279,6 +279,15 @@ CASES = [
          lambda t: _sheet_with_extras(t, "a.xlsx", {"Slots": [["Slot", "Date"], ["Mon AM", dt.datetime(2027, 5, 3, 9, 30)]]}),
          check=lambda r: (r.problem.slots[0].start == dt.time(9, 30) and r.problem.slots[0].date == dt.date(2027, 5, 3))
          or pytest.fail(str(r.problem.slots))),
+    Case("slots out of time order",
+         lambda t: _sheet_with_extras(t, "a.xlsx", {"Slots": _slots([["Mon PM", "2027-05-03", "14:00", 180, 100],
+                                                                      ["Mon AM", "2027-05-03", "09:00", 180, 100]])}),
+         check=_warned("not in time order", row=3, column="B (Date)")),
+    Case("dates that could be day or month first",
+         lambda t: _sheet_with_extras(t, "a.xlsx", {"Slots": _slots([["Tue AM", "04/05/2027", "09:00", 180, 100]])}),
+         check=lambda r: (r.problem.slots[0].date == dt.date(2027, 5, 4)
+                          and any("read day first, as 04 May 2027" in w.message for w in r.warnings))
+         or pytest.fail(str(r.warnings))),
     Case("a date that is not a date",
          lambda t: _sheet_with_extras(t, "a.xlsx", {"Slots": _slots([["Mon AM", "31/02/2027", "09:00", 180, 100]])}),
          error=("not a date", "Slots", 2, "B (Date)")),

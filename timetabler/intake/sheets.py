@@ -10,6 +10,7 @@ slot that does not exist) are in :mod:`timetabler.intake.validation`.
 from __future__ import annotations
 
 import datetime as _dt
+import re
 from dataclasses import dataclass, field
 
 from ..model import Event, Location, Room, Rule, RuleKind, Slot, Weights
@@ -164,8 +165,13 @@ def read_events(table: Table, findings: FindingList, extras: Extras) -> None:
         extras.events.append((event, table.where(r)))
 
 
+_AMBIGUOUS_DATE = re.compile(r"^\s*(\d{1,2})[/.-](\d{1,2})[/.-]\d{2,4}\s*$")
+
+
 def read_slots(table: Table, findings: FindingList, extras: Extras) -> None:
     seen: dict[str, int] = {}
+    ambiguous: tuple[int, str, object] | None = None
+    previous: tuple[int, tuple] | None = None
     for r, cells in table.rows():
         label = identifier(table.get(cells, "Slot"))
         if _total_row(cells):
@@ -181,6 +187,10 @@ def read_slots(table: Table, findings: FindingList, extras: Extras) -> None:
         seen[label.casefold()] = r
         raw_date, raw_start = table.get(cells, "Date"), table.get(cells, "Start")
         date = date_value(raw_date)
+        m = _AMBIGUOUS_DATE.match(raw_date) if isinstance(raw_date, str) else None
+        if m and date is not None and ambiguous is None and int(m.group(1)) <= 12 and int(m.group(2)) <= 12 \
+                and m.group(1) != m.group(2):
+            ambiguous = (r, raw_date, date)
         if not is_blank(raw_date) and date is None:
             findings.error("This is not a date.", table.where(r, "Date"), found=identifier(raw_date),
                            expected="a date cell, or text such as 2027-01-11 or 11/01/2027 (day first)")
@@ -216,6 +226,19 @@ def read_slots(table: Table, findings: FindingList, extras: Extras) -> None:
             avoid = False
         slot = Slot(label=label, date=date, start=start, length_minutes=length, seat_capacity=seats, day=day, penalised=avoid)
         extras.slots.append((slot, table.where(r)))
+        if date is not None:
+            moment = (date, start or _dt.time(0))
+            if previous is not None and moment < previous[1]:
+                findings.warn(f"The slots are not in time order: this one comes before the slot of row {previous[0]}.",
+                              table.where(r, "Date"), found=f"{date.isoformat()} {start.strftime('%H:%M') if start else ''}".strip(),
+                              suggestion="List the slots in time order: slot numbers, back-to-back and same-day "
+                              "goals follow the order of the rows.")
+            previous = (r, moment)
+    if ambiguous is not None:
+        r, text, date = ambiguous
+        findings.warn(f"Dates such as '{text}' were read day first, as {date:%d %B %Y}.", table.where(r, "Date"),
+                      suggestion="If your dates are month first, write them as year-month-day (e.g. 2027-03-05) "
+                      "or as date cells.")
 
 
 def read_rooms(table: Table, findings: FindingList, extras: Extras) -> None:
