@@ -121,17 +121,25 @@ def test_grid_puts_each_event_once_in_its_day_and_session(published):
         ws = wb[f"Grid ({run.slots} slots)"]
         values = list(ws.iter_rows(values_only=True))
         assert values[0][:2] == ("Day", "Date")
-        seen = {}
-        for row_index, row in enumerate(values[1:]):
-            for col_index, cell in enumerate(row[2:]):
-                for line in (cell or "").split("\n")[1:]:  # first line: slot label and times
-                    assert line not in seen
-                    seen[line] = (row_index, col_index)
+        seen, day, heads = {}, -1, []
+        for row in values[1:]:
+            if row[0] is not None:  # a day's heading row: day, date, each session's slot and times
+                day += 1
+                heads = row[2:]
+                assert row[1].date() == run.slot_list[2 * day].date
+                continue
+            for session, cell in enumerate(row[2:]):
+                if cell is None:
+                    continue
+                code = cell.split(" ")[0]
+                assert code not in seen
+                seen[code] = (day, session)
+                slot = run.slot_list[run.assignment[code] - 1]
+                assert heads[session] == f"{slot.label} {slot.start:%H:%M}–{slot.end:%H:%M}"
         assert sorted(seen) == sorted(problem.events)
         for code, (day_index, session_index) in seen.items():
-            n = run.assignment[code]
             # dated_slots puts two sessions on each day
-            assert (day_index, session_index) == divmod(n - 1, 2)
+            assert (day_index, session_index) == divmod(run.assignment[code] - 1, 2)
 
 
 def _independent_attendee_figures(problem, run):
@@ -199,6 +207,9 @@ def test_lists_are_excel_tables_with_filters_and_frozen_headers(published):
         assert table.autoFilter is not None
         assert [c.name for c in table.tableColumns] == [c.value for c in ws[1]]
         assert ws.column_dimensions["A"].width >= 8
+        # printed: one page wide, landscape, the header row repeated on every page
+        assert ws.page_setup.orientation == "landscape" and ws.page_setup.fitToWidth == 1
+        assert ws.sheet_properties.pageSetUpPr.fitToPage and ws.print_title_rows == "$1:$1"
     assert wb["Attendee load (4 slots)"].conditional_formatting  # problems are highlighted
 
 

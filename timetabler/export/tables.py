@@ -378,36 +378,48 @@ def moves_table(problem: Problem, run: Any) -> PublishedTable | None:
     return table
 
 
-def grid_rows(problem: Problem, run: Any) -> tuple[list[str], list[tuple[str, dt.date | None, list[str]]]]:
-    """The timetable as a grid: session headers, and per day (label, date, cell text per session)."""
+@dataclass
+class GridDay:
+    """One day of the grid: its label and date, each session's slot heading, and each session's events."""
+
+    label: str
+    date: dt.date | None
+    heads: list[str]
+    events: list[list[str]]
+
+
+def grid_rows(problem: Problem, run: Any) -> tuple[list[str], list[GridDay]]:
+    """The timetable as a grid: session headers, and per day the slot headings and events of each session.
+
+    Events are listed one per line under their session, as ``CODE`` or ``CODE Title``.
+    """
     slots = _run_slots(run)
     places = slot_places(slots)
     assignment = getattr(run, "assignment", {}) or {}
     by_slot: dict[int, list[str]] = defaultdict(list)
     for code, n in assignment.items():
-        by_slot[n].append(code)
+        title = problem.events[code].title if code in problem.events else None
+        by_slot[n].append(f"{code} {title}" if title else code)
     sessions = max((p.session for p in places), default=0)
     headers = [f"Session {i}" for i in range(1, sessions + 1)]
     days: dict[int, list[SlotPlace]] = defaultdict(list)
     for p in places:
         days[p.day].append(p)
-    rows = []
+    out = []
     for d in sorted(days):
         members = days[d]
         date = next((p.slot.date for p in members if p.slot.date), None)
         label = date.strftime("%a %d %b %Y") if date else f"Day {d}"
-        cells = [""] * sessions
+        heads = [""] * sessions
+        events: list[list[str]] = [[] for _ in range(sessions)]
         for p in members:
-            lines = []
             times = ""
             if p.slot.start:
                 times = p.slot.start.strftime("%H:%M") + (f"–{p.slot.end.strftime('%H:%M')}" if p.slot.end else "")
-            head = " ".join(x for x in (p.slot.label, times) if x)
-            lines.append(head)
-            lines.extend(sorted(by_slot.get(p.number, [])))
-            cells[p.session - 1] = "\n".join(lines)
-        rows.append((label, date, cells))
-    return headers, rows
+            heads[p.session - 1] = " ".join(x for x in (p.slot.label, times) if x)
+            events[p.session - 1] = sorted(by_slot.get(p.number, []))
+        out.append(GridDay(label, date, heads, events))
+    return headers, out
 
 
 # --------------------------------------------------------------------------- counts and comparison

@@ -19,7 +19,7 @@ What if
     Absent clashes that would rule out the largest share of timetables if one attendee sat
     both events, and clashes whose removal would multiply the timetables most.
 Grid
-    The timetable as a grid: one row per day, one column per session.
+    The timetable as a grid: one block per day, one column per session, events one per row.
 Events
     One row per event: slot, day, session, date, start, end, rooms, seats, size.
 Personal timetables
@@ -56,6 +56,7 @@ from openpyxl.formatting.rule import CellIsRule, FormulaRule
 from openpyxl.styles import Alignment, Font, PatternFill
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.filters import AutoFilter
+from openpyxl.worksheet.properties import PageSetupProperties
 from openpyxl.worksheet.table import Table, TableColumn, TableStyleInfo
 
 from ..conflicts import conflict_graph
@@ -74,6 +75,7 @@ GREEN = PatternFill("solid", start_color="C6EFCE", end_color="C6EFCE", bgColor="
 RED_FONT = Font(color="9C0006")
 AMBER_FONT = Font(color="9C5700")
 BOLD = Font(bold=True)
+DAY_FILL = PatternFill("solid", start_color="DDEBF7", end_color="DDEBF7")
 TITLE = Font(bold=True, size=14)
 WRAP = Alignment(wrap_text=True, vertical="top", horizontal="left")
 LEFT = Alignment(horizontal="left")
@@ -169,11 +171,17 @@ class _Book:
         self.wb = wb
         self.table_names: set[str] = set()
 
-    def sheet(self, name: str):
-        return self.wb.create_sheet(_sheet_name(name))
+    def sheet(self, name: str, *, landscape: bool = True):
+        """A new sheet set up to print: landscape, as wide as one page, header row on every page."""
+        ws = self.wb.create_sheet(_sheet_name(name))
+        ws.page_setup.orientation = "landscape" if landscape else "portrait"
+        ws.page_setup.fitToWidth = 1
+        ws.page_setup.fitToHeight = 0  # as many pages down as needed
+        ws.sheet_properties.pageSetUpPr = PageSetupProperties(fitToPage=True)
+        return ws
 
     def cell(self, ws, value: Any, kind: str | None = None, font: Font | None = None, wrap: bool = False,
-             left: bool = False) -> Any:
+             left: bool = False, fill: PatternFill | None = None) -> Any:
         value = _clean(value)
         if isinstance(value, float) and value != value:  # NaN
             value = None
@@ -182,7 +190,7 @@ class _Book:
         if kind == BIGINT and value is not None:
             value = str(value)
         # openpyxl formats a bare date as yyyy-mm-dd by itself (no cell object needed: faster)
-        needs_cell = font is not None or wrap or left or kind in (TIME, FLOAT) or (isinstance(value, str) and value.startswith("="))
+        needs_cell = font is not None or fill is not None or wrap or left or kind in (TIME, FLOAT) or (isinstance(value, str) and value.startswith("="))
         if not needs_cell:
             return value
         c = WriteOnlyCell(ws, value=value)
@@ -192,6 +200,8 @@ class _Book:
             c.number_format = NUMBER_FORMATS[kind]
         if font is not None:
             c.font = font
+        if fill is not None:
+            c.fill = fill
         if wrap:
             c.alignment = WRAP
         elif left:
@@ -219,6 +229,7 @@ class _Book:
             ws.column_dimensions[get_column_letter(i)].width = w
         if freeze:
             ws.freeze_panes = "A2"
+        ws.print_title_rows = "1:1"
         ws.append([self.cell(ws, h) for h in table.headers])
         for row in table.rows:
             ws.append([self.cell(ws, v, col.kind) for v, col in zip(row, table.columns)])
@@ -321,7 +332,7 @@ def _load_highlight(ws, table: PublishedTable, last_row: int) -> None:
 
 
 def _overview(book: _Book, problem: Problem, runs, counts, reading, settings, validations, figures, fewest) -> None:
-    ws = book.sheet("Overview")
+    ws = book.sheet("Overview", landscape=False)
     ws.column_dimensions["A"].width = 50
     ws.column_dimensions["B"].width = 40
     for letter in "CDEF":
@@ -466,13 +477,20 @@ def _counts_sheet(book: _Book, counts: Any) -> None:
 
 
 def _grid_sheet(book: _Book, name: str, problem: Problem, run: Any) -> None:
-    headers, rows = grid_rows(problem, run)
+    """One block per day: a shaded row with the day, date and each session's slot and times, then
+    the events of each session one per row beneath it (no wrapped cells, so it prints as it shows)."""
+    headers, days = grid_rows(problem, run)
     ws = book.sheet(name)
     ws.freeze_panes = "C2"
+    ws.print_title_rows = "1:1"
     ws.column_dimensions["A"].width = 18
     ws.column_dimensions["B"].width = 12
+    longest = max((len(e) for day in days for column in day.events for e in column), default=10)
     for i in range(len(headers)):
-        ws.column_dimensions[get_column_letter(i + 3)].width = 28
+        ws.column_dimensions[get_column_letter(i + 3)].width = min(60, max(24, longest + 2))
     ws.append([book.cell(ws, "Day", font=BOLD), book.cell(ws, "Date", font=BOLD)] + [book.cell(ws, h, font=BOLD) for h in headers])
-    for label, date, cells in rows:
-        ws.append([book.cell(ws, label), book.cell(ws, date, DATE)] + [book.cell(ws, text, wrap=True) for text in cells])
+    for day in days:
+        ws.append([book.cell(ws, day.label, font=BOLD, fill=DAY_FILL), book.cell(ws, day.date, DATE, fill=DAY_FILL)]
+                  + [book.cell(ws, head, font=BOLD, fill=DAY_FILL) for head in day.heads])
+        for i in range(max((len(column) for column in day.events), default=0)):
+            ws.append([None, None] + [book.cell(ws, column[i]) if i < len(column) else None for column in day.events])
