@@ -384,8 +384,9 @@ def _overview(book: _Book, problem: Problem, runs, counts, reading, settings, va
             rows.append(("How it was found", fewest.upper_reason))
         rows.append(("Fewest slots proven", bool(getattr(fewest, "proven", False))))
     for label, value in rows:
-        ws.append([label, c(ws, value, FLAG if isinstance(value, bool) else None, wrap=isinstance(value, str) and len(value) > 40,
-                            left=True)])
+        # long text is not wrapped: it runs on into the empty cells to its right, which every
+        # spreadsheet program shows and prints (wrapped cells do not grow in all of them)
+        ws.append([label, c(ws, value, FLAG if isinstance(value, bool) else None, left=True)])
     ws.append([])
     ws.append([c(ws, "Rules", font=BOLD)])
     if problem.rules:
@@ -432,7 +433,7 @@ def _overview(book: _Book, problem: Problem, runs, counts, reading, settings, va
             ws.append([
                 k, c(ws, run.status), c(ws, bool(getattr(run, "proven", False)), FLAG), getattr(run, "penalty", None),
                 c(ws, verdict_words(validations.get(k)) if has_timetable(run) else ""), fig.attendees_back_to_back,
-                c(ws, getattr(run, "reason", None) or "", wrap=True),
+                c(ws, getattr(run, "reason", None) or ""),
             ])
     warnings = list(getattr(reading, "warnings", None) or [])
     if warnings:
