@@ -33,11 +33,11 @@ def command(file: str, sheet, attendee_column, event_column, as_json: bool) -> N
         doc["attendee_column"] = reading.attendee_column
         doc["event_column"] = reading.event_column
         doc["duplicates_dropped"] = reading.duplicates_dropped
+        doc["reading"] = reading.to_dict()
         doc["warnings"] = [w.to_dict() for w in reading.warnings]
         print_json(doc)
         return
-    where = f"sheet '{reading.sheet}', " if reading.sheet else ""
-    console.print(f"[bold]{file}[/bold] ({where}attendees from '{reading.attendee_column}', events from '{reading.event_column}')")
+    console.print(f"[bold]{file}[/bold]: {reading.describe()}", soft_wrap=True)
     table = Table(show_header=False, box=None, pad_edge=False)
     table.add_column(style="bold")
     table.add_column(justify="right")
