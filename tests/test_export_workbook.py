@@ -388,3 +388,11 @@ def test_estimated_counts_are_marked_with_their_bounds(tmp_path):
     from timetabler.export.count_chart import chart_points
 
     assert [(x, exact) for x, _, exact, _, _ in chart_points(counts)] == [(12, False), (14, False)]
+
+
+def test_progress_names_every_sheet_as_it_is_begun(tmp_path):
+    problem = small_problem()
+    run = solve_run(problem, dated_slots(5))
+    seen = []
+    path = write_workbook(tmp_path / "p.xlsx", problem=problem, runs=[run], progress=seen.append)
+    assert seen == load_workbook(path).sheetnames

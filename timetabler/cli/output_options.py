@@ -17,6 +17,7 @@ paths written; messages go to stderr so ``--json`` stdout stays one document.
 
 from __future__ import annotations
 
+import contextlib
 import functools
 from pathlib import Path
 from typing import Any, Callable, Mapping, Sequence
@@ -120,8 +121,10 @@ def publish(
     written: list[Path] = []
     if outputs.get("out"):
         kept = [settings[k] for k in ("kept from",) if settings.get(k)]
-        written.append(write_workbook(outputs["out"], problem=problem, runs=runs, counts=counts, reading=reading,
-                                      settings=settings, validations=validations, fewest=fewest, inputs=kept))
+        with _status(quiet, f"Writing {outputs['out']}") as show:
+            written.append(write_workbook(outputs["out"], problem=problem, runs=runs, counts=counts, reading=reading,
+                                          settings=settings, validations=validations, fewest=fewest, inputs=kept,
+                                          progress=lambda sheet: show(f"Writing {outputs['out']}: sheet {sheet}")))
     if outputs.get("csv"):
         from ..export.csv_folder import write_csv_folder
 
@@ -176,6 +179,16 @@ def count_for_runs(problem: Any, runs: Sequence[Any], budget: float, *, graph: A
     merged = reports[0]
     merged.counts = [c for r in reports for c in r.counts]
     return merged, "Counts respect fixed and barred slots."
+
+
+@contextlib.contextmanager
+def _status(quiet: bool, text: str):
+    """A spinner with a changing message on stderr while a long file is written (terminals only)."""
+    if quiet or not err_console.is_terminal:
+        yield lambda message: None
+        return
+    with err_console.status(text + " …") as status:
+        yield lambda message: status.update(message + " …")
 
 
 def _tell(written: list[Path]) -> None:

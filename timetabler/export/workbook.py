@@ -45,7 +45,7 @@ import datetime as dt
 import re
 import warnings
 from pathlib import Path
-from typing import Any, Mapping, Sequence
+from typing import Any, Callable, Mapping, Sequence
 
 import networkx as nx
 from openpyxl import Workbook
@@ -94,8 +94,12 @@ def write_workbook(
     validations: Mapping[int, Any] | None = None,
     fewest: Any = None,
     inputs: Sequence[str | Path] = (),
+    progress: Callable[[str], None] | None = None,
 ) -> Path:
     """Write the published workbook to ``path`` (``.xlsx``) and return the path written.
+
+    ``progress``, when given, is called with the name of each sheet as it is begun (a large
+    session's personal timetables take a while).
 
     ``runs`` are solver results (``SolveRun``: ``slots``, ``slot_list``, ``status``,
     ``assignment``, ``rooms``, ``penalty``, ...); ``counts`` a ``CountReport`` or None.
@@ -114,7 +118,7 @@ def write_workbook(
 
     def build(tmp: Path) -> None:
         wb = Workbook(write_only=True)
-        book = _Book(wb)
+        book = _Book(wb, progress)
         _overview(book, problem, runs, counts, reading, settings or {}, validations, figures, fewest)
         if runs:
             book.table_sheet(
@@ -167,12 +171,15 @@ def _clean(value: Any) -> Any:
 class _Book:
     """A write-only workbook with unique sheet and table names."""
 
-    def __init__(self, wb: Workbook):
+    def __init__(self, wb: Workbook, progress: Callable[[str], None] | None = None):
         self.wb = wb
         self.table_names: set[str] = set()
+        self.progress = progress
 
     def sheet(self, name: str, *, landscape: bool = True):
         """A new sheet set up to print: landscape, as wide as one page, header row on every page."""
+        if self.progress is not None:
+            self.progress(name)
         ws = self.wb.create_sheet(_sheet_name(name))
         ws.page_setup.orientation = "landscape" if landscape else "portrait"
         ws.page_setup.fitToWidth = 1
