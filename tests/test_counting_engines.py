@@ -15,10 +15,11 @@ from timetabler.counting.bounds import (
     colouring_lower,
     knuth_estimate,
 )
+from timetabler.counting.falling_frontier import falling_frontier_polynomial
 from timetabler.counting.frontier import colourings, frontier_order, frontier_polynomial
 from timetabler.counting.reductions import reduce_graph
 
-EXACT_ENGINES = ["frontier", "colour-classes", "deletion-contraction"]
+EXACT_ENGINES = ["frontier", "falling-frontier", "colour-classes", "deletion-contraction"]
 
 
 def random_graphs(count: int, max_nodes: int, seed: int = 7):
@@ -35,7 +36,7 @@ def test_engines_agree_with_and_without_reductions(graph):
     # (it grows like φ^(n+m)); on denser graphs the oracle is the reduced deletion–contraction
     quick = graph.number_of_edges() <= 20
     oracle = chromatic_polynomial(graph, engine="deletion-contraction", reduce=not quick).power
-    for engine in EXACT_ENGINES if quick else EXACT_ENGINES[:2]:
+    for engine in EXACT_ENGINES if quick else EXACT_ENGINES[:3]:
         for reduce in (True, False):
             assert chromatic_polynomial(graph, engine=engine, reduce=reduce).power == oracle, (engine, reduce)
     assert chromatic_polynomial(graph).power == oracle
@@ -49,6 +50,8 @@ def test_frontier_and_colour_class_dps_agree_on_medium_sparse_graphs(seed):
     p = frontier_polynomial(g, order)
     for k in (2, 3, 4, 5):
         assert sum(c * k**i for i, c in enumerate(p)) == colourings(g, k, order)
+    # the vectorised falling-factorial programme (Python ints in numpy object arrays past n = 25)
+    assert falling_frontier_polynomial(g, order) == p
 
 
 def test_reductions_keep_the_polynomial_and_do_the_work():

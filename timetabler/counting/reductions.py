@@ -16,11 +16,12 @@ separating edge
 cycle
     ``P(C_n) = (k − 1)^n + (−1)^n (k − 1)``.
 
-What is left after the reductions ("hard pieces") goes to one of the two frontier
-programmes of :mod:`.frontier`: the subgraph expansion for sparse pieces (its states are
-connectivity partitions, few when the frontier has few edges), the colour-class expansion
-for dense ones (its states are partitions of the frontier into independent sets, few when
-the frontier has many edges). The switch is a clash density of 0.25, measured on the
+What is left after the reductions ("hard pieces") goes to a frontier programme: the
+subgraph expansion of :mod:`.frontier` for sparse pieces (its states are connectivity
+partitions, few when the frontier has few edges); for dense ones the colour-class
+expansion (its states are partitions of the frontier into independent sets, few when the
+frontier has many edges), vectorised in the falling-factorial basis
+(:mod:`.falling_frontier`) when the frontier has at most 15 vertices. The switch is a clash density of 0.25, measured on the
 benchmark graphs of ``benchmarks/counting.py`` (our own rule, no published source).
 
 The result of a reduction is a :class:`Reduction`: integer multiplicities of linear
@@ -38,10 +39,11 @@ import networkx as nx
 
 from .budget import Budget, BudgetExceeded, UNLIMITED
 from .deletion_contraction import deletion_contraction_polynomial
+from .falling_frontier import MAX_WIDTH, falling_frontier_polynomial
 from .frontier import colouring_polynomial, frontier_order, frontier_polynomial
 from .polynomial import ChromaticPolynomial, cycle_power, poly_div_linear, poly_mul, poly_mul_linear
 
-ENGINES = ("auto", "frontier", "colour-classes", "deletion-contraction")
+ENGINES = ("auto", "frontier", "falling-frontier", "colour-classes", "deletion-contraction")
 
 # clash density above which the colour-class programme is used (own measurement, see above)
 DENSE_FROM = 0.25
@@ -178,6 +180,8 @@ def piece_polynomial(graph: nx.Graph, engine: str = "auto", budget: Budget = UNL
     if engine == "auto":
         order = frontier_order(graph)
         if density(graph) >= DENSE_FROM:
+            if order.width + 1 <= MAX_WIDTH:
+                return falling_frontier_polynomial(graph, order.order, budget), "falling-frontier"
             return colouring_polynomial(graph, order.order, budget), "colour-classes"
         if order.log10_cost > MAX_FRONTIER_LOG10_STATES:
             raise BudgetExceeded(
@@ -189,6 +193,8 @@ def piece_polynomial(graph: nx.Graph, engine: str = "auto", budget: Budget = UNL
         return frontier_polynomial(graph, None, budget, progress), engine
     if engine == "colour-classes":
         return colouring_polynomial(graph, None, budget), engine
+    if engine == "falling-frontier":
+        return falling_frontier_polynomial(graph, None, budget), engine
     if engine == "deletion-contraction":
         return deletion_contraction_polynomial(graph, budget), engine
     raise ValueError(f"unknown engine {engine!r}; choose one of {', '.join(ENGINES)}")
@@ -210,8 +216,8 @@ def chromatic_polynomial(
     graph : networkx.Graph
         Self-loops are not allowed (a vertex clashing with itself has no colouring).
     engine : str
-        ``"auto"`` (default), ``"frontier"``, ``"colour-classes"`` or
-        ``"deletion-contraction"`` (the slow oracle).
+        ``"auto"`` (default), ``"frontier"``, ``"falling-frontier"``,
+        ``"colour-classes"`` or ``"deletion-contraction"`` (the slow oracle).
     reduce : bool
         Apply the reductions first (default). ``False`` hands the whole graph to the engine.
     budget, budget_seconds
