@@ -139,6 +139,17 @@ def _shot(driver, folder: Path, name: str) -> Path:
 def test_upload_count_solve_download_in_chromium(server, browser, tmp_path):
     shots = tmp_path / "screenshots"
     shots.mkdir()
+    try:
+        _whole_job(server, browser, shots)
+    except Exception as exc:
+        # Leave what a person would need to see why: the page, a picture of it, the server's log.
+        (shots / "failure.html").write_text(browser.page_source, encoding="utf-8")
+        browser.save_screenshot(str(shots / "failure.png"))
+        log = (tmp_path / "server.log").read_text(errors="replace")[-4000:]
+        raise AssertionError(f"{type(exc).__name__} at {browser.current_url}: {exc}\n--- server log ---\n{log}") from exc
+
+
+def _whole_job(server, browser, shots):
     wait = WebDriverWait(browser, 60)
 
     browser.get(server)
