@@ -139,3 +139,23 @@ def test_large_events_go_early_when_asked():
     p = Problem(enrol, weights=Weights(back_to_back=0, overnight=0, same_day=0, large_late=5))
     run = solve(p, generic_slots(6, 2), OPT)
     assert run.assignment["BIG"] == 1 and run.penalty == 0
+
+
+def test_arranging_groups_keeps_clash_free_and_never_costs_more():
+    from timetabler.conflicts import conflict_graph
+    from timetabler.scheduling.arrangement import arrange
+    from timetabler.scheduling.dsatur import dsatur
+
+    p = random_session(41, events=30, students=300)
+    p.weights = Weights(back_to_back=10, overnight=3, same_day=2, proximity=1)
+    slots = generic_slots(12, 3)
+    g = conflict_graph(p)
+    start = dsatur(g)
+    assert max(start.values()) <= 12
+    better = arrange(g, start, slots, p.weights, steps=5000, seconds=None, seed=1)
+    before, after = validate(p, slots, start), validate(p, slots, better)
+    assert before.ok and after.ok
+    assert after.penalty <= before.penalty
+    # a permutation of slots: the same groups of events
+    groups = lambda a: sorted(sorted(c for c in a if a[c] == s) for s in set(a.values()))  # noqa: E731
+    assert groups(start) == groups(better)

@@ -276,19 +276,24 @@ def _print_runs(problem, runs, fewest_result) -> None:
             console.print(f"Fewest slots: between [bold]{f.lower}[/bold] ({f.lower_reason}) and "
                           f"[bold]{f.upper}[/bold] (a timetable was found); not proven within the time limit.")
     table = Table(title="Timetables", title_justify="left")
-    for name in ("Slots", "Result", "Penalty", "Best possible ≥", "Back-to-back", "Two in a day", "Overnight",
-                 "Moves", "Validator", "Seconds"):
-        table.add_column(name, justify="right" if name not in ("Result", "Validator") else "left")
+    for name, right in (("Slots", True), ("Result", False), ("Penalty", True), ("Lower bound", True),
+                        ("Back to back", True), ("Moved", True), ("Check", False), ("Seconds", True)):
+        table.add_column(name, justify="right" if right else "left", no_wrap=name in ("Result", "Check"))
     for r in runs:
         v = r.validation
         soft = v.soft if v else {}
         table.add_row(str(r.slots), r.status, _num(r.penalty), _num(None if r.bound is None else round(r.bound)),
-                      _num(soft.get("back_to_back")), _num(soft.get("same_day")), _num(soft.get("overnight")),
+                      _num(soft.get("back_to_back")),
                       str(len(r.moves)) if r.moves or r.status in ("optimal", "feasible") else "",
                       ("passed" if v.ok else f"FAILED ({len(v.violations)})") if v else "",
                       f"{r.wall_seconds:.1f}")
     console.print(table)
+    console.print("Check: the independent validator re-checked the timetable against every enrolment and rule.",
+                  style="dim")
     for r in runs:
+        if r.penalty_breakdown and any(r.penalty_breakdown.values()):
+            parts = ", ".join(f"{name.replace('_', ' ')} {value}" for name, value in r.penalty_breakdown.items() if value)
+            console.print(f"{r.slots} slots — penalty by goal: {parts}", soft_wrap=True)
         if r.status in ("infeasible", "unknown") and r.reason:
             console.print(f"[bold]{r.slots} slots[/bold] — {r.status}:")
             for reason in r.reasons[:8] or [r.reason]:

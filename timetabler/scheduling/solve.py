@@ -35,6 +35,7 @@ from ..model import Problem, Slot, generic_slots
 from .cliques import clique_cover, largest_clique_found
 from .cpsat_model import (TimetableModel, build_model, large_event_codes, physical_domains,
                           slots_interchangeable)
+from .arrangement import arrange
 from .dsatur import dsatur
 from .infeasibility import Witness, prechecks
 from .rooms import seat_events
@@ -356,12 +357,16 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
     sym_clique = [c for c in clique if c in block_set] if symmetric else []
     if symmetric and not sym_clique and block:
         sym_clique = [max(block, key=lambda c: (sub.degree(c), c))]
-    if symmetric:
-        hint = _align(hint, sym_clique, k)
 
     def say(phase: str) -> None:
         if progress:
             progress({**info, "event": "phase", "phase": phase, "seconds": time.perf_counter() - start})
+
+    aligned = _align(hint, sym_clique, k) if symmetric else hint
+    if symmetric and not order_free and len(hint) == len(block):
+        say("arranging groups over the slots")
+        hint = arrange(sub, hint, slots, problem.weights, large=large, seed=options.seed,
+                       **_arrange_effort(options, seconds))
 
     dsatur_complete = len(hint) == len(block)
     feasible_hint: dict[str, int] | None = None
@@ -399,13 +404,16 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
         tm = build_model(problem, slots, graph, block, sizes=sizes, domains=domains, objective=False,
                          symmetry=sym_clique, large=large, room_splitting=options.room_splitting,
                          room_sharing=options.room_sharing, cover=cover)
-        _add_hint(tm, hint)
+        _add_hint(tm, aligned)
         status, solver, watcher = _run(tm, options, phase_seconds, progress, {**info, "phase": "clash-free"}, start)
         budget.charge(solver)
         if status == cp_model.INFEASIBLE:
             return _explain(problem, slots, graph, block, sizes, domains, options, left, run, cover)
         if status in (cp_model.OPTIMAL, cp_model.FEASIBLE):
             feasible_hint = tm.assignment(solver)
+            if not order_free:
+                feasible_hint = arrange(sub, feasible_hint, slots, problem.weights, large=large, seed=options.seed,
+                                        **_arrange_effort(options, seconds))
             say("seating the first timetable")
             keep_fallback(feasible_hint)
         elif order_free:
@@ -484,6 +492,13 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
             return run
     run.wall_seconds = time.perf_counter() - t0
     return run
+
+
+def _arrange_effort(options: SolveOptions, seconds: float) -> dict:
+    # a fixed number of steps in repeatable mode, a share of the time otherwise
+    if options.deterministic:
+        return {"seconds": None, "steps": 20_000}
+    return {"seconds": min(2.0, max(0.1, seconds * 0.05))}
 
 
 def _align(hint: dict[str, int], clique: list[str], k: int) -> dict[str, int]:
