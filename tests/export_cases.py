@@ -166,3 +166,28 @@ def count_report(problem: Problem, ks: list[int]):
     except ImportError:
         return reference_counts(conflict_graph(problem), ks)
     return count_timetables(conflict_graph(problem), ks)
+
+
+# --------------------------------------------------------------------------- reading sheets back
+
+
+def comparison_of(ws):
+    """The Comparison sheet (a row per figure, a column per slot count) as one dict per slot count."""
+    values = list(ws.iter_rows(values_only=True))
+    header = values[0]
+    assert header[0] == "Figure"
+    out = []
+    for j, title in enumerate(header[1:], start=1):
+        k = int(title.split()[0])
+        row = {"Slots": k}
+        for line in values[1:]:
+            row[line[0]] = line[j]
+        out.append(row)
+    return out
+
+
+def rows_of(ws):
+    """Header and data rows of a sheet holding one table at A1, as dicts."""
+    values = list(ws.iter_rows(values_only=True))
+    header = list(values[0])
+    return header, [dict(zip(header, row)) for row in values[1:] if any(v is not None for v in row)]

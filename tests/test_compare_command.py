@@ -7,7 +7,7 @@ import csv
 import pytest
 from openpyxl import load_workbook
 
-from export_cases import ENROLMENTS, reference_counts, small_problem
+from export_cases import ENROLMENTS, comparison_of, reference_counts, small_problem
 from timetabler.conflicts import conflict_graph
 from timetabler.scheduling.validator import validate
 
@@ -56,10 +56,7 @@ def test_compare_json_workbook_and_terminal_agree(run_command, enrolment_csv, tm
     assert doc["written"] == [str(out)]
     # the workbook's comparison sheet holds the same figures as the JSON document
     wb = load_workbook(out)
-    values = list(wb["Comparison"].iter_rows(values_only=True))
-    header = values[0]
-    for row, doc_row in zip(values[1:], rows):
-        sheet_row = dict(zip(header, row))
+    for sheet_row, doc_row in zip(comparison_of(wb["Comparison"]), rows):
         assert sheet_row["Slots"] == doc_row["slots"]
         assert sheet_row["Status"] == doc_row["status"]
         assert sheet_row["Penalty"] == doc_row["penalty"]

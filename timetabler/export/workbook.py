@@ -7,7 +7,8 @@ Overview
     The input file and its figures, the rules and weights used, settings, and for every
     slot count: status, proven or not, penalty, the independent validator's verdict.
 Comparison
-    Every solved slot count side by side (one row per slot count).
+    Every solved slot count side by side: one column per slot count, one row per figure
+    (the CSV folder's comparison.csv has one row per slot count instead, for other programs).
 Counts
     Per slot count: the exact number of clash-free timetables **as text** (Excel keeps
     only 15 significant digits of a number), its number of digits, log10, the ratio to the
@@ -63,6 +64,7 @@ from ..conflicts import conflict_graph
 from ..model import Problem, Weights
 from .safe_write import check_target, write_safely
 from .tables import (
+    Column,
     BIGINT, DATE, FLAG, FLOAT, INT, TIME, PublishedTable, RunFigures, comparison_table, counts_table, events_table,
     groups_table, validations_for, what_if_table,
     grid_rows, has_timetable, load_table, moves_table, personal_table, rooms_table, run_figures, seats_table, value_text,
@@ -121,9 +123,7 @@ def write_workbook(
         book = _Book(wb, progress)
         _overview(book, problem, runs, counts, reading, settings or {}, validations, figures, fewest)
         if runs:
-            book.table_sheet(
-                "Comparison", comparison_table(problem, runs, counts, validations, figures, fewest), highlight=_comparison_highlight
-            )
+            _comparison_sheet(book, comparison_table(problem, runs, counts, validations, figures, fewest))
         if counts is not None and getattr(counts, "counts", None):
             _counts_sheet(book, counts)
             groups = groups_table(counts)
@@ -225,7 +225,7 @@ class _Book:
         self.table_names.add(candidate)
         return candidate
 
-    def table_sheet(self, name: str, table: PublishedTable, *, highlight=None, chart=None, freeze: bool = True):
+    def table_sheet(self, name: str, table: PublishedTable, *, highlight=None, freeze: str | None = "A2"):
         """A sheet holding one Excel table (with filters) starting at A1, header frozen."""
         ws = self.sheet(name)
         widths = [max(8, len(h) + 3) for h in table.headers]
@@ -235,7 +235,7 @@ class _Book:
         for i, w in enumerate(widths, start=1):
             ws.column_dimensions[get_column_letter(i)].width = w
         if freeze:
-            ws.freeze_panes = "A2"
+            ws.freeze_panes = freeze  # before the first row: write-only sheets write their view first
         ws.print_title_rows = "1:1"
         ws.append([self.cell(ws, h) for h in table.headers])
         for row in table.rows:
@@ -274,21 +274,44 @@ def _range(table: PublishedTable, header: str, last_row: int) -> str:
 # --------------------------------------------------------------------------- conditional highlighting
 
 
-def _comparison_highlight(ws, table: PublishedTable, last_row: int) -> None:
-    status = _col(table, "Status")
-    ws.conditional_formatting.add(
-        f"A2:{get_column_letter(len(table.columns))}{last_row}",
-        FormulaRule(formula=[f'${status}2="infeasible"'], fill=RED, font=RED_FONT),
-    )
-    ws.conditional_formatting.add(
-        f"A2:{get_column_letter(len(table.columns))}{last_row}",
-        FormulaRule(formula=[f'${status}2="unknown"'], fill=AMBER, font=AMBER_FONT),
-    )
-    v = _col(table, "Validator")
-    ws.conditional_formatting.add(
-        _range(table, "Validator", last_row),
-        FormulaRule(formula=[f'AND({v}2<>"",{v}2<>"valid",{v}2<>"not checked")'], fill=RED, font=RED_FONT),
-    )
+def _comparison_sheet(book: "_Book", table: PublishedTable) -> None:
+    """The comparison turned on its side: a row per figure, a column per slot count."""
+    ks = [row[0] for row in table.rows]
+    side = PublishedTable("Comparison", [Column("Figure")] + [Column(f"{k} slots") for k in ks],
+                          title="Slot counts side by side")
+    rows_at: dict[str, int] = {}
+    for i, col in enumerate(table.columns):
+        if col.header == "Slots":
+            continue
+        values = []
+        for row in table.rows:
+            v = row[i]
+            if col.kind == FLAG or isinstance(v, bool):
+                v = "yes" if v else "no"
+            elif col.kind == BIGINT and v is not None:
+                v = str(v)
+            elif isinstance(v, float):
+                v = round(v, 3)
+            values.append(v)
+        rows_at[col.header] = len(side.rows) + 2
+        side.rows.append([col.header] + values)
+
+    def highlight(ws, _table, _last_row):
+        last = get_column_letter(len(ks) + 1)
+        r = rows_at["Status"]
+        ws.conditional_formatting.add(f"B{r}:{last}{r}", CellIsRule(operator="equal", formula=['"infeasible"'], fill=RED,
+                                                                     font=RED_FONT))
+        ws.conditional_formatting.add(f"B{r}:{last}{r}", CellIsRule(operator="equal", formula=['"unknown"'], fill=AMBER,
+                                                                     font=AMBER_FONT))
+        r = rows_at["Clash-free timetable exists"]
+        ws.conditional_formatting.add(f"B{r}:{last}{r}", CellIsRule(operator="equal", formula=['"no"'], fill=RED,
+                                                                     font=RED_FONT))
+        r = rows_at["Validator"]
+        ws.conditional_formatting.add(
+            f"B{r}:{last}{r}", FormulaRule(formula=[f'AND(B{r}<>"",B{r}<>"valid",B{r}<>"not checked")'], fill=RED,
+                                           font=RED_FONT))
+
+    book.table_sheet("Comparison", side, highlight=highlight, freeze="B2")
 
 
 def _events_highlight(ws, table: PublishedTable, last_row: int) -> None:
