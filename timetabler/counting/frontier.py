@@ -33,7 +33,6 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 from itertools import combinations
-from operator import itemgetter
 from typing import Callable, Hashable, Sequence
 
 import networkx as nx
@@ -150,58 +149,53 @@ def frontier_order(graph: nx.Graph, tries: int | None = None) -> FrontierOrder:
 # --------------------------------------------------------------------------- shared steps
 
 
-class _Canon:
-    """Projection of a state to kept positions, relabelled to a restricted-growth string."""
+_CLOSE_GAP = [bytes(x - 1 if x > label else x for x in range(256)) for label in range(256)]
 
-    def __init__(self, keep: Sequence[int]):
-        self.keep = list(keep)
-        self.get = itemgetter(*self.keep) if len(self.keep) > 1 else None
-        self.cache: dict[bytes, tuple[bytes, int]] = {}
 
-    def __call__(self, state: bytes) -> tuple[bytes, int]:
-        if not self.keep:
-            kept = b""
-        elif self.get is None:
-            kept = bytes((state[self.keep[0]],))
-        else:
-            kept = bytes(self.get(state))
-        hit = self.cache.get(kept)
-        if hit is None:
-            relabel: dict[int, int] = {}
-            canon = bytes(relabel.setdefault(x, len(relabel)) for x in kept)
-            hit = (canon, len(relabel))
-            self.cache[kept] = hit
-        return hit
+_ROTATIONS: dict[tuple[int, int], bytes] = {}
+
+
+def _rotation(label: int, q: int) -> bytes:
+    table = _ROTATIONS.get((label, q))
+    if table is None:
+        table = bytes(q if x == label else (x - 1 if label < x <= q else x) for x in range(256))
+        _ROTATIONS[(label, q)] = table
+    return table
 
 
 class _Projection:
-    """Drop frontier positions from states of length ``length`` and relabel (cached)."""
+    """Drop frontier positions from restricted-growth states; return the canonical state and
+    the number of blocks that vanished.
+
+    Positions are dropped one at a time, highest first, with C-level ``bytes`` operations:
+    dropping a position that is not the first occurrence of its label keeps the string
+    restricted-growth; dropping the only occurrence closes a block (labels above it move
+    down by one, ``bytes.translate``); dropping a first occurrence whose label occurs again
+    rotates the labels first seen in between (another ``translate``).
+    """
 
     def __init__(self, keep: Sequence[int], length: int):
         self.active = len(keep) < length
-        self.cache: dict[bytes, tuple[bytes, int]] = {}
-        dropped = [i for i in range(length) if i not in set(keep)]
-        self.one = dropped[0] if len(dropped) == 1 else None
-        self.get = itemgetter(*keep) if len(keep) > 1 else None
-        self.keep = list(keep)
+        kept = set(keep)
+        self.dropped = [i for i in range(length - 1, -1, -1) if i not in kept]
 
     def __call__(self, state: bytes) -> tuple[bytes, int]:
-        if self.one is not None:
-            i = self.one
-            kept = state[:i] + state[i + 1:]
-        elif self.get is not None:
-            kept = bytes(self.get(state))
-        elif self.keep:
-            kept = state[self.keep[0]: self.keep[0] + 1]
-        else:
-            kept = b""
-        hit = self.cache.get(kept)
-        if hit is None:
-            relabel: dict[int, int] = {}
-            canon = bytes(relabel.setdefault(x, len(relabel)) for x in kept)
-            hit = (canon, len(relabel))
-            self.cache[kept] = hit
-        return hit
+        closed = 0
+        for i in self.dropped:
+            label = state[i]
+            rest = state[:i] + state[i + 1:]
+            if label not in rest:
+                closed += 1
+                state = rest.translate(_CLOSE_GAP[label])
+            elif state.index(label) == i:
+                # the label's first occurrence moves to j; the labels first seen between
+                # (label + 1 … q) each move down one and the label becomes q
+                j = rest.index(label, i)
+                q = max(rest[:j]) if j else -1
+                state = rest.translate(_rotation(label, q)) if q > label else rest
+            else:
+                state = rest
+        return state, closed
 
 
 _MERGE_TABLES: dict[tuple[int, ...], bytes] = {}
@@ -291,9 +285,9 @@ def frontier_polynomial(
                     options.append((s.translate(_merge_table(chosen)) + single[chosen[0]], b + 1 - size, signed))
             for ns, blocks, ww in options:
                 if project.active:
-                    ns, after = project(ns)
-                    if blocks > after:
-                        ww <<= bits * (blocks - after)
+                    ns, closed = project(ns)
+                    if closed:
+                        ww <<= bits * closed
                 new[ns] = get(ns, 0) + ww
         states = {s: w for s, w in new.items() if w}
         if states:
@@ -331,7 +325,8 @@ def colourings(
     for t, (v, nbpos, keep) in enumerate(steps):
         budget.check_time("the colouring count")
         grown_len = len(steps[t - 1][2]) + 1 if t else 1
-        canon = _Canon(keep) if len(keep) < grown_len else None
+        project = _Projection(keep, grown_len)
+        canon = project if project.active else None
         new: dict[bytes, int] = {}
         get = new.get
         per_state = _STATE_OVERHEAD + n * max(k, 2).bit_length() / 8
