@@ -266,6 +266,9 @@ def frontier_polynomial(
         budget.check_time("the frontier count")
         grown_len = len(steps[t - 1][2]) + 1 if t else 1
         project = _Projection(keep, grown_len)
+        active = project.active
+        n_nb = len(nbpos)
+        p0 = nbpos[0] if nbpos else 0
         new: dict[bytes, int] = {}
         get = new.get
         per_state = _STATE_OVERHEAD + bits * (t + 1) / 8
@@ -274,17 +277,23 @@ def frontier_polynomial(
                 budget.check_time("the frontier count")
                 budget.check_memory((len(new) + len(states)) * per_state, "the frontier count")
             b = (max(s) + 1) if s else 0
-            labels = sorted({s[i] for i in nbpos})
-            # options: (state, number of blocks in it, signed weight)
-            options = [(s + single[b], b + 1, w)]
-            for lab in labels:  # v joined to one block by its edges into it
-                options.append((s + single[lab], b, -w))
-            for size in range(2, len(labels) + 1):
-                signed = -w if size % 2 else w
-                for chosen in combinations(labels, size):
-                    options.append((s.translate(_merge_table(chosen)) + single[chosen[0]], b + 1 - size, signed))
-            for ns, blocks, ww in options:
-                if project.active:
+            neg = -w
+            # options: (state, signed weight); v alone, or joined by its edges to one or more blocks
+            if n_nb == 0:
+                options = ((s + single[b], w),)
+            elif n_nb == 1:
+                options = ((s + single[b], w), (s + single[s[p0]], neg))
+            else:
+                labels = sorted({s[i] for i in nbpos})
+                options = [(s + single[b], w)]
+                for lab in labels:
+                    options.append((s + single[lab], neg))
+                for size in range(2, len(labels) + 1):
+                    signed = neg if size % 2 else w
+                    for chosen in combinations(labels, size):
+                        options.append((s.translate(_merge_table(chosen)) + single[chosen[0]], signed))
+            for ns, ww in options:
+                if active:
                     ns, closed = project(ns)
                     if closed:
                         ww <<= bits * closed
