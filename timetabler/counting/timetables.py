@@ -220,7 +220,8 @@ def count_timetables(
         Event code → slot number (1-based) it must use; event code → slot numbers it may
         not use. Counts then respect them (see the module notes).
     progress : callable, optional
-        Called as ``progress(done, total, message)`` after each component.
+        Called as ``progress(done, total, message)``: groups done out of groups to count,
+        and a line about the work in hand (steps of a long frontier count included).
 
     Examples
     --------
@@ -246,7 +247,11 @@ def count_timetables(
     for index, comp in enumerate(big):
         sub = graph.subgraph(comp)
         budget = Budget(max(deadline - time.monotonic(), 0.5) + time.monotonic(), memory_bytes)
-        results.append(_count_component(sub, needed, ks, budget, fixed, barred, constrained_events))
+        inner = None
+        if progress is not None:
+            def inner(done: int, total: int, index=index, size=len(comp)) -> None:
+                progress(index, len(big), f"a group of {size} events: step {done} of {total}")
+        results.append(_count_component(sub, needed, ks, budget, fixed, barred, constrained_events, inner))
         if progress is not None:
             progress(index + 1, len(big), f"counted a group of {len(comp)} events")
 
@@ -310,14 +315,14 @@ def count_timetables(
     return report
 
 
-def _count_component(sub, needed, ks, budget, fixed, barred, constrained_events) -> ComponentCount:
+def _count_component(sub, needed, ks, budget, fixed, barred, constrained_events, progress=None) -> ComponentCount:
     events = [str(v) for v in sorted(sub, key=str)]
     constrained = any(v in constrained_events for v in sub)
     poly = None
     method = ""
     reason = None
     try:
-        poly = chromatic_polynomial(sub, budget=budget)
+        poly = chromatic_polynomial(sub, budget=budget, progress=progress)
         method = poly.method
     except BudgetExceeded as exc:
         reason = str(exc)
