@@ -43,6 +43,7 @@ from __future__ import annotations
 
 import dataclasses
 import datetime as dt
+import math
 import re
 import warnings
 from pathlib import Path
@@ -79,10 +80,9 @@ AMBER_FONT = Font(color="9C5700")
 BOLD = Font(bold=True)
 DAY_FILL = PatternFill("solid", start_color="DDEBF7", end_color="DDEBF7")
 TITLE = Font(bold=True, size=14)
-WRAP = Alignment(wrap_text=True, vertical="top", horizontal="left")
-LEFT = Alignment(horizontal="left")
 NUMBER_FORMATS = {DATE: "yyyy-mm-dd", TIME: "hh:mm", FLOAT: "0.000", INT: "0"}
 TABLE_STYLE = "TableStyleMedium2"
+MAX_WIDTH = 48  # characters; longer text wraps
 
 
 def write_workbook(
@@ -188,7 +188,7 @@ class _Book:
         return ws
 
     def cell(self, ws, value: Any, kind: str | None = None, font: Font | None = None, wrap: bool = False,
-             left: bool = False, fill: PatternFill | None = None) -> Any:
+             left: bool = False, fill: PatternFill | None = None, top: bool = False) -> Any:
         value = _clean(value)
         if isinstance(value, float) and value != value:  # NaN
             value = None
@@ -197,7 +197,7 @@ class _Book:
         if kind == BIGINT and value is not None:
             value = str(value)
         # openpyxl formats a bare date as yyyy-mm-dd by itself (no cell object needed: faster)
-        needs_cell = font is not None or fill is not None or wrap or left or kind in (TIME, FLOAT) or (isinstance(value, str) and value.startswith("="))
+        needs_cell = font is not None or fill is not None or wrap or left or top or kind in (TIME, FLOAT) or (isinstance(value, str) and value.startswith("="))
         if not needs_cell:
             return value
         c = WriteOnlyCell(ws, value=value)
@@ -209,10 +209,9 @@ class _Book:
             c.font = font
         if fill is not None:
             c.fill = fill
-        if wrap:
-            c.alignment = WRAP
-        elif left:
-            c.alignment = LEFT
+        if wrap or left or top:
+            c.alignment = Alignment(wrap_text=wrap, vertical="top" if (wrap or top) else None,
+                                    horizontal="left" if (wrap or left) else None)
         return c
 
     def table_name(self, base: str) -> str:
@@ -225,21 +224,34 @@ class _Book:
         self.table_names.add(candidate)
         return candidate
 
-    def table_sheet(self, name: str, table: PublishedTable, *, highlight=None, freeze: str | None = "A2"):
-        """A sheet holding one Excel table (with filters) starting at A1, header frozen."""
+    def table_sheet(self, name: str, table: PublishedTable, *, highlight=None, freeze: str | None = "A2",
+                    left: bool = False):
+        """A sheet holding one Excel table (with filters) starting at A1, header frozen.
+
+        Columns are as wide as their content up to ``MAX_WIDTH`` characters; longer text
+        wraps, and its row is given the height of its lines (spreadsheet programs do not
+        all grow rows by themselves, and a write-only sheet must say so before the row).
+        """
         ws = self.sheet(name)
         widths = [max(8, len(h) + 3) for h in table.headers]
         for row in table.rows[:500]:
             for i, (v, col) in enumerate(zip(row, table.columns)):
-                widths[i] = max(widths[i], min(60, len(value_text(v, col.kind)) + 2))
+                widths[i] = max(widths[i], min(MAX_WIDTH, len(value_text(v, col.kind)) + 2))
         for i, w in enumerate(widths, start=1):
             ws.column_dimensions[get_column_letter(i)].width = w
         if freeze:
             ws.freeze_panes = freeze  # before the first row: write-only sheets write their view first
         ws.print_title_rows = "1:1"
         ws.append([self.cell(ws, h) for h in table.headers])
-        for row in table.rows:
-            ws.append([self.cell(ws, v, col.kind) for v, col in zip(row, table.columns)])
+        for r, row in enumerate(table.rows, start=2):
+            lines = 1
+            for v, w in zip(row, widths):
+                if isinstance(v, str) and len(v) > w - 2:
+                    lines = max(lines, math.ceil(len(v) / (w - 4)) + v.count("\n"))
+            if lines > 1:
+                ws.row_dimensions[r].height = min(409, 15 * lines)  # 409 points: a spreadsheet row's limit
+            ws.append([self.cell(ws, v, col.kind, wrap=lines > 1 and isinstance(v, str) and len(v) > w - 2,
+                                 top=lines > 1, left=left) for v, col, w in zip(row, table.columns, widths)])
         last_col = get_column_letter(len(table.columns))
         last_row = max(2, len(table.rows) + 1)
         if not table.rows:
@@ -311,7 +323,7 @@ def _comparison_sheet(book: "_Book", table: PublishedTable) -> None:
             f"B{r}:{last}{r}", FormulaRule(formula=[f'AND(B{r}<>"",B{r}<>"valid",B{r}<>"not checked")'], fill=RED,
                                            font=RED_FONT))
 
-    book.table_sheet("Comparison", side, highlight=highlight, freeze="B2")
+    book.table_sheet("Comparison", side, highlight=highlight, freeze="B2", left=True)
 
 
 def _events_highlight(ws, table: PublishedTable, last_row: int) -> None:
