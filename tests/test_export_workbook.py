@@ -307,6 +307,9 @@ def test_control_characters_and_overlong_text_do_not_break_the_file(tmp_path):
     reason = rows[0]["Reason"]
     assert reason.startswith("bell x") and "\x07" not in reason
     assert len(reason) <= 32767 and reason.endswith("(cut: too long for one cell)")
+    ws = load_workbook(path)["Comparison"]
+    (cell,) = [c for c in ws["B"] if c.value == reason]
+    assert cell.alignment.wrap_text and ws.row_dimensions[cell.row].height == 409  # a row's greatest height
 
 
 def test_count_groups_multiply_to_the_total_and_match_networkx(tmp_path):
