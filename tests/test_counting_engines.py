@@ -112,3 +112,24 @@ def test_budget_is_enforced_never_a_wrong_number():
         chromatic_polynomial(g, budget=Budget.seconds(0.2))
     with pytest.raises(BudgetExceeded):
         frontier_polynomial(nx.grid_2d_graph(6, 6), budget=Budget(None, memory_bytes=10_000))
+
+
+def test_clique_separator_splits_and_keeps_the_polynomial():
+    # two Petersen graphs each joined to all of a triangle x, y, z through three of their
+    # vertices: no cut vertex and no separating edge, but the triangle separates them.
+    # Read 1968 / Dong, Koh & Teo 2005: P(G) = P(G1) P(G2) / P(K_3), P(K_3) = k(k−1)(k−2)
+    g = nx.Graph([("x", "y"), ("y", "z"), ("x", "z")])
+    halves = []
+    for shift in (0, 100):
+        half = nx.relabel_nodes(nx.petersen_graph(), lambda v, s=shift: v + s)
+        half.add_edges_from([("x", "y"), ("y", "z"), ("x", "z")])
+        half.add_edges_from((shift + i, c) for i in range(3) for c in "xyz")
+        halves.append(half)
+        g.add_edges_from(half.edges())
+    red = reduce_graph(g)
+    assert red.steps["clique separator"] == 1
+    p = chromatic_polynomial(g)
+    p1, p2 = (chromatic_polynomial(h, engine="colour-classes", reduce=False) for h in halves)
+    for k in range(3, 8):
+        assert p(k) * k * (k - 1) * (k - 2) == p1(k) * p2(k)
+    assert p.power == chromatic_polynomial(g, engine="frontier", reduce=False).power
