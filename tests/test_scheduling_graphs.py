@@ -183,3 +183,17 @@ def test_time_limit_is_respected_on_a_hard_instance():
     run = solve(p, generic_slots(8), SolveOptions(time_limit=2, workers=2, explain=False))
     assert run.status in ("unknown", "infeasible")
     assert run.wall_seconds < 2 + 3.0  # model building and clean-up on a busy machine
+
+
+def test_tabucol_finds_proper_colourings_and_gives_up_below_chi():
+    from timetabler.scheduling.tabucol import tabucol
+
+    g = nx.convert_node_labels_to_integers(queen_graph(7))
+    c = tabucol(g, 7, seconds=10, seed=2)
+    # chi(queen7_7) = 7 (DIMACS table); tabu search usually finds it; when it does it must be proper
+    if c is not None:
+        assert all(c[u] != c[v] for u, v in g.edges) and max(c.values()) <= 7
+    petersen = nx.petersen_graph()
+    c3 = tabucol(petersen, 3, seconds=5, seed=1)
+    assert c3 is not None and all(c3[u] != c3[v] for u, v in petersen.edges)
+    assert tabucol(petersen, 2, max_moves=2000, seconds=5) is None  # chi(Petersen) = 3

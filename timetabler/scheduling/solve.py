@@ -39,6 +39,7 @@ from .arrangement import arrange
 from .dsatur import dsatur
 from .infeasibility import Witness, prechecks
 from .rooms import seat_events
+from .tabucol import tabucol
 
 Progress = Callable[[dict], None]
 
@@ -703,8 +704,20 @@ def fewest_slots(
     hi = None
     if plain:
         hi = max(dsat, lower)
-        best_run = SolveRun(slots=hi, slot_list=slots_for(hi), status="feasible", assignment=dict(colouring))
         result.upper_reason = "DSATUR"
+        # TabuCol tightens the upper bound with a share of the time (plain clashes only)
+        tabu_end = time.perf_counter() + 0.3 * options.time_limit
+        while hi > lower and time.perf_counter() < tabu_end:
+            if progress:
+                progress({"event": "phase", "phase": f"tabu search for {hi - 1} slots", "slots": hi - 1,
+                          "seconds": time.perf_counter() - start})
+            better = tabucol(graph, hi - 1, start=colouring, seed=options.seed,
+                             seconds=max(0.05, tabu_end - time.perf_counter()),
+                             max_moves=200_000 if options.deterministic else None)
+            if better is None:
+                break
+            colouring, hi, result.upper_reason = better, hi - 1, "tabu search (TabuCol)"
+        best_run = SolveRun(slots=hi, slot_list=slots_for(hi), status="feasible", assignment=dict(colouring))
     max_k = len(problem.slots) if problem.slots else max(n, 1)
     proven_lo = lower
     lo = lower
