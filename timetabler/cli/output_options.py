@@ -43,7 +43,7 @@ def output_options(func: Callable) -> Callable:
                      help="Write a workbook to forward as it is: overview, comparison, counts with a chart, the "
                           "timetable as a grid, events, personal timetables, seats, rooms and attendee load."),
         click.option("--csv", metavar="DIR", type=click.Path(file_okay=False),
-                     help="Also write the lists as CSV files into this folder (created if needed)."),
+                     help="Write the workbook's lists as CSV files into this folder (created if needed)."),
         click.option("--ics", metavar="DIR", type=click.Path(file_okay=False),
                      help="Write iCalendar files into this folder: session.ics with every event and attendees/ID.ics "
                           "per attendee. Needs a slots sheet with dates."),
@@ -53,8 +53,9 @@ def output_options(func: Callable) -> Callable:
         click.option("--plot", metavar="FILE.png", type=click.Path(dir_okay=False),
                      help="Draw a PNG chart of the number of clash-free timetables against the number of slots."),
         click.option("--pseudonyms", is_flag=True,
-                     help="Replace attendee identifiers by stable pseudonyms (P-XXXXXXXXXX) in every output, for "
-                          "sharing outside the office. The same attendee gets the same pseudonym in every run."),
+                     help="Replace attendee identifiers by stable pseudonyms (P-XXXXXXXXXX) in every file written, "
+                          "for sharing outside the office (the terminal still shows the real ones). The same "
+                          "attendee gets the same pseudonym in every run."),
         click.option("--pseudonym-key", metavar="FILE", type=click.Path(dir_okay=False),
                      help="Secret key file for --pseudonyms (default: ~/.config/timetabler/pseudonym-key, created "
                           "on first use). Keep it private: with it, pseudonyms can be linked back to identifiers."),
