@@ -69,17 +69,22 @@ def chordal_supergraph_lower(graph: nx.Graph, k: int) -> int:
     return value
 
 
-def colouring_lower(graph: nx.Graph, k: int) -> int:
-    """``k(k−1)…(k−c+1)`` for a DSATUR colouring with ``c`` colours (0 when ``c > k``)."""
+def dsatur_colour_count(graph: nx.Graph) -> int:
+    """Colours used by a DSATUR colouring (Brélaz 1979): an upper bound on the fewest slots."""
     if graph.number_of_nodes() == 0:
-        return 1
+        return 0
     colours = nx.greedy_color(graph, strategy="saturation_largest_first")
-    c = max(colours.values()) + 1
+    return max(colours.values()) + 1
+
+
+def colouring_lower(graph: nx.Graph, k: int, colour_count: int | None = None) -> int:
+    """``k(k−1)…(k−c+1)`` for a DSATUR colouring with ``c`` colours (0 when ``c > k``)."""
+    c = dsatur_colour_count(graph) if colour_count is None else colour_count
     return falling_factorial(k, c) if c <= k else 0
 
 
-def lower_bound(graph: nx.Graph, k: int) -> int:
-    return max(chordal_supergraph_lower(graph, k), colouring_lower(graph, k))
+def lower_bound(graph: nx.Graph, k: int, colour_count: int | None = None) -> int:
+    return max(chordal_supergraph_lower(graph, k), colouring_lower(graph, k, colour_count))
 
 
 def _smallest_last(graph: nx.Graph) -> list:

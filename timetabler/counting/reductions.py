@@ -53,8 +53,11 @@ DENSE_FROM = 0.25
 # the sparse programme is not started at all; the bound overestimates the real count by
 # one to two orders of magnitude on the benchmark graphs
 MAX_FRONTIER_LOG10_STATES = 10.5
+# frontier width past which no exact engine is tried (Bell(30) ≈ 8.5e23 partitions)
+GIVE_UP_WIDTH = 30
 _SEPARATOR_SEARCH_MAX_EDGES = 800
 _SEPARATOR_SEARCH_MAX_NODES = 400
+_CLIQUE_SEARCH_MAX_EDGES = 3000  # the triangulation's clique listing grows fast past this
 
 
 @dataclass
@@ -133,9 +136,10 @@ def _separating_edge(block: nx.Graph):
     return None
 
 
-def reduce_graph(graph: nx.Graph, reduction: Reduction | None = None) -> Reduction:
+def reduce_graph(graph: nx.Graph, reduction: Reduction | None = None, budget: Budget = UNLIMITED) -> Reduction:
     """Split ``graph`` by the identities above into linear factors and hard pieces."""
     red = reduction if reduction is not None else Reduction()
+    budget.check_time("the reductions")
     g = eliminate_simplicial(graph, red.roots, red.steps)
     for comp in nx.connected_components(g):
         sub = g.subgraph(comp)
@@ -144,13 +148,13 @@ def reduce_graph(graph: nx.Graph, reduction: Reduction | None = None) -> Reducti
             red.roots[0] -= len(blocks) - 1
             red.steps["block split"] += len(blocks) - 1
         for block in blocks:
-            _reduce_block(nx.Graph(sub.subgraph(block)), red)
+            _reduce_block(nx.Graph(sub.subgraph(block)), red, budget)
     return red
 
 
-def _reduce_block(block: nx.Graph, red: Reduction) -> None:
+def _reduce_block(block: nx.Graph, red: Reduction, budget: Budget = UNLIMITED) -> None:
     if any(_is_clique(block, list(block[v])) for v in block):
-        reduce_graph(block, red)
+        reduce_graph(block, red, budget)
         return
     n, m = block.number_of_nodes(), block.number_of_edges()
     if n == m and all(d == 2 for _, d in block.degree()):
@@ -164,7 +168,7 @@ def _reduce_block(block: nx.Graph, red: Reduction) -> None:
         red.roots[1] -= len(parts) - 1
         red.steps["separating clash"] += len(parts) - 1
         for part in parts:
-            reduce_graph(nx.Graph(block.subgraph(set(part) | {u, v})), red)
+            reduce_graph(nx.Graph(block.subgraph(set(part) | {u, v})), red, budget)
         return
     found = _clique_separator(block)
     if found is not None:
@@ -173,7 +177,7 @@ def _reduce_block(block: nx.Graph, red: Reduction) -> None:
             red.roots[r] -= len(parts) - 1
         red.steps["clique separator"] += len(parts) - 1
         for part in parts:
-            reduce_graph(nx.Graph(block.subgraph(set(part) | set(clique))), red)
+            reduce_graph(nx.Graph(block.subgraph(set(part) | set(clique))), red, budget)
         return
     red.pieces.append(Piece(block))
 
@@ -186,7 +190,7 @@ def _clique_separator(block: nx.Graph):
     intersections of neighbouring maximal cliques in a clique tree. The triangulation is
     networkx's MCS-M ``complete_to_chordal_graph``.
     """
-    if block.number_of_nodes() > _SEPARATOR_SEARCH_MAX_NODES:
+    if block.number_of_nodes() > _SEPARATOR_SEARCH_MAX_NODES or block.number_of_edges() > _CLIQUE_SEARCH_MAX_EDGES:
         return None
     chordal, _ = nx.complete_to_chordal_graph(block)
     cliques = [frozenset(c) for c in nx.chordal_graph_cliques(chordal)]
@@ -221,7 +225,12 @@ def piece_polynomial(graph: nx.Graph, engine: str = "auto", budget: Budget = UNL
                      progress: Callable[[int, int], None] | None = None) -> tuple[list[int], str]:
     """Power coefficients of one piece by the named engine (``auto``: chosen by density)."""
     if engine == "auto":
-        order = frontier_order(graph)
+        order = frontier_order(graph, give_up_width=GIVE_UP_WIDTH)
+        if order.log10_cost == float("inf"):
+            raise BudgetExceeded(
+                f"a group of {graph.number_of_nodes()} events and {graph.number_of_edges()} clashes "
+                f"is beyond exact counting (no vertex order keeps fewer than {GIVE_UP_WIDTH} events open at once)"
+            )
         if density(graph) >= DENSE_FROM:
             if order.width + 1 <= MAX_WIDTH:
                 return falling_frontier_polynomial(graph, order.order, budget), "falling-frontier"
@@ -282,7 +291,7 @@ def chromatic_polynomial(
     if not reduce:
         power, method = piece_polynomial(nx.Graph(graph), engine, budget, progress)
         return ChromaticPolynomial(_trim(power), method)
-    red = reduce_graph(graph)
+    red = reduce_graph(graph, budget=budget)
     methods = []
     power, den = red.linear_power()
     for piece in sorted(red.pieces, key=lambda p: p.graph.number_of_nodes()):

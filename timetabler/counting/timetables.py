@@ -25,7 +25,7 @@ from typing import Callable, Sequence
 
 import networkx as nx
 
-from .bounds import Estimate, _log10_int, chordal_subgraph_upper, knuth_estimate, lower_bound
+from .bounds import Estimate, _log10_int, chordal_subgraph_upper, dsatur_colour_count, knuth_estimate, lower_bound
 from .budget import Budget, BudgetExceeded
 from .frontier import colourings, frontier_order
 from .polynomial import ChromaticPolynomial
@@ -245,7 +245,7 @@ def count_timetables(
     needed = sorted({k for k in ks} | {k - 1 for k in ks if k >= 1})
 
     for index, comp in enumerate(big):
-        sub = graph.subgraph(comp)
+        sub = nx.Graph(graph.subgraph(comp))  # a copy: subgraph views are slow to walk
         budget = Budget(max(deadline - time.monotonic(), 0.5) + time.monotonic(), memory_bytes)
         inner = None
         if progress is not None:
@@ -340,6 +340,7 @@ def _count_component(sub, needed, ks, budget, fixed, barred, constrained_events,
             reason = str(exc)
     elif exact:
         values = {k: poly(k) for k in needed}
+    colour_count = None if exact or constrained else dsatur_colour_count(sub)
     for k in ks:
         if exact:
             v = values[k]
@@ -351,7 +352,7 @@ def _count_component(sub, needed, ks, budget, fixed, barred, constrained_events,
             allowed = {v: allowed_slots(v, k, fixed, barred) for v in sub} if constrained else {}
             allowed = {v: a for v, a in allowed.items() if a is not None}
             upper = poly(k) if poly is not None else chordal_subgraph_upper(sub, k)
-            lower = 0 if constrained else lower_bound(sub, k)
+            lower = 0 if constrained else lower_bound(sub, k, colour_count)
             est = knuth_estimate(sub, k, allowed=allowed or None, seconds=0.5)
             counts.append(_inexact_count(k, lower, upper, est))
     return ComponentCount(events, sub.number_of_edges(), exact, method if exact else "bounds + Knuth estimate",
