@@ -146,8 +146,36 @@ def frontier_order(graph: nx.Graph, tries: int | None = None, give_up_width: int
         found = _greedy(adj, s, key, give_up_width)
         if best is None or found.log10_cost < best.log10_cost:
             best = found
+    # Cuthill–McKee (networkx) sweeps grids and meshes diagonally: frontiers with fewer
+    # internal edges and far fewer states than a row sweep (measured on the 10×10 grid)
+    if nx.is_connected(graph) and (best is None or best.log10_cost != float("inf") or n <= 600):
+        for order in (list(nx.utils.cuthill_mckee_ordering(graph)), list(nx.utils.reverse_cuthill_mckee_ordering(graph))):
+            found = order_cost(adj, order, give_up_width)
+            if best is None or found.log10_cost < best.log10_cost:
+                best = found
     assert best is not None
     return best
+
+
+def order_cost(adj: dict, order: Sequence, limit: int | None = None) -> FrontierOrder:
+    """The frontier sizes and the Bell-number cost of a given order."""
+    position = {v: i for i, v in enumerate(order)}
+    last = {v: max([position[u] for u in adj[v]] + [position[v]]) for v in order}
+    frontier = 0
+    closing: dict[int, int] = {}
+    for v in order:
+        closing[last[v]] = closing.get(last[v], 0) + 1
+    widths = []
+    cost = 0.0
+    for t, _ in enumerate(order):
+        frontier += 1
+        peak = frontier
+        frontier -= closing.get(t, 0)
+        widths.append(frontier)
+        if limit is not None and peak > limit:
+            return FrontierOrder(list(order), widths, float("inf"))
+        cost += 10 ** min(bell_log10(peak), 300)
+    return FrontierOrder(list(order), widths, math.log10(cost) if cost > 0 else 0.0)
 
 
 # --------------------------------------------------------------------------- shared steps
