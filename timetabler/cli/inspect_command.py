@@ -14,7 +14,7 @@ from .common import console, input_options, print_json, read_input, show_warning
 @input_options
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document instead of tables.")
 def command(file: str, sheet, attendee_column, event_column, as_json: bool) -> None:
-    """Show the figures of an enrolment FILE (.xlsx or .csv).
+    """Show the figures of an enrolment FILE (.xlsx, .xlsm, .ods, .csv or .tsv).
 
     \b
     Reports the events, attendees and enrolments read; the pairs of events that clash
