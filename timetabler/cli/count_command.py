@@ -133,13 +133,15 @@ def whole_polynomial(report, graph) -> ChromaticPolynomial | None:
     return ChromaticPolynomial(power, "product over groups")
 
 
-def readable_count(value: int | None) -> str:
+def readable_count(value: int | None, digits: bool = False) -> str:
+    """Up to 12 digits in full; beyond, ``6.439 × 10^16`` (the full number is in --json)."""
     if value is None:
         return "?"
     text = str(value)
-    if len(text) <= 24:
+    if len(text) <= 12:
         return f"{value:,}"
-    return f"{text[0]}.{text[1:4]} × 10^{len(text) - 1} ({len(text)} digits)"
+    short = f"{text[0]}.{text[1:4]} × 10^{len(text) - 1}"
+    return short + (f" ({len(text)} digits)" if digits else "")
 
 
 def _log_text(log10: float | None) -> str:
@@ -151,11 +153,13 @@ def _log_text(log10: float | None) -> str:
 
 
 def _print_report(file: str, report, notes: list[str]) -> None:
+    groups = len(report.components)
     console.print(f"[bold]{file}[/bold]: {report.events} events, {report.clashes} clashing pairs, "
-                  f"{len(report.components)} groups linked by clashes, {report.isolated_events} events with no clash")
+                  f"{groups} {'group' if groups == 1 else 'groups'} of events linked by clashes, "
+                  f"{report.isolated_events} {'event' if report.isolated_events == 1 else 'events'} with no clash")
     table = Table(title="Clash-free timetables", title_justify="left")
     table.add_column("Slots", justify="right")
-    table.add_column("Timetables", justify="right")
+    table.add_column("Timetables", justify="right", no_wrap=True)
     table.add_column("Exact", justify="center")
     table.add_column("× vs one slot fewer", justify="right")
     table.add_column("Groupings (slots unlabelled)", justify="right")
@@ -164,16 +168,18 @@ def _print_report(file: str, report, notes: list[str]) -> None:
             shown = readable_count(c.timetables)
         else:
             err = f" ± {100 * c.estimate_relative_error:.0f}%" if c.estimate_relative_error is not None else ""
-            shown = f"about {_log_text(c.estimate_log10)}{err}"
+            shown = (f"about {_log_text(c.estimate_log10)}{err}" if c.estimate_log10 is not None
+                     else "unknown")
         ratio = f"{c.ratio_to_previous:,.2f}" if c.ratio_to_previous is not None else "—"
         table.add_row(str(c.slots), shown, "yes" if c.exact else "no", ratio, readable_count(c.groupings)
                       if c.groupings is not None else "—")
     console.print(table)
     for c in report.counts:
         if not c.exact:
+            probes = ("estimate by random probes of the search tree" if c.estimate_log10 is not None
+                      else "no timetable met in the random probes, so no estimate")
             console.print(f"  {c.slots} slots: not exact within the time limit; proven between "
-                          f"{readable_count(c.lower)} and {readable_count(c.upper)} "
-                          f"(estimate by random probes of the search tree).")
+                          f"{readable_count(c.lower, True)} and {readable_count(c.upper, True)} ({probes}).")
     if report.constrained:
         console.print("Counts keep every fixed event in its slot and no event in a barred slot.")
     for note in notes:
@@ -196,7 +202,10 @@ def _print_report(file: str, report, notes: list[str]) -> None:
             names = ", ".join(comp.events[:4]) + (f", … (+{len(comp.events) - 4})" if len(comp.events) > 4 else "")
             cells = []
             for c in comp.counts:
-                cells.append(readable_count(c.timetables) if c.exact else f"~{_log_text(c.estimate_log10)}")
+                if c.exact:
+                    cells.append(readable_count(c.timetables))
+                else:
+                    cells.append(f"~{_log_text(c.estimate_log10)}" if c.estimate_log10 is not None else "unknown")
             groups.add_row(names, str(len(comp.events)), str(comp.clashes),
                            str(comp.chromatic_number) if comp.chromatic_number is not None else "?", *cells)
         console.print(groups)
