@@ -98,10 +98,11 @@ def test_knuth_estimate_is_close_and_honest():
     g = nx.random_regular_graph(3, 20, seed=5)
     p = chromatic_polynomial(g)
     for k in (3, 4):
-        est = knuth_estimate(g, k, probes=3000, seconds=5.0, seed=1)
-        truth = math.log10(p(k))
-        sigma = math.log10(1 + est.relative_error)
-        assert abs(est.log10 - truth) <= 4 * sigma + 1e-9
+        for strategy in ("static", "dynamic"):
+            est = knuth_estimate(g, k, probes=3000, seconds=5.0, seed=1, strategy=strategy)
+            truth = math.log10(p(k))
+            sigma = math.log10(1 + est.relative_error)
+            assert abs(est.log10 - truth) <= 4 * sigma + 1e-9, strategy
     # a graph with no 2-colouring: every probe dies, the estimate says zero
     assert knuth_estimate(nx.cycle_graph(5), 2, probes=50).zero
 

@@ -127,10 +127,17 @@ def knuth_estimate(
     seconds: float = 1.0,
     seed: int = 20260412,
     order: Sequence | None = None,
+    strategy: str = "auto",
 ) -> Estimate:
     """Knuth's unbiased random-probe estimate of the number of colourings with ``k`` colours.
 
     ``allowed`` maps a vertex to the set of colours (0-based) it may take; others take any.
+    Probes first follow a fixed order (fast); when every one of them meets a dead end in
+    the first half of the time, the rest of the time goes to probes that always branch on
+    the vertex with the fewest free colours (a DSATUR-like choice, Brélaz 1979). The next
+    vertex is then a function of the partial colouring alone, so every colouring is still
+    exactly one leaf and the estimate stays unbiased; only its samples are reported.
+    ``strategy`` ``"static"`` or ``"dynamic"`` forces one kind of probe.
     """
     order = list(order) if order is not None else _smallest_last(graph)
     earlier = {}
@@ -140,11 +147,9 @@ def knuth_estimate(
         seen.add(v)
     rng = random.Random(seed)
     every = list(range(k))
-    total = 0
-    total_sq = 0
-    done = 0
-    stop = time.monotonic() + seconds
-    while done < probes and (done < 20 or time.monotonic() < stop):
+    start = time.monotonic()
+
+    def static_probe() -> int:
         colour: dict = {}
         product = 1
         for v in order:
@@ -152,17 +157,51 @@ def knuth_estimate(
             pool = allowed.get(v, every) if allowed else every
             free = [c for c in pool if c not in used]
             if not free:
-                product = 0
-                break
+                return 0
             product *= len(free)
             colour[v] = free[rng.randrange(len(free))]
-        total += product
-        total_sq += product * product
-        done += 1
+        return product
+
+    def dynamic_probe() -> int:
+        remaining = list(order)
+        pools = {v: set(allowed.get(v, every)) if allowed else set(every) for v in order}
+        product = 1
+        while remaining:
+            v = min(remaining, key=lambda x: len(pools[x]))
+            free = sorted(pools[v])
+            if not free:
+                return 0
+            product *= len(free)
+            c = free[rng.randrange(len(free))]
+            remaining.remove(v)
+            for u in graph[v]:
+                pools[u].discard(c)
+        return product
+
+    if strategy == "dynamic":
+        return _summarise(_run_probes(dynamic_probe, probes, start + seconds))
+    samples = _run_probes(static_probe, probes, start + (seconds if strategy == "static" else seconds / 2))
+    if strategy == "auto" and not any(samples) and graph.number_of_nodes() > 0:
+        dynamic = _run_probes(dynamic_probe, probes, start + seconds)
+        if any(dynamic):
+            samples = dynamic
+    return _summarise(samples)
+
+
+def _run_probes(probe, limit: int, stop: float) -> list[int]:
+    out: list[int] = []
+    while len(out) < limit and (len(out) < 20 or time.monotonic() < stop):
+        out.append(probe())
+    return out
+
+
+def _summarise(samples: list[int]) -> Estimate:
+    done = len(samples)
+    total = sum(samples)
     if total == 0:
         return Estimate(None, None, done, True)
+    total_sq = sum(x * x for x in samples)
     mean_log10 = _log10_int(total) - math.log10(done)
-    # variance of the mean = (E[x²] − E[x]²) / (N − 1) / N ... in exact integers
     if done > 1:
         # standard error / mean = sqrt((N Σx² − (Σx)²) / (N − 1)) / Σx, in logs (huge ints)
         num = done * total_sq - total * total
