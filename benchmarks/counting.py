@@ -121,7 +121,7 @@ def run_case(kind: str) -> dict:
         out.update(n=g.number_of_nodes(), m=g.number_of_edges(), seconds=time.perf_counter() - t,
                    method="exact" if c.exact else "bounds + Knuth estimate",
                    note=(f"exact: {c.timetables}" if c.exact else
-                         f"not exact; {len(str(c.lower)) if c.lower else 0}-digit lower bound, "
+                         f"not exact; lower bound {c.lower if len(str(c.lower)) < 8 else str(len(str(c.lower))) + ' digits'}, "
                          f"{len(str(c.upper))}-digit upper bound, estimate 10^{c.estimate_log10:.2f} "
                          f"± {100 * (c.estimate_relative_error or 0):.0f}%"))
         return out

@@ -267,6 +267,17 @@ def _plan(graph: nx.Graph, order: Sequence) -> list[tuple[object, list[int], lis
     return steps
 
 
+def _int_bytes(states: dict) -> float:
+    """Bytes of a typical weight: the largest of a sample of the first states (CPython ints
+    take 4 bytes per 30 bits, plus a header); a sampled bound, not a guarantee."""
+    sample = 0
+    for i, w in enumerate(states.values()):
+        sample = max(sample, abs(w).bit_length())
+        if i >= 64:
+            break
+    return 28 + 4 * (sample // 30 + 1)
+
+
 # --------------------------------------------------------------------------- FK expansion
 
 
@@ -303,7 +314,7 @@ def frontier_polynomial(
         p0 = nbpos[0] if nbpos else 0
         new: dict[bytes, int] = {}
         get = new.get
-        per_state = _STATE_OVERHEAD + bits * (t + 1) / 8
+        per_state = _STATE_OVERHEAD + _int_bytes(states)
         for count, (s, w) in enumerate(states.items()):
             if count & 4095 == 4095:
                 budget.check_time("the frontier count")
@@ -332,7 +343,7 @@ def frontier_polynomial(
                 new[ns] = get(ns, 0) + ww
         states = {s: w for s, w in new.items() if w}
         if states:
-            budget.check_memory(len(states) * (_STATE_OVERHEAD + bits * (t + 1) / 8), "the frontier count")
+            budget.check_memory(len(states) * (_STATE_OVERHEAD + _int_bytes(states)), "the frontier count")
         if progress is not None:
             progress(t + 1, n)
     value = states.get(b"", 0)
