@@ -6,10 +6,9 @@ import click
 from rich.table import Table
 
 from ..conflicts import conflict_graph
-from ..counting import count_timetables
+from ..counting.problem_counts import count_problem
 from ..counting.polynomial import ChromaticPolynomial, edgeless_power, poly_mul
 from ..errors import Finding, InputError
-from ..model import generic_slots
 from .common import console, err_console, input_options, print_json, read_input, show_warnings
 from .slot_counts import SlotCountsOption, parse_slot_counts
 
@@ -70,34 +69,12 @@ def command(file: str, sheet, attendee_column, event_column, slot_counts, time_l
             suggestion="Add slots to the slots sheet, or ask for fewer.",
         ))
     graph = conflict_graph(problem)
-    pinned = [e for e in problem.events.values() if (e.fixed_slot and str(e.fixed_slot).strip()) or e.barred_slots]
     notes: list[str] = []
 
     def work(progress=None):
-        if not pinned:
-            return count_timetables(graph, ks, budget_seconds=time_limit, progress=progress)
-        reports = []
-        for k in ks:
-            slots = list(problem.slots[:k]) if problem.slots else generic_slots(k)
-            fixed, barred = {}, {}
-            for e in pinned:
-                if e.fixed_slot and str(e.fixed_slot).strip():
-                    n = problem.slot_number(e.fixed_slot, slots)
-                    if n is None:
-                        notes.append(f"With {k} slots, {e.code} is fixed to '{e.fixed_slot}', which is not one of "
-                                     f"the slots: no timetable can honour it, so the count is 0.")
-                    fixed[e.code] = n or 0
-                refs = {problem.slot_number(r, slots) for r in e.barred_slots}
-                if refs - {None}:
-                    barred[e.code] = refs - {None}
-            reports.append(count_timetables(graph, [k], budget_seconds=time_limit / len(ks), fixed=fixed,
-                                            barred=barred, progress=progress))
-        merged = reports[0]
-        merged.counts = [c for r in reports for c in r.counts]
-        for r in reports[1:]:  # per-component counts for every K
-            for mine, theirs in zip(merged.components, r.components):
-                mine.counts.extend(theirs.counts)
-        return merged
+        report, found = count_problem(problem, ks, graph=graph, budget_seconds=time_limit, progress=progress)
+        notes.extend(found)
+        return report
 
     if as_json:
         report = work()

@@ -156,30 +156,19 @@ def count_for_runs(problem: Any, runs: Sequence[Any], budget: float, *, graph: A
     Fixed and barred slots are respected, resolved against each run's own slots; without
     any, all slot counts are counted in one call (the polynomial is shared).
     """
-    try:
-        from ..counting import count_timetables
-    except ImportError:
-        return None, "Counting is not available in this installation; the number of timetables is not shown."
     from ..conflicts import conflict_graph
+    from ..counting.problem_counts import count_problem
 
     graph = conflict_graph(problem) if graph is None else graph
     runs = sorted({int(r.slots): r for r in runs}.values(), key=lambda r: int(r.slots))
     if not runs:
         return None, None
-    pinned = any(e.fixed_slot or e.barred_slots for e in problem.events.values())
-    if not pinned:
-        return count_timetables(graph, [int(r.slots) for r in runs], budget_seconds=budget), None
-    reports = []
-    for run in runs:
-        slots = list(run.slot_list)
-        fixed = {c: problem.slot_number(e.fixed_slot, slots) for c, e in problem.events.items() if e.fixed_slot}
-        barred = {c: {n for n in (problem.slot_number(r, slots) for r in e.barred_slots) if n}
-                  for c, e in problem.events.items() if e.barred_slots}
-        reports.append(count_timetables(graph, [int(run.slots)], budget_seconds=budget / len(runs),
-                                        fixed={c: n for c, n in fixed.items() if n}, barred=barred))
-    merged = reports[0]
-    merged.counts = [c for r in reports for c in r.counts]
-    return merged, "Counts respect fixed and barred slots."
+    slot_lists = {int(r.slots): list(r.slot_list) for r in runs}
+    report, notes = count_problem(problem, list(slot_lists), graph=graph, slots_for=slot_lists.__getitem__,
+                                  budget_seconds=budget)
+    if not report.constrained:
+        return report, None
+    return report, " ".join(["Counts respect fixed and barred slots."] + notes)
 
 
 @contextlib.contextmanager

@@ -192,31 +192,10 @@ def count(analysis: Analysis, ks: list[int], budget_seconds: float, progress: An
     key = tuple(ks)
     if key in analysis.counts:
         return analysis.counts[key]
-    from ..counting import count_timetables
+    from ..counting.problem_counts import count_problem
 
-    problem = analysis.problem
-    pinned = [e for e in problem.events.values() if (e.fixed_slot and str(e.fixed_slot).strip()) or e.barred_slots]
-    if not pinned:
-        report = count_timetables(analysis.graph, ks, budget_seconds=budget_seconds, progress=progress)
-    else:
-        reports = []
-        for k in ks:
-            slots = list(problem.slots[:k]) if problem.slots else generic_slots(k)
-            fixed: dict[str, int] = {}
-            barred: dict[str, set[int]] = {}
-            for event in pinned:
-                if event.fixed_slot and str(event.fixed_slot).strip():
-                    fixed[event.code] = problem.slot_number(event.fixed_slot, slots) or 0
-                refs = {problem.slot_number(r, slots) for r in event.barred_slots} - {None}
-                if refs:
-                    barred[event.code] = refs  # type: ignore[assignment]
-            reports.append(count_timetables(analysis.graph, [k], budget_seconds=budget_seconds / len(ks),
-                                            fixed=fixed, barred=barred, progress=progress))
-        report = reports[0]
-        report.counts = [c for r in reports for c in r.counts]
-        for other in reports[1:]:
-            for mine, theirs in zip(report.components, other.components):
-                mine.counts.extend(theirs.counts)
+    report, _notes = count_problem(analysis.problem, ks, graph=analysis.graph, budget_seconds=budget_seconds,
+                                   progress=progress)
     analysis.counts[key] = report
     return report
 

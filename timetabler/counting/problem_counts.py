@@ -1,0 +1,91 @@
+"""Counts for a whole timetabling problem: clashes plus its fixed and barred slots.
+
+This is the one place where the slot references of the events sheet (a fixed slot, barred
+slots, written as slot labels or numbers) are resolved against the slots of each K and
+handed to :func:`~timetabler.counting.timetables.count_timetables`. The ``count``
+command, the workbook and the web page all count through :func:`count_problem`, so they
+always show the same numbers.
+"""
+
+from __future__ import annotations
+
+from typing import Callable, Sequence
+
+import networkx as nx
+
+from ..model import Problem, Slot, generic_slots
+from .timetables import CountReport, count_timetables
+
+
+def default_slots_for(problem: Problem) -> Callable[[int], list[Slot]]:
+    """The slots of K: the first K of the slots sheet, else K generic slots."""
+    return lambda k: list(problem.slots[:k]) if problem.slots else generic_slots(k)
+
+
+def pinned_events(problem: Problem) -> list:
+    """Events with a fixed slot or barred slots."""
+    return [e for e in problem.events.values() if (e.fixed_slot and str(e.fixed_slot).strip()) or e.barred_slots]
+
+
+def count_problem(
+    problem: Problem,
+    ks: Sequence[int],
+    *,
+    graph: nx.Graph,
+    slots_for: Callable[[int], Sequence[Slot]] | None = None,
+    budget_seconds: float = 20.0,
+    progress: Callable | None = None,
+) -> tuple[CountReport, list[str]]:
+    """Count the clash-free timetables of ``problem`` for each K in ``ks``.
+
+    Without fixed or barred slots every K is counted in one call (the chromatic polynomial
+    is shared). With them, each K is counted apart (the constraint depends on the slots),
+    the time budget is shared between the Ks, and the reports are merged. A fixed slot
+    that is not among the K slots makes the count 0, and a note says so.
+
+    Returns the report and notes in plain words.
+
+    Examples
+    --------
+    >>> from timetabler.model import Event, Problem
+    >>> from timetabler.conflicts import conflict_graph
+    >>> p = Problem([("ann", "A"), ("ann", "B")], events={"A": Event("A", fixed_slot="1")})
+    >>> report, notes = count_problem(p, [3], graph=conflict_graph(p))
+    >>> report.counts[0].timetables  # A in slot 1, B in slot 2 or 3
+    2
+    """
+    ks = sorted(set(int(k) for k in ks))
+    pinned = pinned_events(problem)
+    if not pinned:
+        return count_timetables(graph, ks, budget_seconds=budget_seconds, progress=progress), []
+    slots_for = slots_for or default_slots_for(problem)
+    notes: list[str] = []
+    reports = []
+    for k in ks:
+        slots = list(slots_for(k))
+        fixed: dict[str, int] = {}
+        barred: dict[str, set[int]] = {}
+        for event in pinned:
+            if event.fixed_slot and str(event.fixed_slot).strip():
+                number = problem.slot_number(event.fixed_slot, slots)
+                if number is None:
+                    notes.append(
+                        f"With {k} slots, {event.code} is fixed to '{event.fixed_slot}', which is not one of the "
+                        f"slots: no timetable can honour it, so the count is 0."
+                    )
+                fixed[event.code] = number or 0
+            refs = {problem.slot_number(r, slots) for r in event.barred_slots} - {None}
+            if refs:
+                barred[event.code] = refs  # type: ignore[assignment]
+        reports.append(
+            count_timetables(
+                graph, [k], budget_seconds=budget_seconds / len(ks), fixed=fixed, barred=barred, progress=progress
+            )
+        )
+    merged = reports[0]
+    merged.counts = [c for r in reports for c in r.counts]
+    for other in reports[1:]:  # per-component counts for every K
+        for mine, theirs in zip(merged.components, other.components):
+            mine.counts.extend(theirs.counts)
+    merged.seconds = sum(r.seconds for r in reports)
+    return merged, notes
