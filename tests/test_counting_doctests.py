@@ -14,6 +14,7 @@ MODULES = [
     "timetabler.counting.deletion_contraction",
     "timetabler.counting.reductions",
     "timetabler.counting.timetables",
+    "timetabler.counting.problem_counts",
 ]
 
 
