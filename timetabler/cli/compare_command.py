@@ -15,7 +15,8 @@ from ..export.tables import comparison_table, rows_as_json, run_figures, value_t
 from ..model import generic_slots
 from ..scheduling import SolveOptions, fewest_slots, solve, validate
 from .common import console, err_console, input_options, print_json, read_input, show_warnings
-from .output_options import count_for_runs, output_options, publish
+from ..export.publishing import count_for_runs
+from .output_options import output_options, publish
 from .slot_counts import SlotCountsOption, parse_slot_counts
 
 

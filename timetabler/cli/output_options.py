@@ -24,8 +24,10 @@ from typing import Any, Callable, Mapping, Sequence
 
 import click
 
-from ..errors import Finding, InputError
+from ..export.publishing import publish as export_publish, wants_output
 from .common import err_console
+
+__all__ = ["OUTPUT_KEYS", "output_options", "publish", "wants_output"]
 
 OUTPUT_KEYS = ("out", "csv", "ics", "ics_time_zone", "plot", "pseudonyms", "pseudonym_key")
 
@@ -65,110 +67,19 @@ def output_options(func: Callable) -> Callable:
     return wrapper
 
 
-def wants_output(outputs: Mapping[str, Any] | None) -> bool:
-    return bool(outputs) and any(outputs.get(k) for k in ("out", "csv", "ics", "plot"))
-
-
-def publish(
-    outputs: Mapping[str, Any] | None,
-    *,
-    problem: Any,
-    runs: Sequence[Any],
-    counts: Any = None,
-    reading: Any = None,
-    settings: Mapping[str, Any] | None = None,
-    validations: Mapping[int, Any] | None = None,
-    fewest: Any = None,
-    quiet: bool = False,
-) -> list[Path]:
-    """Write every output asked for in ``outputs``; return the paths written.
-
-    When a workbook or a chart is asked for and ``counts`` is None, the numbers of
-    clash-free timetables for the slot counts of ``runs`` are counted here (within the
-    ``count_budget`` seconds of ``settings``, default 20).
-    """
-    from ..export.tables import validate_run
-    from ..export.workbook import write_workbook
-
-    outputs = dict(outputs or {})
-    if not wants_output(outputs):
-        return []
-    settings = dict(settings or {})
-    runs = list(runs)
-    if counts is None and (outputs.get("out") or outputs.get("plot")) and runs:
-        counts, _ = count_for_runs(problem, runs, float(settings.get("count_budget", 20.0)))
-    solved = [r for r in runs if r.assignment and r.status in ("optimal", "feasible")]
-    # check what each output needs before writing anything
-    if outputs.get("plot") and counts is None:
-        raise InputError(Finding("The chart (--plot) needs the numbers of timetables, and counting is not available "
-                                 "in this installation. Nothing was written."))
-    if outputs.get("ics"):
-        from ..export.icalendar_files import check_dated
-
-        for run in solved:
-            check_dated(run)
-    validations = dict(validations or {})
-    for run in runs:
-        if int(run.slots) not in validations and run.assignment and run.status in ("optimal", "feasible"):
-            validations[int(run.slots)] = validate_run(problem, run)
-    if outputs.get("pseudonyms"):
-        from ..export.pseudonyms import Pseudonyms, load_or_create_key, pseudonymise
-
-        key, key_file, created = load_or_create_key(outputs.get("pseudonym_key"))
-        if created and not quiet:
-            err_console.print(f"Created the pseudonym key {key_file}; keep it private and keep it to get the same pseudonyms next time.")
-        problem, runs, reading = pseudonymise(problem, runs, Pseudonyms(key), reading)
-        settings["attendees shown as"] = "pseudonyms"
-    written: list[Path] = []
-    if outputs.get("out"):
-        kept = [settings[k] for k in ("kept from",) if settings.get(k)]
-        with _status(quiet, f"Writing {outputs['out']}") as show:
-            written.append(write_workbook(outputs["out"], problem=problem, runs=runs, counts=counts, reading=reading,
-                                          settings=settings, validations=validations, fewest=fewest, inputs=kept,
-                                          progress=lambda sheet: show(f"Writing {outputs['out']}: sheet {sheet}")))
-    if outputs.get("csv"):
-        from ..export.csv_folder import write_csv_folder
-
-        written.extend(write_csv_folder(outputs["csv"], problem=problem, runs=runs, counts=counts, validations=validations,
-                                        fewest=fewest))
-    if outputs.get("ics"):
-        from ..export.icalendar_files import write_calendars
-
-        if not solved and not quiet:
-            err_console.print("[yellow]warning:[/yellow] no timetable was found, so no iCalendar files were written.")
-        for run in solved:
-            folder = Path(outputs["ics"])
-            if len(solved) > 1:
-                folder = folder / f"{int(run.slots)} slots"
-            written.extend(write_calendars(folder, problem=problem, run=run, timezone=outputs.get("ics_time_zone")))
-    if outputs.get("plot"):
-        from ..export.count_chart import write_count_chart
-
-        written.append(write_count_chart(outputs["plot"], counts, inputs=(problem.source,)))
+def publish(outputs: Mapping[str, Any] | None, *, quiet: bool = False, **results: Any) -> list[Path]:
+    """Write the outputs asked for (see :func:`timetabler.export.publishing.publish`), with
+    messages and a spinner on stderr, and say what was written."""
+    written = export_publish(
+        outputs,
+        quiet=quiet,
+        notify=lambda text: err_console.print(text, soft_wrap=True, markup=False),
+        status=functools.partial(_status, False),
+        **results,
+    )
     if not quiet:
         _tell(written)
     return written
-
-
-def count_for_runs(problem: Any, runs: Sequence[Any], budget: float, *, graph: Any = None) -> tuple[Any, str | None]:
-    """Count clash-free timetables for the slot counts of ``runs``, or (None, why not).
-
-    Fixed and barred slots are respected, resolved against each run's own slots; without
-    any, all slot counts are counted in one call (the polynomial is shared).
-    """
-    from ..conflicts import conflict_graph
-    from ..counting.problem_counts import count_problem
-
-    graph = conflict_graph(problem) if graph is None else graph
-    runs = sorted({int(r.slots): r for r in runs}.values(), key=lambda r: int(r.slots))
-    if not runs:
-        return None, None
-    slot_lists = {int(r.slots): list(r.slot_list) for r in runs}
-    report, notes = count_problem(problem, list(slot_lists), graph=graph, slots_for=slot_lists.__getitem__,
-                                  budget_seconds=budget)
-    if not report.constrained:
-        return report, None
-    return report, " ".join(["Counts respect fixed and barred slots."] + notes)
 
 
 @contextlib.contextmanager

@@ -544,7 +544,7 @@ async def download(request: Request) -> Response:
 
 def _make_output(stored: StoredUpload, kind: str, runs: list, budget: float, pseudonyms: bool = False) -> Path:
     """Write one download with the export layer's publish(), as ``solve --out/--csv/--ics`` do."""
-    from ..cli.output_options import publish
+    from ..export.publishing import publish
 
     problem = stored.state["job_problem"]
     analysis = _current_analysis(stored)

@@ -1,0 +1,133 @@
+"""Publishing: write every output a person asked for (workbook, CSV folder, iCalendar files,
+chart), checked first, counted where needed, pseudonymised on request.
+
+The ``solve`` and ``compare`` commands (through ``timetabler/cli/output_options.py``) and
+the web page write their files through :func:`publish`, so a download from the page is
+the same file as the command writes.
+"""
+
+from __future__ import annotations
+
+import contextlib
+from pathlib import Path
+from typing import Any, Callable, Mapping, Sequence
+
+from ..errors import Finding, InputError
+
+
+@contextlib.contextmanager
+def _no_status(text: str):
+    yield lambda message: None
+
+
+def wants_output(outputs: Mapping[str, Any] | None) -> bool:
+    return bool(outputs) and any(outputs.get(k) for k in ("out", "csv", "ics", "plot"))
+
+
+def publish(
+    outputs: Mapping[str, Any] | None,
+    *,
+    problem: Any,
+    runs: Sequence[Any],
+    counts: Any = None,
+    reading: Any = None,
+    settings: Mapping[str, Any] | None = None,
+    validations: Mapping[int, Any] | None = None,
+    fewest: Any = None,
+    quiet: bool = False,
+    notify: Callable[[str], None] | None = None,
+    status: Callable[[str], Any] | None = None,
+) -> list[Path]:
+    """Write every output asked for in ``outputs``; return the paths written.
+
+    When a workbook or a chart is asked for and ``counts`` is None, the numbers of
+    clash-free timetables for the slot counts of ``runs`` are counted here (within the
+    ``count_budget`` seconds of ``settings``, default 20).
+
+    Every output asked for is checked before anything is written. ``notify(text)`` receives
+    messages for the person (a created key, an output that could not be made) and
+    ``status(text)`` is a context manager factory yielding a ``show(text)`` function for
+    long writes; both are optional (the web page passes neither). ``quiet`` silences both.
+    """
+    notify = (lambda text: None) if (quiet or notify is None) else notify
+    status = _no_status if (quiet or status is None) else status
+    from .tables import validate_run
+    from .workbook import write_workbook
+
+    outputs = dict(outputs or {})
+    if not wants_output(outputs):
+        return []
+    settings = dict(settings or {})
+    runs = list(runs)
+    if counts is None and (outputs.get("out") or outputs.get("plot")) and runs:
+        counts, _ = count_for_runs(problem, runs, float(settings.get("count_budget", 20.0)))
+    solved = [r for r in runs if r.assignment and r.status in ("optimal", "feasible")]
+    # check what each output needs before writing anything
+    if outputs.get("plot") and counts is None:
+        raise InputError(Finding("The chart (--plot) needs the numbers of timetables, and counting is not available "
+                                 "in this installation. Nothing was written."))
+    if outputs.get("ics"):
+        from .icalendar_files import check_dated
+
+        for run in solved:
+            check_dated(run)
+    validations = dict(validations or {})
+    for run in runs:
+        if int(run.slots) not in validations and run.assignment and run.status in ("optimal", "feasible"):
+            validations[int(run.slots)] = validate_run(problem, run)
+    if outputs.get("pseudonyms"):
+        from .pseudonyms import Pseudonyms, load_or_create_key, pseudonymise
+
+        key, key_file, created = load_or_create_key(outputs.get("pseudonym_key"))
+        if created:
+            notify(f"Created the pseudonym key {key_file}; keep it private and keep it to get the same pseudonyms next time.")
+        problem, runs, reading = pseudonymise(problem, runs, Pseudonyms(key), reading)
+        settings["attendees shown as"] = "pseudonyms"
+    written: list[Path] = []
+    if outputs.get("out"):
+        kept = [settings[k] for k in ("kept from",) if settings.get(k)]
+        with status(f"Writing {outputs['out']}") as show:
+            written.append(write_workbook(outputs["out"], problem=problem, runs=runs, counts=counts, reading=reading,
+                                          settings=settings, validations=validations, fewest=fewest, inputs=kept,
+                                          progress=lambda sheet: show(f"Writing {outputs['out']}: sheet {sheet}")))
+    if outputs.get("csv"):
+        from .csv_folder import write_csv_folder
+
+        written.extend(write_csv_folder(outputs["csv"], problem=problem, runs=runs, counts=counts, validations=validations,
+                                        fewest=fewest))
+    if outputs.get("ics"):
+        from .icalendar_files import write_calendars
+
+        if not solved:
+            notify("warning: no timetable was found, so no iCalendar files were written.")
+        for run in solved:
+            folder = Path(outputs["ics"])
+            if len(solved) > 1:
+                folder = folder / f"{int(run.slots)} slots"
+            written.extend(write_calendars(folder, problem=problem, run=run, timezone=outputs.get("ics_time_zone")))
+    if outputs.get("plot"):
+        from .count_chart import write_count_chart
+
+        written.append(write_count_chart(outputs["plot"], counts, inputs=(problem.source,)))
+    return written
+
+
+def count_for_runs(problem: Any, runs: Sequence[Any], budget: float, *, graph: Any = None) -> tuple[Any, str | None]:
+    """Count clash-free timetables for the slot counts of ``runs``, or (None, why not).
+
+    Fixed and barred slots are respected, resolved against each run's own slots; without
+    any, all slot counts are counted in one call (the polynomial is shared).
+    """
+    from ..conflicts import conflict_graph
+    from ..counting.problem_counts import count_problem
+
+    graph = conflict_graph(problem) if graph is None else graph
+    runs = sorted({int(r.slots): r for r in runs}.values(), key=lambda r: int(r.slots))
+    if not runs:
+        return None, None
+    slot_lists = {int(r.slots): list(r.slot_list) for r in runs}
+    report, notes = count_problem(problem, list(slot_lists), graph=graph, slots_for=slot_lists.__getitem__,
+                                  budget_seconds=budget)
+    if not report.constrained:
+        return report, None
+    return report, " ".join(["Counts respect fixed and barred slots."] + notes)
