@@ -441,16 +441,16 @@ def _fewest_reason(graph: nx.Graph, results: list[ComponentCount], chromatic: in
         return "no two events clash, so one slot holds them all" if graph.number_of_nodes() else "no events"
     worst = max(results, key=lambda r: (r.chromatic_number or 0, len(r.events)))
     clique = max(nx.find_cliques(graph.subgraph(worst.nodes)), key=len) if len(worst.events) <= 400 else []
-    text = (
-        f"with {chromatic - 1} slots there are exactly 0 clash-free timetables for the group of "
-        f"{len(worst.events)} events starting {', '.join(worst.events[:3])}"
-    )
     if len(clique) == chromatic:
-        text += f"; {', '.join(sorted(map(str, clique)))} pairwise share attendees"
-    else:
-        text += (f" (its largest set of pairwise clashing events has only {len(clique)}, "
-                 f"yet no {chromatic - 1}-slot timetable exists)")
-    return text
+        return (
+            f"{', '.join(sorted(map(str, clique)))} pairwise share attendees, so no two of these "
+            f"{chromatic} events can share a slot (with {chromatic - 1} slots the count is exactly 0)"
+        )
+    group = f"{len(worst.events)} events linked by clashes ({', '.join(map(str, worst.events[:3]))}, …)"
+    return (
+        f"with {chromatic - 1} slots there are exactly 0 clash-free timetables for the group of {group}, "
+        f"although its largest set of pairwise clashing events has only {len(clique)}"
+    )
 
 
 def _what_if(graph: nx.Graph, report: CountReport, ks: list[int], deadline: float) -> None:
