@@ -241,3 +241,13 @@ def test_rules_and_soft_goals_together_pass_the_validator(k):
                 events={"F1": Event("F1", preferred_slots=("1",))})
     run, v = solved(p, generic_slots(k + 1, 2))
     assert run.penalty == v.penalty
+
+
+def test_too_few_large_rooms_over_the_session_is_explained_before_search():
+    rooms = [Room("Great Hall", 100), Room("Seminar 1", 20), Room("Seminar 2", 20)]
+    enrol = [(f"HV-S{e}{i:03d}", f"BIG{e}") for e in range(3) for i in range(50)]
+    p = Problem(enrol, rooms=rooms, weights=ZERO)
+    run = infeasible(p, generic_slots(2))
+    assert "3 events need rooms with at least 21 seats" in run.reason and "only 2 places over 2 slots" in run.reason
+    run, v = solved(p, generic_slots(3))
+    assert all(r == [("Great Hall", 50)] for r in run.rooms.values())

@@ -378,6 +378,17 @@ def build_model(
                 if not room_sharing and len(members) > len(room_caps):
                     lit = rule_literal(f"slot {s + 1} has {len(room_caps)} {word} free, one event per room", "rooms")
                     enforce(m.Add(sum(x[c][s] for c in members) <= len(room_caps)), lit)
+                if not room_sharing and not room_splitting:
+                    # Hall's condition for seating one event per room: the events needing at least
+                    # `need` seats cannot outnumber the rooms that have them (exact for one room type,
+                    # since the rooms an event fits are nested by size)
+                    for need in sorted({cap + 1 for cap in room_caps} | {min((sizes[c] for c in members), default=1)}):
+                        big = [c for c in members if sizes[c] >= need]
+                        fits = sum(1 for cap in room_caps if cap >= need)
+                        if len(big) > fits:
+                            lit = rule_literal(f"slot {s + 1} has {fits} {word} free with {need} seats or more, "
+                                               "one event per room", "rooms")
+                            enforce(m.Add(sum(x[c][s] for c in big) <= fits), lit)
     for s, group in nogoods or ():
         if all(c in code_set for c in group):
             m.Add(sum(x[c][s - 1] for c in group) <= len(group) - 1)

@@ -7,7 +7,9 @@ The pre-checks need no search and name concrete evidence:
 * an attendee with more events than slots;
 * an event that fits no slot (too long, too many attendees for the slot's seats or for the
   rooms free then), or whose fixed slot is not a slot or is barred;
-* two events fixed to the same slot that share an attendee.
+* two events fixed to the same slot that share an attendee;
+* (one event per room, no splitting) more events needing a room of some size than there are
+  such rooms, counted over all slots.
 
 When these find nothing and CP-SAT proves the slot count infeasible, the model is built
 again with one enforcement literal per user rule, each taken as an assumption; CP-SAT's
@@ -99,3 +101,27 @@ def prechecks(problem: Problem, slots: list[Slot], graph: nx.Graph, clique: list
                                                 f"but share attendees, for example {who}",
                                        events=[a, b], attendees=[who] if who else []))
     return out
+
+
+def room_count_witness(problem: Problem, slots: list[Slot], sizes: dict[str, int]) -> Witness | None:
+    """One event per room and no splitting: events needing at least ``need`` seats (of a room type)
+    cannot outnumber the (room, slot) places with that many seats."""
+    if not problem.rooms:
+        return None
+    types = {None} | {(e.room_type or "").casefold() or None for e in problem.events.values()}
+    for ty in sorted(types, key=lambda t: (t is not None, t or "")):
+        members = [c for c, e in problem.events.items() if sizes.get(c, 0) > 0
+                   and (ty is None or (e.room_type or "").casefold() == ty)]
+        rooms = [r for r in problem.rooms if ty is None or (r.room_type or "").casefold() == ty]
+        for need in sorted({r.capacity + 1 for r in rooms} | {min((sizes[c] for c in members), default=1)}):
+            big = [c for c in members if sizes[c] >= need]
+            places = sum(1 for r in rooms for s in range(1, len(slots) + 1) if r.capacity >= need
+                         and not any(problem.slot_number(u, slots) == s for u in r.unavailable_slots))
+            if len(big) > places:
+                word = f"rooms of type '{ty}'" if ty else "rooms"
+                count = sum(1 for r in rooms if r.capacity >= need)
+                return Witness("rooms", f"{len(big)} events need {word} with at least {need} seats, but the "
+                                        f"{count} such rooms give only {places} places over {len(slots)} slots "
+                                        "(one event per room; sharing or splitting rooms may help)",
+                               events=sorted(big))
+    return None

@@ -6,9 +6,10 @@ The steps of :func:`solve`:
    :mod:`.infeasibility`; a pre-check that fires ends the run as *infeasible* with its
    witness;
 2. DSATUR within each event's allowed slots (:mod:`.dsatur`) for a warm start;
-3. when the slots are interchangeable, a feasibility model with the events of a large
-   clique fixed to slots 1, 2, ... (slot symmetry broken) — infeasible there means
-   infeasible everywhere; its timetable is the hint for step 4;
+3. unless DSATUR's timetable already meets every hard rule, a feasibility model without the
+   goals (when the slots are interchangeable, with the events of a large clique fixed to
+   slots 1, 2, ...: slot symmetry broken) — infeasible there means infeasible everywhere;
+   its timetable, arranged over the slots (:mod:`.arrangement`), is the hint for step 4;
 4. the full model with the soft goals, hinted, with CP-SAT's parallel portfolio and
    large-neighbourhood search, under the remaining time;
 5. rooms seated slot by slot (:mod:`.rooms`); a slot that cannot be seated is forbidden
@@ -37,7 +38,7 @@ from .cpsat_model import (TimetableModel, build_model, large_event_codes, physic
                           slots_interchangeable)
 from .arrangement import arrange
 from .dsatur import dsatur
-from .infeasibility import Witness, prechecks
+from .infeasibility import Witness, prechecks, room_count_witness
 from .rooms import seat_events
 from .tabucol import tabucol
 
@@ -271,6 +272,10 @@ def solve(
     cover = clique_cover(graph)
     clique = largest_clique_found(graph, cover)
     witnesses = prechecks(problem, slots, graph, clique, domains.allowed, domains.why_not)
+    if not options.room_sharing and not options.room_splitting:
+        seat_witness = room_count_witness(problem, slots, sizes)
+        if seat_witness is not None:
+            witnesses.append(seat_witness)
     if witnesses:
         run.status, run.proven = "infeasible", True
         run.reasons = [w.text for w in witnesses]
@@ -403,11 +408,12 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
             feasible_hint = hint
 
     # step 3: a feasibility search with slot symmetry broken
-    if symmetric and feasible_hint is None:
+    # (also without symmetry: a model without the goals finds a first timetable far sooner)
+    if feasible_hint is None:
         say("searching for a clash-free timetable")
         phase_seconds = left() * (1.0 if order_free else 0.5)
         tm = build_model(problem, slots, graph, block, sizes=sizes, domains=domains, objective=False,
-                         symmetry=sym_clique, large=large, room_splitting=options.room_splitting,
+                         symmetry=sym_clique if symmetric else None, large=large, room_splitting=options.room_splitting,
                          room_sharing=options.room_sharing, cover=cover)
         _add_hint(tm, aligned)
         status, solver, watcher = _run(tm, options, phase_seconds, progress, {**info, "phase": "clash-free"}, start)
