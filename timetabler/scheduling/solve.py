@@ -477,6 +477,16 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
         run.bound = float(solver.BestObjectiveBound()) if tm.terms else 0.0
         run.status = "optimal" if status == cp_model.OPTIMAL else "feasible"
         run.proven = status == cp_model.OPTIMAL
+        if status == cp_model.FEASIBLE and symmetric and not order_free and not previous:
+            # one more pass of the group arrangement over the slots on CP-SAT's best timetable
+            moved = arrange(sub, assignment, slots, problem.weights, large=large, seed=options.seed,
+                            **_arrange_effort(options, seconds))
+            better = _scored(problem, slots, moved, {}, previous, options, block_set, rooms_later=True) \
+                if moved != assignment else None
+            if better is not None and better.penalty is not None and better.penalty < (run.penalty or 0):
+                assignment = run.assignment = moved
+                run.penalty, run.penalty_breakdown = better.penalty, {
+                    name: v for name, v in better.penalty_breakdown.items() if name != "room_split"}
         if not problem.rooms:
             break
         say("seating events in rooms")
@@ -527,12 +537,18 @@ def _align(hint: dict[str, int], clique: list[str], k: int) -> dict[str, int]:
     return {c: mapping[s] for c, s in hint.items()}
 
 
-def _scored(problem, slots, assignment, rooms, previous, options, block: set[str]) -> SolveRun | None:
+def _scored(problem, slots, assignment, rooms, previous, options, block: set[str],
+            rooms_later: bool = False) -> SolveRun | None:
     """A timetable of one block found before the goals were optimised, with its penalty recounted
-    by the independent validator (no bound); None when it breaks a hard rule."""
+    by the independent validator (no bound); None when it breaks a hard rule. With ``rooms_later``
+    the rooms are left to be seated afterwards."""
+    from dataclasses import replace
+
     from .validator import validate
 
     part = problem if len(block) == len(problem.events) else _restricted(problem, block)
+    if rooms_later:
+        part = replace(part, rooms=[])
     v = validate(part, slots, assignment, rooms or None, previous=previous or None,
                  room_sharing=options.room_sharing, room_splitting=options.room_splitting)
     if not v.ok:
