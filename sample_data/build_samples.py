@@ -140,12 +140,12 @@ def build_term(rng: random.Random) -> dict[str, pd.DataFrame]:
     )
 
     rooms = []
-    for i in range(1, 9):
-        rooms.append((f"Main Hall {i}", rng.choice([120, 150, 200]), "Hall", ""))
-    for i in range(1, 13):
-        rooms.append((f"Room {100 + i}", rng.choice([30, 40, 60]), "Hall", ""))
+    for i in range(1, 7):
+        rooms.append((f"Main Hall {i}", rng.choice([100, 120]), "Hall", ""))
+    for i in range(1, 17):
+        rooms.append((f"Room {100 + i}", rng.choice([60, 70, 80]), "Hall", ""))
     for i in range(1, 5):
-        rooms.append((f"Lab {i}", 60, "Lab", slot_rows[-1][0] if i == 1 else ""))
+        rooms.append((f"Lab {i}", 70, "Lab", slot_rows[-1][0] if i == 1 else ""))
     rooms = pd.DataFrame(rooms, columns=["Room", "Capacity", "Room type", "Unavailable slots"])
     del sizes
     return {"Enrolments": enrolments, "Exams": events, "Slots": slots, "Rooms": rooms, "Rules": rules}
