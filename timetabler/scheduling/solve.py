@@ -78,7 +78,7 @@ class SolveOptions:
     explain: bool = True
     split_components: bool = True
     log: bool = False
-    max_memory_mb: int = 3500
+    max_memory_mb: int = 3000
 
 
 @dataclass
