@@ -15,52 +15,9 @@ from ..model import Weights, generic_slots
 from ..scheduling import SolveOptions, fewest_slots, solve, validate
 from .common import console, err_console, input_options, print_json, read_input, show_warnings
 from .output_options import output_options, publish
+from .slot_counts import SlotCountsOption, parse_slot_counts
 
 WEIGHT_NAMES = {f.name.replace("_", "-"): f.name for f in dataclasses.fields(Weights)}
-
-
-class _SlotCountsOption(click.Option):
-    """``--slots 5 6 7``: an option that takes every following whole number (or range like 5-8)."""
-
-    def add_to_parser(self, parser, ctx):
-        result = super().add_to_parser(parser, ctx)
-        for name in self.opts:
-            target = parser._long_opt.get(name) or parser._short_opt.get(name)
-            if target is None:
-                continue
-            original = target.process
-
-            def process(value, state, original=original):
-                values = [value]
-                while state.rargs and _looks_like_count(state.rargs[0]):
-                    values.append(state.rargs.pop(0))
-                original(" ".join(values), state)
-
-            target.process = process
-            break
-        return result
-
-
-def _looks_like_count(token: str) -> bool:
-    parts = token.replace("..", "-").split("-")
-    return 1 <= len(parts) <= 2 and all(p.strip().isdigit() for p in parts)
-
-
-def _parse_counts(ctx, param, value):
-    if value is None:
-        return ()
-    counts: list[int] = []
-    for token in str(value).replace(",", " ").split():
-        if not _looks_like_count(token):
-            raise click.BadParameter(f"'{token}' is not a number of slots (give whole numbers like 6, or a range like 5-8)")
-        parts = [int(p) for p in token.replace("..", "-").split("-")]
-        lo, hi = parts[0], parts[-1]
-        if lo > hi:
-            raise click.BadParameter(f"the range '{token}' runs backwards")
-        counts.extend(range(lo, hi + 1))
-    if any(k < 1 for k in counts):
-        raise click.BadParameter("the number of slots must be at least 1")
-    return tuple(dict.fromkeys(counts))
 
 
 def _parse_weights(ctx, param, values):
@@ -84,7 +41,7 @@ def _parse_weights(ctx, param, values):
 @click.command("solve")
 @click.argument("file", type=click.Path(dir_okay=False))
 @input_options
-@click.option("--slots", "slot_counts", cls=_SlotCountsOption, metavar="K [K ...]", callback=_parse_counts,
+@click.option("--slots", "slot_counts", cls=SlotCountsOption, metavar="K [K ...]", callback=parse_slot_counts,
               help="Numbers of slots to try, e.g. --slots 10 11 12 or --slots 10-12. With a slots sheet, K uses its "
                    "first K slots (default: all of them).")
 @click.option("--fewest", is_flag=True,
