@@ -91,11 +91,12 @@ class TimetableModel:
                 value = a[args[0]]
             elif kind == "d":
                 value = day[a[args[0]] - 1]
-            elif kind in ("adj", "sday", "b2b", "over", "twoday", "gap", "prox"):
+            elif kind in ("adj", "sday", "b2b", "over", "twoday", "gap", "prox", "before"):
                 e, f = args
                 gap = abs(a[e] - a[f])
                 same = day[a[e] - 1] == day[a[f] - 1]
-                value = {"adj": gap == 1, "sday": same, "b2b": gap == 1 and same, "over": gap == 1 and not same,
+                value = {"before": a[e] < a[f], "adj": gap == 1, "sday": same, "b2b": gap == 1 and same,
+                         "over": gap == 1 and not same,
                          "twoday": gap != 1 and same, "gap": gap,
                          "prox": PROXIMITY_WEIGHTS[gap - 1] if 1 <= gap <= 5 else 0}[kind]
             elif kind == "miss":
@@ -433,22 +434,44 @@ def _add_objective(tm: TimetableModel, problem, slots, sub, day, t, d, previous,
     want_two = w.same_day > 0 and not one_day_each and not at_most_two_a_day
     want_prox = w.proximity > 0 and k > 1
     if k > 1 and (want_b2b or want_over or want_two or want_prox):
+        # days never go back as slots go on (true of generic slots and of dated slots in order): then one
+        # order literal per pair, with plain enforced inequalities, encodes "consecutive" and "same day";
+        # the domains with holes used otherwise are expanded by CP-SAT into about seven Booleans per pair
+        monotone = all(day[s] <= day[s + 1] for s in range(k - 1))
         for a, b, shared in sub.edges(data="shared", default=1):
             c = int(shared or 1)
             delta = t(a) - t(b)
-            adj = sday = None
-            if (want_b2b and not at_most_two_a_day) or want_over or want_two:
+            adj = sday = before = None
+            need_adj = (want_b2b and not at_most_two_a_day) or want_over or want_two
+            need_sday = (want_b2b or want_two or want_over) and not one_day_each
+            if monotone and (need_adj or need_sday):
+                # a and b clash, so they never share a slot: `before` is t(a) < t(b)
+                before = m.NewBoolVar(f"before[{a},{b}]")
+                tm.derived.append((before, "before", a, b))
+                m.Add(t(b) - t(a) >= 1).OnlyEnforceIf(before)
+                m.Add(t(a) - t(b) >= 1).OnlyEnforceIf(before.Not())
+            if need_adj:
                 adj = m.NewBoolVar(f"adj[{a},{b}]")
                 tm.derived.append((adj, "adj", a, b))
-                near = cp_model.Domain.FromValues([-1, 1])
-                far = cp_model.Domain.FromIntervals([[-k, -2], [0, 0], [2, k]])
-                m.AddLinearExpressionInDomain(delta, near).OnlyEnforceIf(adj)
-                m.AddLinearExpressionInDomain(delta, far).OnlyEnforceIf(adj.Not())
-            if (want_b2b or want_two or want_over) and not one_day_each:
+                if before is not None:
+                    m.Add(delta <= 1).OnlyEnforceIf(adj)
+                    m.Add(delta >= -1).OnlyEnforceIf(adj)
+                    m.Add(t(b) - t(a) >= 2).OnlyEnforceIf([adj.Not(), before])
+                    m.Add(t(a) - t(b) >= 2).OnlyEnforceIf([adj.Not(), before.Not()])
+                else:
+                    near = cp_model.Domain.FromValues([-1, 1])
+                    far = cp_model.Domain.FromIntervals([[-k, -2], [0, 0], [2, k]])
+                    m.AddLinearExpressionInDomain(delta, near).OnlyEnforceIf(adj)
+                    m.AddLinearExpressionInDomain(delta, far).OnlyEnforceIf(adj.Not())
+            if need_sday:
                 sday = m.NewBoolVar(f"sday[{a},{b}]")
                 tm.derived.append((sday, "sday", a, b))
                 m.Add(d(a) == d(b)).OnlyEnforceIf(sday)
-                m.Add(d(a) != d(b)).OnlyEnforceIf(sday.Not())
+                if before is not None:
+                    m.Add(d(b) - d(a) >= 1).OnlyEnforceIf([sday.Not(), before])
+                    m.Add(d(a) - d(b) >= 1).OnlyEnforceIf([sday.Not(), before.Not()])
+                else:
+                    m.Add(d(a) != d(b)).OnlyEnforceIf(sday.Not())
             if want_b2b and sday is not None and at_most_two_a_day:
                 # at most two slots a day: two events of one day always sit back-to-back
                 terms.setdefault("back_to_back", []).append((c * w.back_to_back, sday))
