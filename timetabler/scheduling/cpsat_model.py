@@ -428,7 +428,9 @@ def _add_objective(tm: TimetableModel, problem, slots, sub, day, t, d, previous,
     per_day_count: dict[int, int] = {}
     for dd in day:
         per_day_count[dd] = per_day_count.get(dd, 0) + 1
-    at_most_two_a_day = max(per_day_count.values(), default=0) <= 2
+    # two events of one day are then always back-to-back, provided each day's slots follow one another
+    runs = sum(1 for s in range(k) if s == 0 or day[s] != day[s - 1])
+    at_most_two_a_day = max(per_day_count.values(), default=0) <= 2 and runs == len(per_day_count)
     want_b2b = w.back_to_back > 0 and same_day_adjacent
     want_over = w.overnight > 0 and cross_day_adjacent
     want_two = w.same_day > 0 and not one_day_each and not at_most_two_a_day
