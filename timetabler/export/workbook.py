@@ -283,6 +283,14 @@ def _range(table: PublishedTable, header: str, last_row: int) -> str:
     return f"{c}2:{c}{last_row}"
 
 
+def _highlight_rows(ws, table: PublishedTable, last_row: int, formula: str, fill, font) -> None:
+    """Colour every data row of the table where ``formula`` (written for row 2) holds."""
+    ws.conditional_formatting.add(
+        f"A2:{get_column_letter(len(table.columns))}{last_row}",
+        FormulaRule(formula=[formula], fill=fill, font=font),
+    )
+
+
 # --------------------------------------------------------------------------- conditional highlighting
 
 
@@ -327,11 +335,7 @@ def _comparison_sheet(book: "_Book", table: PublishedTable) -> None:
 
 
 def _events_highlight(ws, table: PublishedTable, last_row: int) -> None:
-    slot = _col(table, "Slot")
-    ws.conditional_formatting.add(
-        f"A2:{get_column_letter(len(table.columns))}{last_row}",
-        FormulaRule(formula=[f'ISBLANK(${slot}2)'], fill=RED, font=RED_FONT),
-    )
+    _highlight_rows(ws, table, last_row, f'ISBLANK(${_col(table, "Slot")}2)', RED, RED_FONT)
 
 
 def _free_seats_highlight(ws, table: PublishedTable, last_row: int) -> None:
@@ -340,18 +344,11 @@ def _free_seats_highlight(ws, table: PublishedTable, last_row: int) -> None:
     )
     if "Available" in table.headers:
         a, u = _col(table, "Available"), _col(table, "Seats used")
-        ws.conditional_formatting.add(
-            f"A2:{get_column_letter(len(table.columns))}{last_row}",
-            FormulaRule(formula=[f'AND(${a}2="no",${u}2>0)'], fill=RED, font=RED_FONT),
-        )
+        _highlight_rows(ws, table, last_row, f'AND(${a}2="no",${u}2>0)', RED, RED_FONT)
 
 
 def _estimate_highlight(ws, table: PublishedTable, last_row: int) -> None:
-    e = _col(table, "Exact")
-    ws.conditional_formatting.add(
-        f"A2:{get_column_letter(len(table.columns))}{last_row}",
-        FormulaRule(formula=[f'${e}2="no"'], fill=AMBER, font=AMBER_FONT),
-    )
+    _highlight_rows(ws, table, last_row, f'${_col(table, "Exact")}2="no"', AMBER, AMBER_FONT)
 
 
 def _load_highlight(ws, table: PublishedTable, last_row: int) -> None:
