@@ -64,6 +64,7 @@ class Event:
     barred_slots: tuple[str, ...] = ()
     group: str | None = None
     preferred_slots: tuple[str, ...] = ()
+    preferred_rooms: tuple[str, ...] = ()
 
 
 @dataclass
@@ -88,10 +89,13 @@ class Slot:
 
 @dataclass
 class Room:
+    """One room. ``avoid`` marks a room to use only when the others do not suffice (a soft goal)."""
+
     name: str
     capacity: int
     room_type: str | None = None
     unavailable_slots: tuple[str, ...] = ()
+    avoid: bool = False
 
 
 class RuleKind(str, enum.Enum):
@@ -128,7 +132,9 @@ class Weights:
     The defaults are common practice with no single source: back-to-back papers on one
     day hurt most, then two papers in a day, then last-of-day followed by first-of-next.
     ``proximity`` scales the Carter proximity cost (Carter, Laporte & Lee 1996), which is
-    off by default.
+    off by default. ``preferred_room`` (an event with preferred rooms seated in none of
+    them) and ``penalised_room`` (each room marked Avoid that an event uses) default to 1,
+    like their slot counterparts: also common practice with no source.
     """
 
     back_to_back: int = 10
@@ -140,6 +146,8 @@ class Weights:
     penalised_slot: int = 1
     room_split: int = 5
     moved: int = 20
+    preferred_room: int = 1
+    penalised_room: int = 1
 
 
 @dataclass
