@@ -161,6 +161,7 @@ def read_events(table: Table, findings: FindingList, extras: Extras) -> None:
             barred_slots=tuple(split_list(table.get(cells, "Barred slots"))),
             group=identifier(table.get(cells, "Group")) or None,
             preferred_slots=tuple(split_list(table.get(cells, "Preferred slots"))),
+            preferred_rooms=tuple(split_list(table.get(cells, "Preferred rooms"))),
         )
         extras.events.append((event, table.where(r)))
 
@@ -262,8 +263,14 @@ def read_rooms(table: Table, findings: FindingList, extras: Extras) -> None:
             findings.error("The capacity is not a whole number of seats.", table.where(r, "Capacity"),
                            found=identifier(raw), expected="a whole number, 1 or more")
             capacity = 0
+        raw_avoid = table.get(cells, "Avoid")
+        avoid = yes_no(raw_avoid)
+        if avoid is None:
+            findings.error("Avoid must be yes or no.", table.where(r, "Avoid"), found=identifier(raw_avoid),
+                           expected="yes, or no (or blank)")
+            avoid = False
         room = Room(name=name, capacity=capacity, room_type=identifier(table.get(cells, "Room type")) or None,
-                    unavailable_slots=tuple(split_list(table.get(cells, "Unavailable slots"))))
+                    unavailable_slots=tuple(split_list(table.get(cells, "Unavailable slots"))), avoid=avoid)
         extras.rooms.append((room, table.where(r)))
 
 

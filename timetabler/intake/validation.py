@@ -7,6 +7,8 @@ Errors (the run stops):
   (a slot name from the slots sheet, or a slot number; without a slots sheet only
   numbers and ``Slot N`` can be checked later against the number of slots chosen);
 * an event fixed to a slot it is also barred from;
+* a preferred room that is not in the rooms sheet (names are matched without regard to
+  case and are rewritten to the rooms sheet's spelling);
 * an event longer than every slot; an event needing a room type no room has.
 
 Warnings (the run goes on; they are shown and kept in the output):
@@ -18,6 +20,8 @@ Warnings (the run goes on; they are shown and kept in the output):
   ``max(15, 4 × median)`` — a rule of thumb, common practice with no single source);
 * the attendee and event columns possibly swapped (at least 10 events and more than
   twice as many events as attendees);
+* preferred rooms given when there is no rooms sheet (they are ignored); a preferred room
+  of another type than the event needs, or too small to seat it whole;
 * identifiers that differ only by leading zeros (``0123`` and ``123``), or event codes that
   differ only by case and were merged.
 """
@@ -106,6 +110,7 @@ def cross_check(problem: Problem, extras: Extras, findings: FindingList, event_w
             kinds = ", ".join(sorted({r.room_type for r in problem.rooms if r.room_type})) or "none"
             findings.error(f"The event {code} needs a room type that no room has.", where_event(code, "Room type"),
                            found=event.room_type, expected=f"one of the rooms sheet's types: {kinds}")
+    _check_preferred_rooms(problem, findings, where_event)
     rooms_table = extras.tables.get("Rooms")
     for room, where in extras.rooms:
         for ref in room.unavailable_slots:
@@ -117,6 +122,43 @@ def cross_check(problem: Problem, extras: Extras, findings: FindingList, event_w
         missing = next(w for s, w in extras.slots if s.date is None)
         findings.warn("Some slots have a date and some do not; days are then counted one per slot.", missing,
                       suggestion="Give every slot a date, or none.")
+
+
+def _check_preferred_rooms(problem: Problem, findings: FindingList, where_event) -> None:
+    wanting = sorted(code for code, e in problem.events.items() if e.preferred_rooms)
+    if not wanting:
+        return
+    if not problem.rooms:
+        findings.warn(f"{len(wanting)} event(s) name preferred rooms but there is no rooms sheet, so rooms are not "
+                      "planned and the preferred rooms were ignored.", where_event(wanting[0], "Preferred rooms"),
+                      found=", ".join(problem.events[wanting[0]].preferred_rooms),
+                      suggestion="Add a Rooms sheet with every room, its capacity and type.")
+        return
+    by_key = {r.name.strip().casefold(): r for r in problem.rooms}
+    shown = ", ".join(r.name for r in problem.rooms[:4]) + (", ..." if len(problem.rooms) > 4 else "")
+    sizes = problem.event_sizes()
+    for code in wanting:
+        event = problem.events[code]
+        where = where_event(code, "Preferred rooms")
+        known: list[str] = []
+        for ref in event.preferred_rooms:
+            room = by_key.get(ref.strip().casefold())
+            if room is None:
+                findings.error(f"The event {code} names a preferred room that is not in the rooms sheet.", where,
+                               found=ref, expected=f"a room name from the rooms sheet ({shown})",
+                               suggestion="Check the spelling, or add the room to the rooms sheet.")
+                continue
+            if room.name not in known:
+                known.append(room.name)
+            if event.room_type and (room.room_type or "").casefold() != event.room_type.casefold():
+                findings.warn(f"The event {code} prefers {room.name}, a room of type '{room.room_type or 'none'}', "
+                              f"but it needs a room of type '{event.room_type}': that preference can never be met.",
+                              where, found=ref)
+            elif room.capacity < sizes.get(code, 0):
+                findings.warn(f"The event {code} prefers {room.name}, which seats {room.capacity}, but "
+                              f"{sizes[code]} attendees sit it: the room can hold only part of it, when the event "
+                              "is split over rooms.", where, found=ref)
+        event.preferred_rooms = tuple(known)  # the rooms sheet's spelling, as the engines compare names
 
 
 def figure_warnings(problem: Problem, findings: FindingList, enrolment_where: Location, synthetic: bool,

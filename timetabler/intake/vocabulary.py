@@ -27,6 +27,8 @@ Events        Event               the event's code, as in Enrolments (sheet also
               Barred slots        slots it must not take, separated by ``;`` or ``,``
               Group               a label shared by related events (reports only)
               Preferred slots     slots it should take if possible (a soft goal)
+              Preferred rooms     rooms it should be seated in if possible, separated by
+                                  ``;`` or ``,`` (a soft goal; names from the Rooms sheet)
 Slots         Slot                the slot's name, e.g. ``Mon 11 Jan AM`` (sheet also: Sessions)
               Date                a date (a date cell, ``2027-01-11`` or ``11/01/2027``, day first)
               Start               a time of day (a time cell or ``09:00``)
@@ -38,6 +40,8 @@ Rooms         Room                the room's name
               Capacity            seats
               Room type           e.g. Hall, Lab
               Unavailable slots   slots the room cannot be used, separated by ``;`` or ``,``
+              Avoid               ``yes`` to use the room only when the others do not suffice
+                                  (a soft goal)
 Rules         Rule                one of: ``before``, ``same slot``, ``different days``, ``alone``
               First event         the event the rule is about
               Other events        the other event(s), separated by ``;`` or ``,``
@@ -58,7 +62,7 @@ Two other enrolment layouts are read from the first sheet that fits:
 
 Soft goals (Weights sheet, column Goal): ``back-to-back``, ``overnight``, ``same day``,
 ``proximity``, ``large late``, ``preferred slot``, ``avoided slot``, ``room split``,
-``moved``.
+``moved``, ``preferred room``, ``avoided room``.
 """
 
 from __future__ import annotations
@@ -205,6 +209,8 @@ EVENTS_COLUMNS = (
     Column("Barred slots", ("barred", "not in", "unavailable", "unavailable slots", "excluded slots", "not in slots", "barred slot"), "slots it must not take"),
     Column("Group", ("faculty", "department", "school", "category"), "a label for reports"),
     Column("Preferred slots", ("preferred", "preferred slot", "prefer", "wished slots"), "slots it should take if possible"),
+    Column("Preferred rooms", ("preferred room", "prefer room", "prefer rooms", "wished rooms", "wished room"),
+           "rooms it should be seated in if possible"),
 )
 
 SLOTS_COLUMNS = (
@@ -222,6 +228,8 @@ ROOMS_COLUMNS = (
     Column("Capacity", ("seats", "size", "places"), "seats"),
     Column("Room type", ("type", "kind", "room kind"), "e.g. Hall, Lab"),
     Column("Unavailable slots", ("unavailable", "not available", "closed", "barred slots", "closed slots"), "slots it cannot be used"),
+    Column("Avoid", ("avoid if possible", "penalised", "discouraged", "use only if needed"),
+           "yes to use the room only when the others do not suffice"),
 )
 
 RULES_COLUMNS = (
@@ -281,6 +289,11 @@ GOAL_WORDS: dict[str, str] = {
     "room split": "room_split",
     "moved": "moved",
     "moved event": "moved",
+    "preferred room": "preferred_room",
+    "preferred rooms": "preferred_room",
+    "avoided room": "penalised_room",
+    "avoided rooms": "penalised_room",
+    "penalised room": "penalised_room",
 }
 #: The Weights sheet row that sets a hard limit rather than a weight.
 MOST_PER_DAY = ("most events per day", "max per day", "maximum per day", "most per day")
@@ -296,6 +309,8 @@ GOAL_LABELS: dict[str, str] = {
     "penalised_slot": "avoided slot",
     "room_split": "room split",
     "moved": "moved",
+    "preferred_room": "preferred room",
+    "penalised_room": "avoided room",
 }
 
 GOAL_HELP: dict[str, str] = {
@@ -308,6 +323,8 @@ GOAL_HELP: dict[str, str] = {
     "penalised_slot": "an event placed in a slot marked Avoid",
     "room_split": "an event spread over more than one room",
     "moved": "an event moved from the previous timetable (repair mode)",
+    "preferred_room": "an event with preferred rooms seated in none of them",
+    "penalised_room": "each room marked Avoid that an event is seated in",
 }
 
 YES_WORDS = ("yes", "y", "true", "1", "x", "avoid")
