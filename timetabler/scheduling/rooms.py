@@ -8,6 +8,26 @@ slot alone that minimises the extra rooms used by split events. A slot that cann
 seated is returned to the caller, which forbids that exact group of events in that slot
 and solves again (a logic-based Benders cut: Hooker & Ottosson, "Logic-based Benders
 decomposition", Math. Programming 96 (2003) 33-60).
+
+Preferred and avoided rooms
+---------------------------
+Two soft goals belong to seating alone, since the slot model does not choose rooms:
+
+* ``preferred_room``: one unit for every seated event that has preferred rooms
+  (:attr:`Event.preferred_rooms <timetabler.model.Event.preferred_rooms>`) and has none of
+  its seats in one of them;
+* ``penalised_room``: one unit for every (event, room) pair in which the room is marked
+  :attr:`Room.avoid <timetabler.model.Room.avoid>`.
+
+The greedy places an event whole in the room of least goal cost first (a preferred room,
+then an ordinary one, an avoided room last; best fit among rooms of equal cost) and, when
+it splits an event, fills avoided rooms last. When its seating of a slot still carries one
+of these penalties, the slot's CP-SAT model starts from it as a hint and minimises
+
+    room_split * (rooms used - events) + preferred_room * misses + penalised_room * avoided uses
+
+(the number of rooms used breaks ties), keeping whichever seating is better. A goal of
+weight 0 is left out of both. Room names are compared without regard to case.
 """
 
 from __future__ import annotations
@@ -21,8 +41,17 @@ from ..model import Problem, Room, Slot
 
 @dataclass
 class Seating:
+    """Rooms of every seated event, the slots that could not be seated, and the room goals' counts.
+
+    ``missed_preferred_rooms`` counts events with preferred rooms seated in none of them;
+    ``avoided_rooms_used`` counts (event, room marked Avoid) pairs. Both are counts, not
+    penalties: multiply by ``Weights.preferred_room`` and ``Weights.penalised_room``.
+    """
+
     rooms: dict[str, list[tuple[str, int]]] = field(default_factory=dict)
     failed_slots: dict[int, list[str]] = field(default_factory=dict)  # slot -> events that could not be seated together
+    missed_preferred_rooms: int = 0
+    avoided_rooms_used: int = 0
 
 
 def seat_events(problem: Problem, slots: list[Slot], assignment: dict[str, int], sizes: dict[str, int], *,
@@ -38,14 +67,65 @@ def seat_events(problem: Problem, slots: list[Slot], assignment: dict[str, int],
         free = [r for r in problem.rooms
                 if not any(problem.slot_number(ref, slots) == s for ref in r.unavailable_slots)]
         codes = sorted(codes, key=lambda c: (-sizes[c], c))
-        got = _greedy(problem, codes, free, sizes, sharing, splitting)
+        goals = _RoomGoals(problem)
+        got = _greedy(problem, codes, free, sizes, sharing, splitting, goals)
+        if got is None and goals.active:
+            got = _greedy(problem, codes, free, sizes, sharing, splitting, None)
         if got is None:
-            got = _exact(problem, codes, free, sizes, sharing, splitting, seconds_per_slot, seed)
+            got = _exact(problem, codes, free, sizes, sharing, splitting, seconds_per_slot, seed, goals)
+        elif goals.penalty(got):
+            better = _exact(problem, codes, free, sizes, sharing, splitting, seconds_per_slot, seed, goals, hint=got)
+            if better is not None and goals.cost(better) < goals.cost(got):
+                got = better
         if got is None:
             out.failed_slots[s] = codes
             continue
         out.rooms.update(got)
+        missed, avoided = goals.counts(got)
+        out.missed_preferred_rooms += missed
+        out.avoided_rooms_used += avoided
     return out
+
+
+class _RoomGoals:
+    """The preferred- and avoided-room goals of one problem, as seating weighs them."""
+
+    def __init__(self, problem: Problem):
+        w = problem.weights
+        self.split, self.preferred, self.avoided = w.room_split, w.preferred_room, w.penalised_room
+        self.avoid = {r.name.casefold() for r in problem.rooms if r.avoid}
+        self.wanted = {code: {n.strip().casefold() for n in e.preferred_rooms}
+                       for code, e in problem.events.items() if e.preferred_rooms}
+        self.active = bool(self.preferred and self.wanted) or bool(self.avoided and self.avoid)
+
+    def room_cost(self, code: str, name: str) -> int:
+        """Goal cost of seating (part of) ``code`` in room ``name``, as if it were its only room."""
+        k = name.casefold()
+        cost = self.avoided if k in self.avoid else 0
+        wanted = self.wanted.get(code)
+        if wanted and k not in wanted:
+            cost += self.preferred
+        return cost
+
+    def counts(self, seated: dict[str, list[tuple[str, int]]]) -> tuple[int, int]:
+        """(events missing all their preferred rooms, (event, avoided room) pairs) of a seating."""
+        missed = avoided = 0
+        for code, parts in seated.items():
+            names = {n.casefold() for n, _ in parts}
+            wanted = self.wanted.get(code)
+            if wanted and not names & wanted:
+                missed += 1
+            avoided += len(names & self.avoid)
+        return missed, avoided
+
+    def penalty(self, seated: dict[str, list[tuple[str, int]]]) -> int:
+        missed, avoided = self.counts(seated)
+        return self.preferred * missed + self.avoided * avoided
+
+    def cost(self, seated: dict[str, list[tuple[str, int]]]) -> tuple[int, int]:
+        """What the slot's CP-SAT model minimises: the weighted goals, then the rooms used."""
+        used = sum(len(parts) for parts in seated.values())
+        return self.split * (used - len(seated)) + self.penalty(seated), used
 
 
 def _fits_type(problem: Problem, code: str, room: Room) -> bool:
@@ -53,7 +133,15 @@ def _fits_type(problem: Problem, code: str, room: Room) -> bool:
     return not want or (room.room_type or "").casefold() == want.casefold()
 
 
-def _greedy(problem, codes, rooms, sizes, sharing, splitting):
+def _greedy(problem, codes, rooms, sizes, sharing, splitting, goals: _RoomGoals | None):
+    """Best-fit decreasing; with ``goals``, rooms of least goal cost first (None: plain best fit)."""
+
+    def cost(code: str, room: Room) -> int:
+        return goals.room_cost(code, room.name) if goals is not None else 0
+
+    def shunned(room: Room) -> bool:
+        return goals is not None and bool(goals.avoided) and room.name.casefold() in goals.avoid
+
     left = {r.name: r.capacity for r in rooms}
     length_in: dict[str, int | None] = {}
     used: set[str] = set()
@@ -63,7 +151,7 @@ def _greedy(problem, codes, rooms, sizes, sharing, splitting):
         length = problem.events[code].duration_minutes
         ok = [r for r in rooms if _fits_type(problem, code, r)
               and (r.name not in used or (sharing and length_in.get(r.name) == length))]
-        whole = sorted((r for r in ok if left[r.name] >= need), key=lambda r: (left[r.name], r.name))
+        whole = sorted((r for r in ok if left[r.name] >= need), key=lambda r: (cost(code, r), left[r.name], r.name))
         if whole:
             r = whole[0]
             result[code] = [(r.name, need)]
@@ -74,7 +162,7 @@ def _greedy(problem, codes, rooms, sizes, sharing, splitting):
         if not splitting:
             return None
         parts = []
-        for r in sorted(ok, key=lambda r: (-left[r.name], r.name)):
+        for r in sorted(ok, key=lambda r: (shunned(r), -left[r.name], r.name)):
             if need <= 0:
                 break
             if left[r.name] <= 0:
@@ -92,7 +180,8 @@ def _greedy(problem, codes, rooms, sizes, sharing, splitting):
     return result
 
 
-def _exact(problem, codes, rooms, sizes, sharing, splitting, seconds, seed):
+def _exact(problem, codes, rooms, sizes, sharing, splitting, seconds, seed, goals: _RoomGoals,
+           hint: dict[str, list[tuple[str, int]]] | None = None):
     m = cp_model.CpModel()
     use: dict[tuple[str, str], cp_model.IntVar] = {}
     seats: dict[tuple[str, str], cp_model.IntVar] = {}
@@ -125,7 +214,30 @@ def _exact(problem, codes, rooms, sizes, sharing, splitting, seconds, seed):
                 for b in here[i + 1:]:
                     if problem.events[a].duration_minutes != problem.events[b].duration_minutes:
                         m.AddBoolOr([use[a, r.name].Not(), use[b, r.name].Not()])
-    m.Minimize(sum(use.values()))
+    weighted = []
+    if goals.split and splitting:
+        weighted += [goals.split * v for v in use.values()]
+    if goals.avoided:
+        weighted += [goals.avoided * v for (c, name), v in use.items() if name.casefold() in goals.avoid]
+    miss: dict[str, cp_model.IntVar] = {}
+    if goals.preferred:
+        for c in codes:
+            wanted = goals.wanted.get(c)
+            if not wanted:
+                continue
+            miss[c] = m.NewBoolVar(f"miss[{c}]")
+            m.AddBoolOr([miss[c]] + [use[c, r.name] for r in rooms
+                                     if (c, r.name) in use and r.name.casefold() in wanted])
+            weighted.append(goals.preferred * miss[c])
+    scale = len(use) + 1  # the weighted goals first; fewer rooms only among equals
+    m.Minimize(scale * sum(weighted) + sum(use.values()))
+    if hint:
+        given = {(c, name): n for c, parts in hint.items() for name, n in parts}
+        for key, v in use.items():
+            m.AddHint(v, key in given)
+            m.AddHint(seats[key], given.get(key, 0))
+        for c, v in miss.items():
+            m.AddHint(v, not any(name.casefold() in goals.wanted[c] for name, _ in hint.get(c, [])))
     solver = cp_model.CpSolver()
     solver.parameters.max_time_in_seconds = seconds
     solver.parameters.num_workers = 1

@@ -498,11 +498,14 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
         if not seating.failed_slots:
             run.rooms = seating.rooms
             splits = sum(len(v) - 1 for v in seating.rooms.values())
-            if splits and problem.weights.room_split:
-                run.penalty_breakdown["room_split"] = splits * problem.weights.room_split
-                run.penalty = (run.penalty or 0) + splits * problem.weights.room_split
-                run.bound = None  # the bound covers the slot model only
-                run.status, run.proven = "feasible", False
+            for name, n in (("room_split", splits), ("preferred_room", seating.missed_preferred_rooms),
+                            ("penalised_room", seating.avoided_rooms_used)):
+                weight = getattr(problem.weights, name)
+                if n and weight:
+                    run.penalty_breakdown[name] = n * weight
+                    run.penalty = (run.penalty or 0) + n * weight
+                    run.bound = None  # the bound covers the slot model only
+                    run.status, run.proven = "feasible", False
             break
         nogoods.extend(seating.failed_slots.items())
         feasible_hint = None

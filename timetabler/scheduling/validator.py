@@ -27,7 +27,13 @@ Soft-goal counts (``Validation.soft``), all per attendee and pair of that attend
 ``room_split``
     extra rooms used by events spread over more than one room;
 ``moved``
-    events placed in a different slot than in the previous timetable.
+    events placed in a different slot than in the previous timetable;
+``preferred_room``
+    seated events with preferred rooms that have no seats in any of them;
+``penalised_room``
+    (event, room) pairs in which the room is marked Avoid.
+
+Room names are compared without regard to case, as the rooms sheet is read.
 """
 
 from __future__ import annotations
@@ -120,7 +126,7 @@ def validate(
         by_attendee[attendee].append(code)
     soft = {name: 0 for name in (
         "back_to_back", "overnight", "same_day", "proximity", "large_late",
-        "preferred_slot", "penalised_slot", "room_split", "moved")}
+        "preferred_slot", "penalised_slot", "room_split", "moved", "preferred_room", "penalised_room")}
     load: dict[str, dict[str, int]] = {}
     for attendee in sorted(by_attendee):
         mine = sorted((placed[c], c) for c in by_attendee[attendee] if c in placed)
@@ -211,6 +217,7 @@ def validate(
         + w.proximity * soft["proximity"] + w.large_late * soft["large_late"]
         + w.preferred_slot * soft["preferred_slot"] + w.penalised_slot * soft["penalised_slot"]
         + w.room_split * soft["room_split"] + w.moved * soft["moved"]
+        + w.preferred_room * soft["preferred_room"] + w.penalised_room * soft["penalised_room"]
     )
     return Validation(ok=not violations, violations=violations, soft=soft, attendee_load=load, penalty=penalty)
 
@@ -269,6 +276,12 @@ def _check_rooms(problem, slots, placed, sizes, rooms, sharing, splitting, label
                 violations.append(f"{code} is in {name} in {label(s)}, when {name} is not available")
         if seated != sizes[code]:
             violations.append(f"{code} has {sizes[code]} attendees but {seated} seats in rooms")
+        if given:
+            in_rooms = [by_name[name] for name, _ in given if name in by_name]
+            preferred = [ref.strip().casefold() for ref in problem.events[code].preferred_rooms]
+            if preferred and not any(room.name.strip().casefold() in preferred for room in in_rooms):
+                soft["preferred_room"] += 1
+            soft["penalised_room"] += sum(1 for room in in_rooms if room.avoid)
         if len(given) > 1:
             if not splitting:
                 violations.append(f"{code} is split over {len(given)} rooms, and splitting is not allowed")
