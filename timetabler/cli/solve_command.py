@@ -86,7 +86,8 @@ def command(file, sheet, attendee_column, event_column, slot_counts, fewest, ses
     or the weights sheet): back-to-back on one day 10, last of a day then first of the next 3,
     two on one day 2, Carter proximity cost 0 (off), large events late 0 (off), event outside its
     preferred slots 1, event in a penalised slot 1, extra room for a split event 5, event moved
-    from the earlier timetable (--keep) 20.
+    from the earlier timetable (--keep) 20, event seated outside its preferred rooms 1, event
+    in a room marked Avoid 1 (per room).
 
     \b
     Every timetable is re-checked by an independent validator against the enrolments and every

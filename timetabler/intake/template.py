@@ -66,7 +66,7 @@ PURPOSE = {
 
 TEXT_COLUMNS = {
     ENROLMENTS: ("Attendee", "Event"),
-    EVENTS: ("Event", "Fixed slot", "Barred slots", "Preferred slots"),
+    EVENTS: ("Event", "Fixed slot", "Barred slots", "Preferred slots", "Preferred rooms"),
     SLOTS: ("Slot",),
     ROOMS: ("Room", "Unavailable slots"),
     RULES: ("First event", "Other events"),
@@ -78,7 +78,7 @@ EXAMPLE = {
         ("HV-S0003", "PHY110"), ("HV-S0003", "CHM120"), ("HV-S0004", "HIS130"), ("HV-S0004", "MAT101"),
     ],
     EVENTS: [
-        ("MAT101", "Mathematics I", 120, "Hall", None, None, "Science", None),
+        ("MAT101", "Mathematics I", 120, "Hall", None, None, "Science", None, "Orchard Hall"),
         ("PHY110", "Physics: mechanics", 90, "Hall", None, "Mon 3 May PM", "Science", None),
         ("CHM120", "Chemistry practical", 180, "Lab", None, None, "Science", None),
         ("HIS130", "Early modern history", 120, "Hall", "Tue 4 May AM", None, "Humanities", None),
@@ -89,7 +89,8 @@ EXAMPLE = {
         ("Tue 4 May AM", dt.date(2027, 5, 4), dt.time(9, 30), 180, 120, None, "no"),
         ("Tue 4 May PM", dt.date(2027, 5, 4), dt.time(14, 0), 180, 120, None, "yes"),
     ],
-    ROOMS: [("Orchard Hall", 100, "Hall", None), ("Beacon Lab", 20, "Lab", "Tue 4 May PM")],
+    ROOMS: [("Orchard Hall", 100, "Hall", None, "no"), ("Beacon Lab", 20, "Lab", "Tue 4 May PM", "no"),
+            ("Cloister Room", 40, "Hall", None, "yes")],
     RULES: [("before", "MAT101", "PHY110"), ("different days", "PHY110", "CHM120")],
 }
 
@@ -189,6 +190,7 @@ def build_template(example: bool = False):
             check("Avoid", DataValidation(type="list", formula1='"yes,no"', allow_blank=True, error="Choose yes or no."))
         elif sheet_name == ROOMS:
             check("Capacity", whole(1, 100_000, "Seats in the room"))
+            check("Avoid", DataValidation(type="list", formula1='"yes,no"', allow_blank=True, error="Choose yes or no."))
         elif sheet_name == RULES:
             check("Rule", DataValidation(type="list", formula1='"' + ",".join(RULE_CHOICES) + '"',
                                          error="Choose a rule from the list."))
