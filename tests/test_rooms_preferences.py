@@ -265,3 +265,22 @@ def test_web_form_and_workbook_name_the_new_goals():
 
     names = {f["name"]: f["label"] for f in weight_fields(Weights())}
     assert "preferred rooms" in names["preferred_room"] and "Avoid" in names["penalised_room"]
+
+
+def test_sharing_lets_two_events_meet_one_preference():
+    # C (60) comes first and best fit puts it in Orchard Hall, which A and B prefer; the greedy then
+    # seats A and B together in Elm (2 misses). CP-SAT moves C to Elm and A and B into Orchard Hall.
+    rooms = [Room("Orchard Hall", 70), Room("Elm", 100)]
+    events = {c: Event(c, duration_minutes=120, preferred_rooms=("Orchard Hall",) if c != "C" else ())
+              for c in ("A", "B", "C")}
+    p = Problem(enrol("A", 30, "S") + enrol("B", 35, "T") + enrol("C", 60, "U"), rooms=rooms, events=events,
+                weights=Weights(**{**ZERO, "preferred_room": 1}))
+    where = {"A": 1, "B": 1, "C": 1}
+    seating = seat_events(p, generic_slots(1), where, p.event_sizes(), sharing=True)
+    assert seating.rooms == {"A": [("Orchard Hall", 30)], "B": [("Orchard Hall", 35)], "C": [("Elm", 60)]}
+    assert seating.missed_preferred_rooms == 0 and not seating.unproven_slots
+    v = validate(p, generic_slots(1), where, seating.rooms, room_sharing=True)
+    assert v.ok and v.soft["preferred_room"] == 0
+    p.weights = Weights(**ZERO)  # switched off: plain best fit
+    seating = seat_events(p, generic_slots(1), where, p.event_sizes(), sharing=True)
+    assert seating.rooms["C"] == [("Orchard Hall", 60)] and seating.missed_preferred_rooms == 2

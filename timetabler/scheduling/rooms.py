@@ -52,6 +52,7 @@ class Seating:
     failed_slots: dict[int, list[str]] = field(default_factory=dict)  # slot -> events that could not be seated together
     missed_preferred_rooms: int = 0
     avoided_rooms_used: int = 0
+    unproven_slots: list[int] = field(default_factory=list)  # room goals not proven least within the time
 
 
 def seat_events(problem: Problem, slots: list[Slot], assignment: dict[str, int], sizes: dict[str, int], *,
@@ -71,12 +72,20 @@ def seat_events(problem: Problem, slots: list[Slot], assignment: dict[str, int],
         got = _greedy(problem, codes, free, sizes, sharing, splitting, goals)
         if got is None and goals.active:
             got = _greedy(problem, codes, free, sizes, sharing, splitting, None)
-        if got is None:
-            got = _exact(problem, codes, free, sizes, sharing, splitting, seconds_per_slot, seed, goals)
-        elif goals.penalty(got):
-            better = _exact(problem, codes, free, sizes, sharing, splitting, seconds_per_slot, seed, goals, hint=got)
-            if better is not None and goals.cost(better) < goals.cost(got):
-                got = better
+        proven = True
+        if got is None or goals.penalty(got):
+            # one event per room, whole: an assignment problem, solved exactly
+            whole = _assignment(problem, codes, free, sizes, goals)
+            if whole is not None and (got is None or goals.cost(whole) < goals.cost(got)):
+                got = whole
+            # Splitting alone adds room_split per extra room, so it cannot beat a whole seating
+            # costing room_split or less; sharing is free and always worth the search.
+            settled = whole is not None and not sharing and goals.cost(whole)[0] <= goals.split
+            if (sharing or splitting) and not settled:  # CP-SAT may still do better by sharing or splitting
+                better, proven = _exact(problem, codes, free, sizes, sharing, splitting, seconds_per_slot, seed,
+                                        goals, hint=got)
+                if better is not None and (got is None or goals.cost(better) < goals.cost(got)):
+                    got = better
         if got is None:
             out.failed_slots[s] = codes
             continue
@@ -84,6 +93,8 @@ def seat_events(problem: Problem, slots: list[Slot], assignment: dict[str, int],
         missed, avoided = goals.counts(got)
         out.missed_preferred_rooms += missed
         out.avoided_rooms_used += avoided
+        if not proven and goals.penalty(got):
+            out.unproven_slots.append(s)
     return out
 
 
@@ -180,11 +191,43 @@ def _greedy(problem, codes, rooms, sizes, sharing, splitting, goals: _RoomGoals 
     return result
 
 
+def _assignment(problem, codes, rooms, sizes, goals: _RoomGoals) -> dict[str, list[tuple[str, int]]] | None:
+    """Every event whole in a room of its own at the least goal cost (ties: fewest empty seats), or None.
+
+    Without sharing or splitting, seating one slot is a rectangular linear assignment
+    problem: events to rooms, cost ``room_cost`` of each pair, forbidden pairs (wrong type,
+    too small) left out. It is solved exactly by :func:`scipy.optimize.linear_sum_assignment`
+    (a shortest augmenting path method: Crouse, "On implementing 2D rectangular assignment
+    algorithms", IEEE Trans. Aerospace and Electronic Systems 52 (2016) 1679-1696).
+    """
+    import numpy as np
+    from scipy.optimize import linear_sum_assignment
+
+    if len(codes) > len(rooms):
+        return None
+    fits = [[_fits_type(problem, c, r) and r.capacity >= sizes[c] for r in rooms] for c in codes]
+    if not all(any(row) for row in fits):
+        return None
+    # empty seats only break ties: scale the goal cost past the most empty seats any seating can leave
+    span = 1 + sum(max(r.capacity - sizes[c] for r, ok in zip(rooms, row) if ok) for c, row in zip(codes, fits))
+    cost = np.full((len(codes), len(rooms)), np.inf)
+    for i, (c, row) in enumerate(zip(codes, fits)):
+        for j, (r, ok) in enumerate(zip(rooms, row)):
+            if ok:
+                cost[i, j] = span * goals.room_cost(c, r.name) + (r.capacity - sizes[c])
+    try:
+        events, chosen = linear_sum_assignment(cost)
+    except ValueError:  # no way to give every event a room of its own
+        return None
+    return {codes[i]: [(rooms[j].name, sizes[codes[i]])] for i, j in zip(events, chosen)}
+
+
 def _exact(problem, codes, rooms, sizes, sharing, splitting, seconds, seed, goals: _RoomGoals,
            hint: dict[str, list[tuple[str, int]]] | None = None):
+    """The slot's CP-SAT seating, or None; and whether CP-SAT proved it best (or proved none exists)."""
     m = cp_model.CpModel()
     use: dict[tuple[str, str], cp_model.IntVar] = {}
-    seats: dict[tuple[str, str], cp_model.IntVar] = {}
+    seats: dict[tuple[str, str], cp_model.LinearExprT] = {}  # a variable when splitting, else size * use
     for c in codes:
         for r in rooms:
             if not _fits_type(problem, c, r):
@@ -192,15 +235,19 @@ def _exact(problem, codes, rooms, sizes, sharing, splitting, seconds, seed, goal
             if not splitting and r.capacity < sizes[c]:
                 continue
             use[c, r.name] = m.NewBoolVar(f"use[{c},{r.name}]")
+            if not splitting:
+                seats[c, r.name] = sizes[c] * use[c, r.name]
+                continue
             seats[c, r.name] = m.NewIntVar(0, min(r.capacity, sizes[c]), f"seats[{c},{r.name}]")
             m.Add(seats[c, r.name] <= min(r.capacity, sizes[c]) * use[c, r.name])
             m.Add(seats[c, r.name] >= use[c, r.name])
     for c in codes:
         mine = [r.name for r in rooms if (c, r.name) in use]
         if not mine:
-            return None
-        m.Add(sum(seats[c, n] for n in mine) == sizes[c])
-        if not splitting:
+            return None, True
+        if splitting:
+            m.Add(sum(seats[c, n] for n in mine) == sizes[c])
+        else:
             m.AddExactlyOne(use[c, n] for n in mine)
     for r in rooms:
         here = [c for c in codes if (c, r.name) in use]
@@ -235,7 +282,8 @@ def _exact(problem, codes, rooms, sizes, sharing, splitting, seconds, seed, goal
         given = {(c, name): n for c, parts in hint.items() for name, n in parts}
         for key, v in use.items():
             m.AddHint(v, key in given)
-            m.AddHint(seats[key], given.get(key, 0))
+            if splitting:
+                m.AddHint(seats[key], given.get(key, 0))
         for c, v in miss.items():
             m.AddHint(v, not any(name.casefold() in goals.wanted[c] for name, _ in hint.get(c, [])))
     solver = cp_model.CpSolver()
@@ -244,9 +292,9 @@ def _exact(problem, codes, rooms, sizes, sharing, splitting, seconds, seed, goal
     solver.parameters.random_seed = seed
     status = solver.Solve(m)
     if status not in (cp_model.OPTIMAL, cp_model.FEASIBLE):
-        return None
+        return None, status == cp_model.INFEASIBLE
     out: dict[str, list[tuple[str, int]]] = {}
     for (c, name), v in use.items():
         if solver.BooleanValue(v):
-            out.setdefault(c, []).append((name, solver.Value(seats[c, name])))
-    return {c: sorted(v) for c, v in out.items()}
+            out.setdefault(c, []).append((name, solver.Value(seats[c, name]) if splitting else sizes[c]))
+    return {c: sorted(v) for c, v in out.items()}, status == cp_model.OPTIMAL
