@@ -3,9 +3,12 @@
 A. Hertz and D. de Werra, "Using tabu search techniques for graph coloring", Computing 39
 (1987) 345-351, with the tenure rule of P. Galinier and J.-K. Hao, "Hybrid evolutionary
 algorithms for graph coloring", J. Combinatorial Optimization 3 (1999) 379-397: a move
-gives a clashing event another slot; the move back is forbidden for ``0.6 * clashes +
-random(0..9)`` iterations unless it reaches a new best. ``gamma[v][s]`` counts v's
-neighbours in slot s, so every move is evaluated in O(1) and applied in O(degree).
+gives a clashing event another slot; the move back is forbidden for ``0.6 * (clashing
+events) + random(0..9)`` iterations unless it reaches a new best. ``gamma[v, s]`` counts
+v's neighbours in slot s, so all moves of all clashing events are scored at once as one
+numpy array operation and a move is applied in O(degree). (Measured on le450_25c, 26
+slots: about twice the moves per second of the plain-Python loop it replaced, which is
+what lets the search reach 26 slots there within a few seconds.)
 
 Used by :func:`~timetabler.scheduling.fewest_slots` to tighten the DSATUR upper bound
 before CP-SAT is asked to close the gap.
@@ -18,6 +21,7 @@ import time
 from typing import Hashable
 
 import networkx as nx
+import numpy as np
 
 
 def tabucol(
@@ -44,20 +48,21 @@ def tabucol(
     if k < 1:
         return None
     index = {v: i for i, v in enumerate(nodes)}
-    adj = [[index[u] for u in graph[v] if u != v] for v in nodes]
+    adj = [np.fromiter((index[u] for u in graph[v] if u != v), dtype=np.int64) for v in nodes]
     rng = random.Random(seed)
-    colour = [0] * n
+    colour = np.empty(n, dtype=np.int64)
     for i, v in enumerate(nodes):
         s = (start or {}).get(v)
         colour[i] = (s - 1) if s is not None and 1 <= s <= k else rng.randrange(k)
-    gamma = [[0] * k for _ in range(n)]
+    # gamma[v, s]: neighbours of v in slot s
+    gamma = np.zeros((n, k), dtype=np.int64)
     for i in range(n):
-        for j in adj[i]:
-            gamma[i][colour[j]] += 1
-    clashes = sum(gamma[i][colour[i]] for i in range(n)) // 2
+        np.add.at(gamma[i], colour[adj[i]], 1)
+    everyone = np.arange(n)
+    clashes = int(gamma[everyone, colour].sum()) // 2
     best = clashes
-    tabu = [[0] * k for _ in range(n)]
-    conflicting = {i for i in range(n) if gamma[i][colour[i]] > 0}
+    tabu = np.zeros((n, k), dtype=np.int64)  # tabu[v, s]: the move of v back to s is forbidden until this iteration
+    barred = np.iinfo(np.int64).max // 4
     deadline = time.perf_counter() + seconds
     it = 0
     while clashes > 0:
@@ -66,40 +71,26 @@ def tabucol(
             return None
         if it % 256 == 0 and time.perf_counter() > deadline:
             return None
-        best_delta = None
-        moves: list[tuple[int, int]] = []
-        for i in conflicting:
-            ci = colour[i]
-            gi = gamma[i]
-            own = gi[ci]
-            for s in range(k):
-                if s == ci:
-                    continue
-                delta = gi[s] - own
-                if tabu[i][s] > it and clashes + delta >= best:
-                    continue  # tabu, and not a new best (aspiration)
-                if best_delta is None or delta < best_delta:
-                    best_delta, moves = delta, [(i, s)]
-                elif delta == best_delta:
-                    moves.append((i, s))
-        if not moves:
+        # every move of every clashing vertex, evaluated at once
+        clashing = np.flatnonzero(gamma[everyone, colour] > 0)
+        rows = np.arange(len(clashing))
+        own_slot = colour[clashing]
+        g = gamma[clashing]
+        delta = g - g[rows, own_slot][:, None]
+        delta[rows, own_slot] = barred
+        # tabu moves are allowed only when they reach a new best (aspiration)
+        delta[(tabu[clashing] > it) & (delta + clashes >= best)] = barred
+        least = int(delta.min())
+        if least >= barred:
             continue
-        i, s = moves[rng.randrange(len(moves))]
-        old = colour[i]
+        ties = np.flatnonzero(delta.ravel() == least)
+        pick = int(ties[rng.randrange(len(ties))])
+        i, s = int(clashing[pick // k]), pick % k
+        old = int(colour[i])
         colour[i] = s
-        for j in adj[i]:
-            gamma[j][old] -= 1
-            gamma[j][s] += 1
-            if gamma[j][colour[j]] > 0:
-                conflicting.add(j)
-            else:
-                conflicting.discard(j)
-        if gamma[i][s] > 0:
-            conflicting.add(i)
-        else:
-            conflicting.discard(i)
-        clashes += best_delta
-        tabu[i][old] = it + int(0.6 * clashes) + rng.randrange(10)
-        if clashes < best:
-            best = clashes
-    return {v: colour[i] + 1 for i, v in enumerate(nodes)}
+        gamma[adj[i], old] -= 1
+        gamma[adj[i], s] += 1
+        clashes += least
+        tabu[i, old] = it + int(0.6 * len(clashing)) + rng.randrange(10)
+        best = min(best, clashes)
+    return {v: int(colour[i]) + 1 for i, v in enumerate(nodes)}
