@@ -3,11 +3,13 @@
 The slot model (:mod:`.cpsat_model`) keeps only the aggregate room limits (seats of the
 free rooms of each type per slot, and one event per room unless sharing is allowed). Given
 its timetable, each slot is seated here: best-fit decreasing first (largest event first,
-into the smallest room that holds it), and when that fails a small CP-SAT model of that
-slot alone that minimises the extra rooms used by split events. A slot that cannot be
-seated is returned to the caller, which forbids that exact group of events in that slot
-and solves again (a logic-based Benders cut: Hooker & Ottosson, "Logic-based Benders
-decomposition", Math. Programming 96 (2003) 33-60).
+into the smallest room that holds it). When that fails, or leaves a room-goal penalty (below),
+one event per room, whole, is solved exactly as an assignment problem; when rooms may be
+shared or events split, a small CP-SAT model of that slot alone follows, minimising the
+extra rooms used by split events and the room goals. A slot that cannot be seated is
+returned to the caller, which forbids that exact group of events in that slot and solves
+again (a logic-based Benders cut: Hooker & Ottosson, "Logic-based Benders decomposition",
+Math. Programming 96 (2003) 33-60).
 
 Preferred and avoided rooms
 ---------------------------
@@ -22,12 +24,24 @@ Two soft goals belong to seating alone, since the slot model does not choose roo
 The greedy places an event whole in the room of least goal cost first (a preferred room,
 then an ordinary one, an avoided room last; best fit among rooms of equal cost) and, when
 it splits an event, fills avoided rooms last. When its seating of a slot still carries one
-of these penalties, the slot's CP-SAT model starts from it as a hint and minimises
+of these penalties:
 
-    room_split * (rooms used - events) + preferred_room * misses + penalised_room * avoided uses
+1. the assignment problem (events to rooms of their own, cost ``preferred_room`` for a
+   room outside the event's preferred ones plus ``penalised_room`` for an avoided room,
+   empty seats breaking ties) gives the least penalty over seatings without sharing or
+   splitting, exactly (:func:`scipy.optimize.linear_sum_assignment`);
+2. with sharing allowed, or splitting that could pay off (a seating costing more than
+   ``room_split``), the slot's CP-SAT model starts from the better seating so far as a hint
+   and minimises
 
-(the number of rooms used breaks ties), keeping whichever seating is better. A goal of
-weight 0 is left out of both. Room names are compared without regard to case.
+       room_split * (rooms used - events) + preferred_room * misses + penalised_room * avoided uses
+
+   (the number of rooms used breaks ties) within ``seconds_per_slot``; a slot where it
+   stops on time with a penalty left is listed in ``Seating.unproven_slots``.
+
+A goal of weight 0 is left out throughout. Room names are compared without regard to case.
+The slot model itself does not see these goals, so a slot may hold more events than the
+rooms not marked Avoid can seat; only seating within the slot is optimised here.
 """
 
 from __future__ import annotations
@@ -64,11 +78,11 @@ def seat_events(problem: Problem, slots: list[Slot], assignment: dict[str, int],
     for code, s in assignment.items():
         if sizes.get(code, 0) > 0:
             by_slot.setdefault(s, []).append(code)
+    goals = _RoomGoals(problem)
     for s, codes in sorted(by_slot.items()):
         free = [r for r in problem.rooms
                 if not any(problem.slot_number(ref, slots) == s for ref in r.unavailable_slots)]
         codes = sorted(codes, key=lambda c: (-sizes[c], c))
-        goals = _RoomGoals(problem)
         got = _greedy(problem, codes, free, sizes, sharing, splitting, goals)
         if got is None and goals.active:
             got = _greedy(problem, codes, free, sizes, sharing, splitting, None)
