@@ -284,3 +284,31 @@ def test_sharing_lets_two_events_meet_one_preference():
     p.weights = Weights(**ZERO)  # switched off: plain best fit
     seating = seat_events(p, generic_slots(1), where, p.event_sizes(), sharing=True)
     assert seating.rooms["C"] == [("Orchard Hall", 60)] and seating.missed_preferred_rooms == 2
+
+
+def test_published_workbook_shows_preferences_met_and_avoided_rooms_used(tmp_path: Path):
+    from openpyxl import load_workbook
+
+    from export_cases import rows_of
+    from timetabler.export.workbook import write_workbook
+
+    rooms = [Room("Orchard Hall", 60), Room("Beacon Room", 60), Room("Mill Room", 30), Room("Quarry Annexe", 45, avoid=True)]
+    events = {"MAT101": Event("MAT101", preferred_rooms=("Orchard Hall",)),
+              "HIS130": Event("HIS130", preferred_rooms=("Beacon Room", "Mill Room")),
+              "ART140": Event("ART140", preferred_rooms=("Mill Room",))}
+    p = Problem(enrol("MAT101", 40, "S") + enrol("PHY110", 56, "T") + enrol("HIS130", 25, "U") + enrol("CHM120", 44, "V")
+                + enrol("ART140", 50, "W"), rooms=rooms, events=events)
+    slots = generic_slots(2)
+    run, v = solved(p, slots)
+    path = write_workbook(tmp_path / "published.xlsx", problem=p, runs=[run], counts=None)
+    book = load_workbook(path)
+    _, event_rows = rows_of(book["Events"])
+    met = {r["Event"]: r["In a preferred room"] for r in event_rows}
+    # ART140 (50) prefers the 30-seat Mill Room, which cannot hold it whole: never met
+    assert met["ART140"] == "no" and met["PHY110"] is None
+    assert sum(1 for value in met.values() if value == "no") == v.soft["preferred_room"]
+    assert {r["Event"]: r["Preferred rooms"] for r in event_rows}["HIS130"] == "Beacon Room; Mill Room"
+    _, room_rows = rows_of(book["Rooms"])
+    used_avoided = sum(1 for r in room_rows if r["Avoid"] == "yes" and r["Seats used"])
+    assert used_avoided == v.soft["penalised_room"]
+    assert {r["Room"] for r in room_rows if r["Avoid"] == "yes"} == {"Quarry Annexe"}

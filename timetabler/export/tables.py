@@ -212,17 +212,22 @@ def _room_text(run: Any, code: str) -> tuple[str, int | None]:
 
 
 def events_table(problem: Problem, run: Any) -> PublishedTable:
-    """One row per event: its slot, date, start, end, rooms, seats and size."""
+    """One row per event: its slot, date, start, end, rooms, seats and size.
+
+    When some event names preferred rooms, two more columns: those rooms, and whether the
+    event has seats in one of them (blank when it has no preference or no rooms).
+    """
     slots = _run_slots(run)
     places = slot_places(slots)
     sizes = problem.event_sizes()
+    preferences = any(e.preferred_rooms for e in problem.events.values())
     table = PublishedTable(
         "Events",
         [
             Column("Event"), Column("Title"), Column("Slot", INT), Column("Slot label"), Column("Day", INT),
             Column("Session", INT), Column("Date", DATE), Column("Start", TIME), Column("End", TIME),
             Column("Rooms"), Column("Seats", INT), Column("Size", INT),
-        ],
+        ] + ([Column("Preferred rooms"), Column("In a preferred room", FLAG)] if preferences else []),
         title="Every event and its slot",
     )
     assignment = getattr(run, "assignment", {}) or {}
@@ -231,11 +236,16 @@ def events_table(problem: Problem, run: Any) -> PublishedTable:
         n = assignment.get(code)
         place = places[n - 1] if n and 1 <= n <= len(places) else None
         rooms, seats = _room_text(run, code)
-        table.rows.append([
+        row = [
             code, event.title or "", n, place.slot.label if place else "", place.day if place else None,
             place.session if place else None, place.slot.date if place else None, place.slot.start if place else None,
             place.slot.end if place else None, rooms, seats, sizes.get(code, 0),
-        ])
+        ]
+        if preferences:
+            wanted = {name.strip().casefold() for name in event.preferred_rooms}
+            given = {str(name).strip().casefold() for name, _ in (getattr(run, "rooms", None) or {}).get(code) or []}
+            row += ["; ".join(event.preferred_rooms), bool(wanted & given) if wanted and given else None]
+        table.rows.append(row)
     return table
 
 
@@ -336,13 +346,14 @@ def rooms_table(problem: Problem, run: Any) -> PublishedTable | None:
         n = assignment.get(code)
         for name, seats in placed:
             used[(n, str(name))].append((code, int(seats)))
+    avoided = any(getattr(r, "avoid", False) for r in problem.rooms)
     table = PublishedTable(
         "Rooms",
         [
             Column("Slot", INT), Column("Slot label"), Column("Date", DATE), Column("Start", TIME), Column("Room"),
             Column("Room type"), Column("Capacity", INT), Column("Events"), Column("Seats used", INT), Column("Free seats", INT),
             Column("Available", FLAG),
-        ],
+        ] + ([Column("Avoid", FLAG, "marked Avoid: used only when the other rooms do not suffice")] if avoided else []),
         title="Room occupancy by slot",
     )
     for place in slot_places(slots):
@@ -353,7 +364,7 @@ def rooms_table(problem: Problem, run: Any) -> PublishedTable | None:
             table.rows.append([
                 place.number, place.slot.label, place.slot.date, place.slot.start, room.name, room.room_type or "",
                 room.capacity, ", ".join(c for c, _ in here), taken, room.capacity - taken, available,
-            ])
+            ] + ([bool(room.avoid)] if avoided else []))
     return table
 
 

@@ -336,6 +336,9 @@ def _comparison_sheet(book: "_Book", table: PublishedTable) -> None:
 
 def _events_highlight(ws, table: PublishedTable, last_row: int) -> None:
     _highlight_rows(ws, table, last_row, f'ISBLANK(${_col(table, "Slot")}2)', RED, RED_FONT)
+    if "In a preferred room" in table.headers:
+        ws.conditional_formatting.add(_range(table, "In a preferred room", last_row),
+                                      CellIsRule(operator="equal", formula=['"no"'], fill=AMBER, font=AMBER_FONT))
 
 
 def _free_seats_highlight(ws, table: PublishedTable, last_row: int) -> None:
@@ -345,6 +348,10 @@ def _free_seats_highlight(ws, table: PublishedTable, last_row: int) -> None:
     if "Available" in table.headers:
         a, u = _col(table, "Available"), _col(table, "Seats used")
         _highlight_rows(ws, table, last_row, f'AND(${a}2="no",${u}2>0)', RED, RED_FONT)
+    if "Avoid" in table.headers:
+        v, u = _col(table, "Avoid"), _col(table, "Seats used")
+        ws.conditional_formatting.add(_range(table, "Avoid", last_row),
+                                      FormulaRule(formula=[f'AND(${v}2="yes",${u}2>0)'], fill=AMBER, font=AMBER_FONT))
 
 
 def _estimate_highlight(ws, table: PublishedTable, last_row: int) -> None:
