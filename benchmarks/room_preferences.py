@@ -55,7 +55,7 @@ SESSION = ("large session, 28 slots", 2000, 250, 0.3, 0.1, False, False)
 def generate(seed: int, n_events: int, n_rooms: int, prefer: float, avoid: float) -> Problem:
     rng = random.Random(seed)
     sizes = [max(3, min(400, int(rng.lognormvariate(3.6, 0.8)))) for _ in range(n_events)]
-    rooms = [Room(f"HV Room {i:03d}", rng.choice([24, 30, 40, 60, 80, 120, 200, 400]), avoid=rng.random() < avoid)
+    rooms = [Room(f"HV Room {i:03d}", rng.choice([24, 30, 40, 60, 80, 120, 200, 400]), penalised=rng.random() < avoid)
              for i in range(n_rooms)]
     enrolments, events = [], {}
     for i, n in enumerate(sizes):

@@ -59,7 +59,7 @@ def test_columns_and_goals_are_read(tmp_path: Path, writer, suffix):
     # case-insensitive match, rewritten to the rooms sheet's spelling, in the order given
     assert problem.events["MAT101"].preferred_rooms == ("Orchard Hall", "Cloister Room")
     assert problem.events["HIS130"].preferred_rooms == ()
-    assert [(r.name, r.avoid) for r in problem.rooms] == [
+    assert [(r.name, r.penalised) for r in problem.rooms] == [
         ("Orchard Hall", False), ("Cloister Room", True), ("Beacon Lab", False)]
     assert problem.weights.preferred_room == 4 and problem.weights.penalised_room == 0
 
@@ -128,7 +128,7 @@ def test_template_lists_the_new_columns_and_its_example_uses_them(tmp_path: Path
     reading = read_problem(path)
     assert reading.warnings == []
     assert reading.problem.events["MAT101"].preferred_rooms == ("Orchard Hall",)
-    assert [r.name for r in reading.problem.rooms if r.avoid] == ["Cloister Room"]
+    assert [r.name for r in reading.problem.rooms if r.penalised] == ["Cloister Room"]
 
 
 # --- seating and solving ---------------------------------------------------------------------
@@ -152,7 +152,7 @@ def test_preference_binds_and_weight_zero_switches_it_off():
 
 
 def test_avoided_room_is_left_empty_when_others_suffice_and_used_when_needed():
-    rooms = [Room("Quarry Annexe", 45, avoid=True), Room("Birch", 60)]
+    rooms = [Room("Quarry Annexe", 45, penalised=True), Room("Birch", 60)]
     alone = Problem(enrol("A", 40, "S"), rooms=rooms, weights=Weights(**{**ZERO, "penalised_room": 2}))
     run, v = solved(alone, generic_slots(1))
     assert run.rooms["A"] == [("Birch", 40)]  # best fit alone would pick the 45-seat annexe
@@ -171,7 +171,7 @@ def test_avoided_room_is_left_empty_when_others_suffice_and_used_when_needed():
 
 
 def test_split_event_keeps_out_of_the_avoided_room_when_it_can():
-    rooms = [Room("Great Hall", 100, avoid=True), Room("North", 40), Room("South", 40)]
+    rooms = [Room("Great Hall", 100, penalised=True), Room("North", 40), Room("South", 40)]
     p = Problem(enrol("BIG", 70, "S"), rooms=rooms, weights=Weights(**{**ZERO, "penalised_room": 3, "room_split": 1}))
     split = SolveOptions(time_limit=5, workers=2, seed=1, room_splitting=True)
     run, v = solved(p, generic_slots(1), split)
@@ -185,7 +185,7 @@ def test_split_event_keeps_out_of_the_avoided_room_when_it_can():
 
 def _random_problem(rng: random.Random, n_rooms: int, n_events: int) -> Problem:
     names = ["Alder", "Birch", "Cedar", "Dogwood", "Elm", "Fir", "Gorse"][:n_rooms]
-    rooms = [Room(n, rng.choice([20, 30, 40, 60]), room_type=rng.choice([None, None, "lab"]), avoid=rng.random() < 0.4)
+    rooms = [Room(n, rng.choice([20, 30, 40, 60]), room_type=rng.choice([None, None, "lab"]), penalised=rng.random() < 0.4)
              for n in names]
     enrolments, events = [], {}
     for i in range(n_events):
@@ -208,7 +208,7 @@ def _least_penalty(problem: Problem, codes: list[str]) -> int | None:
         cost = 0
         for c, room in zip(codes, perm):
             wanted = {n.casefold() for n in problem.events[c].preferred_rooms}
-            cost += w.penalised_room * room.avoid + w.preferred_room * bool(wanted and room.name.casefold() not in wanted)
+            cost += w.penalised_room * room.penalised + w.preferred_room * bool(wanted and room.name.casefold() not in wanted)
         best = cost if best is None else min(best, cost)
     return best
 
@@ -238,8 +238,8 @@ def test_seating_reaches_the_least_penalty_and_the_validator_agrees():
 
 
 def test_solver_breakdown_equals_the_validator_over_several_slots():
-    rooms = [Room("Orchard Hall", 120), Room("Cloister Room", 50, avoid=True), Room("Beacon Lab", 40, room_type="lab"),
-             Room("Mill Room", 45), Room("Quarry Annexe", 80, avoid=True)]
+    rooms = [Room("Orchard Hall", 120), Room("Cloister Room", 50, penalised=True), Room("Beacon Lab", 40, room_type="lab"),
+             Room("Mill Room", 45), Room("Quarry Annexe", 80, penalised=True)]
     rng = random.Random(7)
     enrolments = []  # a ring of 12 events: neighbours share 4-18 students, so 6 slots hold them two by two
     for i in range(12):
@@ -292,7 +292,7 @@ def test_published_workbook_shows_preferences_met_and_avoided_rooms_used(tmp_pat
     from export_cases import rows_of
     from timetabler.export.workbook import write_workbook
 
-    rooms = [Room("Orchard Hall", 60), Room("Beacon Room", 60), Room("Mill Room", 30), Room("Quarry Annexe", 45, avoid=True)]
+    rooms = [Room("Orchard Hall", 60), Room("Beacon Room", 60), Room("Mill Room", 30), Room("Quarry Annexe", 45, penalised=True)]
     events = {"MAT101": Event("MAT101", preferred_rooms=("Orchard Hall",)),
               "HIS130": Event("HIS130", preferred_rooms=("Beacon Room", "Mill Room")),
               "ART140": Event("ART140", preferred_rooms=("Mill Room",))}

@@ -89,13 +89,14 @@ class Slot:
 
 @dataclass
 class Room:
-    """One room. ``avoid`` marks a room to use only when the others do not suffice (a soft goal)."""
+    """One room. ``penalised`` marks a room to use only when the others do not suffice (a soft
+    goal; the Rooms sheet's Avoid column, as ``Slot.penalised`` is the Slots sheet's)."""
 
     name: str
     capacity: int
     room_type: str | None = None
     unavailable_slots: tuple[str, ...] = ()
-    avoid: bool = False
+    penalised: bool = False
 
 
 class RuleKind(str, enum.Enum):

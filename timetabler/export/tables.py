@@ -346,7 +346,7 @@ def rooms_table(problem: Problem, run: Any) -> PublishedTable | None:
         n = assignment.get(code)
         for name, seats in placed:
             used[(n, str(name))].append((code, int(seats)))
-    avoided = any(getattr(r, "avoid", False) for r in problem.rooms)
+    avoided = any(getattr(r, "penalised", False) for r in problem.rooms)
     table = PublishedTable(
         "Rooms",
         [
@@ -364,7 +364,7 @@ def rooms_table(problem: Problem, run: Any) -> PublishedTable | None:
             table.rows.append([
                 place.number, place.slot.label, place.slot.date, place.slot.start, room.name, room.room_type or "",
                 room.capacity, ", ".join(c for c, _ in here), taken, room.capacity - taken, available,
-            ] + ([bool(room.avoid)] if avoided else []))
+            ] + ([bool(room.penalised)] if avoided else []))
     return table
 
 

@@ -270,7 +270,7 @@ def read_rooms(table: Table, findings: FindingList, extras: Extras) -> None:
                            expected="yes, or no (or blank)")
             avoid = False
         room = Room(name=name, capacity=capacity, room_type=identifier(table.get(cells, "Room type")) or None,
-                    unavailable_slots=tuple(split_list(table.get(cells, "Unavailable slots"))), avoid=avoid)
+                    unavailable_slots=tuple(split_list(table.get(cells, "Unavailable slots"))), penalised=avoid)
         extras.rooms.append((room, table.where(r)))
 
 

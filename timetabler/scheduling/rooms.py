@@ -19,7 +19,7 @@ Two soft goals belong to seating alone, since the slot model does not choose roo
   (:attr:`Event.preferred_rooms <timetabler.model.Event.preferred_rooms>`) and has none of
   its seats in one of them;
 * ``penalised_room``: one unit for every (event, room) pair in which the room is marked
-  :attr:`Room.avoid <timetabler.model.Room.avoid>`.
+  :attr:`Room.penalised <timetabler.model.Room.penalised>` (column Avoid).
 
 The greedy places an event whole in the room of least goal cost first (a preferred room,
 then an ordinary one, an avoided room last; best fit among rooms of equal cost) and, when
@@ -118,7 +118,7 @@ class _RoomGoals:
     def __init__(self, problem: Problem):
         w = problem.weights
         self.split, self.preferred, self.avoided = w.room_split, w.preferred_room, w.penalised_room
-        self.avoid = {r.name.casefold() for r in problem.rooms if r.avoid}
+        self.avoid = {r.name.casefold() for r in problem.rooms if r.penalised}
         self.wanted = {code: {n.strip().casefold() for n in e.preferred_rooms}
                        for code, e in problem.events.items() if e.preferred_rooms}
         self.active = bool(self.preferred and self.wanted) or bool(self.avoided and self.avoid)

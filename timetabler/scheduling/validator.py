@@ -281,7 +281,7 @@ def _check_rooms(problem, slots, placed, sizes, rooms, sharing, splitting, label
             preferred = [ref.strip().casefold() for ref in problem.events[code].preferred_rooms]
             if preferred and not any(room.name.strip().casefold() in preferred for room in in_rooms):
                 soft["preferred_room"] += 1
-            soft["penalised_room"] += sum(1 for room in in_rooms if room.avoid)
+            soft["penalised_room"] += sum(1 for room in in_rooms if room.penalised)
         if len(given) > 1:
             if not splitting:
                 violations.append(f"{code} is split over {len(given)} rooms, and splitting is not allowed")
