@@ -312,3 +312,18 @@ def test_published_workbook_shows_preferences_met_and_avoided_rooms_used(tmp_pat
     used_avoided = sum(1 for r in room_rows if r["Avoid"] == "yes" and r["Seats used"])
     assert used_avoided == v.soft["penalised_room"]
     assert {r["Room"] for r in room_rows if r["Avoid"] == "yes"} == {"Quarry Annexe"}
+
+
+def test_a_room_name_with_a_comma_is_one_room(tmp_path: Path):
+    import doctest
+
+    from timetabler.intake import validation
+
+    finder, runner = doctest.DocTestFinder(), doctest.DocTestRunner()
+    for test in finder.find(validation.room_names_in, "room_names_in", globs={"room_names_in": validation.room_names_in}):
+        runner.run(test)
+    assert runner.summarize(verbose=False) == (0, 2)  # (failed, attempted) of the docstring's examples
+    sheets = workbook_sheets(preferred="Room 1, East Wing; orchard hall,Cloister Room")
+    sheets["Rooms"].append(["Room 1, East Wing", 30, "no"])
+    problem = read_problem(write_xlsx(tmp_path / "comma.xlsx", sheets)).problem
+    assert problem.events["MAT101"].preferred_rooms == ("Room 1, East Wing", "Orchard Hall", "Cloister Room")

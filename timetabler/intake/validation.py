@@ -33,6 +33,7 @@ import statistics
 
 from ..model import Event, Location, Problem, RuleKind, Slot
 from .findings import FindingList
+from .normalising import identifier
 from .sheets import Extras
 
 _SLOT_NUMBER = re.compile(r"^(slot\s*)?(\d+)$", re.IGNORECASE)
@@ -110,7 +111,13 @@ def cross_check(problem: Problem, extras: Extras, findings: FindingList, event_w
             kinds = ", ".join(sorted({r.room_type for r in problem.rooms if r.room_type})) or "none"
             findings.error(f"The event {code} needs a room type that no room has.", where_event(code, "Room type"),
                            found=event.room_type, expected=f"one of the rooms sheet's types: {kinds}")
-    _check_preferred_rooms(problem, findings, where_event)
+    def raw_cell(code: str, column: str) -> object:
+        base = event_where.get(code)
+        if base is None or events_table is None or base.row is None:
+            return None
+        return events_table.get(events_table.sheet.rows[base.row - 1], column)
+
+    _check_preferred_rooms(problem, findings, where_event, raw_cell)
     rooms_table = extras.tables.get("Rooms")
     for room, where in extras.rooms:
         for ref in room.unavailable_slots:
@@ -124,7 +131,30 @@ def cross_check(problem: Problem, extras: Extras, findings: FindingList, event_w
                       suggestion="Give every slot a date, or none.")
 
 
-def _check_preferred_rooms(problem: Problem, findings: FindingList, where_event) -> None:
+def room_names_in(cell: object, known: set[str]) -> list[str] | None:
+    """The room names listed in a cell: split at ``;`` and line breaks, then at commas unless
+    the text with its commas is itself a room's name (``Room 1, East Wing``); None for a
+    cell that is not text. ``known`` holds the rooms' names, case folded.
+
+    >>> room_names_in("Orchard Hall; Room 1, East Wing", {"orchard hall", "room 1, east wing"})
+    ['Orchard Hall', 'Room 1, East Wing']
+    >>> room_names_in("Orchard Hall, Mill Room", {"orchard hall", "mill room"})
+    ['Orchard Hall', 'Mill Room']
+    """
+    if not isinstance(cell, str):
+        return None
+    out: list[str] = []
+    for piece in (identifier(p) for p in re.split(r"[;\n]", cell)):
+        if not piece:
+            continue
+        if piece.casefold() in known:
+            out.append(piece)
+        else:
+            out += [t for t in (identifier(p) for p in piece.split(",")) if t]
+    return out
+
+
+def _check_preferred_rooms(problem: Problem, findings: FindingList, where_event, raw_cell) -> None:
     wanting = sorted(code for code, e in problem.events.items() if e.preferred_rooms)
     if not wanting:
         return
@@ -140,8 +170,9 @@ def _check_preferred_rooms(problem: Problem, findings: FindingList, where_event)
     for code in wanting:
         event = problem.events[code]
         where = where_event(code, "Preferred rooms")
+        refs = room_names_in(raw_cell(code, "Preferred rooms"), set(by_key)) or event.preferred_rooms
         known: list[str] = []
-        for ref in event.preferred_rooms:
+        for ref in refs:
             room = by_key.get(ref.strip().casefold())
             if room is None:
                 findings.error(f"The event {code} names a preferred room that is not in the rooms sheet.", where,
