@@ -251,3 +251,21 @@ def test_too_few_large_rooms_over_the_session_is_explained_before_search():
     assert "3 events need rooms with at least 21 seats" in run.reason and "only 2 places over 2 slots" in run.reason
     run, v = solved(p, generic_slots(3))
     assert all(r == [("Great Hall", 50)] for r in run.rooms.values())
+
+
+@pytest.mark.parametrize("proven", [True, False])
+def test_a_seating_that_only_ran_out_of_time_is_not_called_impossible(monkeypatch, proven):
+    # Seating a slot that the greedy and the assignment step cannot seat falls to CP-SAT; here
+    # that CP-SAT is made to stop on time (proven=False) or to prove the slot unseatable (True).
+    from timetabler.scheduling import rooms as seating
+    monkeypatch.setattr(seating, "_greedy", lambda *a, **k: None)
+    monkeypatch.setattr(seating, "_assignment", lambda *a, **k: None)
+    monkeypatch.setattr(seating, "_exact", lambda *a, **k: (None, proven))
+    p = Problem([(f"HV-S{i:04d}", "BIG") for i in range(50)] + [(f"HV-T{i:04d}", "SMALL") for i in range(10)],
+                rooms=[Room("Room A", 30), Room("Room B", 30)], weights=ZERO)
+    run = solve(p, generic_slots(1), SolveOptions(time_limit=10, workers=2, room_splitting=True))
+    if proven:
+        assert run.status == "infeasible" and run.proven
+    else:
+        assert run.status == "unknown" and not run.proven
+        assert "not proven impossible" in run.reason and "slot(s) 1" in run.reason

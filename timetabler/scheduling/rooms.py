@@ -67,6 +67,7 @@ class Seating:
     missed_preferred_rooms: int = 0
     avoided_rooms_used: int = 0
     unproven_slots: list[int] = field(default_factory=list)  # room goals not proven least within the time
+    unsettled_slots: list[int] = field(default_factory=list)  # failed within the time, not proven unseatable
 
 
 def seat_events(problem: Problem, slots: list[Slot], assignment: dict[str, int], sizes: dict[str, int], *,
@@ -102,6 +103,8 @@ def seat_events(problem: Problem, slots: list[Slot], assignment: dict[str, int],
                     got = better
         if got is None:
             out.failed_slots[s] = codes
+            if not proven:
+                out.unsettled_slots.append(s)
             continue
         out.rooms.update(got)
         missed, avoided = goals.counts(got)

@@ -383,6 +383,7 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
     dsatur_complete = len(hint) == len(block)
     feasible_hint: dict[str, int] | None = None
     nogoods: list[tuple[int, list[str]]] = []
+    unsettled: set[int] = set()  # slots whose seating failed on time, not proven impossible
     fallback: SolveRun | None = None  # the first clash-free (and seated) timetable, kept in case step 4 finds none
 
     def keep_fallback(assignment: dict[str, int]) -> bool:
@@ -453,6 +454,13 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
         status, solver, watcher = _run(tm, options, max(0.2, remaining), progress, {**info, "phase": "goals"}, start)
         budget.charge(solver)
         if status == cp_model.INFEASIBLE:
+            if nogoods and unsettled:
+                run.status, run.proven = "unknown", False
+                run.reason = ("no timetable is left once the groups of events that could not be seated in time are "
+                              f"ruled out (slot(s) {', '.join(map(str, sorted(unsettled)))}), but seating them was "
+                              "not proven impossible: try a longer time limit")
+                run.reasons = [run.reason]
+                return run
             if nogoods:
                 run.status, run.proven = "infeasible", True
                 run.reason = ("the events cannot be seated in the rooms of every slot: after "
@@ -508,6 +516,7 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
                     run.status, run.proven = "feasible", False
             break
         nogoods.extend(seating.failed_slots.items())
+        unsettled.update(seating.unsettled_slots)
         feasible_hint = None
         if left() <= 0 or round_ == 5:
             run.status = "unknown"
