@@ -120,3 +120,13 @@ def test_missing_earlier_timetable_is_bad_input(run_command, week_csv, tmp_path)
     path, _ = week_csv
     result = run_command("solve", path, "--slots", "4", "--keep", tmp_path / "nope.xlsx")
     assert result.status == 2 and "does not exist" in result.stderr
+
+
+def test_weight_names_of_the_weights_sheet_work_on_the_command_line():
+    import click
+
+    from timetabler.cli.solve_command import _parse_weights
+    got = _parse_weights(None, None, ("avoided room=3", "back-to-back=2", "preferred_slot=4", "Avoided slot=6"))
+    assert got == {"penalised_room": 3, "back_to_back": 2, "preferred_slot": 4, "penalised_slot": 6}
+    with pytest.raises(click.BadParameter, match="NAME one of"):
+        _parse_weights(None, None, ("lunch=1",))

@@ -11,6 +11,7 @@ from rich.table import Table
 
 from ..conflicts import conflict_graph
 from ..errors import Finding, InputError
+from ..intake.vocabulary import GOAL_WORDS, key
 from ..model import Weights, generic_slots
 from ..scheduling import SolveOptions, fewest_slots, solve, validate
 from .common import console, err_console, input_options, print_json, read_input, show_warnings
@@ -24,8 +25,9 @@ def _parse_weights(ctx, param, values):
     out: dict[str, int] = {}
     for item in values or ():
         name, sep, number = item.partition("=")
-        key = WEIGHT_NAMES.get(name.strip().lower().replace("_", "-"))
-        if not sep or key is None:
+        # the option's own names, or a goal as the Weights sheet names it ('avoided room')
+        attr = WEIGHT_NAMES.get(name.strip().lower().replace("_", "-")) or GOAL_WORDS.get(key(name))
+        if not sep or attr is None:
             raise click.BadParameter(
                 f"'{item}' should be NAME=NUMBER with NAME one of {', '.join(sorted(WEIGHT_NAMES))}")
         try:
@@ -34,7 +36,7 @@ def _parse_weights(ctx, param, values):
             raise click.BadParameter(f"the weight in '{item}' must be a whole number") from None
         if n < 0:
             raise click.BadParameter(f"the weight in '{item}' cannot be negative")
-        out[key] = n
+        out[attr] = n
     return out
 
 
