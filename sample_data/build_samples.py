@@ -122,6 +122,11 @@ def build_term(rng: random.Random) -> dict[str, pd.DataFrame]:
     # A few rules of the kind registrars receive.
     events.loc[events["Exam"] == "LAW100", "Fixed slot"] = slot_rows[0][0]
     events.loc[events["Exam"] == "EDU300", "Barred slots"] = f"{slot_rows[0][0]}; {slot_rows[1][0]}"
+    # Room wishes (soft goals): a paper with a practical part wants a particular lab, and the
+    # fixed law paper wants the hall next to the law school.
+    events["Preferred rooms"] = ""
+    events.loc[events["Exam"] == "SCI100", "Preferred rooms"] = "Lab 2; Lab 3"
+    events.loc[events["Exam"] == "LAW100", "Preferred rooms"] = "Main Hall 1"
     # Two papers set together (say, sharing an external examiner) must share no student.
     takers = enrolments.groupby("Exam")["Student"].apply(set)
     together = next(
@@ -147,6 +152,8 @@ def build_term(rng: random.Random) -> dict[str, pd.DataFrame]:
     for i in range(1, 5):
         rooms.append((f"Lab {i}", 70, "Lab", slot_rows[-1][0] if i == 1 else ""))
     rooms = pd.DataFrame(rooms, columns=["Room", "Capacity", "Room type", "Unavailable slots"])
+    # two rooms across the road in the annexe: used only when the others do not suffice
+    rooms["Avoid"] = ["yes" if name in ("Room 115", "Room 116") else "" for name in rooms["Room"]]
     del sizes
     return {"Enrolments": enrolments, "Exams": events, "Slots": slots, "Rooms": rooms, "Rules": rules}
 
