@@ -61,3 +61,9 @@ def test_file_without_recognisable_columns_exits_2(run_command, tmp_path):
 
 def test_unknown_option_exits_2(run_command, exam_week_xlsx):
     assert run_command("inspect", exam_week_xlsx, "--no-such-option").status == 2
+
+
+def test_plain_timetabler_shows_the_overview_and_succeeds(run_command):
+    result = run_command()
+    assert result.status == 0
+    assert "Typical session" in result.stdout and "solve" in result.stdout and "count" in result.stdout

@@ -27,9 +27,11 @@ COMMAND_MODULES = [
 
 @click.group(
     context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100},
+    invoke_without_command=True,
 )
 @click.version_option(package_name="timetabler")
-def cli() -> None:
+@click.pass_context
+def cli(ctx: click.Context) -> None:
     """Build exam and meeting timetables from enrolment spreadsheets.
 
     \b
@@ -42,6 +44,8 @@ def cli() -> None:
     the attendee (student, member, ...) and a column naming the event (exam, module,
     meeting, ...). Everything runs on this computer; nothing is sent anywhere.
     """
+    if ctx.invoked_subcommand is None:  # plain `timetabler`: the overview, which is not an error
+        click.echo(ctx.get_help())
 
 
 for _name in COMMAND_MODULES:
