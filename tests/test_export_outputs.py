@@ -97,6 +97,11 @@ def test_icalendar_files_parse_back_with_the_icalendar_library(tmp_path, case):
         assert e.decoded("dtend") - start == dt.timedelta(minutes=slot.length_minutes)
         assert str(e["location"]) == ", ".join(n for n, _ in run.rooms[str(e["summary"])])
     assert len({str(e["uid"]) for e in events}) == len(events)
+    # the revision number grows with the time of writing, so a later publication wins (RFC 5545 3.8.7.4)
+    from timetabler.export.icalendar_files import revision
+    stamp = events[0].decoded("dtstamp")
+    assert {int(e["sequence"]) for e in events} == {revision(stamp)} and revision(stamp) > 0
+    assert revision(stamp + dt.timedelta(minutes=5)) == revision(stamp) + 5
     for attendee, codes in problem.events_by_attendee().items():
         mine = Calendar.from_ical((tmp_path / "cal" / "attendees" / f"{attendee}.ics").read_bytes())
         assert sorted(str(e["summary"]) for e in mine.walk("VEVENT")) == sorted(codes)

@@ -7,6 +7,10 @@ updated file replaces entries instead of duplicating them. Slots need dates; a s
 with a start time and length gives timed entries, a slot with only a date gives an
 all-day entry. Times are "floating" local times (RFC 5545 §3.3.5) unless a time zone
 name (IANA, e.g. ``Europe/London``) is given.
+
+Each entry's SEQUENCE (its revision number, RFC 5545 §3.8.7.4) is the number of minutes
+from 2026-01-01 UTC to the moment of writing, so a timetable published again later always
+carries the higher revision and calendar programs take its times over the earlier ones.
 """
 
 from __future__ import annotations
@@ -26,6 +30,12 @@ from .csv_folder import prepare_folder
 from .safe_write import check_target, write_safely
 
 PRODID = "-//timetabler//exam and meeting timetables//EN"
+REVISION_EPOCH = dt.datetime(2026, 1, 1, tzinfo=dt.timezone.utc)
+
+
+def revision(stamp: dt.datetime) -> int:
+    """The SEQUENCE of entries written at ``stamp``: whole minutes since :data:`REVISION_EPOCH`."""
+    return max(0, int((stamp - REVISION_EPOCH).total_seconds() // 60))
 
 
 def _uid(source: str, k: int, code: str) -> str:
@@ -60,6 +70,7 @@ def _entry(problem: Problem, run: Any, code: str, tz: ZoneInfo | None, stamp: dt
     entry = CalEvent()
     entry.add("uid", _uid(problem.source, k, code))
     entry.add("dtstamp", stamp)
+    entry.add("sequence", revision(stamp))
     entry.add("dtstart", start)
     entry.add("dtend", end)
     entry.add("summary", f"{code} {event.title}" if event.title else code)
