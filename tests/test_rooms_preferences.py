@@ -72,7 +72,7 @@ def test_a_csv_has_no_room_sheets_and_the_weights_keep_their_defaults(tmp_path: 
     doc = run_command("solve", path, "--slots", "2", "--weight", "preferred-room=3", "--weight", "penalised-room=0",
                       "--time-limit", "2", "--json").json()
     assert doc["runs"][0]["status"] == "optimal"
-    bad = run_command("solve", path, "--slots", "2", "--weight", "preferred-rooms=3")
+    bad = run_command("solve", path, "--slots", "2", "--weight", "preferred-chairs=3")
     assert bad.status == 2 and "penalised-room" in bad.stderr and "preferred-room" in bad.stderr
 
 
