@@ -11,6 +11,7 @@ from rich.table import Table
 
 from ..conflicts import conflict_graph
 from ..errors import Finding, InputError
+from ..intake.previous_timetable import read_previous_timetable, resolve_previous
 from ..intake.vocabulary import GOAL_WORDS, key
 from ..model import Weights, generic_slots
 from ..scheduling import SolveOptions, fewest_slots, solve, validate
@@ -117,8 +118,6 @@ def command(file, sheet, attendee_column, event_column, slot_counts, fewest, ses
                            room_sharing=share_rooms, room_splitting=split_rooms)
     previous_refs = None
     if keep:
-        from ..intake.previous_timetable import read_previous_timetable
-
         previous_refs = read_previous_timetable(keep)
     graph = conflict_graph(problem)
 
@@ -165,20 +164,11 @@ def command(file, sheet, attendee_column, event_column, slot_counts, fewest, ses
 
 
 def _resolve_previous(problem, refs, slots) -> dict[str, int]:
-    out: dict[str, int] = {}
-    bad: list[Finding] = []
-    for code, ref in refs.slots.items():
-        if code not in problem.events:
-            continue  # an event dropped since: nothing to keep
-        s = problem.slot_number(ref, slots)
-        if s is None:
-            bad.append(Finding(f"{code} was in slot '{ref}', which is not one of the {len(slots)} slots now.",
-                               where=refs.where.get(code), severity="warning"))
-            continue
-        out[code] = s
-    for finding in bad[:10]:
+    """The earlier timetable for these slots; events whose earlier slot is gone are warned about."""
+    resolved = resolve_previous(problem, refs, slots)  # events dropped since are simply not kept
+    for finding in resolved.unplaced[:10]:
         err_console.print(f"[yellow]warning:[/yellow] {finding}", soft_wrap=True)
-    return out
+    return resolved.slots
 
 
 class _progress_display:

@@ -2,7 +2,12 @@
 
 Accepts a workbook written by ``timetabler solve --out`` (its "Events" sheet), or any
 .xlsx/.csv whose header row (within the first 15 rows) has an event column ("Event",
-"Exam", "Code", ...) and a "Slot" column holding slot numbers or slot labels.
+"Exam", "Code", ...) and a "Slot" column holding slot numbers or slot labels. A CSV file
+may be in any encoding and with any delimiter the enrolment reader accepts.
+
+:func:`resolve_previous` then turns the slot references into slot numbers for one list of
+slots (the labels of a slots sheet, or numbers 1..K), as the command line and the web page
+both need for each number of slots they solve.
 """
 
 from __future__ import annotations
@@ -12,7 +17,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from ..errors import Finding, InputError
-from ..model import Location
+from ..model import Location, Problem, Slot
+from .file_types import decode, sniff_delimiter
 
 EVENT_HEADERS = ("event", "exam", "code", "module", "meeting", "paper")
 SLOT_HEADERS = ("slot", "slot number", "slot label", "session")
@@ -25,6 +31,54 @@ class PreviousTimetable:
     slots: dict[str, str] = field(default_factory=dict)
     where: dict[str, Location] = field(default_factory=dict)
     sheet: str | None = None
+    #: Where each event code was written (its cell in the event column), for findings about the code.
+    event_where: dict[str, Location] = field(default_factory=dict)
+
+
+@dataclass
+class ResolvedPrevious:
+    """An earlier timetable resolved against one list of slots.
+
+    ``slots`` maps event code -> slot number (1..K) for the events that can be kept;
+    ``dropped`` has a finding for each event of the earlier timetable that is not in the
+    problem any more; ``unplaced`` one for each event whose earlier slot is not among the
+    slots now. Both lists are warnings: the events concerned are simply placed afresh.
+    """
+
+    slots: dict[str, int] = field(default_factory=dict)
+    dropped: list[Finding] = field(default_factory=list)
+    unplaced: list[Finding] = field(default_factory=list)
+
+
+def resolve_previous(problem: Problem, refs: PreviousTimetable, slots: list[Slot]) -> ResolvedPrevious:
+    """Resolve the slot references of ``refs`` against ``slots`` (labels first, then numbers 1..K).
+
+    Examples
+    --------
+    >>> from timetabler.model import Event, Problem, generic_slots
+    >>> problem = Problem(events={"A": Event("A"), "B": Event("B")}, enrolments=[])
+    >>> refs = PreviousTimetable(slots={"A": "Slot 2", "B": "5", "Z": "1"})
+    >>> out = resolve_previous(problem, refs, generic_slots(3))
+    >>> out.slots, len(out.unplaced), len(out.dropped)
+    ({'A': 2}, 1, 1)
+    """
+    out = ResolvedPrevious()
+    for code, ref in refs.slots.items():
+        if code not in problem.events:
+            out.dropped.append(Finding(
+                f"{code} is in the earlier timetable but not among the events now.",
+                where=refs.event_where.get(code), found=code, severity="warning",
+                suggestion="If it was cancelled, nothing is needed; otherwise check the spelling of the code."))
+            continue
+        number = problem.slot_number(ref, slots)
+        if number is None:
+            out.unplaced.append(Finding(
+                f"{code} was in slot '{ref}', which is not one of the {len(slots)} slots now.",
+                where=refs.where.get(code), found=ref, severity="warning",
+                expected=f"a slot number from 1 to {len(slots)} or a slot label"))
+            continue
+        out.slots[code] = number
+    return out
 
 
 def _norm(text: object) -> str:
@@ -59,8 +113,9 @@ def read_previous_timetable(path: str | Path) -> PreviousTimetable:
             tables.append((sheet, rows))
         wb.close()
     elif suffix in (".csv", ".txt"):
-        with path.open(newline="", encoding="utf-8-sig") as fh:
-            tables.append((None, [list(r) for r in csv.reader(fh)]))
+        text, _encoding = decode(name, path.read_bytes())
+        lines = text.splitlines()
+        tables.append((None, [list(r) for r in csv.reader(lines, delimiter=sniff_delimiter(text))]))
     else:
         raise InputError(Finding(f"{name}: an earlier timetable must be an .xlsx or .csv file.", found=suffix))
     for sheet, rows in tables:
@@ -94,5 +149,6 @@ def _read_table(name: str, sheet: str | None, rows: list[list[object]]) -> Previ
                                          found=slot, expected=out.slots[code]))
             out.slots[code] = slot
             out.where[code] = where
+            out.event_where[code] = Location(name, sheet, n, str(row[ev]))
         return out
     return None
