@@ -33,12 +33,15 @@ from .slot_counts import SlotCountsOption, parse_slot_counts
               help="Time for counting the clash-free timetables. Counts that take longer are estimated.")
 @click.option("--workers", type=click.IntRange(1, 64), default=2, show_default=True, help="Search threads.")
 @click.option("--seed", type=int, default=0, show_default=True, help="Random seed of the search.")
+@click.option("--repeatable", is_flag=True,
+              help="The same timetables on every run with the same seed and workers (the search then stops on "
+                   "work done rather than on the clock, so it may take longer or shorter than the time limit).")
 @click.option("--share-rooms", is_flag=True, help="Let several events of the same length share a room.")
 @click.option("--split-rooms", is_flag=True, help="Let a large event spread over several rooms (each extra room is penalised).")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document instead of a table.")
 @output_options
 def command(file, sheet, attendee_column, event_column, slot_counts, sessions_per_day, time_limit, count_time, workers,
-            seed, share_rooms, split_rooms, as_json, outputs, **_ignored):
+            seed, repeatable, share_rooms, split_rooms, as_json, outputs, **_ignored):
     """Put several numbers of slots for FILE side by side, to decide how many to book.
 
     \b
@@ -67,8 +70,8 @@ def command(file, sheet, attendee_column, event_column, slot_counts, sessions_pe
         return list(problem.slots[:k]) if problem.slots else generic_slots(k, sessions_per_day)
 
     graph = conflict_graph(problem)
-    options = SolveOptions(time_limit=time_limit, workers=workers, seed=seed, room_sharing=share_rooms,
-                           room_splitting=split_rooms)
+    options = SolveOptions(time_limit=time_limit, workers=workers, seed=seed, deterministic=repeatable,
+                           room_sharing=share_rooms, room_splitting=split_rooms)
     with _step(not as_json, "looking for the fewest slots"):
         fewest = fewest_slots(problem, per_day=sessions_per_day, options=options, graph=graph)
     runs = []
@@ -84,7 +87,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, sessions_pe
         counts, count_note = count_for_runs(problem, runs, count_time, graph=graph)
     validations = {r.slots: r.validation for r in runs if getattr(r, "validation", None) is not None}
     settings = {"compared slot counts": ks, "time limit (s)": time_limit, "count time (s)": count_time,
-                "workers": workers, "seed": seed, "sessions per day": None if problem.slots else sessions_per_day,
+                "workers": workers, "seed": seed, "repeatable": repeatable, "sessions per day": None if problem.slots else sessions_per_day,
                 "share rooms": share_rooms, "split rooms": split_rooms}
     written = publish(outputs, problem=problem, runs=runs, counts=counts, reading=reading, settings=settings,
                       validations=validations, fewest=fewest, quiet=as_json)
