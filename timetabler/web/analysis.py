@@ -254,6 +254,7 @@ WEIGHT_LABELS = {
     "preferred_slot": "Event outside its preferred slots",
     "penalised_slot": "Event in a penalised slot",
     "room_split": "Event split over rooms",
+    "moved": "Event moved from the earlier timetable (repair)",
     "preferred_room": "Event outside its preferred rooms",
     "penalised_room": "Event in a room marked Avoid",
 }
