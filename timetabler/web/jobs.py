@@ -110,17 +110,18 @@ def _child_main() -> None:
     except (AttributeError, OSError):
         pass
     try:
-        problem, plan, options, previous, fewest_per_day = pickle.load(sys.stdin.buffer)
+        problem, plan, options, previous_for, fewest_per_day = pickle.load(sys.stdin.buffer)
         from timetabler.conflicts import conflict_graph
         from timetabler.scheduling import fewest_slots, solve, validate
 
         graph = conflict_graph(problem)
         for k, slots in plan:
             _send(out, ("start", k, time.time()))
+            previous = previous_for.get(k) or None
             run = solve(problem, slots, options, previous=previous, progress=_throttled(out, "progress", k), graph=graph.copy())
             if run.assignment:
                 run.validation = validate(
-                    problem, slots, run.assignment, run.rooms or None,
+                    problem, slots, run.assignment, run.rooms or None, previous=previous,
                     room_sharing=bool(getattr(options, "room_sharing", False)),
                     room_splitting=bool(getattr(options, "room_splitting", False)),
                 )
@@ -184,12 +185,18 @@ class SolveJob:
         The engine's ``SolveOptions`` (passed through untouched).
     time_limit
         Seconds per slot count, used only to draw the progress bar.
+    previous
+        An earlier timetable to keep (event code -> slot number), the same for every slot count.
+    previous_by_slots
+        The same, resolved for each slot count (K -> event code -> slot number): slot labels and
+        numbers can mean different slots, or none, for different K. Wins over ``previous``.
     """
 
     problem: Any
     plan: list[tuple[int, list]]
     options: Any = None
     previous: dict | None = None
+    previous_by_slots: dict[int, dict] | None = None
     time_limit: float = 30.0
     #: Sessions per day for the fewest-slots search, run after the slot counts; None: no search.
     fewest_per_day: int | None = None
@@ -223,7 +230,8 @@ class SolveJob:
             close_fds=True,
             env=env,
         )
-        payload = pickle.dumps((self.problem, self.plan, self.options, self.previous, self.fewest_per_day),
+        previous_for = {k: (self.previous_by_slots or {}).get(k, self.previous) for k, _ in self.plan}
+        payload = pickle.dumps((self.problem, self.plan, self.options, previous_for, self.fewest_per_day),
                                protocol=pickle.HIGHEST_PROTOCOL)
         self.state = "running"
         self._watcher = threading.Thread(target=self._watch, args=(payload,), name="timetabler-solve-watch", daemon=True)

@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import dataclasses
 import logging
+import secrets
 import shutil
 import tempfile
 from pathlib import Path
@@ -35,7 +36,7 @@ from starlette.requests import Request
 from starlette.responses import FileResponse, JSONResponse, RedirectResponse, Response
 from starlette.routing import Route
 
-from ..errors import InputError
+from ..errors import Finding, InputError
 from . import analysis as an
 from .count_chart import bar_from_count, count_chart_svg
 from .jobs import SolveJob
@@ -136,17 +137,8 @@ async def upload(request: Request) -> Response:
     if not content_type.startswith("multipart/form-data"):
         return message(request, 400, "No file received", "Choose a file with the button on the first page, then press Upload.", back="/")
 
-    async def limited():
-        received = 0
-        async for chunk in request.stream():
-            received += len(chunk)
-            if received > cap + 64 * 1024:
-                raise _TooLarge
-            yield chunk
-
-    parser = MultiPartParser(request.headers, limited(), max_files=1, max_fields=8, max_part_size=64 * 1024)
     try:
-        form = await parser.parse()
+        form = await _capped_form(request, cap, max_files=1, max_fields=8, max_part_size=64 * 1024)
     except _TooLarge:
         return message(request, 413, "File too large", store.too_large_message(), back="/")
     except MultiPartException as exc:
@@ -172,6 +164,22 @@ async def upload(request: Request) -> Response:
     finally:
         await form.close()
     return RedirectResponse(f"/files/{stored.token}", status_code=303)
+
+
+async def _capped_form(request: Request, cap: int, *, max_files: int, max_fields: int, max_part_size: int):
+    """Parse a multipart form, stopping (``_TooLarge``) as soon as the body passes ``cap`` and a margin."""
+
+    async def limited():
+        received = 0
+        async for chunk in request.stream():
+            received += len(chunk)
+            if received > cap + 64 * 1024:
+                raise _TooLarge
+            yield chunk
+
+    parser = MultiPartParser(request.headers, limited(), max_files=max_files, max_fields=max_fields,
+                             max_part_size=max_part_size)
+    return await parser.parse()
 
 
 def _copy_capped(source, target: Path, cap: int) -> int:
@@ -319,14 +327,35 @@ def _suggested(rows: list, analysis: an.Analysis) -> list[int]:
 
 async def start_solve(request: Request) -> Response:
     stored = upload_of(request)
-    settings = request.app.state.settings
     if job_running(stored):
         return _busy(request, stored)
     analysis = _current_analysis(stored)
     if analysis is None:
         return RedirectResponse(f"/files/{stored.token}", status_code=303)
-    form = await request.form(max_files=0, max_fields=200, max_part_size=16 * 1024)
-    fields = {key: str(value) for key, value in form.items()}
+    back = f"/files/{stored.token}"
+    if request.headers.get("content-type", "").startswith("multipart/form-data"):
+        # The form carries the optional earlier timetable: the same caps as the main upload.
+        cap = store_of(request).max_bytes
+        length = request.headers.get("content-length")
+        if length is not None and length.isdigit() and int(length) > cap + 64 * 1024:
+            return message(request, 413, "File too large", store_of(request).too_large_message(), back=back)
+        try:
+            form = await _capped_form(request, cap, max_files=1, max_fields=200, max_part_size=16 * 1024)
+        except _TooLarge:
+            return message(request, 413, "File too large", store_of(request).too_large_message(), back=back)
+        except MultiPartException as exc:
+            return message(request, 400, "The form could not be read", f"The browser's form was not understood ({exc}). Try again.", back=back)
+    else:
+        form = await request.form(max_files=0, max_fields=200, max_part_size=16 * 1024)
+    try:
+        return await _start_solve(request, stored, analysis, form)
+    finally:
+        await form.close()
+
+
+async def _start_solve(request: Request, stored: StoredUpload, analysis: an.Analysis, form) -> Response:
+    settings = request.app.state.settings
+    fields = {key: value for key, value in form.items() if isinstance(value, str)}
     problem = analysis.problem
     try:
         ks = an.parse_slot_counts(form.getlist("slots") + [fields.get("more_slots", "")], limit=settings.max_slot_counts)
@@ -346,13 +375,17 @@ async def start_solve(request: Request) -> Response:
         return message(request, 400, "Please check the choices", str(exc), back=f"/files/{stored.token}")
     chosen = dataclasses.replace(problem, weights=weights, rules=rules)
     plan = [(k, an.slot_list(chosen, k, per_day)) for k in ks]
+    earlier = await _earlier_timetable(request, stored, form.get("earlier"), chosen, plan)
+    if isinstance(earlier, Response):
+        return earlier
     from ..scheduling import SolveOptions
 
     rooms_shared = bool(problem.rooms) and fields.get("room_sharing") == "on"
     rooms_split = bool(problem.rooms) and fields.get("room_splitting") == "on"
     options = SolveOptions(time_limit=float(limit), room_sharing=rooms_shared, room_splitting=rooms_split)
     find_fewest = fields.get("find_fewest") == "on"
-    job = SolveJob(chosen, plan, options, time_limit=float(limit), fewest_per_day=per_day if find_fewest else None)
+    job = SolveJob(chosen, plan, options, time_limit=float(limit), fewest_per_day=per_day if find_fewest else None,
+                   previous_by_slots=earlier.by_slots if earlier is not None else None)
     # Checked again after the form's await; from here to job.start() nothing awaits, so on the one
     # event loop no other request can start a job for this file in between.
     if job_running(stored):
@@ -367,12 +400,87 @@ async def start_solve(request: Request) -> Response:
         "fewest slots searched": "yes" if find_fewest else "no",
         "rules kept": len(rules),
         "rules switched off": len(problem.rules) - len(rules),
+        "earlier timetable kept": earlier.name if earlier is not None else "none",
         **{f"weight: {w['label']}": getattr(weights, w["name"]) for w in an.weight_fields(weights)},
     }
     stored.state["job_problem"] = chosen
+    stored.state["job_earlier"] = earlier
     stored.state.pop("outputs", None)
     job.start()
     return RedirectResponse(f"/files/{stored.token}/solving", status_code=303)
+
+
+@dataclasses.dataclass
+class EarlierTimetable:
+    """The earlier timetable a solve keeps: its file name as the user knows it, and its slots
+    resolved for each slot count (with the events whose earlier slot is not among those slots)."""
+
+    name: str
+    by_slots: dict[int, dict[str, int]]
+    unplaced: dict[int, list[dict]]
+
+
+#: Slots a reference without a slots sheet may name (``Slot 1`` .. or 1 ..): any sensible number.
+_GENERIC_REACH = 10_000
+
+
+async def _earlier_timetable(request: Request, stored: StoredUpload, sent: Any, problem, plan) -> "EarlierTimetable | Response | None":
+    """Keep, read and check the earlier timetable sent with the solve form (None when none was sent).
+
+    The file goes through the checks of the main upload and is kept in the upload's folder as
+    ``earlier.xlsx`` or ``earlier.csv``. An event that is not in the enrolments, or a slot that
+    names no slot of this file at all, stops the solve with the findings page; a slot beyond the
+    number of slots of one run only means that event is placed afresh in that run.
+    """
+    if sent is None or isinstance(sent, str) or not sent.filename:
+        return None
+    store = store_of(request)
+    back = f"/files/{stored.token}"
+    received = stored.folder / f"earlier-received-{secrets.token_hex(6)}"
+    try:
+        size = await run_in_threadpool(_copy_capped, sent.file, received, store.max_bytes)
+    except _TooLarge:
+        received.unlink(missing_ok=True)
+        return message(request, 413, "File too large", store.too_large_message(), back=back)
+    if size == 0:
+        received.unlink(missing_ok=True)
+        return message(request, 400, "The earlier timetable is empty", "The file chosen as the earlier timetable has nothing in it.", back=back)
+    try:
+        kept = await run_in_threadpool(store.keep_beside, stored, received, sent.filename, "earlier")
+    except UploadRejected as exc:
+        return message(request, exc.status, "The earlier timetable cannot be used", str(exc), back=back)
+    from ..intake.previous_timetable import read_previous_timetable, resolve_previous
+
+    try:
+        refs = await run_in_threadpool(read_previous_timetable, kept.path)
+    except InputError as exc:
+        return _earlier_findings(request, stored, kept.name, kept.path, exc.findings)
+    if not refs.slots:
+        return _earlier_findings(request, stored, kept.name, kept.path, [Finding(
+            "No event of the earlier timetable has a slot.", expected="a slot number or label beside each event")])
+    reach = list(problem.slots) if problem.slots else an.slot_list(problem, _GENERIC_REACH, 1)
+    check = resolve_previous(problem, refs, reach)
+    bad = [dataclasses.replace(f, severity="error", suggestion=(
+        "Check the spelling against the enrolments; if the event was cancelled, delete its row from the earlier "
+        "timetable and choose the file again.")) for f in check.dropped]
+    bad += [dataclasses.replace(f, severity="error", message=f.message.split(", which")[0] + ", which names no slot of this file.",
+                                expected=f"a slot label of the slots sheet or a number from 1 to {len(reach)}"
+                                if problem.slots else "a slot number (1, 2, ...) or a label 'Slot N'") for f in check.unplaced]
+    if bad:
+        return _earlier_findings(request, stored, kept.name, kept.path, bad)
+    by_slots: dict[int, dict[str, int]] = {}
+    unplaced: dict[int, list[dict]] = {}
+    for k, slots in plan:
+        resolved = resolve_previous(problem, refs, slots)
+        by_slots[k] = resolved.slots
+        unplaced[k] = [{"event": code, "slot": ref} for code, ref in refs.slots.items()
+                       if code in problem.events and code not in resolved.slots]
+    return EarlierTimetable(name=kept.name, by_slots=by_slots, unplaced=unplaced)
+
+
+def _earlier_findings(request: Request, stored: StoredUpload, name: str, path: Path, findings: list) -> Response:
+    rows = an.finding_rows(findings, path, name)
+    return render(request, "earlier_findings.html", {"upload": stored, "name": name, "findings": rows}, status=422)
 
 
 def _busy(request: Request, stored: StoredUpload) -> Response:
@@ -460,8 +568,25 @@ async def timetable(request: Request) -> Response:
             "with_timetable": with_timetable,
             "settings_used": stored.state.get("job_settings", {}),
             "dated": bool(with_timetable) and all(s.date is not None for s in with_timetable[0].slot_list),
+            "earlier": stored.state.get("job_earlier"),
+            "moves": _moves(problem, shown) if shown is not None else [],
         },
     )
+
+
+def _moves(problem, run) -> list[dict]:
+    """The events a repair moved, with the slots by label: from the earlier timetable, to this one."""
+    labels = [slot.label for slot in run.slot_list]
+
+    def label(number: int) -> str:
+        return labels[number - 1] if 1 <= number <= len(labels) else str(number)
+
+    rows = []
+    for move in getattr(run, "moves", None) or []:
+        event = problem.events.get(move["event"])
+        rows.append({"event": move["event"], "title": getattr(event, "title", None) or "",
+                     "from": label(move["from"]), "to": label(move["to"])})
+    return rows
 
 
 def _comparison(problem, runs: list, counts: Any, fewest: Any) -> dict:

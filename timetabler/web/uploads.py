@@ -163,6 +163,16 @@ class StoredUpload:
     lock: threading.Lock = field(default_factory=threading.Lock)
 
 
+@dataclass
+class CompanionFile:
+    """A second file kept beside an upload (in its folder, under a name of our choosing)."""
+
+    path: Path
+    kind: str
+    name: str
+    size: int
+
+
 class UploadStore:
     """The private folder of uploads of one server run.
 
@@ -216,6 +226,35 @@ class UploadStore:
             self._uploads[token] = upload
         self.tidy(keep=token)
         return upload
+
+    def keep_beside(self, upload: StoredUpload, data_path: Path, client_name: str | None, stem: str,
+                    kinds: tuple[str, ...] = ("xlsx", "csv")) -> "CompanionFile":
+        """Check a second file sent with ``upload`` (an earlier timetable, say) as the main one is
+        checked — size cap, type by content, unpacked size — and keep it in the upload's folder as
+        ``{stem}.{kind}``, replacing an earlier one of that stem. It is deleted with the upload.
+
+        Raises UploadRejected (and deletes ``data_path``) when the file is not acceptable.
+        """
+        try:
+            size = data_path.stat().st_size
+            if size > self.max_bytes:
+                raise UploadRejected(self.too_large_message(), status=413)
+            with open(data_path, "rb") as handle:
+                head = handle.read(65536)
+            kind = sniff_kind(head, data_path)
+            if kind not in kinds:
+                raise UploadRejected(
+                    f"This file is a .{kind} file; here only {' or '.join('.' + k for k in kinds)} files are read. "
+                    "Save it in one of those forms from your spreadsheet program and choose it again."
+                )
+            for old in upload.folder.glob(f"{stem}.*"):
+                old.unlink()
+            final = upload.folder / f"{stem}.{kind}"
+            os.replace(data_path, final)
+        except BaseException:
+            data_path.unlink(missing_ok=True)
+            raise
+        return CompanionFile(path=final, kind=kind, name=display_name(client_name), size=size)
 
     def too_large_message(self) -> str:
         return (
