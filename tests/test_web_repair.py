@@ -96,8 +96,9 @@ def moves_of(page: str) -> set[tuple[str, str, str]]:
     table = re.search(r'<table class="moves" id="moves">(.*?)</table>', page, re.S)
     if table is None:
         return set()
-    rows = re.findall(r'<tr><td class="code">([^<]+)</td><td>[^<]*</td><td>([^<]+)</td><td>([^<]+)</td></tr>',
+    rows = re.findall(r'<tr><td class="code">([^<]+)</td><td>[^<]*</td><td>([^<]+)</td><td>([^<]+)</td><td class="num">\d+</td></tr>',
                       table.group(1))
+    assert len(rows) == table.group(1).count('<td class="code">')  # every row read
     return set(rows)
 
 
@@ -172,6 +173,9 @@ def test_a_late_enrolment_is_repaired_with_the_fewest_moves_and_every_move_liste
     # And there are as few as possible: the fewest any clash-free timetable needs (at least one here).
     least = fewest_moves(earlier, changed, SLOTS)
     assert least >= 1 and len(listed) == least
+    for event, _, _ in listed:  # attendees affected by each move, recounted from the enrolments
+        attendees = sum(1 for _, e in changed if e == event)
+        assert re.search(rf'<td class="code">{event}</td>.*?<td class="num">{attendees}</td></tr>', page)
 
     # The published workbook lists the same moves on its Moves sheet.
     book = openpyxl.load_workbook(io.BytesIO(client.get(f"/files/{second}/download/timetable.xlsx").content), read_only=True)
@@ -203,11 +207,16 @@ def test_an_earlier_timetable_that_still_holds_moves_nothing(client):
 def test_an_event_whose_slot_is_beyond_the_slots_chosen_is_placed_afresh(client):
     token = upload(client, "resits.csv", as_csv(ENROLMENTS))
     text = "Event,Slot\nHVM101,Slot 1\nHVM102,Slot 2\nHVM103,Slot 4\n"
-    assert solve(client, token, earlier=("last-week.csv", text.encode()), slots=3, **ONLY_MOVES).status_code == 303
+    r = solve(client, token, earlier=("last-week.csv", text.encode()), slots=3, more_slots="4", **ONLY_MOVES)
+    assert r.status_code == 303
     solved(client, token)
-    page = client.get(f"/files/{token}/timetable").text
+    page = client.get(f"/files/{token}/timetable").text  # 3 slots shown first
     note = re.search(r'id="placed-afresh">(.*?)</p>', page, re.S)
     assert note is not None and "HVM103 (was Slot 4)" in note.group(1)
+    four = client.get(f"/files/{token}/timetable?slots=4").text
+    assert 'id="placed-afresh"' not in four  # slot 4 exists with four slots: HVM103 is kept there
+    assert grid_of(four)["HVM103"] == 4 and "No event moved" in four
+    assert "Events moved: 3 slots 0 · 4 slots 0." in re.sub(r"\s+", " ", four)
 
 
 @pytest.mark.parametrize(
@@ -245,3 +254,40 @@ def test_an_earlier_timetable_goes_through_the_upload_checks(client):
     assert client.get(f"/files/{token}/solving.json").json() == {"state": "none"}
     folder = client.app.state.store.get(token).folder
     assert not [p for p in folder.iterdir() if p.name.startswith("earlier")]  # nothing rejected is kept
+
+
+def test_labelled_slots_of_a_slots_sheet_are_kept_and_moves_named_by_label(client, tmp_path):
+    import datetime as dt
+
+    from intake_builders import write_xlsx
+
+    labels = ["Mon 11 Jan AM", "Mon 11 Jan PM", "Tue 12 Jan AM", "Tue 12 Jan PM"]
+    slots_sheet = [("Slot", "Date", "Start", "Length (minutes)")] + [
+        (label, dt.datetime(2027, 1, 11 + i // 2), "09:00" if i % 2 == 0 else "14:00", 120) for i, label in enumerate(labels)]
+    late = ENROLMENTS + [("HV-S0099", "HVM101"), ("HV-S0099", "HVP201")]
+    book = write_xlsx(tmp_path / "resits-late.xlsx", {"Enrolments": [("Student", "Exam"), *late], "Slots": slots_sheet})
+    token = upload(client, "resits-late.xlsx", book.read_bytes())
+    # The earlier timetable by label: HVM101 and HVP201 shared the first slot; now one student sits both.
+    earlier = {"HVM101": 1, "HVM102": 2, "HVM103": 3, "HVP201": 1, "HVP202": 2, "HVC301": 3}
+    assert clash_free(earlier, ENROLMENTS) and not clash_free(earlier, late)
+    text = "Exam,Slot\n" + "".join(f"{e},{labels[s - 1]}\n" for e, s in earlier.items())
+    assert solve(client, token, earlier=("published.csv", text.encode()), **ONLY_MOVES).status_code == 303
+    assert solved(client, token)["slots"][0]["status"] == "optimal"
+    page = client.get(f"/files/{token}/timetable").text
+    listed = moves_of(page)
+    assert len(listed) == fewest_moves(earlier, late, 4) == 1
+    (event, before, after), = listed
+    assert event in ("HVM101", "HVP201") and before == labels[0] and after in labels[1:]
+
+    # A label the slots sheet does not have stops the solve, naming the cell.
+    bad = "Exam,Slot\nHVM101,Mon 11 Jan AM\nHVM102,Wed 13 Jan AM\n"
+    r = solve(client, token, earlier=("published.csv", bad.encode()))
+    assert r.status_code == 422 and "row 3" in r.text and "column “Slot”" in r.text
+    assert "a slot label of the slots sheet" in r.text
+
+
+def test_an_enrolment_file_given_as_the_earlier_timetable_is_explained(client):
+    token = upload(client, "resits.csv", as_csv(ENROLMENTS))
+    r = solve(client, token, earlier=("resits.csv", as_csv(ENROLMENTS)))
+    assert r.status_code == 422 and "no sheet has a header row with an event column and a &#39;Slot&#39; column" in r.text
+    assert "resits.csv" in r.text and str(client.app.state.store.root) not in r.text

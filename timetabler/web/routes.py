@@ -570,6 +570,7 @@ async def timetable(request: Request) -> Response:
             "dated": bool(with_timetable) and all(s.date is not None for s in with_timetable[0].slot_list),
             "earlier": stored.state.get("job_earlier"),
             "moves": _moves(problem, shown) if shown is not None else [],
+            "moves_by_slots": [(r.slots, len(r.moves or [])) for r in with_timetable],
         },
     )
 
@@ -581,11 +582,13 @@ def _moves(problem, run) -> list[dict]:
     def label(number: int) -> str:
         return labels[number - 1] if 1 <= number <= len(labels) else str(number)
 
+    moves = getattr(run, "moves", None) or []
+    sizes = problem.event_sizes() if moves else {}
     rows = []
-    for move in getattr(run, "moves", None) or []:
+    for move in moves:
         event = problem.events.get(move["event"])
         rows.append({"event": move["event"], "title": getattr(event, "title", None) or "",
-                     "from": label(move["from"]), "to": label(move["to"])})
+                     "from": label(move["from"]), "to": label(move["to"]), "attendees": sizes.get(move["event"], 0)})
     return rows
 
 
