@@ -269,3 +269,25 @@ def test_a_seating_that_only_ran_out_of_time_is_not_called_impossible(monkeypatc
     else:
         assert run.status == "unknown" and not run.proven
         assert "not proven impossible" in run.reason and "slot(s) 1" in run.reason
+
+
+def test_groups_are_not_moved_between_slots_when_a_rule_ties_an_event_to_its_slot(monkeypatch):
+    # Moving whole groups of events between slots (arrangement.py) keeps clashes away but not a
+    # fixed slot; it must run only when the slots are interchangeable. Before this was checked,
+    # the sample term's first timetable lost its fixed paper's slot and was thrown away.
+    import importlib
+    solve_module = importlib.import_module("timetabler.scheduling.solve")
+    calls = []
+    real = solve_module.arrange
+    monkeypatch.setattr(solve_module, "arrange", lambda *a, **k: calls.append(1) or real(*a, **k))
+    enrol = chain(4) + [("HV-S0002", "E1"), ("HV-S0002", "F1"), ("HV-S0003", "F1"), ("HV-S0003", "E4")]
+    events = {c: Event(c) for c in ("E1", "E2", "E3", "E4", "F1")}
+    events["E4"] = Event("E4", fixed_slot="1")
+    # a rule DSATUR does not know, so its first timetable fails and CP-SAT searches for one
+    rules = [Rule(RuleKind.SAME_SLOT, ("E3", "F1"))]
+    p = Problem(enrol, events=events, rules=rules)  # default weights: the order of the slots matters
+    run, v = solved(p, generic_slots(6, 2))
+    assert run.assignment["E4"] == 1 and run.assignment["E3"] == run.assignment["F1"] and not calls
+    free = Problem(enrol, rules=rules)  # nothing fixed: the slots are alike and arranging is used
+    solved(free, generic_slots(6, 2))
+    assert calls

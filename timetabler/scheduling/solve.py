@@ -425,7 +425,7 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
             return _explain(problem, slots, graph, block, sizes, domains, options, left, run, cover)
         if status in (cp_model.OPTIMAL, cp_model.FEASIBLE):
             feasible_hint = tm.assignment(solver)
-            if not order_free:
+            if symmetric and not order_free:  # moving whole groups between slots is safe only when slots are alike
                 feasible_hint = arrange(sub, feasible_hint, slots, problem.weights, large=large, seed=options.seed,
                                         **_arrange_effort(options, seconds))
             say("seating the first timetable")
