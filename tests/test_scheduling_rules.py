@@ -291,3 +291,13 @@ def test_groups_are_not_moved_between_slots_when_a_rule_ties_an_event_to_its_slo
     free = Problem(enrol, rules=rules)  # nothing fixed: the slots are alike and arranging is used
     solved(free, generic_slots(6, 2))
     assert calls
+
+
+def test_fewest_slots_gives_the_reason_the_slot_count_below_fails():
+    from timetabler.scheduling import fewest_slots
+    enrol = [(f"HV-S{i:04d}", e) for e, base in (("A", 0), ("B", 100), ("C", 200)) for i in range(base, base + 60)]
+    p = Problem(enrol, rooms=[Room("Great Hall", 100)], weights=ZERO)
+    res = fewest_slots(p, options=SolveOptions(time_limit=10, workers=2))
+    # seats alone ask for 2 slots (180 seats, 100 a slot); one event per room asks for 3
+    assert res.upper == res.lower == 3 and res.proven
+    assert res.lower_reason.startswith("2 slots cannot hold a timetable: ") and "places over 2 slots" in res.lower_reason

@@ -238,8 +238,9 @@ def _print_runs(problem, runs, fewest_result) -> None:
                       ("passed" if v.ok else f"FAILED ({len(v.violations)})") if v else "",
                       f"{r.wall_seconds:.1f}")
     console.print(table)
-    console.print("Check: the independent validator re-checked the timetable against every enrolment and rule.",
-                  style="dim")
+    if any(r.validation for r in runs):  # no timetable, nothing to re-check
+        console.print("Check: the independent validator re-checked the timetable against every enrolment and rule.",
+                      style="dim")
     for r in runs:
         if r.penalty_breakdown and any(r.penalty_breakdown.values()):
             parts = ", ".join(f"{name.replace('_', ' ')} {value}" for name, value in r.penalty_breakdown.items() if value)

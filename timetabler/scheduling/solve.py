@@ -746,6 +746,7 @@ def fewest_slots(
     hi = None
     max_k = len(problem.slots) if problem.slots else max(n, 1)
     proven_lo = lower
+    why_not: dict[int, str] = {}  # slot count proven impossible -> the solver's reason
     lo = lower
     quick = SolveOptions(**{**options.__dict__, "explain": False})
     if plain:
@@ -779,6 +780,7 @@ def fewest_slots(
                 colouring, hi, result.upper_reason = dict(run.assignment), k, "CP-SAT"
             elif run.status == "infeasible":
                 lo = proven_lo = k + 1
+                why_not[k] = run.reason or ""
             else:
                 budget *= 2
         best_run = SolveRun(slots=hi, slot_list=slots_for(hi), status="feasible", assignment=dict(colouring))
@@ -794,6 +796,7 @@ def fewest_slots(
             hi, best_run, result.upper_reason = lo, run, "CP-SAT"
         elif run.status == "infeasible":
             proven_lo = max(proven_lo, lo + 1)
+            why_not[lo] = run.reason or ""
             lo += 1
         else:
             lo += 1
@@ -821,12 +824,15 @@ def fewest_slots(
             # fewer slots only make it harder: infeasible at mid proves the fewest is above mid
             lo = mid + 1
             proven_lo = max(proven_lo, mid + 1)
+            why_not[mid] = run.reason or ""
         else:
             lo = mid + 1
     result.upper = hi
     if proven_lo > result.lower:
         result.lower = proven_lo
-        result.lower_reason = f"CP-SAT proved that {proven_lo - 1} slots cannot hold a timetable"
+        reason = why_not.get(proven_lo - 1)
+        result.lower_reason = (f"{proven_lo - 1} slots cannot hold a timetable: {reason}" if reason else
+                               f"CP-SAT proved that {proven_lo - 1} slots cannot hold a timetable")
         result.witness = []
     result.proven = hi is not None and result.lower == hi
     result.run = best_run
