@@ -222,8 +222,6 @@ def test_an_event_whose_slot_is_beyond_the_slots_chosen_is_placed_afresh(client)
 @pytest.mark.parametrize(
     ("text", "where"),
     [
-        # An event the enrolments do not have: its row and the event column are named.
-        ("Event,Slot\nHVM101,Slot 1\nHVX999,Slot 2\n", ["row 3", "column “Event”", "HVX999"]),
         # A slot that names no slot at all.
         ("Event,Slot\nHVM101,Slot 1\nHVM102,Tuesday morning\n", ["row 3", "column “Slot”", "Tuesday morning"]),
     ],
@@ -291,3 +289,16 @@ def test_an_enrolment_file_given_as_the_earlier_timetable_is_explained(client):
     r = solve(client, token, earlier=("resits.csv", as_csv(ENROLMENTS)))
     assert r.status_code == 422 and "no sheet has a header row with an event column and a &#39;Slot&#39; column" in r.text
     assert "resits.csv" in r.text and str(client.app.state.store.root) not in r.text
+
+
+def test_an_event_no_longer_enrolled_is_left_out_and_named(client):
+    # as `solve --keep` does: a cancelled event in the earlier timetable does not stop the repair
+    token = upload(client, "resits.csv", as_csv(ENROLMENTS))
+    text = "Event,Slot\nHVM101,Slot 1\nHVX999,Slot 2\n"
+    r = solve(client, token, earlier=("last-week.csv", text.encode()), slots=3, **ONLY_MOVES)
+    assert r.status_code == 303
+    solved(client, token)
+    page = client.get(f"/files/{token}/timetable").text
+    note = re.search(r'id="left-out">(.*?)</p>', page, re.S)
+    assert note is not None and "HVX999" in note.group(1) and "HVM101" not in note.group(1)
+    assert grid_of(page)["HVM101"] == 1  # the event still enrolled keeps its slot

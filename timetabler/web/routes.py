@@ -418,6 +418,7 @@ class EarlierTimetable:
     name: str
     by_slots: dict[int, dict[str, int]]
     unplaced: dict[int, list[dict]]
+    dropped: list[str] = dataclasses.field(default_factory=list)  # events no longer in the enrolments
 
 
 #: Slots a reference without a slots sheet may name (``Slot 1`` .. or 1 ..): any sensible number.
@@ -430,7 +431,9 @@ async def _earlier_timetable(request: Request, stored: StoredUpload, sent: Any, 
     The file goes through the checks of the main upload and is kept in the upload's folder as
     ``earlier.xlsx`` or ``earlier.csv``. An event that is not in the enrolments, or a slot that
     names no slot of this file at all, stops the solve with the findings page; a slot beyond the
-    number of slots of one run only means that event is placed afresh in that run.
+    number of slots of one run only means that event is placed afresh in that run. An event no
+    longer in the enrolments (a cancelled exam, say) is left out and named on the timetable page,
+    as ``solve --keep`` does on the command line.
     """
     if sent is None or isinstance(sent, str) or not sent.filename:
         return None
@@ -460,10 +463,7 @@ async def _earlier_timetable(request: Request, stored: StoredUpload, sent: Any, 
             "No event of the earlier timetable has a slot.", expected="a slot number or label beside each event")])
     reach = list(problem.slots) if problem.slots else an.slot_list(problem, _GENERIC_REACH, 1)
     check = resolve_previous(problem, refs, reach)
-    bad = [dataclasses.replace(f, severity="error", suggestion=(
-        "Check the spelling against the enrolments; if the event was cancelled, delete its row from the earlier "
-        "timetable and choose the file again.")) for f in check.dropped]
-    bad += [dataclasses.replace(f, severity="error", message=f.message.split(", which")[0] + ", which names no slot of this file.",
+    bad = [dataclasses.replace(f, severity="error", message=f.message.split(", which")[0] + ", which names no slot of this file.",
                                 expected=f"a slot label of the slots sheet or a number from 1 to {len(reach)}"
                                 if problem.slots else "a slot number (1, 2, ...) or a label 'Slot N'") for f in check.unplaced]
     if bad:
@@ -475,7 +475,8 @@ async def _earlier_timetable(request: Request, stored: StoredUpload, sent: Any, 
         by_slots[k] = resolved.slots
         unplaced[k] = [{"event": code, "slot": ref} for code, ref in refs.slots.items()
                        if code in problem.events and code not in resolved.slots]
-    return EarlierTimetable(name=kept.name, by_slots=by_slots, unplaced=unplaced)
+    dropped = sorted(code for code in refs.slots if code not in problem.events)
+    return EarlierTimetable(name=kept.name, by_slots=by_slots, unplaced=unplaced, dropped=dropped)
 
 
 def _earlier_findings(request: Request, stored: StoredUpload, name: str, path: Path, findings: list) -> Response:
