@@ -67,3 +67,14 @@ def test_plain_timetabler_shows_the_overview_and_succeeds(run_command):
     result = run_command()
     assert result.status == 0
     assert "Typical session" in result.stdout and "solve" in result.stdout and "count" in result.stdout
+
+
+def test_inspect_words_the_slot_bound_for_no_events_and_for_events_that_never_clash(run_command, tmp_path):
+    empty = tmp_path / "empty.csv"
+    empty.write_text("Student,Exam\n", encoding="utf-8")
+    result = run_command("inspect", empty)
+    assert result.status == 0 and "nothing to timetable" in result.stdout and "pairwise" not in result.stdout
+    apart = tmp_path / "apart.csv"
+    apart.write_text("Student,Exam\nHV-S0001,MAT101\nHV-S0002,HIS130\n", encoding="utf-8")
+    result = run_command("inspect", apart)
+    assert "At least 1 slot is needed: no two events share an attendee." in " ".join(result.stdout.split())

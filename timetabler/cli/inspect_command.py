@@ -56,10 +56,15 @@ def command(file: str, sheet, attendee_column, event_column, as_json: bool) -> N
     for label, value in rows:
         table.add_row(label, str(value))
     console.print(table)
-    console.print(
-        f"\nAt least [bold]{max(summary.max_clique, 1 if summary.events else 0)}[/bold] slots are needed: "
-        f"these events pairwise share attendees: {', '.join(summary.clique_events)}."
-    )
+    if not summary.events:
+        console.print("\nNo events yet, so there is nothing to timetable.")
+    elif summary.max_clique <= 1:
+        console.print("\nAt least [bold]1[/bold] slot is needed: no two events share an attendee.")
+    else:
+        console.print(
+            f"\nAt least [bold]{summary.max_clique}[/bold] slots are needed: "
+            f"these events pairwise share attendees: {', '.join(summary.clique_events)}."
+        )
     if summary.busiest_attendees:
         console.print("Busiest attendees: " + ", ".join(f"{a} ({n})" for a, n in summary.busiest_attendees))
 
