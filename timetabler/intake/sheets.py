@@ -219,12 +219,7 @@ def read_slots(table: Table, findings: FindingList, extras: Extras) -> None:
             findings.error("The day is not a day number.", table.where(r, "Day"), found=identifier(raw_day),
                            expected="1 for the first day, 2 for the second, ...")
             day = None
-        raw_avoid = table.get(cells, "Avoid")
-        avoid = yes_no(raw_avoid)
-        if avoid is None:
-            findings.error("Avoid must be yes or no.", table.where(r, "Avoid"), found=identifier(raw_avoid),
-                           expected="yes, or no (or blank)")
-            avoid = False
+        avoid = _avoid(table, cells, r, findings)
         slot = Slot(label=label, date=date, start=start, length_minutes=length, seat_capacity=seats, day=day, penalised=avoid)
         extras.slots.append((slot, table.where(r)))
         if date is not None:
@@ -263,12 +258,7 @@ def read_rooms(table: Table, findings: FindingList, extras: Extras) -> None:
             findings.error("The capacity is not a whole number of seats.", table.where(r, "Capacity"),
                            found=identifier(raw), expected="a whole number, 1 or more")
             capacity = 0
-        raw_avoid = table.get(cells, "Avoid")
-        avoid = yes_no(raw_avoid)
-        if avoid is None:
-            findings.error("Avoid must be yes or no.", table.where(r, "Avoid"), found=identifier(raw_avoid),
-                           expected="yes, or no (or blank)")
-            avoid = False
+        avoid = _avoid(table, cells, r, findings)
         room = Room(name=name, capacity=capacity, room_type=identifier(table.get(cells, "Room type")) or None,
                     unavailable_slots=tuple(split_list(table.get(cells, "Unavailable slots"))), penalised=avoid)
         extras.rooms.append((room, table.where(r)))
@@ -308,6 +298,17 @@ def read_rules(table: Table, findings: FindingList, extras: Extras) -> None:
             findings.error("The rule names the same event twice.", table.where(r, "Other events"), found=", ".join(events))
             continue
         extras.rules.append(Rule(kind=kind, events=events, where=table.where(r)))
+
+
+def _avoid(table: Table, cells, r: int, findings: FindingList) -> bool:
+    """The Avoid column of a slots or rooms row: yes/no (blank is no); anything else is an error."""
+    raw = table.get(cells, "Avoid")
+    avoid = yes_no(raw)
+    if avoid is None:
+        findings.error("Avoid must be yes or no.", table.where(r, "Avoid"), found=identifier(raw),
+                       expected="yes, or no (or blank)")
+        return False
+    return avoid
 
 
 def read_weights(table: Table, findings: FindingList, extras: Extras) -> None:

@@ -210,12 +210,7 @@ class UploadStore:
         Raises UploadRejected (and deletes the folder) when the file is not acceptable.
         """
         try:
-            size = data_path.stat().st_size
-            if size > self.max_bytes:
-                raise UploadRejected(self.too_large_message(), status=413)
-            with open(data_path, "rb") as handle:
-                head = handle.read(65536)
-            kind = sniff_kind(head, data_path)
+            size, kind = self._size_and_kind(data_path)
             final = folder / f"enrolments.{kind}"
             os.replace(data_path, final)
         except BaseException:
@@ -236,12 +231,7 @@ class UploadStore:
         Raises UploadRejected (and deletes ``data_path``) when the file is not acceptable.
         """
         try:
-            size = data_path.stat().st_size
-            if size > self.max_bytes:
-                raise UploadRejected(self.too_large_message(), status=413)
-            with open(data_path, "rb") as handle:
-                head = handle.read(65536)
-            kind = sniff_kind(head, data_path)
+            size, kind = self._size_and_kind(data_path)
             if kind not in kinds:
                 raise UploadRejected(
                     f"This file is a .{kind} file; here only {' or '.join('.' + k for k in kinds)} files are read. "
@@ -255,6 +245,16 @@ class UploadStore:
             data_path.unlink(missing_ok=True)
             raise
         return CompanionFile(path=final, kind=kind, name=display_name(client_name), size=size)
+
+    def _size_and_kind(self, data_path: Path) -> tuple[int, str]:
+        """The size of a received file and its type judged by content; UploadRejected when too large
+        or not a file timetabler reads."""
+        size = data_path.stat().st_size
+        if size > self.max_bytes:
+            raise UploadRejected(self.too_large_message(), status=413)
+        with open(data_path, "rb") as handle:
+            head = handle.read(65536)
+        return size, sniff_kind(head, data_path)
 
     def too_large_message(self) -> str:
         return (
