@@ -7,7 +7,7 @@ import importlib
 
 import pytest
 
-MODULES = ["dsatur", "cliques", "validator", "solve", "arrangement", "tabucol"]
+MODULES = ["dsatur", "cliques", "validator", "solve", "arrangement", "tabucol", "transversals"]
 
 
 @pytest.mark.parametrize("name", MODULES)

@@ -197,3 +197,61 @@ def test_tabucol_finds_proper_colourings_and_gives_up_below_chi():
     c3 = tabucol(petersen, 3, seconds=5, seed=1)
     assert c3 is not None and all(c3[u] != c3[v] for u, v in petersen.edges)
     assert tabucol(petersen, 2, max_moves=2000, seconds=5) is None  # chi(Petersen) = 3
+
+
+def test_transversals_of_the_queen_graph_rows_are_the_n_queens_solutions():
+    # One cell from each row, no two attacking: the n-queens solutions. Their numbers 4, 40, 92
+    # for n = 6, 7, 8 are OEIS A000170.
+    from timetabler.scheduling.transversals import clique_partition, transversals
+
+    for n, solutions in ((6, 4), (7, 40), (8, 92)):
+        g = queen_graph(n)
+        rows = [[(r, c) for c in range(n)] for r in range(n)]
+        found = transversals(g, rows)
+        assert len(found) == solutions and len(set(found)) == solutions
+        assert all(not g.has_edge(u, v) for t in found for u, v in itertools.combinations(t, 2))
+        assert transversals(g, rows, max_sets=solutions - 1) is None  # the cap is honoured
+        # the clique partition is found among the cover's cliques
+        blocks = clique_partition(g, n, clique_cover(g))
+        assert blocks is not None and sorted(v for b in blocks for v in b) == sorted(g.nodes)
+        assert all(g.has_edge(u, v) for b in blocks for u, v in itertools.combinations(b, 2))
+
+
+def test_colouring_by_transversals_decides_queen_graphs_both_ways():
+    # chi(queen7_7) = 7 and chi(queen6_6) = 7 > 6 (DIMACS table, ../shared index.tsv values for queen6_6/7_7)
+    from timetabler.scheduling.transversals import colour_by_transversals
+
+    seven = queen_graph(7)
+    found = colour_by_transversals(seven, 7, clique_cover(seven), seconds=20)
+    c = found.colouring
+    assert c is not None and set(c.values()) == set(range(1, 8)) and found.transversals == 40
+    assert all(c[u] != c[v] for u, v in seven.edges)
+    six = queen_graph(6)
+    no = colour_by_transversals(six, 6, clique_cover(six), seconds=20)  # 4 transversals cannot make 6 slots
+    assert no.colouring is None and no.impossible and no.transversals == 4
+    # no partition into cliques of 3 (10 events): nothing settled either way
+    other = colour_by_transversals(nx.petersen_graph(), 3, clique_cover(nx.petersen_graph()), seconds=5)
+    assert other.colouring is None and not other.impossible
+
+
+def test_fewest_slots_uses_the_clique_partition_when_the_other_searches_cannot_close_the_gap(monkeypatch):
+    import importlib
+
+    from timetabler.scheduling import SolveRun
+    solve_module = importlib.import_module("timetabler.scheduling.solve")
+    # as on queen11_11, where tabu search and CP-SAT on the slot model find nothing in a minute
+    monkeypatch.setattr(solve_module, "tabucol", lambda *a, **k: None)
+    monkeypatch.setattr(solve_module, "solve", lambda problem, slots, *a, **k: SolveRun(
+        slots=len(slots), slot_list=list(slots), status="unknown"))
+    p = graph_problem(queen_graph(7))
+    res = fewest_slots(p, options=SolveOptions(time_limit=20, workers=2))
+    assert res.upper == res.lower == 7 and res.proven and "transversals" in res.upper_reason
+    assert validate(p, generic_slots(7, 2), res.run.assignment).ok
+
+
+def test_fewest_slots_proves_a_slot_count_impossible_by_transversals():
+    # queen6_6: 6 events pairwise clash in each row, but only 4 ways (the 6-queens solutions,
+    # OEIS A000170) pick one per row without clashes, so 6 slots cannot hold it; chi = 7 (DIMACS table).
+    res = fewest_slots(graph_problem(queen_graph(6)), options=SolveOptions(time_limit=20, workers=2))
+    assert res.lower == res.upper == 7 and res.proven
+    assert "no 6 cover every event" in res.lower_reason and "of the 4 clash-free ways" in res.lower_reason

@@ -41,6 +41,7 @@ from .dsatur import dsatur
 from .infeasibility import Witness, prechecks, room_count_witness
 from .rooms import seat_events
 from .tabucol import tabucol
+from .transversals import colour_by_transversals
 
 Progress = Callable[[dict], None]
 
@@ -752,6 +753,22 @@ def fewest_slots(
     if plain:
         hi = max(dsat, lower)
         result.upper_reason = "DSATUR"
+        if hi > lo:
+            if progress:
+                progress({"event": "phase", "phase": f"transversals for {lo} slots", "slots": lo,
+                          "seconds": time.perf_counter() - start})
+            # events that split into cliques of exactly `lo`: a timetable with `lo` slots is a partition into
+            # transversals (transversals.py); decided first, as it settles the question outright when it succeeds
+            found = colour_by_transversals(graph, lo, cover + [clique], seconds=0.4 * options.time_limit,
+                                           configure=lambda solver, seconds: _parameters(solver, options, seconds),
+                                           deterministic=options.deterministic)
+            if found.colouring is not None:
+                colouring, hi, result.upper_reason = found.colouring, lo, "CP-SAT over transversals of the clique partition"
+            elif found.impossible:
+                why_not[lo] = (f"the events split into groups of {lo} that pairwise share attendees, so each slot "
+                               f"takes one event of every group; of the {found.transversals} clash-free ways to "
+                               f"pick one from each, no {lo} cover every event")
+                lo = proven_lo = lo + 1
         # Up to 40 % of the time tightens the upper bound one slot at a time: TabuCol for a short
         # budget, then (if it fails) CP-SAT for the same budget, which may find a timetable or prove
         # that none exists; the budget doubles after each round that settles nothing. A step that
