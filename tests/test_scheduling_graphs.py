@@ -255,3 +255,27 @@ def test_fewest_slots_proves_a_slot_count_impossible_by_transversals():
     res = fewest_slots(graph_problem(queen_graph(6)), options=SolveOptions(time_limit=20, workers=2))
     assert res.lower == res.upper == 7 and res.proven
     assert "no 6 cover every event" in res.lower_reason and "of the 4 clash-free ways" in res.lower_reason
+
+
+def test_exact_cover_agrees_with_trying_every_choice_of_sets():
+    from timetabler.scheduling.transversals import exact_cover
+
+    rng = random.Random(7)
+    found_some = missed_some = 0
+    for _ in range(200):
+        items = list(range(rng.randint(3, 8)))
+        sets = [frozenset(rng.sample(items, rng.randint(1, 3))) for _ in range(rng.randint(1, 10))]
+        # the reference: every subset of the sets, by brute force
+        exists = any(
+            sorted(v for j in pick for v in sets[j]) == items
+            for r in range(len(sets) + 1) for pick in itertools.combinations(range(len(sets)), r))
+        picked, finished = exact_cover(sets, items)
+        assert finished and (picked is not None) == exists
+        if picked is not None:
+            found_some += 1
+            assert sorted(v for j in picked for v in sets[j]) == items  # disjoint and covering
+        else:
+            missed_some += 1
+    assert found_some and missed_some  # both answers were exercised
+    _, finished = exact_cover([frozenset([i]) for i in range(30)] * 2, list(range(30)), max_steps=5)
+    assert not finished  # stopped by the step limit, so nothing is claimed
