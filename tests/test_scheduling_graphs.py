@@ -210,7 +210,8 @@ def test_transversals_of_the_queen_graph_rows_are_the_n_queens_solutions():
         found = transversals(g, rows)
         assert len(found) == solutions and len(set(found)) == solutions
         assert all(not g.has_edge(u, v) for t in found for u, v in itertools.combinations(t, 2))
-        assert transversals(g, rows, max_sets=solutions - 1) is None  # the cap is honoured
+        assert transversals(g, rows, max_sets=solutions - 1) is None  # the caps are honoured
+        assert transversals(g, rows, max_steps=n) is None
         # the clique partition is found among the cover's cliques
         blocks = clique_partition(g, n, clique_cover(g))
         assert blocks is not None and sorted(v for b in blocks for v in b) == sorted(g.nodes)

@@ -99,7 +99,8 @@ def colour_by_transversals(
     if blocks is None:
         return TransversalColouring()
     deadline = None if deterministic else start + seconds / 2  # at most half the time for the listing
-    sets = transversals(graph, blocks, max_sets=max_sets, deadline=deadline)
+    sets = transversals(graph, blocks, max_sets=max_sets, deadline=deadline,
+                        max_steps=2_000_000 if deterministic else None)
     if sets is None:
         return TransversalColouring()
     if len(sets) < k:  # every slot takes a different transversal
@@ -143,11 +144,11 @@ def colour_by_transversals(
 
 
 def transversals(graph: nx.Graph, blocks: Sequence[Sequence[Hashable]], *, max_sets: int = 200_000,
-                 deadline: float | None = None) -> list[frozenset] | None:
+                 deadline: float | None = None, max_steps: int | None = None) -> list[frozenset] | None:
     """Every independent set of ``graph`` with exactly one event from each of ``blocks``.
 
-    None when there are more than ``max_sets`` of them or the clock passes ``deadline``
-    (a ``time.perf_counter()`` value). Backtracking over the blocks in order, each event
+    None when there are more than ``max_sets`` of them, the clock passes ``deadline`` (a
+    ``time.perf_counter()`` value) or the search takes more than ``max_steps`` steps. Backtracking over the blocks in order, each event
     kept only when it clashes with none already taken (sets of events as bits of an int).
 
     Examples
@@ -170,7 +171,8 @@ def transversals(graph: nx.Graph, blocks: Sequence[Sequence[Hashable]], *, max_s
     def extend(depth: int, banned: int, taken: int) -> None:
         nonlocal stopped, steps
         steps += 1
-        if stopped or (deadline is not None and steps % 4096 == 0 and time.perf_counter() > deadline):
+        if stopped or (max_steps is not None and steps > max_steps) or (
+                deadline is not None and steps % 4096 == 0 and time.perf_counter() > deadline):
             stopped = True
             return
         if depth == len(members):
