@@ -702,8 +702,11 @@ def fewest_slots(
 
     Lower bounds: the largest clique found (events that pairwise share attendees), the
     busiest attendee, and the seats (every attendee seat must fit into the slots' seats or
-    rooms). Upper bound: DSATUR. CP-SAT then tries slot counts between them (first the lower
-    bound, then bisection) within ``options.time_limit`` in all. Uses ``problem.slots``
+    rooms). Upper bound: DSATUR; with plain clashes only, the transversal method
+    (:mod:`.transversals`, when the events split into cliques of the lower bound) and TabuCol
+    taking turns with short CP-SAT probes tighten it, and a probe or a complete transversal
+    search may prove a count impossible. CP-SAT then tries slot counts between the bounds
+    (first the lower bound, then bisection) within ``options.time_limit`` in all. Uses ``problem.slots``
     (its first K slots) when the problem has a slots sheet, else generic slots grouped
     ``per_day`` to a day.
     """
