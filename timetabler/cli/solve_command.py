@@ -62,7 +62,8 @@ def _parse_weights(ctx, param, values):
                    "not on the clock, so the time limit is approximate).")
 @click.option("--weight", "weights", multiple=True, metavar="NAME=N", callback=_parse_weights,
               help="Change a soft-goal weight, e.g. --weight back-to-back=20 --weight proximity=1. Names: "
-                   + ", ".join(sorted(WEIGHT_NAMES)) + ".")
+                   + ", ".join(sorted(WEIGHT_NAMES)) + " (the Weights sheet's goal names work too, in quotes: "
+                   "--weight \"avoided room=5\").")
 @click.option("--max-per-day", type=click.IntRange(1, 24), metavar="N",
               help="No attendee may have more than N events on one day (overrides the rules sheet).")
 @click.option("--share-rooms", is_flag=True, help="Let several events of the same length share a room.")
