@@ -20,7 +20,7 @@ from __future__ import annotations
 import contextlib
 import functools
 from pathlib import Path
-from typing import Any, Callable, Mapping, Sequence
+from typing import Any, Callable, Mapping
 
 import click
 

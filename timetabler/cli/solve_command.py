@@ -130,7 +130,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, fewest, ses
     runs = []
     with _progress_display(not as_json) as show:
         if fewest:
-            task = show.add(f"fewest slots", time_limit)
+            task = show.add("fewest slots", time_limit)
             fewest_result = fewest_slots(problem, per_day=sessions_per_day, options=options, graph=graph,
                                          progress=lambda e: show.update(task, e))
             show.finish(task)

@@ -38,7 +38,7 @@ from .cpsat_model import (TimetableModel, build_model, large_event_codes, physic
                           slots_interchangeable)
 from .arrangement import arrange
 from .dsatur import dsatur
-from .infeasibility import Witness, prechecks, room_count_witness
+from .infeasibility import prechecks, room_count_witness
 from .rooms import seat_events
 from .tabucol import tabucol
 from .transversals import colour_by_transversals
@@ -289,7 +289,6 @@ def solve(
     large = large_event_codes(sizes)
     previous = {c: s for c, s in (previous or {}).items() if c in problem.events}
     blocks = _blocks(problem, graph, slots, options)
-    total_events = max(1, len(codes))
     results: list[SolveRun] = []
     budget = _Budget(options.time_limit - (time.perf_counter() - start), options.deterministic)
     for i, block in enumerate(blocks):
