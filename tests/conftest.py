@@ -22,6 +22,15 @@ class CommandResult:
         return json.loads(self.stdout)
 
 
+@pytest.fixture(autouse=True)
+def private_store(tmp_path, monkeypatch):
+    """Every test gets its own store file (commands record their runs there), never the user's data folder."""
+    path = tmp_path / "timetabler-store.sqlite3"
+    monkeypatch.setenv("TIMETABLER_STORE", str(path))
+    monkeypatch.delenv("TIMETABLER_RETENTION_DAYS", raising=False)
+    return path
+
+
 @pytest.fixture
 def run_command(capsys):
     """Run ``timetabler ARGS...`` in-process through the real entry point; return status and output."""

@@ -22,6 +22,9 @@ COMMAND_MODULES = [
     "compare_command",
     "template_command",
     "serve_command",
+    "changes_command",
+    "history_command",
+    "forget_command",
 ]
 
 

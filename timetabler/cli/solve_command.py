@@ -11,13 +11,14 @@ from rich.table import Table
 
 from ..conflicts import conflict_graph
 from ..errors import Finding, InputError
-from ..intake.previous_timetable import read_previous_timetable, resolve_previous
+from ..intake.previous_timetable import resolve_previous
 from ..intake.vocabulary import GOAL_WORDS, key
 from ..model import Weights, generic_slots
 from ..scheduling import SolveOptions, fewest_slots, solve, validate
 from .common import console, err_console, input_options, print_json, read_input, show_warnings
 from .output_options import output_options, publish
 from .slot_counts import SlotCountsOption, parse_slot_counts
+from .store_options import check_publish_request, earlier_timetable, open_store, record_solve, store_options
 
 WEIGHT_NAMES = {f.name.replace("_", "-"): f.name for f in dataclasses.fields(Weights)}
 
@@ -69,12 +70,22 @@ def _parse_weights(ctx, param, values):
 @click.option("--share-rooms", is_flag=True, help="Let several events of the same length share a room.")
 @click.option("--split-rooms", is_flag=True, help="Let a large event spread over several rooms (each extra room is penalised).")
 @click.option("--keep", "keep", metavar="PREVIOUS", type=click.Path(dir_okay=False),
-              help="Repair an earlier timetable (a workbook from --out, or a CSV with Event and Slot columns): move as "
-                   "few events as possible and list every move.")
+              help="Repair an earlier timetable (a workbook from --out, a CSV with Event and Slot columns, or the label "
+                   "of a published timetable; an existing file is read as a file): move as few events as possible and "
+                   "list every move.")
+@click.option("--publish", "publish_label", metavar="LABEL",
+              help="Record the timetable in the store as published under LABEL (one --slots K, or --fewest). "
+                   "Refused, with nothing recorded, unless it is clash-free and passes the validator, or when LABEL "
+                   "is taken. 'timetabler changes OLD NEW' then lists who must be told what moved.")
+@click.option("--no-record", is_flag=True,
+              help="Keep nothing of this run in the store (by default the normalised input, the settings and each "
+                   "result are recorded; see 'timetabler history').")
+@store_options
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document instead of tables.")
 @output_options
 def command(file, sheet, attendee_column, event_column, slot_counts, fewest, sessions_per_day, time_limit, workers,
-            seed, repeatable, weights, max_per_day, share_rooms, split_rooms, keep, as_json, outputs, **_ignored):
+            seed, repeatable, weights, max_per_day, share_rooms, split_rooms, keep, publish_label, no_record, store_at,
+            retention_days, as_json, outputs, **_ignored):
     """Give every event in FILE a slot so that nobody is booked twice, and report how good it is.
 
     \b
@@ -100,6 +111,8 @@ def command(file, sheet, attendee_column, event_column, slot_counts, fewest, ses
       timetabler solve enrolments.xlsx --slots 10-14 --time-limit 60
       timetabler solve enrolments.xlsx --fewest
       timetabler solve enrolments.xlsx --slots 12 --keep last-week.xlsx --out repaired.xlsx
+      timetabler solve enrolments.xlsx --slots 12 --publish "week 1"
+      timetabler solve late-enrolments.xlsx --slots 12 --keep "week 1" --publish "week 2"
     """
     reading = read_input(file, sheet, attendee_column, event_column)
     show_warnings(reading, as_json)
@@ -117,9 +130,16 @@ def command(file, sheet, attendee_column, event_column, slot_counts, fewest, ses
             suggestion="Add slots to the slots sheet, or ask for fewer."))
     options = SolveOptions(time_limit=time_limit, workers=workers, seed=seed, deterministic=repeatable,
                            room_sharing=share_rooms, room_splitting=split_rooms)
-    previous_refs = None
-    if keep:
-        previous_refs = read_previous_timetable(keep)
+    stores: list = []
+    click.get_current_context().call_on_close(lambda: [s.close() for s in stores])
+
+    def store():  # opened on first use: a run with --no-record and --keep FILE never touches it
+        if not stores:
+            stores.append(open_store(store_at, retention_days, quiet=as_json))
+        return stores[0]
+
+    check_publish_request(publish_label, slot_counts, fewest, problem, None if no_record else store())
+    previous_refs, kept_from = earlier_timetable(keep, store) if keep else (None, None)
     graph = conflict_graph(problem)
 
     def slots_for(k: int):
@@ -154,6 +174,8 @@ def command(file, sheet, attendee_column, event_column, slot_counts, fewest, ses
     written = publish(outputs, problem=problem, runs=runs, reading=reading, settings=settings,
                       validations={r.slots: r.validation for r in runs if r.validation is not None},
                       fewest=fewest_result, quiet=as_json)
+    if not no_record:
+        record_solve(store(), problem, runs, settings, publish_label=publish_label, kept_from=kept_from, quiet=as_json)
     if as_json:
         doc = {"file": file, "runs": [r.to_json() for r in runs]}
         if fewest_result is not None:

@@ -541,3 +541,18 @@ def _grid_sheet(book: _Book, name: str, problem: Problem, run: Any) -> None:
                   + [book.cell(ws, head, font=BOLD, fill=DAY_FILL) for head in day.heads])
         for i in range(max((len(column) for column in day.events), default=0)):
             ws.append([None, None] + [book.cell(ws, column[i]) if i < len(column) else None for column in day.events])
+
+
+def write_tables_workbook(path: str | Path, tables: Sequence[PublishedTable], *,
+                          inputs: Sequence[str | Path] = ()) -> Path:
+    """A workbook of plain tables, one sheet each (filters, frozen header, widths), e.g. a notification list."""
+    target = check_target(path, inputs=inputs, suffixes=(".xlsx",))
+
+    def build(tmp: Path) -> None:
+        wb = Workbook(write_only=True)
+        book = _Book(wb)
+        for table in tables:
+            book.table_sheet(table.name, table)
+        wb.save(tmp)
+
+    return write_safely(target, build)
