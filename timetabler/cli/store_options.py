@@ -93,7 +93,14 @@ def earlier_timetable(keep: str, store: Callable[[], Store]) -> tuple[PreviousTi
     """
     if Path(keep).expanduser().is_file():
         return read_previous_timetable(keep), f"file {Path(keep).name}"
-    version = store().published_version(keep)
+    opened = store()
+    if keep not in opened.labels():
+        known = opened.labels()
+        listed = ", ".join(f"'{k}'" for k in known) if known else "none yet (publish one with solve --publish LABEL)"
+        raise InputError(Finding(f"The earlier timetable {keep} does not exist as a file, and no published timetable "
+                                 f"is labelled '{keep}'.", found=keep,
+                                 expected=f"an existing .xlsx or .csv file, or one of the published labels: {listed}"))
+    version = opened.published_version(keep)
     # Slot numbers, as the Events sheet of a workbook from --out gives them, so that --keep LABEL
     # and --keep on that workbook repair exactly alike.
     return PreviousTimetable(slots={code: str(n) for code, n in sorted(version.assignment.items())},
