@@ -18,13 +18,12 @@ from __future__ import annotations
 import datetime as dt
 from pathlib import Path
 from typing import Any, Callable
-from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 
 from icalendar import Event as CalEvent
 
 from ..errors import Finding, InputError
 from .csv_folder import prepare_folder
-from .icalendar_files import _calendar, _times, _uid, revision, safe_file_stem
+from .icalendar_files import _calendar, _times, _uid, revision, safe_file_stem, time_zone
 from .safe_write import check_target, write_safely
 
 
@@ -43,13 +42,7 @@ def write_change_calendars(folder: str | Path, *, before: Any, after: Any, chang
     """Write the calendars of the attendees in ``changes.attendees``; return the paths written."""
     _check_dated(before)
     _check_dated(after)
-    tz = None
-    if timezone:
-        try:
-            tz = ZoneInfo(timezone)
-        except (ZoneInfoNotFoundError, ValueError) as exc:
-            raise InputError(Finding(f"Unknown time zone {timezone!r}.",
-                                     expected="an IANA name such as Europe/London")) from exc
+    tz = time_zone(timezone)
     stamp = (now or dt.datetime.now(dt.timezone.utc)).replace(microsecond=0)
     sequence = revision(stamp) + 1
     source, k = before.source_name, before.slot_count  # the UIDs the earlier calendars used

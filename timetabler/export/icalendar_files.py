@@ -98,16 +98,21 @@ def safe_file_stem(text: str) -> str:
     return stem[:80]
 
 
+def time_zone(name: str | None) -> ZoneInfo | None:
+    """The IANA time zone ``name`` (None for floating local times); an unknown name is an InputError."""
+    if not name:
+        return None
+    try:
+        return ZoneInfo(name)
+    except (ZoneInfoNotFoundError, ValueError) as exc:
+        raise InputError(Finding(f"Unknown time zone {name!r}.", expected="an IANA name such as Europe/London")) from exc
+
+
 def write_calendars(folder: str | Path, *, problem: Problem, run: Any, show: Callable[[str], str] = str,
                     personal: bool = True, timezone: str | None = None) -> list[Path]:
     """Write ``session.ics`` (every event) and, with ``personal``, ``attendees/<id>.ics`` per attendee."""
     check_dated(run)
-    tz = None
-    if timezone:
-        try:
-            tz = ZoneInfo(timezone)
-        except (ZoneInfoNotFoundError, ValueError) as exc:
-            raise InputError(Finding(f"Unknown time zone {timezone!r}.", expected="an IANA name such as Europe/London")) from exc
+    tz = time_zone(timezone)
     target = prepare_folder(folder)
     stamp = dt.datetime.now(dt.timezone.utc).replace(microsecond=0)
     entries = {code: _entry(problem, run, code, tz, stamp) for code in sorted(run.assignment)}
