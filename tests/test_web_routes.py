@@ -357,7 +357,7 @@ def test_solve_then_timetable_then_downloads(client, tmp_path, monkeypatch):
     r = client.post(f"/files/{token}/solve", data={"slots": ["2", "3"], "more_slots": "4", "sessions_per_day": "2",
                                                    "time_limit": "5", "find_fewest": "on"},
                     headers=SAME, follow_redirects=False)
-    assert r.status_code == 303 and r.headers["location"] == f"/files/{token}/solving"
+    assert r.status_code == 303 and re.fullmatch(rf"/files/{token}/solves/[A-Za-z0-9_-]{{8,32}}/solving", r.headers["location"])
     doc = wait_finished(client, token)
     assert doc["state"] == "finished"
     states = {s["slots"]: s["status"] for s in doc["slots"]}

@@ -6,8 +6,12 @@ bound as they improve, and let the registrar stop it. The engine itself
 in a child process, ``python -m timetabler.web.jobs``: the job is sent to it on its
 standard input, and progress and results come back on its standard output as
 length-prefixed pickles (both ends are this module; nothing else writes to the pipe).
-Cancelling terminates the child, so it works whatever the engine is doing, and the runs
-already finished are kept. The child's standard error is the server's, so a bug's
+Stopping writes a line to the child's standard input, kept open for that: a thread of the
+child then stops every CP-SAT search of the engine (``StopSearch``, as if its time limit
+were reached, and any search begun later gets no time), so the slot count in hand comes
+back with the best timetable found so far, validated like any other, and the child ends
+without starting the next one. A child that has not answered in :data:`STOP_GRACE` seconds
+is terminated. The runs already finished are kept either way. The child's standard error is the server's, so a bug's
 traceback lands in the terminal that runs the page, never in the browser.
 
 This module imports nothing heavy at the top: the child process runs it first.
@@ -19,6 +23,7 @@ import dataclasses
 import logging
 import os
 import pickle
+import re
 import struct
 import subprocess
 import sys
@@ -34,8 +39,44 @@ log = logging.getLogger("timetabler.web")
 #: Fewest seconds between two progress messages from the child for one slot count.
 PROGRESS_EVERY = 0.25
 
-#: The engine's short phase names, in the words the page shows.
-PHASE_WORDS = {"goals": "improving the timetable", "clash-free": "looking for a clash-free timetable"}
+#: Seconds a stopped child has to send back the slot count in hand before it is terminated.
+STOP_GRACE = 12.0
+
+#: Seconds between two StopSearch calls of the child's stop thread (a search may begin meanwhile).
+STOP_EVERY = 0.2
+
+#: The engine's phase names, in the words the page shows (no method names: a registrar reads them).
+PHASE_WORDS = {
+    "goals": "improving the timetable",
+    "clash-free": "looking for a clash-free timetable",
+    "checking": "checking the slots and rules",
+    "checking the DSATUR timetable": "checking a quick first timetable",
+    "arranging groups over the slots": "arranging groups of exams over the slots",
+    "seating the first timetable": "seating the first timetable in rooms",
+    "done": "finishing",
+}
+
+#: Phase names of the fewest-slots search that carry a number of slots, in plain words.
+_PHASE_PATTERNS = (
+    (re.compile(r"^transversals for (\d+) slots$"), r"trying \1 slots (one exam from each group of clashing exams per slot)"),
+    (re.compile(r"^tabu search for (\d+) slots$"), r"trying \1 slots (moving clashing exams)"),
+)
+
+
+def phase_words(phase: str) -> str:
+    """The page's words for an engine phase name (unknown names are shown as they are).
+
+    >>> phase_words("checking the DSATUR timetable")
+    'checking a quick first timetable'
+    >>> phase_words("tabu search for 12 slots")
+    'trying 12 slots (moving clashing exams)'
+    """
+    if phase in PHASE_WORDS:
+        return PHASE_WORDS[phase]
+    for pattern, words in _PHASE_PATTERNS:
+        if pattern.match(phase):
+            return pattern.sub(words, phase)
+    return phase
 
 #: Fields of a progress report the page shows (any others are ignored).
 _PROGRESS_KEYS = ("best", "penalty", "objective", "bound", "gap", "solutions", "elapsed", "wall_seconds", "phase", "message")
@@ -84,14 +125,19 @@ def _receive(stream: Any) -> tuple | None:
 
 
 def _throttled(out: Any, tag: str, key: Any):
+    """A progress callback sending at most one report per :data:`PROGRESS_EVERY` seconds, except
+    that a change of phase is always sent (else the page would show a finished phase for long)."""
     last = [0.0]
+    last_phase = [None]
 
     def progress(*args: Any, **kwargs: Any) -> None:
         now = time.monotonic()
-        if now - last[0] < PROGRESS_EVERY:
+        fields = progress_fields(args, kwargs)
+        phase = phase_words(fields["phase"]) if "phase" in fields else last_phase[0]
+        if now - last[0] < PROGRESS_EVERY and phase == last_phase[0]:
             return
-        last[0] = now
-        _send(out, (tag, key, progress_fields(args, kwargs)))
+        last[0], last_phase[0] = now, phase
+        _send(out, (tag, key, fields))
 
     return progress
 
@@ -110,7 +156,10 @@ def _child_main() -> None:
     except (AttributeError, OSError):
         pass
     try:
-        problem, plan, options, previous_for, fewest_per_day = pickle.load(sys.stdin.buffer)
+        control = sys.stdin.fileno()  # read unbuffered: the stop line must not sit in a buffer
+        (size,) = struct.unpack(">Q", _read_exactly(control, 8))
+        problem, plan, options, previous_for, fewest_per_day = pickle.loads(_read_exactly(control, size))
+        stop = _stoppable_searches(control)
         from timetabler.conflicts import conflict_graph
         from timetabler.scheduling import fewest_slots, solve, validate
 
@@ -126,6 +175,9 @@ def _child_main() -> None:
                     room_splitting=bool(getattr(options, "room_splitting", False)),
                 )
             _send(out, ("run", k, run))
+            if stop.is_set():
+                _send(out, ("stopped",))
+                return
         if fewest_per_day is not None:
             _send(out, ("start", FEWEST, time.time()))
             result = fewest_slots(problem, per_day=fewest_per_day, options=options,
@@ -137,6 +189,64 @@ def _child_main() -> None:
             _send(out, ("error", f"{type(exc).__name__}: {exc}", traceback.format_exc()))
         except OSError:
             pass
+
+
+def _read_exactly(fd: int, size: int) -> bytes:
+    parts, left = [], size
+    while left:
+        chunk = os.read(fd, min(left, 1 << 20))
+        if not chunk:
+            raise EOFError("the job was cut short")
+        parts.append(chunk)
+        left -= len(chunk)
+    return b"".join(parts)
+
+
+def _stoppable_searches(control: int) -> threading.Event:
+    """In the child: make every CP-SAT search stoppable by a line on the file descriptor ``control``
+    (the parent's stop).
+
+    Wraps ``CpSolver.solve`` (and its older name ``Solve``) of this process only, so the searches
+    in hand are known; a thread waits for the stop line (or the end of the input, when the parent
+    is gone), then calls ``StopSearch`` on them until the engine returns, and a search begun after
+    that gets no time, so the engine finishes the slot count in hand with what it has found.
+    """
+    from ortools.sat.python import cp_model
+
+    stop = threading.Event()
+    searching: set = set()
+    lock = threading.Lock()
+    original = cp_model.CpSolver.solve
+
+    def solve(self, *args: Any, **kwargs: Any):
+        if stop.is_set():
+            self.parameters.max_time_in_seconds = 0.0
+        with lock:
+            searching.add(self)
+        try:
+            return original(self, *args, **kwargs)
+        finally:
+            with lock:
+                searching.discard(self)
+
+    cp_model.CpSolver.solve = solve
+    cp_model.CpSolver.Solve = solve
+
+    def watch() -> None:
+        try:
+            os.read(control, 64)  # the stop line, or b"" when the parent has gone
+        except OSError:
+            pass
+        stop.set()
+        while True:
+            with lock:
+                now = list(searching)
+            for solver in now:
+                solver.stop_search()
+            time.sleep(STOP_EVERY)
+
+    threading.Thread(target=watch, name="timetabler-solve-stop", daemon=True).start()
+    return stop
 
 
 #: Key of the fewest-slots search among the progress rows (slot counts are 1 and up).
@@ -201,9 +311,11 @@ class SolveJob:
     #: Sessions per day for the fewest-slots search, run after the slot counts; None: no search.
     fewest_per_day: int | None = None
     fewest: Any = None
-    state: str = "starting"  # starting | running | finished | cancelled | failed
+    state: str = "starting"  # starting | running | stopping | finished | cancelled | failed
     error: str | None = None
     runs: dict[int, Any] = field(default_factory=dict)
+    #: Slot counts whose run came back because of a stop (the best timetable found until then).
+    stopped: set[int] = field(default_factory=set)
     slots: dict[int, SlotProgress] = field(default_factory=dict)
     started: float = field(default_factory=time.time)
     finished: float | None = None
@@ -238,13 +350,40 @@ class SolveJob:
         self._watcher.start()
         return self
 
-    def cancel(self) -> bool:
-        """Stop the job now. Returns False when it had already ended."""
+    def stop(self) -> bool:
+        """Stop the job, keeping the best timetable of the slot count in hand.
+
+        The child is asked to stop its search; the run it sends back is kept (in ``runs``, and
+        its slot count in ``stopped``), then the child is ended. Blocks until the job has
+        ended (at most about :data:`STOP_GRACE` seconds). Returns False when it had already ended.
+        """
         with self._lock:
             if self.state not in ("starting", "running"):
                 return False
-            self.state = "cancelled"
-            self.finished = time.time()
+            self.state = "stopping"
+        try:
+            self._process.stdin.write(b"stop\n")
+            self._process.stdin.flush()
+        except (OSError, ValueError, AttributeError):
+            pass  # the child is gone already; ending it below settles the job
+        self._done.wait(STOP_GRACE)
+        self._end("cancelled")
+        return True
+
+    def cancel(self) -> bool:
+        """Stop the job now, dropping the slot count in hand. Returns False when it had already ended."""
+        with self._lock:
+            if self.state not in ("starting", "running", "stopping"):
+                return False
+        self._end("cancelled")
+        return True
+
+    def _end(self, state: str) -> None:
+        """Mark every unfinished slot count stopped and end the child."""
+        with self._lock:
+            if self.state in ("starting", "running", "stopping"):
+                self.state = state
+                self.finished = time.time()
             for item in self.slots.values():
                 if item.state in ("waiting", "solving"):
                     item.state = "stopped"
@@ -257,8 +396,12 @@ class SolveJob:
             except subprocess.TimeoutExpired:
                 self._process.kill()
                 self._process.wait(5)
+        if self._process is not None and self._process.stdin is not None:
+            try:
+                self._process.stdin.close()
+            except OSError:
+                pass
         self._done.set()
-        return True
 
     def wait(self, timeout: float | None = None) -> bool:
         """Block until the job ends (for tests and shutdown). True when it ended."""
@@ -266,7 +409,7 @@ class SolveJob:
 
     @property
     def running(self) -> bool:
-        return self.state in ("starting", "running")
+        return self.state in ("starting", "running", "stopping")
 
     # -- the parent's side of the channel -----------------------------------------------------
 
@@ -274,8 +417,8 @@ class SolveJob:
         process = self._process
         try:
             try:
-                process.stdin.write(payload)
-                process.stdin.close()
+                process.stdin.write(struct.pack(">Q", len(payload)) + payload)
+                process.stdin.flush()  # stdin stays open: a line on it later asks the child to stop
             except OSError:
                 pass  # the child died at once; reading below finds out
             while True:
@@ -310,6 +453,7 @@ class SolveJob:
         with self._lock:
             if self.state == "cancelled":
                 return True
+            stopping = self.state == "stopping"
             if kind == "start":
                 item = self.slots[message[1]]
                 item.state, item.started = "solving", message[2]
@@ -321,7 +465,7 @@ class SolveJob:
                 if "bound" in fields:
                     item.bound = fields["bound"]
                 if "phase" in fields:
-                    item.phase = PHASE_WORDS.get(fields["phase"], fields["phase"])
+                    item.phase = phase_words(fields["phase"])
             elif kind == "run":
                 k, run = message[1], message[2]
                 self.runs[k] = run
@@ -334,11 +478,18 @@ class SolveJob:
                 bound = getattr(run, "bound", None)
                 if bound is not None:
                     item.bound = bound
+                if stopping:  # the best timetable found until the stop (validated in the child)
+                    self.stopped.add(k)
+                    item.state = "stopped"
             elif kind == "fewest":
                 self.fewest = message[2]
                 item = self.slots[FEWEST]
                 item.state, item.finished = "finished", time.time()
                 item.status = "proven" if getattr(self.fewest, "proven", False) else "not proven"
+                if stopping:
+                    item.state = "stopped"
+            elif kind == "stopped":
+                return True  # the child ends by itself; stop() marks the rest
             elif kind == "done":
                 self.state, self.finished = "finished", time.time()
                 return True

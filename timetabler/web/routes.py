@@ -1,19 +1,21 @@
 """The pages and their addresses.
 
-====================================  =============================================================
-``GET  /``                            upload a file; download the empty template workbook
-``GET  /template.xlsx``               the template workbook (intake's template writer; ?example=1 filled in)
-``POST /upload``                      receive a file (size cap, type by content), then its overview
-``GET  /files/{token}``               figures, findings, components, counts table and chart, solve form
-``GET  /files/{token}/counts.json``   progress of the count the overview started (for the page's script)
-``POST /files/{token}/solve``         start a solve job (one at a time per file; 409 while one runs)
-``GET  /files/{token}/solving``       live progress (best penalty, bound) with a Stop button
-``GET  /files/{token}/solving.json``  the same progress for the page's script
-``POST /files/{token}/stop``          stop the running job
-``GET  /files/{token}/timetable``     slot counts side by side and the timetable grid
-``GET  /files/{token}/download/...``  timetable.xlsx, tables-csv.zip, calendars-ics.zip
-``POST /files/{token}/delete``        delete the upload and everything made from it
-====================================  =============================================================
+==================================================  =============================================================
+``GET  /``                                          upload a file; download the empty template workbook
+``GET  /template.xlsx``                             the template workbook (intake's template writer; ?example=1 filled in)
+``POST /upload``                                    receive a file (size cap, type by content), then its overview
+``GET  /files/{token}``                             figures, findings, components, counts table and chart, solve form
+``GET  /files/{token}/counts.json``                 progress of the count the overview started (for the page's script)
+``POST /files/{token}/solve``                       start a solve job (one at a time per file; 409 while one runs)
+``GET  /files/{token}/solves/{id}/solving``         live progress (best penalty, bound) with a Stop button
+``GET  /files/{token}/solves/{id}/solving.json``    the same progress for the page's script
+``POST /files/{token}/solves/{id}/stop``            stop it, keeping the best timetable found so far
+``GET  /files/{token}/solves/{id}/timetable``       slot counts side by side and the timetable grid
+``GET  /files/{token}/solves/{id}/download/...``    timetable.xlsx, tables-csv.zip, calendars-ics.zip
+``GET  /files/{token}/solving``                     the newest solve's pages, for older links (also ``/timetable``,
+                                                    ``/solving.json``, ``/download/...`` and ``POST /stop``)
+``POST /files/{token}/delete``                      delete the upload and everything made from it
+==================================================  =============================================================
 
 Tokens are random; a token that is not one of this server's uploads is a 404. The file
 names of downloads are fixed here, never taken from the request.
@@ -40,6 +42,7 @@ from ..errors import Finding, InputError
 from . import analysis as an
 from .count_chart import bar_from_count, count_chart_svg
 from .jobs import SolveJob
+from .solves import Solve, add_solve, is_solve_id, latest_solve, running_solve, solves_of
 from .page_format import group_digits
 from .uploads import StoredUpload, UploadRejected, UploadStore
 
@@ -73,19 +76,31 @@ def message(request: Request, status: int, title: str, text: str, **extra: Any) 
     return render(request, "message.html", {"title": title, "text": text, **extra}, status)
 
 
-def job_of(upload: StoredUpload) -> SolveJob | None:
-    return upload.state.get("job")
-
-
 def job_running(upload: StoredUpload) -> bool:
-    job = job_of(upload)
-    return job is not None and job.running
+    return running_solve(upload.state) is not None
 
 
 def stop_all_jobs(store: UploadStore) -> None:
     for upload in store.all():
-        if job_running(upload):
-            job_of(upload).cancel()  # type: ignore[union-attr]
+        for kept in solves_of(upload.state).values():
+            if kept.job.running:
+                kept.job.cancel()
+
+
+def solve_of(request: Request, stored: StoredUpload) -> Solve | None:
+    """The solve a URL names (``/solves/{solve}/...``; 404 when it is not one of this upload's),
+    or, for the older addresses without one, the newest solve of the upload (None when none)."""
+    wanted = request.path_params.get("solve")
+    if wanted is None:
+        return latest_solve(stored.state)
+    found = solves_of(stored.state).get(wanted) if is_solve_id(wanted) else None
+    if found is None:
+        raise HTTPException(404, "This solve is no longer here (or never was). Start a solve from the file's page.")
+    return found
+
+
+def solve_base(stored: StoredUpload, solve: Solve) -> str:
+    return f"/files/{stored.token}/solves/{solve.id}"
 
 
 # -- first page and template -------------------------------------------------------------------
@@ -281,7 +296,7 @@ async def overview(request: Request) -> Response:
             "has_slots_sheet": bool(problem.slots),
             "has_rooms": bool(problem.rooms),
             "settings": settings,
-            "job": job_of(stored),
+            "solves": [(kept, solve_base(stored, kept)) for kept in solves_of(stored.state).values()],
             "options": options,
         },
     )
@@ -390,8 +405,7 @@ async def _start_solve(request: Request, stored: StoredUpload, analysis: an.Anal
     # event loop no other request can start a job for this file in between.
     if job_running(stored):
         return _busy(request, stored)
-    stored.state["job"] = job
-    stored.state["job_settings"] = {
+    settings_used = {
         "slot counts": " ".join(map(str, ks)),
         "sessions per day": per_day,
         "time limit per slot count (s)": limit,
@@ -403,11 +417,9 @@ async def _start_solve(request: Request, stored: StoredUpload, analysis: an.Anal
         "earlier timetable kept": earlier.name if earlier is not None else "none",
         **{f"weight: {w['label']}": getattr(weights, w["name"]) for w in an.weight_fields(weights)},
     }
-    stored.state["job_problem"] = chosen
-    stored.state["job_earlier"] = earlier
-    stored.state.pop("outputs", None)
+    kept = add_solve(stored.state, job, chosen, settings_used, earlier)
     job.start()
-    return RedirectResponse(f"/files/{stored.token}/solving", status_code=303)
+    return RedirectResponse(f"{solve_base(stored, kept)}/solving", status_code=303)
 
 
 @dataclasses.dataclass
@@ -485,12 +497,14 @@ def _earlier_findings(request: Request, stored: StoredUpload, name: str, path: P
 
 
 def _busy(request: Request, stored: StoredUpload) -> Response:
+    running = running_solve(stored.state)
     return message(
         request,
         409,
         "A solve is already running for this file",
-        "Only one solve runs per file at a time. Watch it, or stop it and start again with other choices.",
-        link=(f"/files/{stored.token}/solving", "See the running solve"),
+        "Only one solve runs per file at a time. Watch it, or stop it and start again with other choices; "
+        "the solves already finished stay on their own pages.",
+        link=(f"{solve_base(stored, running)}/solving" if running else f"/files/{stored.token}", "See the running solve"),
     )
 
 
@@ -501,54 +515,67 @@ def _whole(text: str, label: str, low: int, high: int) -> int:
     return int(text)
 
 
+def _legacy(request: Request, stored: StoredUpload, page: str) -> Response:
+    """An address without a solve id (bookmarks, older links): the newest solve's own page."""
+    kept = latest_solve(stored.state)
+    if kept is None:
+        return RedirectResponse(f"/files/{stored.token}", status_code=303)
+    query = f"?{request.url.query}" if request.url.query else ""
+    return RedirectResponse(f"{solve_base(stored, kept)}/{page}{query}", status_code=303)
+
+
 async def solving(request: Request) -> Response:
     stored = upload_of(request)
-    job = job_of(stored)
-    if job is None:
-        return RedirectResponse(f"/files/{stored.token}", status_code=303)
+    if "solve" not in request.path_params:
+        return _legacy(request, stored, "solving")
+    kept = solve_of(request, stored)
+    job = kept.job
+    base = solve_base(stored, kept)
     if not job.running and job.state == "finished":
-        return RedirectResponse(f"/files/{stored.token}/timetable", status_code=303)
-    return render(request, "solving.html", {"upload": stored, "job": job, "progress": job.to_json()})
+        return RedirectResponse(f"{base}/timetable", status_code=303)
+    return render(request, "solving.html", {"upload": stored, "job": job, "solve": kept, "base": base,
+                                            "progress": job.to_json()})
 
 
 async def solving_json(request: Request) -> Response:
     stored = upload_of(request)
-    job = job_of(stored)
-    if job is None:
+    kept = solve_of(request, stored)
+    if kept is None:
         return JSONResponse({"state": "none"})
-    doc = job.to_json()
-    doc["next"] = f"/files/{stored.token}/timetable"
+    doc = kept.job.to_json()
+    doc["next"] = f"{solve_base(stored, kept)}/timetable"
     return JSONResponse(doc)
 
 
 async def stop(request: Request) -> Response:
+    """Stop a solve, keeping the best timetable found for the slot count in hand; then its timetables."""
     stored = upload_of(request)
-    job = job_of(stored)
-    if job is not None:
-        await run_in_threadpool(job.cancel)
-    target = "timetable" if job is not None and job.runs else ""
-    return RedirectResponse(f"/files/{stored.token}/{target}".rstrip("/"), status_code=303)
+    kept = solve_of(request, stored) if "solve" in request.path_params else running_solve(stored.state)
+    if kept is None:
+        return RedirectResponse(f"/files/{stored.token}", status_code=303)
+    await run_in_threadpool(kept.job.stop)
+    return RedirectResponse(f"{solve_base(stored, kept)}/timetable", status_code=303)
 
 
 # -- results ----------------------------------------------------------------------------------------
 
 
-def _finished_runs(stored: StoredUpload) -> list:
-    job = job_of(stored)
-    if job is None:
-        return []
+def _finished_runs(kept: Solve) -> list:
+    job = kept.job
     return [job.runs[k] for k, _ in job.plan if k in job.runs]
 
 
 async def timetable(request: Request) -> Response:
     stored = upload_of(request)
-    job = job_of(stored)
-    if job is None:
-        return RedirectResponse(f"/files/{stored.token}", status_code=303)
+    if "solve" not in request.path_params:
+        return _legacy(request, stored, "timetable")
+    kept = solve_of(request, stored)
+    job = kept.job
+    base = solve_base(stored, kept)
     if job.running:
-        return RedirectResponse(f"/files/{stored.token}/solving", status_code=303)
-    runs = _finished_runs(stored)
-    problem = stored.state["job_problem"]
+        return RedirectResponse(f"{base}/solving", status_code=303)
+    runs = _finished_runs(kept)
+    problem = kept.problem
     analysis = _current_analysis(stored)
     counts = _cached_counts(analysis, [r.slots for r in runs])
     table = await run_in_threadpool(_comparison, problem, runs, counts, job.fewest)
@@ -561,15 +588,19 @@ async def timetable(request: Request) -> Response:
         {
             "upload": stored,
             "job": job,
+            "solve": kept,
+            "base": base,
+            "others": [(other, solve_base(stored, other)) for other in solves_of(stored.state).values() if other is not kept],
             "runs": runs,
+            "stopped": sorted(job.stopped),
             "comparison": table,
             "fewest": job.fewest,
             "shown": shown,
             "grid": an.grid(problem, shown) if shown is not None else None,
             "with_timetable": with_timetable,
-            "settings_used": stored.state.get("job_settings", {}),
+            "settings_used": kept.settings,
             "dated": bool(with_timetable) and all(s.date is not None for s in with_timetable[0].slot_list),
-            "earlier": stored.state.get("job_earlier"),
+            "earlier": kept.earlier,
             "moves": _moves(problem, shown) if shown is not None else [],
             "moves_by_slots": [(r.slots, len(r.moves or [])) for r in with_timetable],
         },
@@ -653,41 +684,41 @@ async def download(request: Request) -> Response:
     name = request.path_params["name"]
     if name not in DOWNLOADS:
         raise HTTPException(404, "There is no such download.")
-    runs = _finished_runs(stored)
-    if not runs or job_running(stored):
+    kept = solve_of(request, stored)
+    runs = _finished_runs(kept) if kept is not None else []
+    if kept is None or not runs or kept.job.running:
         return message(request, 409, "Nothing to download yet", "Solve first; the files are made from the finished timetables.",
                        back=f"/files/{stored.token}")
     kind, media_type = DOWNLOADS[name]
     pseudonyms = request.query_params.get("pseudonyms") == "1"
-    outputs: dict = stored.state.setdefault("outputs", {})
+    outputs: dict = kept.outputs
     if (kind, pseudonyms) not in outputs:
         try:
             budget = request.app.state.settings.count_budget_seconds
-            outputs[(kind, pseudonyms)] = await run_in_threadpool(_make_output, stored, kind, runs, budget, pseudonyms)
+            outputs[(kind, pseudonyms)] = await run_in_threadpool(_make_output, stored, kept, kind, runs, budget, pseudonyms)
         except InputError as exc:
             return message(request, 400, "This file cannot be made", str(exc).replace(str(stored.folder), "the private folder"),
-                           back=f"/files/{stored.token}/timetable")
+                           back=f"{solve_base(stored, kept)}/timetable")
     shown = name.replace(".", "-pseudonyms.", 1) if pseudonyms else name
     return FileResponse(outputs[(kind, pseudonyms)], filename=shown, media_type=media_type)
 
 
-def _make_output(stored: StoredUpload, kind: str, runs: list, budget: float, pseudonyms: bool = False) -> Path:
+def _make_output(stored: StoredUpload, kept: Solve, kind: str, runs: list, budget: float, pseudonyms: bool = False) -> Path:
     """Write one download with the export layer's publish(), as ``solve --out/--csv/--ics`` do."""
     from ..export.publishing import publish
 
-    problem = stored.state["job_problem"]
+    problem = kept.problem
     analysis = _current_analysis(stored)
     counts = _counts_report(analysis, [r.slots for r in runs], budget)
     reading = analysis.reading if analysis is not None else None
-    settings = {"input file": stored.name, **stored.state.get("job_settings", {})}
-    job = job_of(stored)
+    settings = {"input file": stored.name, **kept.settings}
     extra = {
         "validations": {r.slots: r.validation for r in runs if getattr(r, "validation", None) is not None},
-        "fewest": job.fewest if job is not None else None,
+        "fewest": kept.job.fewest,
     }
     wanted = {"pseudonyms": True} if pseudonyms else {}
-    out = stored.folder / ("out-pseudonyms" if pseudonyms else "out")
-    out.mkdir(exist_ok=True)
+    out = stored.folder / f"out-{kept.id}" / ("pseudonyms" if pseudonyms else "plain")
+    out.mkdir(parents=True, exist_ok=True)
     if kind == "xlsx":
         target = out / "timetable.xlsx"
         publish({"out": str(target), **wanted}, problem=problem, runs=runs, counts=counts, reading=reading, settings=settings,
@@ -721,9 +752,9 @@ def _counts_report(analysis: an.Analysis | None, ks: list[int], budget: float):
 
 async def delete(request: Request) -> Response:
     stored = upload_of(request)
-    job = job_of(stored)
-    if job is not None and job.running:
-        await run_in_threadpool(job.cancel)
+    for kept in solves_of(stored.state).values():
+        if kept.job.running:
+            await run_in_threadpool(kept.job.cancel)
     store_of(request).delete(stored.token)
     return message(request, 200, "Deleted", f"'{stored.name}' and everything made from it have been deleted from this computer's temporary folder.",
                    back="/")
@@ -746,5 +777,10 @@ ROUTES = [
     Route("/files/{token}/stop", stop, methods=["POST"]),
     Route("/files/{token}/timetable", timetable, methods=["GET"]),
     Route("/files/{token}/download/{name}", download, methods=["GET"]),
+    Route("/files/{token}/solves/{solve}/solving", solving, methods=["GET"]),
+    Route("/files/{token}/solves/{solve}/solving.json", solving_json, methods=["GET"]),
+    Route("/files/{token}/solves/{solve}/stop", stop, methods=["POST"]),
+    Route("/files/{token}/solves/{solve}/timetable", timetable, methods=["GET"]),
+    Route("/files/{token}/solves/{solve}/download/{name}", download, methods=["GET"]),
     Route("/files/{token}/delete", delete, methods=["POST"]),
 ]

@@ -33,6 +33,8 @@
     return String(value);
   }
 
+  var STOPPING = "Stopping: keeping the best timetable found so far \u2026";
+
   function setupProgress() {
     var box = document.getElementById("progress");
     if (!box) return;
@@ -62,6 +64,7 @@
         window.location.assign(doc.next);
         return false;
       }
+      if (doc.state === "stopping") { stateLine.textContent = STOPPING; return true; }
       if (doc.state === "cancelled") { stateLine.textContent = "Stopped."; return false; }
       if (doc.state === "failed") { stateLine.textContent = "The solve failed: " + doc.error; return false; }
       return true;
@@ -73,7 +76,12 @@
         .catch(function () { if (!stopping) window.setTimeout(poll, 2000); });
     }
     var stopForm = document.getElementById("stop-form");
-    if (stopForm) stopForm.addEventListener("submit", function () { stopping = true; });
+    if (stopForm) stopForm.addEventListener("submit", function () {
+      stopping = true;
+      stateLine.textContent = STOPPING;
+      var button = document.getElementById("stop-button");
+      if (button) button.disabled = true;
+    });
     poll();
   }
 
