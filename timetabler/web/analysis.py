@@ -93,6 +93,31 @@ def finding_rows(findings: list[Finding], private: Path, shown_name: str) -> lis
     return rows
 
 
+def named_as_uploaded(problem: Problem, reading: Reading | None, private: Path, shown_name: str) -> tuple[Problem, Reading | None]:
+    """Copies of ``problem`` and ``reading`` that name the file as the user knows it.
+
+    Intake read the upload at its private path (inside the server's temporary folder, under
+    the upload's token, as ``enrolments.xlsx``); what is written for the user (the workbook's
+    Overview and warning rows, the CSV tables, calendar ids) must name the file the user
+    chose, as :func:`~timetabler.web.uploads.display_name` made it safe, and never the path
+    or the token. The cached originals are left as they are.
+    """
+    private_text = str(private)
+
+    def fix(text):
+        return text.replace(private_text, shown_name) if isinstance(text, str) else text
+
+    def finding(f: Finding) -> Finding:
+        where = dataclasses.replace(f.where, file=shown_name) if f.where is not None else None
+        return dataclasses.replace(f, where=where, message=fix(f.message), found=fix(f.found),
+                                   expected=fix(f.expected), suggestion=fix(f.suggestion))
+
+    shown = dataclasses.replace(problem, source=shown_name)
+    if reading is None:
+        return shown, None
+    return shown, dataclasses.replace(reading, problem=shown, warnings=[finding(w) for w in reading.warnings])
+
+
 def input_error_rows(exc: InputError, private: Path, shown_name: str) -> list[dict]:
     return finding_rows(exc.findings, private, shown_name)
 

@@ -707,10 +707,11 @@ def _make_output(stored: StoredUpload, kept: Solve, kind: str, runs: list, budge
     """Write one download with the export layer's publish(), as ``solve --out/--csv/--ics`` do."""
     from ..export.publishing import publish
 
-    problem = kept.problem
     analysis = _current_analysis(stored)
     counts = _counts_report(analysis, [r.slots for r in runs], budget)
-    reading = analysis.reading if analysis is not None else None
+    # Named as the user knows the file: never the private path, the token or the stored name.
+    problem, reading = an.named_as_uploaded(kept.problem, analysis.reading if analysis is not None else None,
+                                            stored.path, stored.name)
     settings = {"input file": stored.name, **kept.settings}
     extra = {
         "validations": {r.slots: r.validation for r in runs if getattr(r, "validation", None) is not None},
