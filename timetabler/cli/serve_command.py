@@ -39,8 +39,9 @@ def _port_free(host: str, port: int) -> bool:
               help="Address to listen on. Keep the default: other addresses let other computers reach the page.")
 @click.option("--max-upload-mb", type=click.IntRange(1, 1024), default=20, show_default=True,
               help="Largest file the page accepts, in MB.")
-@click.option("--count-seconds", type=click.FloatRange(0.5, 600), default=8.0, show_default=True,
-              help="Time the counting of clash-free timetables may take on the overview page.")
+@click.option("--count-seconds", type=click.FloatRange(1, 3600), default=600.0, show_default=True,
+              help="Time the counting of clash-free timetables may go on in the background for the overview page "
+                   "(the page shows bounds after a few seconds and the exact figures when they are ready).")
 def command(port: int, open_browser: bool, host: str, max_upload_mb: int, count_seconds: float) -> None:
     """Start the timetabler web page on this computer.
 

@@ -225,51 +225,6 @@ def count(analysis: Analysis, ks: list[int], budget_seconds: float, progress: An
     return report
 
 
-@dataclass
-class CountTask:
-    """A count running in a thread so the overview page can show at once and fill in the counts."""
-
-    ks: tuple[int, ...]
-    done: int = 0
-    total: int | None = None
-    message: str = ""
-    error: str | None = None
-    finished: threading.Event = field(default_factory=threading.Event)
-
-    def run(self, analysis: Analysis, budget_seconds: float) -> None:
-        def progress(done: int, total: int, message: str = "") -> None:
-            self.done, self.total, self.message = done, total, message
-
-        try:
-            count(analysis, list(self.ks), budget_seconds, progress)
-        except InputError as exc:
-            self.error = str(exc)
-        except Exception:  # noqa: BLE001 - a counting bug must not hide the figures or stop a solve
-            log.exception("counting failed for slot counts %s", list(self.ks))
-            self.error = (
-                "Counting the timetables failed: this is a bug in timetabler (the details are in the window "
-                "where the page server runs). The figures above and solving below still work."
-            )
-        finally:
-            self.finished.set()
-
-    def to_json(self) -> dict:
-        state = "failed" if self.error else ("done" if self.finished.is_set() else "running")
-        return {"state": state, "done": self.done, "total": self.total, "message": self.message, "error": self.error}
-
-
-def start_count(analysis: Analysis, ks: list[int], budget_seconds: float) -> CountTask:
-    """The running or finished count task for these slot counts, started if need be."""
-    key = tuple(ks)
-    with analysis.lock:
-        task = analysis.tasks.get(key)
-        if task is None or (task.error and task.finished.is_set()):
-            task = CountTask(key)
-            analysis.tasks[key] = task
-            threading.Thread(target=task.run, args=(analysis, budget_seconds), name="timetabler-count", daemon=True).start()
-    return task
-
-
 WEIGHT_LABELS = {
     "back_to_back": "Back-to-back events on one day",
     "overnight": "Last of one day, then first of the next",

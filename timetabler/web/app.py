@@ -64,8 +64,11 @@ class WebSettings:
     """What ``timetabler serve`` can set; the defaults suit a laptop."""
 
     max_upload_bytes: int = DEFAULT_MAX_UPLOAD_BYTES
-    #: Seconds the counting engine may spend on the slot-count table of one page.
-    count_budget_seconds: float = 8.0
+    #: Seconds the first look at the counts may take before the page shows bounds (web.count_jobs).
+    count_first_seconds: float = 3.0
+    #: Seconds the counting of one set of slot counts may go on in the background; at least the
+    #: command line's 20 s, since a count cut short says "not exact" where the command is exact.
+    count_budget_seconds: float = 600.0
     #: Default and largest time limit per slot count offered for a solve.
     default_time_limit: int = 30
     max_time_limit: int = 3600

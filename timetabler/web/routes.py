@@ -41,6 +41,7 @@ from starlette.routing import Route
 from ..errors import Finding, InputError
 from . import analysis as an
 from .count_chart import bar_from_count, count_chart_svg
+from .count_jobs import exact_share, start_count, stop_counts
 from .jobs import SolveJob
 from .solves import Solve, add_solve, is_solve_id, latest_solve, running_solve, solves_of
 from .page_format import group_digits
@@ -82,9 +83,15 @@ def job_running(upload: StoredUpload) -> bool:
 
 def stop_all_jobs(store: UploadStore) -> None:
     for upload in store.all():
-        for kept in solves_of(upload.state).values():
-            if kept.job.running:
-                kept.job.cancel()
+        stop_upload_work(upload)
+
+
+def stop_upload_work(upload: StoredUpload) -> None:
+    """End every solve and background count of an upload (it is being deleted, or the server stops)."""
+    stop_counts(upload.state.get("analyses", {}))
+    for kept in solves_of(upload.state).values():
+        if kept.job.running:
+            kept.job.cancel()
 
 
 def solve_of(request: Request, stored: StoredUpload) -> Solve | None:
@@ -232,7 +239,38 @@ async def counts_json(request: Request) -> Response:
     except ValueError as exc:
         return JSONResponse({"state": "none", "error": str(exc)}, status_code=400)
     task = analysis.tasks.get(tuple(ks))
-    return JSONResponse(task.to_json() if task is not None else {"state": "none"})
+    if task is None:
+        return JSONResponse({"state": "none"})
+    doc = task.to_json()
+    if request.query_params.get("html") == "1" and task.first.is_set():
+        # The counts part of the overview, for the page's script to put in place (no reload: the
+        # solve form below keeps what the user has typed).
+        context = _counts_context(stored, analysis, ks, task)
+        doc["html"] = request.app.state.templates.get_template("counts_table.html").render(context)
+        doc["suggested"] = context["suggested"]
+    return JSONResponse(doc)
+
+
+def _counts_context(stored: StoredUpload, analysis: an.Analysis, ks: list[int], task: Any) -> dict:
+    """What the counts part of the overview shows for this count task (see count_jobs)."""
+    counts = count_error = counting = None
+    if task is not None:
+        if task.error:
+            count_error = task.error.replace(str(stored.path), stored.name)
+        elif task.first.is_set():
+            counts = analysis.counts.get(tuple(ks))
+        if not task.finished.is_set():
+            counting = task.to_json()
+    rows = list(getattr(counts, "counts", []) or [])
+    return {
+        "counts": rows,
+        "count_report": counts,
+        "count_error": count_error,
+        "counting": counting,
+        "counts_source": f"/files/{stored.token}/counts.json?slots={'+'.join(map(str, ks))}",
+        "chart": count_chart_svg([bar_from_count(c) for c in rows]) if rows else None,
+        "suggested": _suggested(rows, analysis),
+    }
 
 
 async def overview(request: Request) -> Response:
@@ -254,22 +292,13 @@ async def overview(request: Request) -> Response:
         ks_error = None
     except ValueError as exc:
         ks, ks_error = an.default_slot_counts(analysis), str(exc)
-    counts = None
-    count_error = None
-    counting = None
+    task = None
     if analysis.summary.events:
-        task = an.start_count(analysis, ks, settings.count_budget_seconds)
+        task = start_count(analysis, ks, settings.count_first_seconds, settings.count_budget_seconds)
         # Small files count in a blink: wait a moment so the page comes complete; else show it now
-        # and let the page's script (or a refresh) fill in the counts.
-        await run_in_threadpool(task.finished.wait, FIRST_COUNT_WAIT)
-        if task.error:
-            count_error = task.error.replace(str(stored.path), stored.name)
-        elif task.finished.is_set():
-            counts = analysis.counts.get(tuple(ks))
-        else:
-            counting = task.to_json()
-    rows = list(getattr(counts, "counts", []) or [])
-    chart = count_chart_svg([bar_from_count(c) for c in rows]) if rows else None
+        # and let the page's script (or a refresh) fill in the counts, and later the exact ones.
+        await run_in_threadpool(task.first.wait, FIRST_COUNT_WAIT)
+    shown = _counts_context(stored, analysis, ks, task)
     problem = analysis.problem
     return render(
         request,
@@ -280,17 +309,11 @@ async def overview(request: Request) -> Response:
             "summary": analysis.summary,
             "reading": analysis.reading,
             "warnings": an.finding_rows(analysis.reading.warnings, stored.path, stored.name),
-            "components": an.components(analysis.graph, report=counts),
-            "counts": rows,
-            "count_report": counts,
-            "count_error": count_error,
-            "counting": counting,
-            "counts_source": f"/files/{stored.token}/counts.json?slots={'+'.join(map(str, ks))}",
-            "chart": chart,
+            "components": an.components(analysis.graph, report=shown["count_report"]),
+            **shown,
             "ks": ks,
             "ks_text": " ".join(map(str, ks)),
             "ks_error": ks_error,
-            "suggested": _suggested(rows, analysis),
             "weights": an.weight_fields(problem.weights),
             "rules": [rule.describe() for rule in problem.rules],
             "has_slots_sheet": bool(problem.slots),
@@ -664,10 +687,8 @@ def _cached_counts(analysis: an.Analysis | None, ks: list[int]) -> Any:
     """A count report the overview already made that covers these slot counts, or None."""
     if analysis is None:
         return None
-    for key, report in analysis.counts.items():
-        if set(ks) <= set(key):
-            return report
-    return None
+    covering = [report for key, report in list(analysis.counts.items()) if set(ks) <= set(key)]
+    return max(covering, key=exact_share, default=None)
 
 
 # -- downloads --------------------------------------------------------------------------------------
@@ -691,24 +712,25 @@ async def download(request: Request) -> Response:
                        back=f"/files/{stored.token}")
     kind, media_type = DOWNLOADS[name]
     pseudonyms = request.query_params.get("pseudonyms") == "1"
-    outputs: dict = kept.outputs
-    if (kind, pseudonyms) not in outputs:
+    counts = await run_in_threadpool(_counts_report, _current_analysis(stored), [r.slots for r in runs],
+                                     request.app.state.settings)
+    made = kept.outputs.get((kind, pseudonyms))
+    if made is None or made[1] is not counts:  # made again once better counts have arrived
         try:
-            budget = request.app.state.settings.count_budget_seconds
-            outputs[(kind, pseudonyms)] = await run_in_threadpool(_make_output, stored, kept, kind, runs, budget, pseudonyms)
+            path = await run_in_threadpool(_make_output, stored, kept, kind, runs, counts, pseudonyms)
+            kept.outputs[(kind, pseudonyms)] = (path, counts)
         except InputError as exc:
             return message(request, 400, "This file cannot be made", str(exc).replace(str(stored.folder), "the private folder"),
                            back=f"{solve_base(stored, kept)}/timetable")
     shown = name.replace(".", "-pseudonyms.", 1) if pseudonyms else name
-    return FileResponse(outputs[(kind, pseudonyms)], filename=shown, media_type=media_type)
+    return FileResponse(kept.outputs[(kind, pseudonyms)][0], filename=shown, media_type=media_type)
 
 
-def _make_output(stored: StoredUpload, kept: Solve, kind: str, runs: list, budget: float, pseudonyms: bool = False) -> Path:
+def _make_output(stored: StoredUpload, kept: Solve, kind: str, runs: list, counts: Any, pseudonyms: bool = False) -> Path:
     """Write one download with the export layer's publish(), as ``solve --out/--csv/--ics`` do."""
     from ..export.publishing import publish
 
     analysis = _current_analysis(stored)
-    counts = _counts_report(analysis, [r.slots for r in runs], budget)
     # Named as the user knows the file: never the private path, the token or the stored name.
     problem, reading = an.named_as_uploaded(kept.problem, analysis.reading if analysis is not None else None,
                                             stored.path, stored.name)
@@ -734,18 +756,25 @@ def _make_output(stored: StoredUpload, kept: Solve, kind: str, runs: list, budge
     return an.zip_folder(folder, out / f"{kind}.zip")
 
 
-def _counts_report(analysis: an.Analysis | None, ks: list[int], budget: float):
-    """A count report covering the solved slot counts (counted now if the page has not yet)."""
+#: Seconds a download waits for the counts of its slot counts: what ``solve --out`` gives counting.
+DOWNLOAD_COUNT_WAIT = 20.0
+
+
+def _counts_report(analysis: an.Analysis | None, ks: list[int], settings: Any):
+    """The best count report covering the solved slot counts, waiting up to DOWNLOAD_COUNT_WAIT
+    seconds for a count still running (started here if the page has none for them)."""
     if analysis is None or not analysis.summary.events:
         return None
+    wanted = set(ks)
     cached = _cached_counts(analysis, ks)
-    if cached is not None:
+    if cached is not None and exact_share(cached) == len(cached.counts):
         return cached
-    try:
-        return an.count(analysis, sorted(set(ks)), budget)
-    except Exception:  # noqa: BLE001 - the files are still worth having without the counts
-        log.exception("counting failed for slot counts %s", ks)
-        return None
+    task = next((t for key, t in list(analysis.tasks.items()) if wanted <= set(key) and t.state in ("counting", "refining")),
+                None)
+    if task is None:
+        task = start_count(analysis, sorted(wanted), settings.count_first_seconds, settings.count_budget_seconds)
+    task.finished.wait(DOWNLOAD_COUNT_WAIT)
+    return _cached_counts(analysis, ks)
 
 
 # -- delete -------------------------------------------------------------------------------------------
@@ -753,9 +782,7 @@ def _counts_report(analysis: an.Analysis | None, ks: list[int], budget: float):
 
 async def delete(request: Request) -> Response:
     stored = upload_of(request)
-    for kept in solves_of(stored.state).values():
-        if kept.job.running:
-            await run_in_threadpool(kept.job.cancel)
+    await run_in_threadpool(stop_upload_work, stored)
     store_of(request).delete(stored.token)
     return message(request, 200, "Deleted", f"'{stored.name}' and everything made from it have been deleted from this computer's temporary folder.",
                    back="/")

@@ -85,23 +85,47 @@
     poll();
   }
 
+  // While the counts are worked out (first a quick look, then the exact count in the background),
+  // poll this page's own server and put the new table in place: no reload, so the solve form
+  // keeps what has been typed in it.
   function setupCounting() {
+    var result = document.getElementById("count-result");
     var box = document.getElementById("counting");
-    if (!box) return;
+    if (!result || !box) return;
     var source = box.getAttribute("data-source");
-    var line = document.getElementById("counting-progress");
+    var shownState = box.getAttribute("data-state");
+    var ticksTouched = false;
+    document.querySelectorAll('input[name="slots"]').forEach(function (tick) {
+      tick.addEventListener("change", function () { ticksTouched = true; });
+    });
+    function place(doc) {
+      result.innerHTML = doc.html;
+      if (!ticksTouched && doc.suggested) {
+        document.querySelectorAll('input[name="slots"]').forEach(function (tick) {
+          tick.checked = doc.suggested.indexOf(Number(tick.value)) >= 0;
+        });
+      }
+      box = document.getElementById("counting");
+      shownState = box ? box.getAttribute("data-state") : doc.state;
+    }
     function poll() {
       fetch(source, { headers: { "Accept": "application/json" }, credentials: "same-origin" })
         .then(function (r) { return r.json(); })
         .then(function (doc) {
-          if (doc.state === "running") {
-            if (doc.total) line.textContent = "group " + doc.done + " of " + doc.total + " done";
-            window.setTimeout(poll, 700);
-          } else {
-            window.location.reload();
+          if (doc.state === "counting" || (doc.state === "refining" && shownState === "refining")) {
+            var line = document.getElementById("counting-progress");
+            if (line) line.textContent = doc.message || (doc.total ? "group " + doc.done + " of " + doc.total + " done" : "");
+            window.setTimeout(poll, doc.state === "counting" ? 700 : 2000);
+            return;
           }
+          return fetch(source + "&html=1", { headers: { "Accept": "application/json" }, credentials: "same-origin" })
+            .then(function (r) { return r.json(); })
+            .then(function (full) {
+              if (full.html !== undefined) place(full);
+              if (full.state === "counting" || full.state === "refining") window.setTimeout(poll, 2000);
+            });
         })
-        .catch(function () { window.setTimeout(poll, 2000); });
+        .catch(function () { window.setTimeout(poll, 3000); });
     }
     poll();
   }
