@@ -194,6 +194,7 @@ def create_app(settings: WebSettings | None = None) -> Starlette:
     async def lifespan(app: Starlette):
         store = UploadStore(max_bytes=settings.max_upload_bytes, max_uploads=settings.max_uploads, idle_seconds=settings.idle_seconds)
         store.busy = lambda upload: routes.job_running(upload)
+        store.before_delete = routes.stop_upload_work
         app.state.store = store
         log.info("uploads are kept in %s until the server stops", store.root)
         try:

@@ -194,6 +194,7 @@ class UploadStore:
         self._uploads: dict[str, StoredUpload] = {}
         self._lock = threading.Lock()
         self.busy = lambda upload: False  # replaced by the app: True while a job runs on an upload
+        self.before_delete = lambda upload: None  # replaced by the app: ends the upload's solves and counts
 
     # -- life cycle -------------------------------------------------------------------------
 
@@ -276,6 +277,7 @@ class UploadStore:
             upload = self._uploads.pop(token, None)
         if upload is None:
             return False
+        self.before_delete(upload)
         shutil.rmtree(upload.folder, ignore_errors=True)
         return True
 
