@@ -66,7 +66,7 @@ class TimetableModel:
     codes: list[str]
     k: int
     x: dict[str, list[cp_model.IntVar]]
-    terms: dict[str, list[tuple[int, object]]] = field(default_factory=dict)
+    terms: dict[str, list[tuple[int, object, tuple]]] = field(default_factory=dict)  # coef, expr, meaning
     rules: list[RuleLiteral] = field(default_factory=list)
     symmetry_clique: list[str] = field(default_factory=list)
     cover_size: int = 0
@@ -78,48 +78,74 @@ class TimetableModel:
     def hint(self, assignment: dict[str, int]) -> None:
         """Hint a full solution: ``x`` from ``assignment`` and every derived variable computed from it,
         so CP-SAT can take the hint as its first solution without search."""
-        m, k, day = self.model, self.k, self.day
+        m, k = self.model, self.k
         for c, s in assignment.items():
             if c in self.x and 1 <= s <= k:
                 for i, v in enumerate(self.x[c], start=1):
-                    m.AddHint(v, i == s)
+                    m.add_hint(v, i == s)
         if any(c not in assignment for c in self.codes):
             return
-        a = assignment
         for var, kind, *args in self.derived:
-            if kind == "t":
-                value = a[args[0]]
-            elif kind == "d":
-                value = day[a[args[0]] - 1]
-            elif kind in ("adj", "sday", "b2b", "over", "twoday", "gap", "prox", "before"):
-                e, f = args
-                gap = abs(a[e] - a[f])
-                same = day[a[e] - 1] == day[a[f] - 1]
-                value = {"before": a[e] < a[f], "adj": gap == 1, "sday": same, "b2b": gap == 1 and same,
-                         "over": gap == 1 and not same,
-                         "twoday": gap != 1 and same, "gap": gap,
-                         "prox": PROXIMITY_WEIGHTS[gap - 1] if 1 <= gap <= 5 else 0}[kind]
-            elif kind == "miss":
-                value = a[args[0]] not in args[1]
-            else:
-                continue
-            m.AddHint(var, int(value))
+            m.add_hint(var, int(self.value(kind, args, assignment)))
+
+    def value(self, kind: str, args, a: dict[str, int]) -> int:
+        """What a derived variable or goal term means, computed from a timetable ``a`` (event -> slot)."""
+        day = self.day
+        if kind == "t":
+            return a[args[0]]
+        if kind == "d":
+            return day[a[args[0]] - 1]
+        if kind == "in":
+            return int(a[args[0]] == args[1])
+        if kind == "away":
+            return int(a[args[0]] != args[1])
+        if kind == "miss":
+            return int(a[args[0]] not in args[1])
+        e, f = args[0], args[1]
+        gap = abs(a[e] - a[f])
+        same = day[a[e] - 1] == day[a[f] - 1]
+        if kind == "before":
+            return int(a[e] < a[f])
+        if kind == "near":
+            return int(gap <= args[2])
+        if kind == "sday":
+            return int(same)
+        if kind == "b2b":
+            return int(gap == 1 and same)
+        if kind == "over":
+            return int(gap == 1 and not same)
+        if kind == "twoday":
+            return int(gap != 1 and same)
+        raise ValueError(f"unknown derived variable kind {kind!r}")
 
     def assignment(self, solver: cp_model.CpSolver) -> dict[str, int]:
         out: dict[str, int] = {}
         for code in self.codes:
             for s, var in enumerate(self.x[code], start=1):
-                if solver.BooleanValue(var):
+                if solver.boolean_value(var):
                     out[code] = s
                     break
         return out
 
-    def breakdown(self, solver: cp_model.CpSolver) -> dict[str, int]:
-        """Weighted penalty of each soft goal in the solver's current solution."""
+    def evaluate(self, assignment: dict[str, int]) -> dict[str, int]:
+        """Weighted penalty of each soft goal of the model in ``assignment``, computed from the timetable
+        (the goal literals bound the goals from above; they are exact only at the optimum)."""
         out: dict[str, int] = {}
         for name, terms in self.terms.items():
-            out[name] = self.constant.get(name, 0) + sum(coef * solver.Value(expr) for coef, expr in terms)
+            out[name] = self.constant.get(name, 0) + sum(coef * self.value(key[0], key[1:], assignment)
+                                                         for coef, _, key in terms)
+        for name, value in self.constant.items():
+            out.setdefault(name, value)
         return out
+
+    def breakdown(self, solver: cp_model.CpSolver) -> dict[str, int]:
+        """Weighted penalty of each soft goal in the solver's current solution (see :meth:`evaluate`)."""
+        return self.evaluate(self.assignment(solver))
+
+    def size(self) -> dict[str, int]:
+        """Variables and constraints of the model (what memory grows with)."""
+        proto = self.model.proto
+        return {"variables": len(proto.variables), "constraints": len(proto.constraints)}
 
 
 @dataclass
@@ -247,24 +273,24 @@ def build_model(
     code_set = set(codes)
     sub = graph.subgraph(codes)
     day = days_of(slots)
-    x = {c: [m.NewBoolVar(f"x[{c}][{s}]") for s in range(1, k + 1)] for c in codes}
+    x = {c: [m.new_bool_var(f"x[{c}][{s}]") for s in range(1, k + 1)] for c in codes}
     tm = TimetableModel(model=m, codes=list(codes), k=k, x=x, day=list(day), pairs=sub.number_of_edges())
 
     def rule_literal(text: str, kind: str):
         if not explain:
             return None
-        lit = m.NewBoolVar(f"rule[{len(tm.rules)}]")
+        lit = m.new_bool_var(f"rule[{len(tm.rules)}]")
         tm.rules.append(RuleLiteral(lit, text, kind))
-        m.AddAssumption(lit)
+        m.add_assumption(lit)
         return lit
 
     def enforce(ct, lit):
         if lit is not None:
-            ct.OnlyEnforceIf(lit)
+            ct.only_enforce_if(lit)
         return ct
 
     for c in codes:
-        m.AddExactlyOne(x[c])
+        m.add_exactly_one(x[c])
 
     # physical limits (explain mode: one literal per event whose slots they restrict)
     for c in codes:
@@ -274,7 +300,7 @@ def build_model(
         reasons = domains.why_not[c]
         lit = rule_literal(f"{c} cannot go in slot(s) {_ranges(banned)}: {reasons[banned[0]]}", "physical")
         for s in banned:
-            enforce(m.Add(x[c][s - 1] == 0), lit)
+            enforce(m.add(x[c][s - 1] == 0), lit)
 
     # no attendee double-booked: clique at-most-one per slot
     cliques = cover if cover is not None else clique_cover(sub)
@@ -286,9 +312,9 @@ def build_model(
         tight = len(clique) == k
         for s in range(k):
             if tight:
-                m.AddExactlyOne(x[c][s] for c in clique)
+                m.add_exactly_one(x[c][s] for c in clique)
             else:
-                m.AddAtMostOne(x[c][s] for c in clique)
+                m.add_at_most_one(x[c][s] for c in clique)
 
     # fixed and barred slots
     for c in codes:
@@ -297,30 +323,30 @@ def build_model(
             s = problem.slot_number(ev.fixed_slot, slots)
             lit = rule_literal(f"{c} is fixed to {_slot_name(slots, s, ev.fixed_slot)}", "fixed")
             if s is None:
-                enforce(m.AddBoolOr([]), lit)  # refers to no slot: cannot hold
+                enforce(m.add_bool_or([]), lit)  # refers to no slot: cannot hold
             else:
-                enforce(m.Add(x[c][s - 1] == 1), lit)
+                enforce(m.add(x[c][s - 1] == 1), lit)
         barred = sorted({n for ref in ev.barred_slots if (n := problem.slot_number(ref, slots)) is not None})
         if barred:
             lit = rule_literal(f"{c} may not go in slot(s) {_ranges(barred)}", "barred")
             for s in barred:
-                enforce(m.Add(x[c][s - 1] == 0), lit)
+                enforce(m.add(x[c][s - 1] == 0), lit)
 
     t_cache: dict[str, cp_model.IntVar] = {}
     d_cache: dict[str, cp_model.IntVar] = {}
 
     def t(c: str):
         if c not in t_cache:
-            v = m.NewIntVar(1, max(k, 1), f"t[{c}]")
-            m.Add(v == sum((s + 1) * x[c][s] for s in range(k)))
+            v = m.new_int_var(1, max(k, 1), f"t[{c}]")
+            m.add(v == sum((s + 1) * x[c][s] for s in range(k)))
             t_cache[c] = v
             tm.derived.append((v, "t", c))
         return t_cache[c]
 
     def d(c: str):
         if c not in d_cache:
-            v = m.NewIntVar(min(day, default=1), max(day, default=1), f"d[{c}]")
-            m.Add(v == sum(day[s] * x[c][s] for s in range(k)))
+            v = m.new_int_var(min(day, default=1), max(day, default=1), f"d[{c}]")
+            m.add(v == sum(day[s] * x[c][s] for s in range(k)))
             d_cache[c] = v
             tm.derived.append((v, "d", c))
         return d_cache[c]
@@ -336,21 +362,21 @@ def build_model(
             continue  # rule belongs to another block, or names unknown events (intake reports those)
         lit = rule_literal(rule.describe(), rule.kind.value)
         if rule.kind is RuleKind.BEFORE:
-            enforce(m.Add(t(evs[0]) + 1 <= t(evs[1])), lit)
+            enforce(m.add(t(evs[0]) + 1 <= t(evs[1])), lit)
         elif rule.kind is RuleKind.SAME_SLOT:
             for other in evs[1:]:
                 for s in range(k):
-                    enforce(m.Add(x[evs[0]][s] == x[other][s]), lit)
+                    enforce(m.add(x[evs[0]][s] == x[other][s]), lit)
         elif rule.kind is RuleKind.DIFFERENT_DAYS:
             for slot_list in day_slots.values():
-                enforce(m.Add(sum(x[c][s] for c in evs for s in slot_list) <= 1), lit)
+                enforce(m.add(sum(x[c][s] for c in evs for s in slot_list) <= 1), lit)
         elif rule.kind is RuleKind.ALONE:
             e = evs[0]
             others = [c for c in codes if c != e]
             for s in range(k):
                 if others:
                     cond = [x[e][s]] + ([lit] if lit is not None else [])
-                    m.Add(sum(x[c][s] for c in others) == 0).OnlyEnforceIf(cond)
+                    m.add(sum(x[c][s] for c in others) == 0).only_enforce_if(cond)
 
     # seats per slot
     for s in range(k):
@@ -361,7 +387,7 @@ def build_model(
         if sum(n for n, _ in load) <= cap:
             continue
         lit = rule_literal(f"slot {s + 1} ({slots[s].label}) seats at most {cap}", "seats")
-        enforce(m.Add(sum(n * v for n, v in load) <= cap), lit)
+        enforce(m.add(sum(n * v for n, v in load) <= cap), lit)
 
     # rooms: seats of the rooms of each type free in each slot
     if problem.rooms:
@@ -375,10 +401,10 @@ def build_model(
                 word = f"rooms of type '{ty}'" if ty else "rooms"
                 if sum(sizes[c] for c in members) > sum(room_caps):
                     lit = rule_literal(f"the {word} free in slot {s + 1} seat {sum(room_caps)}", "rooms")
-                    enforce(m.Add(sum(sizes[c] * x[c][s] for c in members) <= sum(room_caps)), lit)
+                    enforce(m.add(sum(sizes[c] * x[c][s] for c in members) <= sum(room_caps)), lit)
                 if not room_sharing and len(members) > len(room_caps):
                     lit = rule_literal(f"slot {s + 1} has {len(room_caps)} {word} free, one event per room", "rooms")
-                    enforce(m.Add(sum(x[c][s] for c in members) <= len(room_caps)), lit)
+                    enforce(m.add(sum(x[c][s] for c in members) <= len(room_caps)), lit)
                 if not room_sharing and not room_splitting:
                     # Hall's condition for seating one event per room: the events needing at least
                     # `need` seats cannot outnumber the rooms that have them (exact for one room type,
@@ -389,10 +415,10 @@ def build_model(
                         if len(big) > fits:
                             lit = rule_literal(f"slot {s + 1} has {fits} {word} free with {need} seats or more, "
                                                "one event per room", "rooms")
-                            enforce(m.Add(sum(x[c][s] for c in big) <= fits), lit)
+                            enforce(m.add(sum(x[c][s] for c in big) <= fits), lit)
     for s, group in nogoods or ():
         if all(c in code_set for c in group):
-            m.Add(sum(x[c][s - 1] for c in group) <= len(group) - 1)
+            m.add(sum(x[c][s - 1] for c in group) <= len(group) - 1)
 
     # the cap on events per attendee per day
     if problem.max_per_day is not None and k:
@@ -404,12 +430,12 @@ def build_model(
             for slot_list in day_slots.values():
                 if len(slot_list) <= problem.max_per_day:
                     continue  # one event per slot: this day cannot exceed the cap
-                enforce(m.Add(sum(x[c][s] for c in events for s in slot_list) <= problem.max_per_day), lit)
+                enforce(m.add(sum(x[c][s] for c in events for s in slot_list) <= problem.max_per_day), lit)
 
     # slot symmetry
     if symmetry:
         for s, c in enumerate(symmetry[:k]):
-            m.Add(x[c][s] == 1)
+            m.add(x[c][s] == 1)
         tm.symmetry_clique = list(symmetry[:k])
 
     if objective:
@@ -436,107 +462,140 @@ def _add_objective(tm: TimetableModel, problem, slots, sub, day, t, d, previous,
     want_two = w.same_day > 0 and not one_day_each and not at_most_two_a_day
     want_prox = w.proximity > 0 and k > 1
     if k > 1 and (want_b2b or want_over or want_two or want_prox):
-        # days never go back as slots go on (true of generic slots and of dated slots in order): then one
-        # order literal per pair, with plain enforced inequalities, encodes "consecutive" and "same day";
-        # the domains with holes used otherwise are expanded by CP-SAT into about seven Booleans per pair
-        monotone = all(day[s] <= day[s + 1] for s in range(k - 1))
-        for a, b, shared in sub.edges(data="shared", default=1):
-            c = int(shared or 1)
-            delta = t(a) - t(b)
-            adj = sday = before = None
-            need_adj = (want_b2b and not at_most_two_a_day) or want_over or want_two
-            need_sday = (want_b2b or want_two or want_over) and not one_day_each
-            if monotone and (need_adj or need_sday):
-                # a and b clash, so they never share a slot: `before` is t(a) < t(b)
-                before = m.NewBoolVar(f"before[{a},{b}]")
-                tm.derived.append((before, "before", a, b))
-                m.Add(t(b) - t(a) >= 1).OnlyEnforceIf(before)
-                m.Add(t(a) - t(b) >= 1).OnlyEnforceIf(before.Not())
-            if need_adj:
-                adj = m.NewBoolVar(f"adj[{a},{b}]")
-                tm.derived.append((adj, "adj", a, b))
-                if before is not None:
-                    m.Add(delta <= 1).OnlyEnforceIf(adj)
-                    m.Add(delta >= -1).OnlyEnforceIf(adj)
-                    m.Add(t(b) - t(a) >= 2).OnlyEnforceIf([adj.Not(), before])
-                    m.Add(t(a) - t(b) >= 2).OnlyEnforceIf([adj.Not(), before.Not()])
-                else:
-                    near = cp_model.Domain.FromValues([-1, 1])
-                    far = cp_model.Domain.FromIntervals([[-k, -2], [0, 0], [2, k]])
-                    m.AddLinearExpressionInDomain(delta, near).OnlyEnforceIf(adj)
-                    m.AddLinearExpressionInDomain(delta, far).OnlyEnforceIf(adj.Not())
-            if need_sday:
-                sday = m.NewBoolVar(f"sday[{a},{b}]")
-                tm.derived.append((sday, "sday", a, b))
-                m.Add(d(a) == d(b)).OnlyEnforceIf(sday)
-                if before is not None:
-                    m.Add(d(b) - d(a) >= 1).OnlyEnforceIf([sday.Not(), before])
-                    m.Add(d(a) - d(b) >= 1).OnlyEnforceIf([sday.Not(), before.Not()])
-                else:
-                    m.Add(d(a) != d(b)).OnlyEnforceIf(sday.Not())
-            if want_b2b and sday is not None and at_most_two_a_day:
-                # at most two slots a day: two events of one day always sit back-to-back
-                terms.setdefault("back_to_back", []).append((c * w.back_to_back, sday))
-            elif want_b2b and sday is not None:
-                v = m.NewBoolVar(f"b2b[{a},{b}]")
-                tm.derived.append((v, "b2b", a, b))
-                m.AddBoolAnd([adj, sday]).OnlyEnforceIf(v)
-                m.AddBoolOr([adj.Not(), sday.Not(), v])
-                terms.setdefault("back_to_back", []).append((c * w.back_to_back, v))
-            if want_over:
-                if sday is None:  # every slot its own day: consecutive slots are consecutive days
-                    v = adj
-                else:
-                    v = m.NewBoolVar(f"over[{a},{b}]")
-                    tm.derived.append((v, "over", a, b))
-                    m.AddBoolAnd([adj, sday.Not()]).OnlyEnforceIf(v)
-                    m.AddBoolOr([adj.Not(), sday, v])
-                terms.setdefault("overnight", []).append((c * w.overnight, v))
-            if want_two and sday is not None:
-                v = m.NewBoolVar(f"twoday[{a},{b}]")
-                tm.derived.append((v, "twoday", a, b))
-                m.AddBoolAnd([adj.Not(), sday]).OnlyEnforceIf(v)
-                m.AddBoolOr([adj, sday.Not(), v])
-                terms.setdefault("same_day", []).append((c * w.same_day, v))
-            if want_prox:
-                gap = m.NewIntVar(1, k - 1, f"gap[{a},{b}]")
-                tm.derived.append((gap, "gap", a, b))
-                m.AddAbsEquality(gap, delta)
-                table = [0] + [PROXIMITY_WEIGHTS[g - 1] if g <= 5 else 0 for g in range(1, k)]
-                prox = m.NewIntVar(0, 16, f"prox[{a},{b}]")
-                tm.derived.append((prox, "prox", a, b))
-                m.AddElement(gap, table, prox)
-                terms.setdefault("proximity", []).append((c * w.proximity, prox))
+        _add_pair_goals(tm, sub, day, t, d, terms, w, want_b2b=want_b2b, want_over=want_over, want_two=want_two,
+                        want_prox=want_prox, one_day_each=one_day_each, at_most_two_a_day=at_most_two_a_day)
     if w.large_late > 0:
         for c in tm.codes:
             if c in large:
-                terms.setdefault("large_late", []).append((w.large_late, t(c)))
+                terms.setdefault("large_late", []).append((w.large_late, t(c), ("t", c)))
                 tm.constant["large_late"] = tm.constant.get("large_late", 0) - w.large_late
     if w.preferred_slot > 0:
         for c in tm.codes:
             refs = problem.events[c].preferred_slots
             if not refs:
                 continue
-            wanted = {n for r in refs if (n := problem.slot_number(r, slots)) is not None}
-            miss = m.NewBoolVar(f"miss_preferred[{c}]")
-            tm.derived.append((miss, "miss", c, frozenset(wanted)))
-            m.Add(sum(x[c][s - 1] for s in wanted) + miss >= 1)
-            m.Add(sum(x[c][s - 1] for s in wanted) + miss <= 1)
-            terms.setdefault("preferred_slot", []).append((w.preferred_slot, miss))
+            wanted = frozenset(n for r in refs if (n := problem.slot_number(r, slots)) is not None)
+            miss = m.new_bool_var(f"miss_preferred[{c}]")
+            tm.derived.append((miss, "miss", c, wanted))
+            m.add(sum(x[c][s - 1] for s in wanted) + miss == 1)
+            terms.setdefault("preferred_slot", []).append((w.preferred_slot, miss, ("miss", c, wanted)))
     if w.penalised_slot > 0:
         for s, slot in enumerate(slots):
             if slot.penalised:
                 for c in tm.codes:
-                    terms.setdefault("penalised_slot", []).append((w.penalised_slot, x[c][s]))
+                    terms.setdefault("penalised_slot", []).append((w.penalised_slot, x[c][s], ("in", c, s + 1)))
     if previous and w.moved > 0:
         for c in tm.codes:
             p = previous.get(c)
             if p is not None and 1 <= p <= k:
-                terms.setdefault("moved", []).append((w.moved, x[c][p - 1].Not()))
+                terms.setdefault("moved", []).append((w.moved, ~x[c][p - 1], ("away", c, p)))
     tm.terms = terms
-    objective = [coef * expr for name in terms for coef, expr in terms[name]]
-    if objective:
-        m.Minimize(sum(objective) + sum(tm.constant.values()))
+    exprs = [expr for name in terms for _, expr, _ in terms[name]]
+    if exprs:
+        coefs = [coef for name in terms for coef, _, _ in terms[name]]
+        m.minimize(cp_model.LinearExpr.weighted_sum(exprs, coefs) + sum(tm.constant.values()))
+
+
+def proximity_steps() -> list[tuple[int, int]]:
+    """Carter's weights as steps over nested distance classes.
+
+    A pair ``g`` slots apart costs ``PROXIMITY_WEIGHTS[g - 1]``; that equals the sum of
+    ``step`` over the classes "at most ``d`` apart" with ``d >= g`` (``step`` = the weight
+    at ``d`` minus the weight at ``d + 1``), so one literal per class and a positive
+    coefficient each express the cost exactly, with no integer variable per pair.
+
+    >>> proximity_steps()
+    [(1, 8), (2, 4), (3, 2), (4, 1), (5, 1)]
+    >>> sum(step for d, step in proximity_steps() if d >= 2) == PROXIMITY_WEIGHTS[1]
+    True
+    """
+    weights = list(PROXIMITY_WEIGHTS) + [0]
+    return [(d, weights[d - 1] - weights[d]) for d in range(1, len(PROXIMITY_WEIGHTS) + 1)
+            if weights[d - 1] != weights[d]]
+
+
+def _add_pair_goals(tm: TimetableModel, sub, day, t, d, terms, weights, *, want_b2b: bool, want_over: bool, want_two: bool,
+                    want_prox: bool, one_day_each: bool, at_most_two_a_day: bool) -> None:
+    """The goals that count pairs of clashing events, with Booleans only.
+
+    Per pair (``a``, ``b``, sharing ``c`` attendees, so weighing ``c`` in every goal):
+
+    * ``before[a,b]``: ``t(a) < t(b)`` (they clash, so never equal); it picks the side of
+      every distance inequality below, which CP-SAT propagates as plain precedences;
+    * ``near<d>[a,b]``: at most ``d`` slots apart, one per distance class a goal needs
+      (1 for consecutive slots; 1 to 5 for Carter's proximity, by :func:`proximity_steps`);
+    * ``sday[a,b]`` (same day), ``b2b``, ``over``, ``twoday``: the day goals.
+
+    Every literal is minimised with a positive weight, so only the implication that forces
+    it up is needed ("not near -> far apart"); the converse is added only where another
+    literal uses it negated (consecutive for two-in-a-day, same day for overnight). The
+    penalty is therefore read from the timetable itself (:meth:`TimetableModel.evaluate`),
+    not from these literals, which may be 1 needlessly in a timetable that is not optimal.
+    """
+    m, k = tm.model, tm.k
+    monotone = all(day[s] <= day[s + 1] for s in range(k - 1))
+    # a class "at most k - 1 apart" or wider holds for every pair: its cost is a constant
+    steps = [(dist, step) for dist, step in proximity_steps() if dist < k - 1] if want_prox else []
+    always = sum(step for dist, step in proximity_steps() if dist >= k - 1) if want_prox else 0
+    classes = sorted({dist for dist, _ in steps} | ({1} if (want_b2b and not at_most_two_a_day) or want_over
+                                                     or want_two else set()))
+    exact_near1 = want_two
+    need_sday = not one_day_each and (want_b2b or want_two or want_over)
+    exact_sday = want_over
+    for a, b, shared in sub.edges(data="shared", default=1):
+        c = int(shared or 1)
+        if always:
+            tm.constant["proximity"] = tm.constant.get("proximity", 0) + c * always * weights.proximity
+        ta, tb = t(a), t(b)
+        before = m.new_bool_var(f"before[{a},{b}]")
+        tm.derived.append((before, "before", a, b))
+        m.add(tb - ta >= 1).only_enforce_if(before)
+        m.add(ta - tb >= 1).only_enforce_if(~before)
+        near: dict[int, cp_model.IntVar] = {}
+        for dist in classes:
+            v = near[dist] = m.new_bool_var(f"near{dist}[{a},{b}]")
+            tm.derived.append((v, "near", a, b, dist))
+            m.add(tb - ta >= dist + 1).only_enforce_if([~v, before])
+            m.add(ta - tb >= dist + 1).only_enforce_if([~v, ~before])
+            if dist == 1 and exact_near1:
+                m.add(tb - ta <= 1).only_enforce_if([v, before])
+                m.add(ta - tb <= 1).only_enforce_if([v, ~before])
+        for dist, step in steps:
+            terms.setdefault("proximity", []).append((c * step * weights.proximity, near[dist],
+                                                      ("near", a, b, dist)))
+        sday = None
+        if need_sday:
+            da, db = d(a), d(b)
+            sday = m.new_bool_var(f"sday[{a},{b}]")
+            tm.derived.append((sday, "sday", a, b))
+            if monotone:
+                m.add(db - da >= 1).only_enforce_if([~sday, before])
+                m.add(da - db >= 1).only_enforce_if([~sday, ~before])
+            else:
+                m.add(da != db).only_enforce_if(~sday)
+            if exact_sday:
+                m.add(da == db).only_enforce_if(sday)
+        if want_b2b and sday is not None:
+            if at_most_two_a_day:  # two events of one day are then always in consecutive slots
+                v = sday
+            else:
+                v = m.new_bool_var(f"b2b[{a},{b}]")
+                tm.derived.append((v, "b2b", a, b))
+                m.add_bool_or([~near[1], ~sday, v])
+            terms.setdefault("back_to_back", []).append((c * weights.back_to_back, v, ("b2b", a, b)))
+        if want_over:
+            if sday is None:  # every slot its own day: consecutive slots are consecutive days
+                v = near[1]
+            else:
+                v = m.new_bool_var(f"over[{a},{b}]")
+                tm.derived.append((v, "over", a, b))
+                m.add_bool_or([~near[1], sday, v])
+            terms.setdefault("overnight", []).append((c * weights.overnight, v, ("over", a, b)))
+        if want_two and sday is not None:
+            v = m.new_bool_var(f"twoday[{a},{b}]")
+            tm.derived.append((v, "twoday", a, b))
+            m.add_bool_or([~sday, near[1], v])
+            terms.setdefault("same_day", []).append((c * weights.same_day, v, ("twoday", a, b)))
 
 
 def _attendee_event_sets(problem: Problem, code_set: set[str]) -> list[tuple[str, ...]]:

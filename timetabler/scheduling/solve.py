@@ -150,8 +150,8 @@ class _Watcher(cp_model.CpSolverSolutionCallback):
         if self.first is None:
             self.first = time.perf_counter() - self.start
         if self.progress:
-            penalty = self.ObjectiveValue()
-            bound = self.BestObjectiveBound()
+            penalty = self.objective_value
+            bound = self.best_objective_bound
             gap = 0.0 if penalty == 0 else max(0.0, (penalty - bound) / abs(penalty))
             self.progress({**self.info, "event": "solution", "penalty": int(round(penalty)), "bound": bound,
                            "gap": gap, "seconds": time.perf_counter() - self.start})
@@ -174,7 +174,7 @@ class _Budget:
 
     def charge(self, solver: cp_model.CpSolver) -> None:
         if self.deterministic:
-            self.used += solver.ResponseProto().deterministic_time
+            self.used += solver.response_proto.deterministic_time
 
 
 def _parameters(solver: cp_model.CpSolver, options: SolveOptions, seconds: float, *, workers: int | None = None) -> None:
@@ -482,9 +482,10 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
             run.first_feasible_seconds = (t0 - start) + watcher.first
         assignment = tm.assignment(solver)
         run.assignment = assignment
-        run.penalty_breakdown = tm.breakdown(solver)
-        run.penalty = int(round(solver.ObjectiveValue())) if tm.terms else 0
-        run.bound = float(solver.BestObjectiveBound()) if tm.terms else 0.0
+        # the penalty is counted on the timetable: the goal literals only bound it from above
+        run.penalty_breakdown = tm.evaluate(assignment)
+        run.penalty = sum(run.penalty_breakdown.values())
+        run.bound = min(float(solver.best_objective_bound), run.penalty) if tm.terms else 0.0
         run.status = "optimal" if status == cp_model.OPTIMAL else "feasible"
         run.proven = status == cp_model.OPTIMAL
         if status == cp_model.FEASIBLE and symmetric and not order_free and not previous:
@@ -611,7 +612,7 @@ def _run(tm: TimetableModel, options: SolveOptions, seconds: float, progress, in
         def bound_seen(bound: float) -> None:
             progress({**info, "event": "bound", "bound": bound, "seconds": time.perf_counter() - start})
         solver.best_bound_callback = bound_seen
-    status = solver.Solve(tm.model, watcher)
+    status = solver.solve(tm.model, watcher)
     return status, solver, watcher
 
 
@@ -630,13 +631,13 @@ def _explain(problem, slots, graph, block, sizes, domains, options, left, run: S
                      room_splitting=options.room_splitting, room_sharing=options.room_sharing, cover=cover)
     solver = cp_model.CpSolver()
     _parameters(solver, options, seconds, workers=1)
-    status = solver.Solve(tm.model)
+    status = solver.solve(tm.model)
     if status != cp_model.INFEASIBLE:
         run.reason = generic + " (the rules behind it could not be singled out in time)"
         run.reasons = [run.reason]
         return run
-    core_idx = set(solver.SufficientAssumptionsForInfeasibility())
-    core = [r for r in tm.rules if r.literal.Index() in core_idx]
+    core_idx = set(solver.sufficient_assumptions_for_infeasibility())
+    core = [r for r in tm.rules if r.literal.index in core_idx]
     if not core:
         run.reason = (f"the clashes alone need more than {k} slots: no way to give every event a slot "
                       "without booking someone twice")
@@ -657,11 +658,11 @@ def _shrink(tm: TimetableModel, core, options: SolveOptions, left):
         if left() <= 0:
             break
         trial = [r for r in kept if r is not rule]
-        tm.model.ClearAssumptions()
-        tm.model.AddAssumptions([r.literal for r in trial])
+        tm.model.clear_assumptions()
+        tm.model.add_assumptions([r.literal for r in trial])
         solver = cp_model.CpSolver()
         _parameters(solver, options, max(0.5, min(5.0, left())), workers=1)
-        if solver.Solve(tm.model) == cp_model.INFEASIBLE:
+        if solver.solve(tm.model) == cp_model.INFEASIBLE:
             kept = trial
     return kept
 
