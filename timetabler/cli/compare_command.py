@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import contextlib
+import time
 from decimal import Decimal
 from typing import Any
 
@@ -14,6 +15,7 @@ from ..errors import Finding, InputError
 from ..export.tables import comparison_table, rows_as_json, run_figures, value_text
 from ..model import generic_slots
 from ..scheduling import SolveOptions, fewest_slots, solve, validate
+from .command_clock import CommandClock
 from .common import console, err_console, input_options, print_json, read_input, show_warnings
 from ..export.publishing import count_for_runs
 from .output_options import output_options, publish
@@ -28,7 +30,8 @@ from .slot_counts import SlotCountsOption, parse_slot_counts
 @click.option("--sessions-per-day", type=click.IntRange(1, 12), default=2, show_default=True,
               help="Without a slots sheet: how many slots make a day (for back-to-back and two-in-a-day figures).")
 @click.option("--time-limit", type=click.FloatRange(0.5, None), default=20.0, show_default=True, metavar="SECONDS",
-              help="Time for each number of slots, and again for the fewest-slots search.")
+              help="Time for each number of slots, and again for the fewest-slots search, counted from the start of "
+                   "the command (reading the file comes out of it).")
 @click.option("--count-time", type=click.FloatRange(0.1, None), default=20.0, show_default=True, metavar="SECONDS",
               help="Time for counting the clash-free timetables. Counts that take longer are estimated.")
 @click.option("--workers", type=click.IntRange(1, 64), default=2, show_default=True, help="Search threads.")
@@ -57,6 +60,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, sessions_pe
       timetabler compare enrolments.xlsx --slots 5 6
       timetabler compare enrolments.xlsx --slots 8-12 --out choices.xlsx --plot counts.png
     """
+    started = time.perf_counter()
     reading = read_input(file, sheet, attendee_column, event_column)
     show_warnings(reading, as_json)
     problem = reading.problem
@@ -72,13 +76,14 @@ def command(file, sheet, attendee_column, event_column, slot_counts, sessions_pe
     graph = conflict_graph(problem)
     options = SolveOptions(time_limit=time_limit, workers=workers, seed=seed, deterministic=repeatable,
                            room_sharing=share_rooms, room_splitting=split_rooms)
+    clock = CommandClock(started, time_limit, len(problem.enrolments))
     with _step(not as_json, "looking for the fewest slots"):
-        fewest = fewest_slots(problem, per_day=sessions_per_day, options=options, graph=graph)
+        fewest = fewest_slots(problem, per_day=sessions_per_day, options=clock.options(options, 0), graph=graph)
     runs = []
-    for k in ks:
+    for i, k in enumerate(ks, start=1):
         with _step(not as_json, f"solving with {k} slots"):
             slots = slots_for(k)
-            run = solve(problem, slots, options, graph=graph)
+            run = solve(problem, slots, clock.options(options, i), graph=graph)
             if run.assignment:
                 run.validation = validate(problem, slots, run.assignment, run.rooms or None,
                                           room_sharing=share_rooms, room_splitting=split_rooms)

@@ -15,6 +15,7 @@ from ..intake.previous_timetable import resolve_previous
 from ..intake.vocabulary import GOAL_WORDS, key
 from ..model import Weights, generic_slots
 from ..scheduling import SolveOptions, fewest_slots, solve, validate
+from .command_clock import CommandClock
 from .common import console, err_console, input_options, print_json, read_input, show_warnings
 from .output_options import output_options, publish
 from .slot_counts import SlotCountsOption, parse_slot_counts
@@ -54,7 +55,9 @@ def _parse_weights(ctx, param, values):
 @click.option("--sessions-per-day", type=click.IntRange(1, 12), default=2, show_default=True,
               help="Without a slots sheet: how many slots make a day (for back-to-back and same-day counts).")
 @click.option("--time-limit", type=click.FloatRange(0.5, None), default=30.0, show_default=True, metavar="SECONDS",
-              help="Time for each number of slots. The best timetable found by then is given.")
+              help="Time for each number of slots (and for --fewest), counted from the start of the command: "
+                   "reading the file and writing the results come out of it. The best timetable found by then is "
+                   "given.")
 @click.option("--workers", type=click.IntRange(1, 64), default=2, show_default=True,
               help="Search threads. More finish sooner on a machine with more cores.")
 @click.option("--seed", type=int, default=0, show_default=True, help="Random seed of the search.")
@@ -114,6 +117,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, fewest, ses
       timetabler solve enrolments.xlsx --slots 12 --publish "week 1"
       timetabler solve late-enrolments.xlsx --slots 12 --keep "week 1" --publish "week 2"
     """
+    started = time.perf_counter()
     reading = read_input(file, sheet, attendee_column, event_column)
     show_warnings(reading, as_json)
     problem = reading.problem
@@ -148,19 +152,20 @@ def command(file, sheet, attendee_column, event_column, slot_counts, fewest, ses
     counts = list(slot_counts) or ([len(problem.slots)] if problem.slots and not fewest else [])
     fewest_result = None
     runs = []
+    clock = CommandClock(started, time_limit, len(problem.enrolments))
     with _progress_display(not as_json) as show:
         if fewest:
             task = show.add("fewest slots", time_limit)
-            fewest_result = fewest_slots(problem, per_day=sessions_per_day, options=options, graph=graph,
-                                         progress=lambda e: show.update(task, e))
+            fewest_result = fewest_slots(problem, per_day=sessions_per_day, options=clock.options(options, 0),
+                                         graph=graph, progress=lambda e: show.update(task, e))
             show.finish(task)
             if fewest_result.upper is not None and fewest_result.upper not in counts:
                 counts.insert(0, fewest_result.upper)
-        for k in counts:
+        for i, k in enumerate(counts, start=1 if fewest else 0):
             slots = slots_for(k)
             previous = _resolve_previous(problem, previous_refs, slots) if previous_refs else None
             task = show.add(f"{k} slots", time_limit)
-            run = solve(problem, slots, options, previous=previous, graph=graph,
+            run = solve(problem, slots, clock.options(options, i), previous=previous, graph=graph,
                         progress=lambda e, task=task: show.update(task, e))
             show.finish(task)
             if run.assignment:

@@ -36,6 +36,7 @@ attendee-occurrences exactly as :func:`.validator.validate` recounts them.
 from __future__ import annotations
 
 import math
+import time
 from dataclasses import dataclass, field
 from typing import Hashable
 
@@ -47,6 +48,36 @@ from .cliques import clique_cover
 
 #: Carter, Laporte & Lee (1996) proximity weights for gaps of 1..5 slots.
 PROXIMITY_WEIGHTS = (16, 8, 4, 2, 1)
+
+#: Up to this many clashing pairs the per-pair literals carry names (for reading a model dump); beyond, the
+#: names alone would take tens of megabytes in the model and in each solver worker's copy.
+NAMED_PAIRS = 10_000
+
+#: Constraints a clashing pair adds to the goal model, roughly (for projecting the building time).
+PAIR_STEP = 12
+
+
+class BuildStopped(Exception):
+    """Building the model would not end by the time given (``build_model(stop_at=...)``)."""
+
+
+class _Clock:
+    """Checks, every so many steps of a long loop, that the loop will end by ``stop_at``
+    (``time.perf_counter()`` seconds), projecting from the pace so far; raises :class:`BuildStopped`."""
+
+    def __init__(self, stop_at: float | None, total_steps: int):
+        self.stop_at, self.total = stop_at, max(1, total_steps)
+        self.start = time.perf_counter()
+        self.done = 0
+
+    def step(self, n: int = 1) -> None:
+        before, self.done = self.done, self.done + n
+        if self.stop_at is None or before // 20_000 == self.done // 20_000:
+            return
+        now = time.perf_counter()
+        projected = now + (now - self.start) * (self.total - self.done) / self.done
+        if now > self.stop_at or (self.done >= self.total // 20 and projected > self.stop_at):
+            raise BuildStopped(f"the model would take until {projected - self.start:.0f} s after its start to build")
 
 
 @dataclass
@@ -66,27 +97,33 @@ class TimetableModel:
     codes: list[str]
     k: int
     x: dict[str, list[cp_model.IntVar]]
-    terms: dict[str, list[tuple[int, object, tuple]]] = field(default_factory=dict)  # coef, expr, meaning
+    terms: dict[str, list[tuple[int, int, tuple]]] = field(default_factory=dict)  # coef, literal ref, meaning
     rules: list[RuleLiteral] = field(default_factory=list)
     symmetry_clique: list[str] = field(default_factory=list)
     cover_size: int = 0
     constant: dict[str, int] = field(default_factory=dict)
-    derived: list[tuple] = field(default_factory=list)  # (var, kind, args...) to complete hints
+    derived: list[tuple] = field(default_factory=list)  # (var index, kind, args...) to complete hints
     day: list[int] = field(default_factory=list)
     pairs: int = 0  # clashing pairs in the model
+    clock: object = None  # the build's deadline check
 
     def hint(self, assignment: dict[str, int]) -> None:
         """Hint a full solution: ``x`` from ``assignment`` and every derived variable computed from it,
         so CP-SAT can take the hint as its first solution without search."""
-        m, k = self.model, self.k
+        k = self.k
+        refs: list[int] = []
+        values: list[int] = []
         for c, s in assignment.items():
             if c in self.x and 1 <= s <= k:
-                for i, v in enumerate(self.x[c], start=1):
-                    m.add_hint(v, i == s)
-        if any(c not in assignment for c in self.codes):
-            return
-        for var, kind, *args in self.derived:
-            m.add_hint(var, int(self.value(kind, args, assignment)))
+                refs.extend(v.index for v in self.x[c])
+                values.extend(int(i == s) for i in range(1, k + 1))
+        if all(c in assignment for c in self.codes):
+            for index, kind, *args in self.derived:
+                refs.append(index)
+                values.append(int(self.value(kind, args, assignment)))
+        hint = self.model.proto.solution_hint  # in bulk: one call per variable is slow on large models
+        hint.vars.extend(refs)
+        hint.values.extend(values)
 
     def value(self, kind: str, args, a: dict[str, int]) -> int:
         """What a derived variable or goal term means, computed from a timetable ``a`` (event -> slot)."""
@@ -260,6 +297,7 @@ def build_model(
     room_sharing: bool = False,
     nogoods: list[tuple[int, list[str]]] | None = None,
     cover: list[list[Hashable]] | None = None,
+    stop_at: float | None = None,
 ) -> TimetableModel:
     """Build the CP-SAT model for the events ``codes`` (a union of components of ``graph``).
 
@@ -267,6 +305,8 @@ def build_model(
     :func:`slots_interchangeable` holds and the objective does not depend on slot order.
     ``nogoods`` are (slot, events) pairs that must not all share that slot (rooms found
     impossible to allocate). ``explain`` gives every user rule its own assumption literal.
+    ``stop_at`` (a ``time.perf_counter()`` time): raise :class:`BuildStopped` as soon as the
+    building pace shows it would not end by then (a large model takes tens of seconds).
     """
     m = cp_model.CpModel()
     k = len(slots)
@@ -305,7 +345,12 @@ def build_model(
     # no attendee double-booked: clique at-most-one per slot
     cliques = cover if cover is not None else clique_cover(sub)
     tm.cover_size = len(cliques)
+    pair_goals = objective and k > 1 and any((problem.weights.back_to_back, problem.weights.overnight,
+                                              problem.weights.same_day, problem.weights.proximity))
+    # steps weighed by the constraints each adds: a clique one per slot, a pair about a dozen
+    clock = tm.clock = _Clock(stop_at, len(cliques) * k + (tm.pairs * PAIR_STEP if pair_goals else 0))
     for clique in cliques:
+        clock.step(k)
         if len(clique) < 2:
             continue
         # a clique of exactly K events fills every slot once (pigeonhole): exactly-one is valid and stronger
@@ -340,7 +385,7 @@ def build_model(
             v = m.new_int_var(1, max(k, 1), f"t[{c}]")
             m.add(v == sum((s + 1) * x[c][s] for s in range(k)))
             t_cache[c] = v
-            tm.derived.append((v, "t", c))
+            tm.derived.append((v.index, "t", c))
         return t_cache[c]
 
     def d(c: str):
@@ -348,7 +393,7 @@ def build_model(
             v = m.new_int_var(min(day, default=1), max(day, default=1), f"d[{c}]")
             m.add(v == sum(day[s] * x[c][s] for s in range(k)))
             d_cache[c] = v
-            tm.derived.append((v, "d", c))
+            tm.derived.append((v.index, "d", c))
         return d_cache[c]
 
     day_slots: dict[int, list[int]] = {}
@@ -467,7 +512,7 @@ def _add_objective(tm: TimetableModel, problem, slots, sub, day, t, d, previous,
     if w.large_late > 0:
         for c in tm.codes:
             if c in large:
-                terms.setdefault("large_late", []).append((w.large_late, t(c), ("t", c)))
+                terms.setdefault("large_late", []).append((w.large_late, t(c).index, ("t", c)))
                 tm.constant["large_late"] = tm.constant.get("large_late", 0) - w.large_late
     if w.preferred_slot > 0:
         for c in tm.codes:
@@ -476,24 +521,36 @@ def _add_objective(tm: TimetableModel, problem, slots, sub, day, t, d, previous,
                 continue
             wanted = frozenset(n for r in refs if (n := problem.slot_number(r, slots)) is not None)
             miss = m.new_bool_var(f"miss_preferred[{c}]")
-            tm.derived.append((miss, "miss", c, wanted))
+            tm.derived.append((miss.index, "miss", c, wanted))
             m.add(sum(x[c][s - 1] for s in wanted) + miss == 1)
-            terms.setdefault("preferred_slot", []).append((w.preferred_slot, miss, ("miss", c, wanted)))
+            terms.setdefault("preferred_slot", []).append((w.preferred_slot, miss.index, ("miss", c, wanted)))
     if w.penalised_slot > 0:
         for s, slot in enumerate(slots):
             if slot.penalised:
                 for c in tm.codes:
-                    terms.setdefault("penalised_slot", []).append((w.penalised_slot, x[c][s], ("in", c, s + 1)))
+                    terms.setdefault("penalised_slot", []).append((w.penalised_slot, x[c][s].index, ("in", c, s + 1)))
     if previous and w.moved > 0:
         for c in tm.codes:
             p = previous.get(c)
             if p is not None and 1 <= p <= k:
-                terms.setdefault("moved", []).append((w.moved, ~x[c][p - 1], ("away", c, p)))
+                terms.setdefault("moved", []).append((w.moved, -x[c][p - 1].index - 1, ("away", c, p)))
     tm.terms = terms
-    exprs = [expr for name in terms for _, expr, _ in terms[name]]
-    if exprs:
-        coefs = [coef for name in terms for coef, _, _ in terms[name]]
-        m.minimize(cp_model.LinearExpr.weighted_sum(exprs, coefs) + sum(tm.constant.values()))
+    if any(terms.values()):
+        # written into the model in bulk (an expression of 10^5-10^6 terms is slow to build term by term);
+        # a negated literal ref -i-1 (1 - x_i) becomes a constant and a negative coefficient
+        merged: dict[int, int] = {}
+        offset = sum(tm.constant.values())
+        for name in terms:
+            for coef, ref, _ in terms[name]:
+                if ref < 0:
+                    offset += coef
+                    ref, coef = -ref - 1, -coef
+                merged[ref] = merged.get(ref, 0) + coef
+        objective = m.proto.objective
+        objective.vars.extend(merged.keys())
+        objective.coeffs.extend(merged.values())
+        objective.offset = float(offset)
+        objective.scaling_factor = 1.0
 
 
 def proximity_steps() -> list[tuple[int, int]]:
@@ -542,32 +599,38 @@ def _add_pair_goals(tm: TimetableModel, sub, day, t, d, terms, weights, *, want_
     exact_near1 = want_two
     need_sday = not one_day_each and (want_b2b or want_two or want_over)
     exact_sday = want_over
+    named = tm.pairs <= NAMED_PAIRS
+
+    def var(family: str, a, b):  # every family is named in the docstring; each literal only on small models
+        return m.new_bool_var(f"{family}[{a},{b}]" if named else "")
+
     for a, b, shared in sub.edges(data="shared", default=1):
+        tm.clock.step(PAIR_STEP)
         c = int(shared or 1)
         if always:
             tm.constant["proximity"] = tm.constant.get("proximity", 0) + c * always * weights.proximity
         ta, tb = t(a), t(b)
-        before = m.new_bool_var(f"before[{a},{b}]")
-        tm.derived.append((before, "before", a, b))
+        before = var("before", a, b)
+        tm.derived.append((before.index, "before", a, b))
         m.add(tb - ta >= 1).only_enforce_if(before)
         m.add(ta - tb >= 1).only_enforce_if(~before)
         near: dict[int, cp_model.IntVar] = {}
         for dist in classes:
-            v = near[dist] = m.new_bool_var(f"near{dist}[{a},{b}]")
-            tm.derived.append((v, "near", a, b, dist))
+            v = near[dist] = var(f"near{dist}", a, b)
+            tm.derived.append((v.index, "near", a, b, dist))
             m.add(tb - ta >= dist + 1).only_enforce_if([~v, before])
             m.add(ta - tb >= dist + 1).only_enforce_if([~v, ~before])
             if dist == 1 and exact_near1:
                 m.add(tb - ta <= 1).only_enforce_if([v, before])
                 m.add(ta - tb <= 1).only_enforce_if([v, ~before])
         for dist, step in steps:
-            terms.setdefault("proximity", []).append((c * step * weights.proximity, near[dist],
+            terms.setdefault("proximity", []).append((c * step * weights.proximity, near[dist].index,
                                                       ("near", a, b, dist)))
         sday = None
         if need_sday:
             da, db = d(a), d(b)
-            sday = m.new_bool_var(f"sday[{a},{b}]")
-            tm.derived.append((sday, "sday", a, b))
+            sday = var("sday", a, b)
+            tm.derived.append((sday.index, "sday", a, b))
             if monotone:
                 m.add(db - da >= 1).only_enforce_if([~sday, before])
                 m.add(da - db >= 1).only_enforce_if([~sday, ~before])
@@ -579,23 +642,23 @@ def _add_pair_goals(tm: TimetableModel, sub, day, t, d, terms, weights, *, want_
             if at_most_two_a_day:  # two events of one day are then always in consecutive slots
                 v = sday
             else:
-                v = m.new_bool_var(f"b2b[{a},{b}]")
-                tm.derived.append((v, "b2b", a, b))
+                v = var("b2b", a, b)
+                tm.derived.append((v.index, "b2b", a, b))
                 m.add_bool_or([~near[1], ~sday, v])
-            terms.setdefault("back_to_back", []).append((c * weights.back_to_back, v, ("b2b", a, b)))
+            terms.setdefault("back_to_back", []).append((c * weights.back_to_back, v.index, ("b2b", a, b)))
         if want_over:
             if sday is None:  # every slot its own day: consecutive slots are consecutive days
                 v = near[1]
             else:
-                v = m.new_bool_var(f"over[{a},{b}]")
-                tm.derived.append((v, "over", a, b))
+                v = var("over", a, b)
+                tm.derived.append((v.index, "over", a, b))
                 m.add_bool_or([~near[1], sday, v])
-            terms.setdefault("overnight", []).append((c * weights.overnight, v, ("over", a, b)))
+            terms.setdefault("overnight", []).append((c * weights.overnight, v.index, ("over", a, b)))
         if want_two and sday is not None:
-            v = m.new_bool_var(f"twoday[{a},{b}]")
-            tm.derived.append((v, "twoday", a, b))
+            v = var("twoday", a, b)
+            tm.derived.append((v.index, "twoday", a, b))
             m.add_bool_or([~sday, near[1], v])
-            terms.setdefault("same_day", []).append((c * weights.same_day, v, ("twoday", a, b)))
+            terms.setdefault("same_day", []).append((c * weights.same_day, v.index, ("twoday", a, b)))
 
 
 def _attendee_event_sets(problem: Problem, code_set: set[str]) -> list[tuple[str, ...]]:

@@ -34,7 +34,7 @@ from ortools.sat.python import cp_model
 from ..conflicts import conflict_graph
 from ..model import Problem, Slot, generic_slots
 from .cliques import clique_cover, largest_clique_found
-from .cpsat_model import (TimetableModel, build_model, large_event_codes, physical_domains,
+from .cpsat_model import (BuildStopped, TimetableModel, build_model, large_event_codes, physical_domains,
                           slots_interchangeable)
 from .arrangement import arrange
 from .dsatur import dsatur
@@ -51,7 +51,11 @@ class SolveOptions:
     """Solver settings, in one place.
 
     time_limit
-        Seconds of wall time for one slot count (the whole run, all phases).
+        Seconds of wall time for one slot count (the whole run, all phases: checks, model building,
+        search, seating).
+    deadline
+        A ``time.perf_counter()`` time the run must end by, whatever ``time_limit`` says (the command's
+        own deadline: what reading the file took is no longer there to spend). Not used in repeatable mode.
     workers
         CP-SAT search workers (threads). 2 suits an ordinary laptop.
     seed
@@ -82,6 +86,7 @@ class SolveOptions:
     split_components: bool = True
     log: bool = False
     max_memory_mb: int = 3000
+    deadline: float | None = None
 
 
 @dataclass
@@ -245,6 +250,9 @@ def solve(
     """
     options = options or SolveOptions()
     start = time.perf_counter()
+    limit = options.time_limit
+    if options.deadline is not None and not options.deterministic:
+        limit = max(0.2, min(limit, options.deadline - start))
     k = len(slots)
     graph = conflict_graph(problem) if graph is None else graph
     sizes = {c: int(graph.nodes[c].get("size", 0)) for c in graph}
@@ -290,7 +298,7 @@ def solve(
     previous = {c: s for c, s in (previous or {}).items() if c in problem.events}
     blocks = _blocks(problem, graph, slots, options)
     results: list[SolveRun] = []
-    budget = _Budget(options.time_limit - (time.perf_counter() - start), options.deterministic)
+    budget = _Budget(limit - (time.perf_counter() - start), options.deterministic)
     for i, block in enumerate(blocks):
         left = max(0.2, budget.left())
         share = left if i == len(blocks) - 1 else max(0.2, left * len(block) / max(1, sum(map(len, blocks[i:]))))
@@ -414,11 +422,15 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
     # (also without symmetry: a model without the goals finds a first timetable far sooner)
     if feasible_hint is None:
         say("searching for a clash-free timetable")
-        phase_seconds = left() * (1.0 if order_free else 0.5)
-        tm = build_model(problem, slots, graph, block, sizes=sizes, domains=domains, objective=False,
-                         symmetry=sym_clique if symmetric else None, large=large, room_splitting=options.room_splitting,
-                         room_sharing=options.room_sharing, cover=cover)
+        try:
+            tm = build_model(problem, slots, graph, block, sizes=sizes, domains=domains, objective=False,
+                             symmetry=sym_clique if symmetric else None, large=large,
+                             room_splitting=options.room_splitting, room_sharing=options.room_sharing, cover=cover,
+                             stop_at=_build_deadline(options, left()))
+        except BuildStopped:
+            return _out_of_time(run, k, t0)
         _add_hint(tm, aligned)
+        phase_seconds = _search_seconds(left() * (1.0 if order_free else 0.5), tm)
         status, solver, watcher = _run(tm, options, phase_seconds, progress, {**info, "phase": "clash-free"}, start)
         budget.charge(solver)
         if status == cp_model.INFEASIBLE:
@@ -431,11 +443,7 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
             say("seating the first timetable")
             keep_fallback(feasible_hint)
         elif order_free:
-            run.reason = (f"no timetable with {k} slots was found within the time limit, and none was ruled out; "
-                          "try more time or more slots")
-            run.reasons = [run.reason]
-            run.wall_seconds = time.perf_counter() - t0
-            return run
+            return _out_of_time(run, k, t0)
 
     # step 4: the full model (with the goals), hinted; step 5: rooms, with cuts
     for round_ in range(6):
@@ -446,12 +454,22 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
             run.status, run.proven, run.penalty, run.bound = "optimal", True, 0, 0.0
             break
         say("improving the timetable" if feasible_hint else "searching for a timetable")
-        tm = build_model(problem, slots, graph, block, sizes=sizes, domains=domains, objective=True,
-                         symmetry=sym_clique if (symmetric and order_free) else None, previous=previous,
-                         large=large, room_splitting=options.room_splitting, room_sharing=options.room_sharing,
-                         nogoods=nogoods, cover=cover)
+        try:
+            tm = build_model(problem, slots, graph, block, sizes=sizes, domains=domains, objective=True,
+                             symmetry=sym_clique if (symmetric and order_free) else None, previous=previous,
+                             large=large, room_splitting=options.room_splitting, room_sharing=options.room_sharing,
+                             nogoods=nogoods, cover=cover, stop_at=_build_deadline(options, remaining))
+        except BuildStopped:
+            # the goal model is too large for the time left: the first timetable stands
+            if fallback is not None:
+                fallback.first_feasible_seconds = run.first_feasible_seconds
+                fallback.wall_seconds = time.perf_counter() - t0
+                return fallback
+            return _out_of_time(run, k, t0)
         _add_hint(tm, feasible_hint or _repair_hint(previous, hint, block))
-        status, solver, watcher = _run(tm, options, max(0.2, remaining), progress, {**info, "phase": "goals"}, start)
+        remaining = left()  # building a large model takes a good part of the time
+        status, solver, watcher = _run(tm, options, _search_seconds(remaining, tm), progress,
+                                       {**info, "phase": "goals"}, start)
         budget.charge(solver)
         if status == cp_model.INFEASIBLE:
             if nogoods and unsettled:
@@ -473,11 +491,7 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
             fallback.wall_seconds = time.perf_counter() - t0
             return fallback
         if status not in (cp_model.OPTIMAL, cp_model.FEASIBLE):
-            run.status = "unknown"
-            run.reason = (f"no timetable with {k} slots was found within the time limit, and none was ruled out; "
-                          "try more time or more slots")
-            run.reasons = [run.reason]
-            return run
+            return _out_of_time(run, k, t0)
         if run.first_feasible_seconds is None and watcher.first is not None:
             run.first_feasible_seconds = (t0 - start) + watcher.first
         assignment = tm.assignment(solver)
@@ -526,6 +540,34 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
                           f"slot(s) {', '.join(map(str, sorted(seating.failed_slots)))} within the time limit")
             run.reasons = [run.reason]
             return run
+    run.wall_seconds = time.perf_counter() - t0
+    return run
+
+
+#: Share of the time left that building a model may take; a model that would take longer is not built.
+BUILD_SHARE = 0.5
+
+
+def _build_deadline(options: SolveOptions, seconds_left: float) -> float | None:
+    """When building a model must end (None in repeatable mode, which must not depend on the clock)."""
+    if options.deterministic:
+        return None
+    return time.perf_counter() + BUILD_SHARE * max(0.0, seconds_left)
+
+
+def _search_seconds(seconds_left: float, tm: TimetableModel) -> float:
+    """CP-SAT's time limit out of what is left: it overruns on large models (loading, stopping its workers)
+    and the timetable must still be read back, arranged and checked; about 1 s per 100,000 pairs
+    (measured on a 2,419-exam session, 86,261 pairs, 2 workers: 3 s past the limit)."""
+    tail = 0.5 + tm.pairs / 30_000
+    return max(0.2, min(seconds_left - tail, seconds_left * 0.9))
+
+
+def _out_of_time(run: SolveRun, k: int, t0: float) -> SolveRun:
+    run.status = "unknown"
+    run.reason = (f"no timetable with {k} slots was found within the time limit, and none was ruled out; "
+                  "try more time or more slots")
+    run.reasons = [run.reason]
     run.wall_seconds = time.perf_counter() - t0
     return run
 
@@ -627,8 +669,14 @@ def _explain(problem, slots, graph, block, sizes, domains, options, left, run: S
         run.reasons = [generic]
         return run
     seconds = max(1.0, min(30.0, left()))
-    tm = build_model(problem, slots, graph, block, sizes=sizes, domains=domains, objective=False, explain=True,
-                     room_splitting=options.room_splitting, room_sharing=options.room_sharing, cover=cover)
+    try:
+        tm = build_model(problem, slots, graph, block, sizes=sizes, domains=domains, objective=False, explain=True,
+                         room_splitting=options.room_splitting, room_sharing=options.room_sharing, cover=cover,
+                         stop_at=_build_deadline(options, left()))
+    except BuildStopped:
+        run.reason = generic + " (the rules behind it could not be singled out in time)"
+        run.reasons = [run.reason]
+        return run
     solver = cp_model.CpSolver()
     _parameters(solver, options, seconds, workers=1)
     status = solver.solve(tm.model)
