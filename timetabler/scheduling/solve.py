@@ -460,17 +460,15 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
                              large=large, room_splitting=options.room_splitting, room_sharing=options.room_sharing,
                              nogoods=nogoods, cover=cover, stop_at=_build_deadline(options, remaining))
         except BuildStopped:
-            # the goal model is too large for the time left: the first timetable stands
-            if fallback is not None:
-                fallback.first_feasible_seconds = run.first_feasible_seconds
-                fallback.wall_seconds = time.perf_counter() - t0
-                return fallback
-            return _out_of_time(run, k, t0)
-        _add_hint(tm, feasible_hint or _repair_hint(previous, hint, block))
-        remaining = left()  # building a large model takes a good part of the time
-        status, solver, watcher = _run(tm, options, _search_seconds(remaining, tm), progress,
-                                       {**info, "phase": "goals"}, start)
-        budget.charge(solver)
+            tm = None  # the goal model is too large for the time left: the first timetable stands (below)
+        if tm is not None:
+            _add_hint(tm, feasible_hint or _repair_hint(previous, hint, block))
+            remaining = left()  # building a large model takes a good part of the time
+            status, solver, watcher = _run(tm, options, _search_seconds(remaining, tm), progress,
+                                           {**info, "phase": "goals"}, start)
+            budget.charge(solver)
+        else:
+            status = cp_model.UNKNOWN
         if status == cp_model.INFEASIBLE:
             if nogoods and unsettled:
                 run.status, run.proven = "unknown", False
