@@ -132,6 +132,8 @@ class SolveRun:
             "slot_labels": [s.label for s in self.slot_list],
             "rooms": {c: [{"room": r, "seats": n} for r, n in v] for c, v in sorted(self.rooms.items())},
             "moves": list(self.moves),
+            "first_feasible_seconds": (None if self.first_feasible_seconds is None
+                                       else round(self.first_feasible_seconds, 3)),
             "wall_seconds": round(self.wall_seconds, 3),
         }
         if self.validation is not None:
@@ -182,12 +184,19 @@ class _Budget:
             self.used += solver.response_proto.deterministic_time
 
 
-def _parameters(solver: cp_model.CpSolver, options: SolveOptions, seconds: float, *, workers: int | None = None) -> None:
+def _parameters(solver: cp_model.CpSolver, options: SolveOptions, seconds: float, *, workers: int | None = None,
+                pairs: int = 0) -> None:
+    """Every CP-SAT parameter the tool sets, in one place (``pairs``: clashing pairs in the model)."""
     p = solver.parameters
     p.num_workers = max(1, workers if workers is not None else options.workers)
     p.random_seed = options.seed
     p.log_search_progress = options.log
     p.max_memory_in_mb = options.max_memory_mb
+    if pairs > LIGHT_PRESOLVE_PAIRS:
+        p.cp_model_presolve = False
+        p.symmetry_level = 0
+        # the linear relaxation gave a bound of 0 on the 2,000-exam benchmark and most of the memory
+        p.linearization_level = 0
     if options.deterministic:
         p.interleave_search = True
         p.max_deterministic_time = max(0.05, seconds)
@@ -641,12 +650,7 @@ LIGHT_PRESOLVE_PAIRS = 10_000
 
 def _run(tm: TimetableModel, options: SolveOptions, seconds: float, progress, info, start):
     solver = cp_model.CpSolver()
-    _parameters(solver, options, seconds)
-    if tm.pairs > LIGHT_PRESOLVE_PAIRS:
-        solver.parameters.cp_model_presolve = False
-        solver.parameters.symmetry_level = 0
-        # the linear relaxation gave a bound of 0 on the 2,000-exam benchmark and most of the memory
-        solver.parameters.linearization_level = 0
+    _parameters(solver, options, seconds, pairs=tm.pairs)
     watcher = _Watcher(progress, info, time.perf_counter())
     if progress and hasattr(solver, "best_bound_callback"):
         def bound_seen(bound: float) -> None:
