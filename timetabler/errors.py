@@ -8,9 +8,34 @@ warnings are kept and shown beside the result.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+import re
+from dataclasses import dataclass
 
 from .model import Location
+
+#: Control characters (C0, DEL, C1: terminal escape sequences start with them) and the
+#: Unicode controls that reorder the text shown (bidirectional embeddings and isolates).
+_CONTROLS = re.compile("[\x00-\x1f\x7f-\x9f\u202a-\u202e\u2066-\u2069]")
+
+
+def visible(text: str) -> str:
+    r"""Text from a user's file made safe to print: each control character shown as an escape.
+
+    A cell holding an escape sequence would otherwise recolour, move or clear the terminal
+    when printed, and a line break inside a value could fake a line of output.
+
+    >>> visible("MAT101\x1b[2J"), visible("Zoë\tÅ"), visible("plain")
+    ('MAT101\\x1b[2J', 'Zoë\\tÅ', 'plain')
+    """
+    if text.isprintable():
+        return text
+    return _CONTROLS.sub(_escape, text)
+
+
+def _escape(match: re.Match) -> str:
+    ch = match.group()
+    return {"\t": "\\t", "\n": "\\n", "\r": "\\r"}.get(ch) or (
+        f"\\x{ord(ch):02x}" if ord(ch) < 0x100 else f"\\u{ord(ch):04x}")
 
 
 @dataclass
@@ -23,6 +48,7 @@ class Finding:
     severity: str = "error"  # "error" or "warning"
 
     def __str__(self) -> str:
+        """The finding in one paragraph; every part that may come from a user's file passes :func:`visible`."""
         text = f"{self.where}: {self.message}" if self.where else self.message
         if self.found is not None:
             text += f" Found: {self.found!r}."
@@ -30,11 +56,12 @@ class Finding:
             text += f" Expected: {self.expected}."
         if self.suggestion:
             text += f" {self.suggestion}"
-        return text
+        return visible(text)
 
     def to_dict(self) -> dict:
+        """The finding's parts (for JSON documents and the web page), each passed through :func:`visible`."""
         w = self.where
-        return {
+        out = {
             "severity": self.severity,
             "message": self.message,
             "file": w.file if w else None,
@@ -45,6 +72,7 @@ class Finding:
             "expected": self.expected,
             "suggestion": self.suggestion,
         }
+        return {k: visible(v) if isinstance(v, str) else v for k, v in out.items()}
 
 
 class InputError(Exception):
@@ -55,5 +83,7 @@ class InputError(Exception):
             findings = [Finding(findings, where=where)]
         elif isinstance(findings, Finding):
             findings = [findings]
-        self.findings: list[Finding] = list(findings)
+        self.findings: list[Finding] = list(findings) or [
+            Finding("The input could not be read, and no reason was recorded (a bug in timetabler: please report it).",
+                    where=where)]
         super().__init__("\n".join(str(f) for f in self.findings))

@@ -3,8 +3,9 @@
 Supported types, recognised by their content first and their name second (registrars
 rename files):
 
-* ``.xlsx`` / ``.xlsm`` — read with openpyxl in read-only mode, taking the values Excel
-  stored for formulas (``data_only``); macros are never run and links never followed.
+* ``.xlsx`` / ``.xlsm`` — read part by part by :mod:`.xlsx_sheets` (sparsely, within the
+  limits, every damaged cell located), taking the values Excel stored for formulas; macros
+  are never run and links never followed.
 * ``.ods`` — read through pandas' ``odf`` engine (package ``odfpy``).
 * ``.csv`` / ``.tsv`` / ``.txt`` — text. The encoding is decided by :func:`decode`
   (byte-order mark, then UTF-16 without a mark by its zero bytes, then UTF-8, then
@@ -20,7 +21,6 @@ import codecs
 import csv
 import io
 import re
-import warnings
 import zipfile
 from collections import Counter
 from dataclasses import dataclass, field
@@ -30,6 +30,7 @@ from typing import Callable
 from ..errors import Finding, InputError
 from ..model import Location
 from .limits import CellBudget, Limits, check_archive, check_file_size
+from .xlsx_sheets import read_xlsx
 
 TEXT_SUFFIXES = (".csv", ".tsv", ".txt", ".tab")
 WORKBOOK_SUFFIXES = (".xlsx", ".xlsm")
@@ -129,7 +130,7 @@ def load_book(path: Path, limits: Limits, progress: Progress | None = None) -> R
             if suffix in TEXT_SUFFIXES + ODS_SUFFIXES:
                 notes.append(Finding(f"The file is named '{suffix}' but is an Excel workbook; it was read as one.",
                                      where=Location(name), severity="warning"))
-            return RawBook("xlsx", _read_xlsx(name, data, budget, progress, notes), notes=notes)
+            return RawBook("xlsx", read_xlsx(name, archive, limits, budget, progress, notes), notes=notes)
         raise InputError(
             Finding(
                 "The file is a zip archive but not a spreadsheet workbook.",
@@ -149,28 +150,67 @@ def load_book(path: Path, limits: Limits, progress: Progress | None = None) -> R
         text = "\n" + text[hint.end():]  # keep row numbers equal to line numbers
     else:
         delimiter = sniff_delimiter(text, prefer="\t" if suffix in (".tsv", ".tab") else ",")
-    rows = []
-    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)
-    for i, row in enumerate(reader, start=1):
-        while row and not row[-1].strip():
-            row.pop()
-        for j, cell in enumerate(row):
-            if cell.count("\n") >= 10:  # a stray double quote swallowed the lines that follow
-                raise InputError(Finding(
-                    "A cell runs over many lines: a double quote (\") that is opened and never closed has "
-                    "joined the following lines into one cell, and their rows would be lost.",
-                    where=Location(name, None, i, f"column {j + 1}"),
-                    found=cell[:60].replace("\n", " | ") + " ...",
-                    suggestion="Remove the stray double quote in this row, or enclose the whole cell in double quotes.",
-                ))
-        budget.take(len(row), None, i)
-        rows.append(list(row))
-        if progress and i % 50_000 == 0:
-            progress("reading rows", i, None)
+    rows = text_rows(name, text, delimiter, budget, progress)
     return RawBook("text", [RawSheet(None, rows)], encoding=encoding, delimiter=delimiter, notes=notes)
 
 
 # --- text files -------------------------------------------------------------------------
+
+
+def text_rows(name: str, text: str, delimiter: str, budget: CellBudget | None = None,
+              progress: Progress | None = None) -> list[list[str]]:
+    """The rows of CSV text (trailing blank cells dropped); a damaged file raises a located InputError.
+
+    A double quote that is opened and never closed makes the csv module join the lines after
+    it into one cell, silently. A cell holding line breaks is therefore taken for such a
+    merge when it runs to the end of the file unclosed, spans 10 lines or more, or holds the
+    delimiter on one of its later lines (those lines were rows). A cell over the csv
+    module's field limit (131,072 characters) is reported the same way.
+    """
+    rows: list[list[str]] = []
+    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)
+    line = 0
+    i = 0
+    spanning: list[str] | None = None  # the last record, when it spanned lines
+    try:
+        for i, row in enumerate(reader, start=1):
+            spanning = None
+            if reader.line_num - line > 1:  # this record spans lines: a quoted cell holds line breaks
+                spanning = row
+                for j, cell in enumerate(row):
+                    lines = cell.splitlines()
+                    if len(lines) >= 10 or any(delimiter in part for part in lines[1:]):
+                        raise _open_quote(name, i, j, cell)
+            line = reader.line_num
+            while row and not row[-1].strip():
+                row.pop()
+            if budget is not None:
+                budget.take(len(row), None, i)
+            rows.append(row)
+            if progress and i % 50_000 == 0:
+                progress("reading rows", i, None)
+    except csv.Error as exc:
+        if "field limit" in str(exc):
+            raise InputError(Finding(
+                f"A cell is longer than timetabler reads (more than {csv.field_size_limit():,} characters): most "
+                "often a double quote (\") opened and never closed, which joins all the lines after it into one cell.",
+                where=Location(name, None, i + 1), found=f"line {reader.line_num}",
+                suggestion="Remove the stray double quote, or enclose the whole cell in double quotes.")) from None
+        raise InputError(Finding("The text file cannot be read as CSV.", where=Location(name, None, i + 1),
+                                 found=str(exc), suggestion="Save it again as CSV from your spreadsheet program.")) from None
+    if spanning and ("\n" in spanning[-1] or "\r" in spanning[-1]) and not text.rstrip().endswith('"'):
+        raise _open_quote(name, i, len(spanning) - 1, spanning[-1])  # the file ends inside the quoted cell
+    return rows
+
+
+def _open_quote(name: str, row: int, column: int, cell: str) -> InputError:
+    return InputError(Finding(
+        "A cell runs over several lines: a double quote (\") that is opened and never closed has "
+        "joined the following lines into one cell, and their rows would be lost.",
+        where=Location(name, None, row, f"column {column + 1}"),
+        found=cell[:60].replace("\r", "").replace("\n", " | ") + " ...",
+        suggestion="Remove the stray double quote in this row, or enclose the whole cell in double quotes.",
+    ))
 
 
 def decode(name: str, data: bytes) -> tuple[str, str]:
@@ -257,110 +297,11 @@ def sniff_delimiter(text: str, prefer: str = ",") -> str:
 # --- workbooks --------------------------------------------------------------------------
 
 
-def _read_xlsx(name: str, data: bytes, budget: CellBudget, progress: Progress | None,
-               notes: list[Finding]) -> list[RawSheet]:
-    import openpyxl
-
-    try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")  # openpyxl warns about unsupported extensions, data validation, ...
-            book = openpyxl.load_workbook(io.BytesIO(data), read_only=True, data_only=True, keep_links=False)
-    except Exception as exc:  # noqa: BLE001 - openpyxl raises many types for damaged files
-        raise InputError(
-            Finding(
-                "The workbook is damaged or not a real Excel workbook.",
-                where=Location(name),
-                found=f"{type(exc).__name__}: {exc}",
-                suggestion="Open it in your spreadsheet program and save it again as .xlsx.",
-            )
-        ) from None
-    sheets = []
-    try:
-        for ws in book.worksheets:
-            rows: list[list[object]] = []
-            for i, values in enumerate(ws.iter_rows(min_row=1, min_col=1, values_only=True), start=1):
-                row = list(values)
-                while row and (row[-1] is None or (isinstance(row[-1], str) and not row[-1].strip())):
-                    row.pop()
-                budget.take(len(row), ws.title, i)
-                rows.append(row)
-                if progress and i % 50_000 == 0:
-                    progress(f"reading sheet '{ws.title}'", i, ws.max_row)
-            while rows and not rows[-1]:
-                rows.pop()
-            sheets.append(RawSheet(ws.title, rows, hidden=getattr(ws, "sheet_state", "visible") != "visible"))
-    finally:
-        book.close()
-    merges, uncalculated = sheet_part_facts(data)
-    for sheet in sheets:
-        fill_merged(sheet, merges.get(sheet.name, []))
-        if uncalculated.get(sheet.name):
-            cells = uncalculated[sheet.name]
-            notes.append(Finding(
-                f"{len(cells)} formula cells have no calculated value (the file was not saved by a spreadsheet "
-                "program) and read as blank.",
-                where=Location(name, sheet.name, None, None), found=", ".join(cells[:5]) + (", ..." if len(cells) > 5 else ""),
-                suggestion="Open the file in your spreadsheet program and save it, so the values are stored.",
-                severity="warning"))
-    return sheets
-
-
-_MERGE = re.compile(rb'<(?:\w+:)?mergeCell\s+ref="([A-Z]+)(\d+):([A-Z]+)(\d+)"')
-
-
-_UNCALCULATED = re.compile(rb'<(?:\w+:)?c\s+r="([A-Z]+\d+)"[^>]*>\s*<(?:\w+:)?f\b[^>]*(?:/>|>[^<]*</(?:\w+:)?f>)\s*(?:<(?:\w+:)?v\s*/>|<(?:\w+:)?v>\s*</(?:\w+:)?v>)?\s*</(?:\w+:)?c>')
-
-
-def sheet_part_facts(data: bytes) -> tuple[dict[str, list[tuple[int, int, int, int]]], dict[str, list[str]]]:
-    """Merged cell ranges and uncalculated formula cells of each sheet of an .xlsx.
-
-    Ranges are (first row, first col, last row, last col), 0-based. openpyxl's read-only
-    mode reports neither, so they are read from the sheet parts directly: the workbook part
-    names the sheets, its relationships give each sheet's part, ``<mergeCell ref="A2:A4"/>``
-    elements list the ranges, and a formula cell with no ``<v>`` value was never calculated.
-    """
-    from defusedxml import ElementTree
-
-    out: dict[str, list[tuple[int, int, int, int]]] = {}
-    uncalculated: dict[str, list[str]] = {}
-    try:
-        with zipfile.ZipFile(io.BytesIO(data)) as archive:
-            workbook = ElementTree.fromstring(archive.read("xl/workbook.xml"))
-            rels = ElementTree.fromstring(archive.read("xl/_rels/workbook.xml.rels"))
-            targets = {r.get("Id"): r.get("Target", "") for r in rels}
-            for sheet in workbook.iter():
-                if not sheet.tag.endswith("}sheet"):
-                    continue
-                rid = next((v for k, v in sheet.attrib.items() if k.endswith("}id")), None)
-                target = targets.get(rid, "")
-                part = target.lstrip("/") if target.startswith("/") else "xl/" + target
-                if part not in archive.namelist():
-                    continue
-                xml = archive.read(part)
-                found = [
-                    (int(r1) - 1, _column_index(c1), int(r2) - 1, _column_index(c2))
-                    for c1, r1, c2, r2 in _MERGE.findall(xml)
-                ]
-                if found:
-                    out[sheet.get("name", "")] = found
-                if b"<f" in xml:
-                    bare = [m.decode("ascii") for m in _UNCALCULATED.findall(xml)]
-                    if bare:
-                        uncalculated[sheet.get("name", "")] = bare
-    except Exception:  # noqa: BLE001 - these facts are a convenience; never fail the read on them
-        return {}, {}
-    return out, uncalculated
-
-
-def _column_index(letters: bytes) -> int:
-    n = 0
-    for ch in letters.decode("ascii"):
-        n = n * 26 + (ord(ch) - 64)
-    return n - 1
-
-
 def fill_merged(sheet: RawSheet, ranges: list[tuple[int, int, int, int]]) -> None:
-    """Give every cell of a merged range the value shown in it (its top-left cell's)."""
+    """Give every cell of a merged range the value shown in it (its top-left cell's).
+
+    Rows touched are replaced by new lists (absent rows are one shared empty tuple).
+    """
     for r1, c1, r2, c2 in ranges:
         if r1 >= len(sheet.rows) or (r2 - r1 + 1) * (c2 - c1 + 1) > 100_000:
             continue
@@ -369,11 +310,12 @@ def fill_merged(sheet: RawSheet, ranges: list[tuple[int, int, int, int]]) -> Non
         if value is None:
             continue
         for r in range(r1, min(r2, len(sheet.rows) - 1) + 1):
-            row = sheet.rows[r]
+            row = list(sheet.rows[r])
             if len(row) <= c2:
                 row.extend([None] * (c2 + 1 - len(row)))
             for c in range(c1, c2 + 1):
                 row[c] = value
+            sheet.rows[r] = row
 
 
 def _read_ods(name: str, data: bytes, budget: CellBudget, progress: Progress | None) -> list[RawSheet]:

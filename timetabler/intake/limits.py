@@ -26,9 +26,14 @@ class Limits:
     max_unpacked_bytes: int = 2 * 2**30  # 2 GiB of XML inside an .xlsx/.ods
     max_packing_ratio: float = 200.0  # unpacked/packed size of one member, above 1 MiB unpacked
     max_cells: int = 5_000_000  # cells up to the last filled cell of each row, all sheets (measured: 5M cells of CSV peak at 0.7 GiB)
+    # An .xlsx: each row up to a sheet's last filled row costs one cell too, and so does each shared text.
+    max_cell_chars: int = 32_767  # the most an Excel cell holds (Microsoft, "Excel specifications and limits"; recalled)
+    max_text_chars: int = 2**27  # characters of cell text kept in memory, all sheets (about 128 million)
+    max_shared_strings_bytes: int = 128 * 2**20  # the shared-text part of an .xlsx, unpacked, checked before parsing
+    max_sheet_bytes: int = 1 * 2**30  # the worksheet parts of an .xlsx together, unpacked, checked before parsing
 
 
-def _mib(n: float) -> str:
+def mib(n: float) -> str:
     return f"{n / 2**20:,.1f} MiB"
 
 
@@ -38,8 +43,8 @@ def check_file_size(name: str, size: int, limits: Limits) -> None:
             Finding(
                 "The file is larger than timetabler reads.",
                 where=Location(name),
-                found=_mib(size),
-                expected=f"at most {_mib(limits.max_file_bytes)}",
+                found=mib(size),
+                expected=f"at most {mib(limits.max_file_bytes)}",
                 suggestion="Check that this is the enrolment export you meant; keep only the columns needed "
                 "(attendee and event) and save again.",
             )
@@ -66,8 +71,8 @@ def check_archive(name: str, data: bytes, limits: Limits) -> zipfile.ZipFile:
             Finding(
                 "The workbook unpacks to more data than timetabler reads.",
                 where=Location(name),
-                found=_mib(total),
-                expected=f"at most {_mib(limits.max_unpacked_bytes)} unpacked",
+                found=mib(total),
+                expected=f"at most {mib(limits.max_unpacked_bytes)} unpacked",
                 suggestion="Save a copy with only the sheets needed.",
             )
         )
@@ -78,7 +83,7 @@ def check_archive(name: str, data: bytes, limits: Limits) -> zipfile.ZipFile:
                     "The workbook holds a part that unpacks to far more than its packed size; "
                     "it was not read, to protect this computer.",
                     where=Location(name),
-                    found=f"{m.filename}: {_mib(m.compress_size)} packed, {_mib(m.file_size)} unpacked",
+                    found=f"{m.filename}: {mib(m.compress_size)} packed, {mib(m.file_size)} unpacked",
                     expected=f"a packing ratio of at most {limits.max_packing_ratio:g}",
                     suggestion="If the file is genuine, save it again from your spreadsheet program.",
                 )
@@ -93,6 +98,23 @@ class CellBudget:
         self.name = name
         self.limit = limits.max_cells
         self.used = 0
+        self.text_limit = limits.max_text_chars
+        self.text_used = 0
+
+    def take_text(self, chars: int) -> None:
+        """Count characters of cell text kept; stop the reading when they pass the limit."""
+        self.text_used += chars
+        if self.text_used > self.text_limit:
+            raise InputError(
+                Finding(
+                    "The file holds more text than timetabler reads; reading stopped.",
+                    where=Location(self.name),
+                    found=f"more than {self.text_limit:,} characters in its cells",
+                    expected=f"at most {self.text_limit:,} characters over all sheets",
+                    suggestion="Keep only the columns needed (attendee and event) and save a copy; check for "
+                    "cells holding whole documents.",
+                )
+            )
 
     def take(self, cells: int, sheet: str | None = None, row: int | None = None) -> None:
         self.used += cells
