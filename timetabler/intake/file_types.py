@@ -27,7 +27,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Callable
 
-from ..errors import Finding, InputError
+from ..errors import Finding, InputError, visible
 from ..model import Location
 from .limits import CellBudget, Limits, check_archive, check_file_size
 from .xlsx_sheets import read_xlsx
@@ -232,14 +232,10 @@ def decode(name: str, data: bytes) -> tuple[str, str]:
         if data.startswith(bom):
             return _strict(name, data[len(bom):], codec, label), label
     sample = data[:8192]
-    if len(sample) >= 4:
-        even, odd = sample[0::2], sample[1::2]
-        zeros_even = even.count(0) / max(len(even), 1)
-        zeros_odd = odd.count(0) / max(len(odd), 1)
-        if zeros_odd > 0.4 and zeros_even < 0.05:
-            return _strict(name, data, "utf-16-le", "UTF-16 (little-endian)"), "UTF-16 (little-endian)"
-        if zeros_even > 0.4 and zeros_odd < 0.05:
-            return _strict(name, data, "utf-16-be", "UTF-16 (big-endian)"), "UTF-16 (big-endian)"
+    codec = utf16_without_mark(sample)
+    if codec is not None:
+        label = "UTF-16 (little-endian)" if codec == "utf-16-le" else "UTF-16 (big-endian)"
+        return _strict(name, data, codec, label), label
     if b"\x00" in sample:
         raise InputError(
             Finding(
@@ -255,6 +251,29 @@ def decode(name: str, data: bytes) -> tuple[str, str]:
         except UnicodeDecodeError:
             continue
     raise AssertionError("latin-1 decodes any bytes")  # pragma: no cover
+
+
+def utf16_without_mark(sample: bytes) -> str | None:
+    """``utf-16-le`` or ``utf-16-be`` when the bytes look like UTF-16 text without a byte-order mark, else None.
+
+    Mostly-ASCII text in UTF-16 has a zero byte in every other position: in the odd
+    positions for little-endian, the even ones for big-endian. The web page's upload check
+    calls this too, so that it accepts what the command line reads.
+
+    >>> utf16_without_mark("Student,Exam".encode("utf-16-le")), utf16_without_mark(b"Student,Exam")
+    ('utf-16-le', None)
+    """
+    sample = sample[:8192]
+    if len(sample) < 4:
+        return None
+    even, odd = sample[0::2], sample[1::2]
+    zeros_even = even.count(0) / max(len(even), 1)
+    zeros_odd = odd.count(0) / max(len(odd), 1)
+    if zeros_odd > 0.4 and zeros_even < 0.05:
+        return "utf-16-le"
+    if zeros_even > 0.4 and zeros_odd < 0.05:
+        return "utf-16-be"
+    return None
 
 
 def _strict(name: str, data: bytes, codec: str, label: str) -> str:
@@ -351,7 +370,7 @@ def _read_ods(name: str, data: bytes, budget: CellBudget, progress: Progress | N
             rows.append(row)
         while rows and not rows[-1]:
             rows.pop()
-        sheets.append(RawSheet(str(sheet_name), rows))
+        sheets.append(RawSheet(visible(str(sheet_name)), rows))
     return sheets
 
 

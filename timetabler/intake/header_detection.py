@@ -15,6 +15,7 @@ from .file_types import RawSheet
 from .normalising import identifier, is_blank, looks_like_total, yes_no
 from .vocabulary import (
     ATTENDEE,
+    ENROLMENT_TITLE,
     EVENT,
     EVENT_LIST,
     FIRST_EVENT_CLASH,
@@ -46,6 +47,7 @@ class Layout:
     grid: bool = False  # wide layout with event codes as headers and ticks in the cells
     other: int | None = None
     shared: int | None = None
+    title: int | None = None  # long layout: a column giving each event's title
 
     def column_label(self, index: int) -> str:
         """``B (Exam)``: the column letter a spreadsheet shows, and its header."""
@@ -93,6 +95,8 @@ def detect_layout(
             continue
         found = _layout_at(headers, r, layout, attendee_column, event_columns)
         if found is not None:
+            if found.kind == LONG and len(found.events) == 1:
+                found.title = best_match(ENROLMENT_TITLE, headers, exclude={found.attendee, *found.events})
             return found
     if layout in ("auto", WIDE) and not event_columns:
         return _tick_grid(sheet, attendee_column)

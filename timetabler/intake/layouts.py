@@ -21,6 +21,7 @@ the header, look like a total row, or lack the attendee or the event.
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass, field
 
 from ..model import Location
@@ -31,6 +32,12 @@ from .normalising import identifier, is_blank, looks_like_total, looks_scientifi
 from .vocabulary import key
 
 SYNTHETIC_PREFIX = "shared:"
+
+#: Two codes joined by a mark the reader does not split on: ``ECN201 / ANT201``, ``ECN201|ANT201``,
+#: ``MAT101 & MAT102``, ``MAT101+MAT102`` (``&`` and ``+`` only between codes holding digits, so that
+#: committee names such as ``Finance & Estates`` pass).
+_JOINED = re.compile(r"[^\s/|]\s*[/|]\s*[^\s/|]|\d\s*[&+]\s*[A-Za-z]*\d")
+_JOINS = re.compile(r"\s*[/|&+]\s*")
 
 
 @dataclass
@@ -43,6 +50,9 @@ class RawEnrolments:
     rows_read: int = 0
     blank_rows: int = 0
     separators_seen: int = 0  # event cells holding ; or , read as one code (long layout)
+    separator_first: tuple[int, str] | None = None  # (row, cell) of the first of them
+    #: (event code, title) -> the first row giving that title, from a title column beside the event column
+    titles: dict[tuple[str, str], int] = field(default_factory=dict)
 
 
 def read_enrolments(sheet: RawSheet, layout: Layout, file: str, findings: FindingList, max_pairs: int) -> RawEnrolments:
@@ -89,6 +99,7 @@ def _attendee_rows(sheet: RawSheet, layout: Layout, file: str, findings: Finding
             return identifier(value)
 
     scientific: list[tuple[str, int]] = []
+    joined: list[tuple[int, str]] = []  # (row, event code) of codes holding / | & + between two codes
 
     for r in range(layout.header_row + 1, len(sheet.rows) + 1):
         row = sheet.rows[r - 1]
@@ -127,7 +138,17 @@ def _attendee_rows(sheet: RawSheet, layout: Layout, file: str, findings: Finding
                 if text:
                     if ";" in text or "," in text:
                         out.separators_seen += 1
+                        if out.separator_first is None:
+                            out.separator_first = (r, text)
                     events.append(text)
+        if layout.title is not None and events:
+            title = identifier(_cell(row, layout.title))
+            if title:
+                for e in events:
+                    out.titles.setdefault((e, title), r)
+        for e in events:
+            if ("/" in e or "|" in e or "&" in e or "+" in e) and _JOINED.search(e):
+                joined.append((r, e))
         if not who and events:
             findings.warn("This row names an event but no attendee; it was skipped.",
                           _where(file, sheet, r, layout, layout.attendee), found=", ".join(events),
@@ -144,6 +165,8 @@ def _attendee_rows(sheet: RawSheet, layout: Layout, file: str, findings: Finding
             continue  # other columns filled, the two that matter blank
         for e in events:
             out.pairs.append((who, e, r))
+    if joined:
+        _joined_warning(joined, out, sheet, layout, file, findings)
     if scientific:
         text, row = scientific[0]
         findings.warn("Some identifiers look like long numbers shown in scientific notation; digits may have been "
@@ -151,6 +174,28 @@ def _attendee_rows(sheet: RawSheet, layout: Layout, file: str, findings: Finding
                       Location(file, sheet.name, row, None), found=", ".join(t for t, _ in scientific),
                       suggestion="Format the id column as text in the spreadsheet, then export the file again.")
     return out
+
+
+def _joined_warning(joined: list[tuple[int, str]], out: RawEnrolments, sheet: RawSheet, layout: Layout,
+                    file: str, findings: FindingList) -> None:
+    """One warning for the event codes that look like two codes joined by ``/``, ``|``, ``&`` or ``+``.
+
+    They are kept as one code each: a cell such as ``ECN201 / ANT201`` may list two exams or
+    name one exam known by two codes (a joint paper), and only the registrar knows which.
+    """
+    row, code = joined[0]
+    distinct = sorted({c for _, c in joined})
+    alone = {e for _, e, _ in out.pairs}
+    parts = [p for p in _JOINS.split(code) if p]
+    also = all(p in alone for p in parts)
+    findings.warn(
+        f"{len(joined)} event cells join two codes with a mark that is not a list separator"
+        f" ({len(distinct)} different codes, first {code!r} in row {row}); each was read as one event code."
+        + (f" {' and '.join(parts)} are also events on their own, so this cell may list several events." if also else ""),
+        _where(file, sheet, row, layout, layout.events[0] if len(layout.events) == 1 else None),
+        found=", ".join(distinct[:5]) + (", ..." if len(distinct) > 5 else ""),
+        suggestion="If such a cell lists several events, give each its own row (or separate them with ; and use "
+        "--layout wide); if it is one event known by two codes, nothing needs changing.")
 
 
 def _clash_list(sheet: RawSheet, layout: Layout, file: str, findings: FindingList, max_pairs: int) -> RawEnrolments:

@@ -4,7 +4,9 @@ Spreadsheets store the same identifier in several ways: the student number ``400
 be a number cell (read as ``40001`` or ``40001.0``) in one row and a text cell ``"40001"``
 in the next. :func:`identifier` turns all of them into the same text, keeps leading zeros
 where the cell is text (``"00123"`` stays ``00123``), trims the ends and collapses runs of
-whitespace inside. Blank cells (``None``, empty text, NaN) are ``""``.
+whitespace inside, and shows control characters as escapes (``\\x1b``; see
+:func:`timetabler.errors.visible`), so that no value from a file can drive a terminal.
+Blank cells (``None``, empty text, NaN) are ``""``.
 """
 
 from __future__ import annotations
@@ -15,6 +17,7 @@ import re
 
 import pandas as pd
 
+from ..errors import visible
 from .vocabulary import NO_WORDS, TOTAL_WORDS, YES_WORDS, key
 
 _FLOAT_INTEGER = re.compile(r"^[+-]?\d+\.0+$")
@@ -39,8 +42,8 @@ def identifier(value: object) -> str:
 
     >>> identifier(40001.0), identifier("40001"), identifier(" 40001 "), identifier("40001.0")
     ('40001', '40001', '40001', '40001')
-    >>> identifier("00123"), identifier("  MA   101 ")
-    ('00123', 'MA 101')
+    >>> identifier("00123"), identifier("  MA   101 "), identifier("MA101\x1b[2J")
+    ('00123', 'MA 101', 'MA101\\\\x1b[2J')
     """
     if type(value) is str:
         text = value.strip()
@@ -48,7 +51,7 @@ def identifier(value: object) -> str:
             text = " ".join(text.replace("\u00a0", " ").split())
         if text.endswith("0") and "." in text and _FLOAT_INTEGER.match(text):  # "40001.0": a number exported as text
             text = text.split(".")[0]
-        return text
+        return text if text.isprintable() else visible(text)
     if is_blank(value):
         return ""
     if isinstance(value, bool):
@@ -68,7 +71,7 @@ def identifier(value: object) -> str:
     text = " ".join(str(value).replace("\u00a0", " ").split())
     if _FLOAT_INTEGER.match(text):  # a number cell exported as text: "40001.0"
         text = text.split(".")[0]
-    return text
+    return visible(text)
 
 
 def looks_scientific(text: str) -> bool:

@@ -3,7 +3,9 @@
 Accepts a workbook written by ``timetabler solve --out`` (its "Events" sheet), or any
 .xlsx/.csv whose header row (within the first 15 rows) has an event column ("Event",
 "Exam", "Code", ...) and a "Slot" column holding slot numbers or slot labels. A CSV file
-may be in any encoding and with any delimiter the enrolment reader accepts.
+may be in any encoding and with any delimiter the enrolment reader accepts: the file is
+opened by the enrolment reader's :func:`~timetabler.intake.file_types.load_book`, with the
+same limits and the same located errors for damaged files.
 
 :func:`resolve_previous` then turns the slot references into slot numbers for one list of
 slots (the labels of a slots sheet, or numbers 1..K), as the command line and the web page
@@ -12,13 +14,13 @@ both need for each number of slots they solve.
 
 from __future__ import annotations
 
-import csv
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from ..errors import Finding, InputError
 from ..model import Location, Problem, Slot
-from .file_types import decode, sniff_delimiter
+from .file_types import load_book
+from .limits import Limits
 
 EVENT_HEADERS = ("event", "exam", "code", "module", "meeting", "paper")
 SLOT_HEADERS = ("slot", "slot number", "slot label", "session")
@@ -98,26 +100,13 @@ def read_previous_timetable(path: str | Path) -> PreviousTimetable:
     if not path.exists():
         raise InputError(f"The earlier timetable {name} does not exist.")
     suffix = path.suffix.lower()
-    tables: list[tuple[str | None, list[list[object]]]] = []
-    if suffix in (".xlsx", ".xlsm"):
-        from openpyxl import load_workbook
-
-        try:
-            wb = load_workbook(path, read_only=True, data_only=True)
-        except Exception as exc:  # noqa: BLE001 - any unreadable workbook is bad input
-            raise InputError(Finding(f"{name} could not be opened as a workbook ({exc}).",
-                                     suggestion="Save it again as .xlsx, or give a .csv with Event and Slot columns."))
-        names = sorted(wb.sheetnames, key=lambda s: (not s.casefold().startswith("events"), wb.sheetnames.index(s)))
-        for sheet in names:
-            rows = [list(r) for r in wb[sheet].iter_rows(values_only=True)]
-            tables.append((sheet, rows))
-        wb.close()
-    elif suffix in (".csv", ".txt"):
-        text, _encoding = decode(name, path.read_bytes())
-        lines = text.splitlines()
-        tables.append((None, [list(r) for r in csv.reader(lines, delimiter=sniff_delimiter(text))]))
-    else:
+    if suffix not in (".xlsx", ".xlsm", ".csv", ".txt", ".tsv"):
         raise InputError(Finding(f"{name}: an earlier timetable must be an .xlsx or .csv file.", found=suffix))
+    # The enrolment reader's own file reading: limits, encodings, delimiters, and every damaged
+    # cell of a workbook reported with its sheet, row and cell.
+    book = load_book(path, Limits())
+    order = sorted(book.sheets, key=lambda s: not (s.name or "").casefold().startswith("events"))
+    tables: list[tuple[str | None, list[list[object]]]] = [(s.name, s.rows) for s in order]
     for sheet, rows in tables:
         found = _read_table(name, sheet, rows)
         if found is not None:

@@ -37,7 +37,7 @@ from .layouts import read_enrolments
 from .limits import Limits
 from .normalising import fold
 from .sheets import read_extras
-from .validation import attach_event_details, cross_check, figure_warnings, leading_zero_variants
+from .validation import attach_event_details, attach_titles, cross_check, figure_warnings, leading_zero_variants
 from .vocabulary import is_note_sheet, key, sheet_role
 
 LAYOUT_CHOICES = ("auto",) + LAYOUTS
@@ -171,8 +171,10 @@ def read_problem(path: str | Path, options: ReadOptions | None = None) -> Readin
                 findings.add(note)
             raw = read_enrolments(sheet, layout, name, findings, options.limits.max_cells)
         else:
-            findings.warn(f"{raw.separators_seen} event cells hold a comma or semicolon; each was read as one event code.",
-                          Location(name, sheet.name, None, layout.column_label(layout.events[0])),
+            row, text = raw.separator_first or (None, None)
+            findings.warn(f"{raw.separators_seen} event cells hold a comma or semicolon"
+                          + (f" (first in row {row})" if row else "") + "; each was read as one event code.",
+                          Location(name, sheet.name, row, layout.column_label(layout.events[0])), found=text,
                           suggestion="If these cells list several events, use --layout wide.")
 
     cs = options.case_sensitive_codes
@@ -216,6 +218,10 @@ def read_problem(path: str | Path, options: ReadOptions | None = None) -> Readin
                       suggestion="Rename it if it holds details timetabler should use.")
     extras = read_extras(other, name, findings)
     event_where = attach_event_details(problem, extras.events, lambda c: canonical(event_names, c))
+    if raw.titles:
+        title_column = layout.column_label(layout.title) if layout.title is not None else None
+        attach_titles(problem, raw.titles, lambda c: canonical(event_names, c, False), event_where,
+                      findings, lambda r: Location(name, sheet.name, r, title_column))
     problem.slots = [s for s, _ in extras.slots]
     problem.rooms = [r for r, _ in extras.rooms]
     for rule in extras.rules:

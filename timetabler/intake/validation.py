@@ -251,3 +251,36 @@ def attach_event_details(problem: Problem, events: list[tuple[Event, Location]],
         problem.events[code] = event
         where[code] = loc
     return where
+
+
+def attach_titles(problem: Problem, titles: dict[tuple[str, str], int], canonical, event_where: dict[str, Location],
+                  findings: FindingList, where_row) -> None:
+    """Give events the titles of the enrolment sheet's title column; warn where titles disagree.
+
+    ``titles`` maps (event code as typed, title) to the first row giving it. The first title
+    of each event is kept, unless the events sheet gives one: the events sheet is the details sheet.
+    """
+    first: dict[str, tuple[str, int]] = {}
+    conflicts: list[tuple[str, str, int, str, int]] = []
+    for (typed, title), row in sorted(titles.items(), key=lambda item: item[1]):
+        code = canonical(typed)
+        if code not in first:
+            first[code] = (title, row)
+        elif first[code][0] != title:
+            conflicts.append((code, first[code][0], first[code][1], title, row))
+    for code, title_one, row_one, title_two, row_two in conflicts[:10]:
+        findings.warn(f"The event {code} has two titles in the enrolments: {title_one!r} (row {row_one}) and "
+                      f"{title_two!r}; the first was kept.", where_row(row_two), found=title_two,
+                      suggestion="Give each event one title, or list the titles in an Events sheet.")
+    if len(conflicts) > 10:
+        findings.warn(f"... and {len(conflicts) - 10} more events with two titles in the enrolments.", where_row(None))
+    for code, (title, row) in first.items():
+        event = problem.events.get(code)
+        if event is None:
+            continue
+        if event.title is None:
+            event.title = title
+        elif event.title != title:
+            findings.warn(f"The events sheet calls {code} {event.title!r} but the enrolments call it {title!r} "
+                          f"(row {row}); the events sheet's title was kept.", event_where.get(code, where_row(row)),
+                          found=title)

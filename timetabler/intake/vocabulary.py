@@ -18,6 +18,9 @@ Sheet         Column              Meaning
 Enrolments    Attendee            who attends (also: Student, Candidate, Member, Person, ...)
               Event               the exam or meeting they attend (also: Exam, Module, Course,
                                   Paper, Meeting, Committee, ...)
+              Title               optional: the event's title (also: Exam title, Module name
+                                  beside a Module code column, ...); the Events sheet's
+                                  title, where it gives one, is kept
 Events        Event               the event's code, as in Enrolments (sheet also named Exams,
                                   Meetings, Papers, Modules)
               Title               a longer name, for the timetable
@@ -171,6 +174,12 @@ EVENT_LIST = Column(
     "Events",
     tuple(w + s for w in EVENT_WORDS for s in ("s", "s taken", "s list", " list", "s sat", "s attended"))
     + ("examinations", "classes", "committees", "enrolments", "entries"),
+)
+#: An optional title column beside the event column of a long enrolment sheet ("Module code", "Module name").
+ENROLMENT_TITLE = Column(
+    "Title",
+    ("title", "event title", "long name", "description", "full title")
+    + tuple(w + s for w in EVENT_WORDS for s in (" title", " name", " description", " long name")),
 )
 #: Clash-list layout.
 OTHER_EVENT = Column(

@@ -3,7 +3,7 @@
 The web page never trusts what the browser says about a file. Its type is decided by
 looking at the bytes (:func:`sniff_kind`): an ``.xlsx`` workbook is a zip archive holding
 ``[Content_Types].xml`` and ``xl/workbook.xml``; an ``.ods`` spreadsheet is a zip archive whose ``mimetype`` member says so; a CSV file is
-text (UTF-16 with its byte-order mark, or any 8-bit text with no NUL or stray control
+text (UTF-16 with or without its byte-order mark, or any 8-bit text with no NUL or stray control
 bytes — intake works out the encoding and the delimiter). The
 name the browser sent is kept only to show it back to the user; on disk each upload lives
 in a folder of its own, named by a random token, inside one private folder (mode 0700)
@@ -25,6 +25,8 @@ import zipfile
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
+
+from ..intake.file_types import utf16_without_mark
 
 #: Default cap on an upload, in bytes. Enrolment workbooks of a large university are a few MB.
 DEFAULT_MAX_UPLOAD_BYTES = 20 * 1024 * 1024
@@ -74,8 +76,8 @@ def sniff_kind(head: bytes, path: Path | None = None) -> str:
             raise UploadRejected(
                 f"This file is not a spreadsheet: it looks like {what}. Upload an .xlsx workbook or a .csv file."
             )
-    if head.startswith((b"\xff\xfe", b"\xfe\xff")):
-        return "csv"  # UTF-16 text with its byte-order mark; intake decodes it
+    if head.startswith((b"\xff\xfe", b"\xfe\xff")) or utf16_without_mark(head):
+        return "csv"  # UTF-16 text, with or without its byte-order mark, judged as intake judges it
     if b"\x00" in head or _control_share(head) > 0.01:
         raise UploadRejected("This file is not text and not a spreadsheet. Upload an .xlsx workbook or a .csv file.")
     return "csv"
