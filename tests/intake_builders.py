@@ -74,3 +74,95 @@ def patch_cached_formula_values(path: Path, values: dict[str, str], sheet_xml: s
     with zipfile.ZipFile(path, "w", zipfile.ZIP_DEFLATED) as z:
         for n, data in parts.items():
             z.writestr(n, data)
+
+
+# --- hand-made .xlsx parts (damaged and hostile workbooks) -------------------------------
+
+_MAIN = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
+_REL = "http://schemas.openxmlformats.org/officeDocument/2006/relationships"
+
+
+def inline_cell(ref: str, text: str) -> str:
+    return f'<c r="{ref}" t="inlineStr"><is><t>{text}</t></is></c>'
+
+
+def sheet_xml(rows: str, dimension: str | None = None, extra: str = "") -> str:
+    """A worksheet part with the given ``<row>`` elements (and an optional declared dimension)."""
+    dim = f'<dimension ref="{dimension}"/>' if dimension else ""
+    return f'<?xml version="1.0" encoding="UTF-8"?><worksheet xmlns="{_MAIN}">{dim}<sheetData>{rows}</sheetData>{extra}</worksheet>'
+
+
+def rows_xml(rows: Rows, first_row: int = 1) -> str:
+    """``<row>`` elements for rows of text (inline strings), starting at ``first_row``."""
+    out = []
+    for r, row in enumerate(rows, start=first_row):
+        cells = "".join(inline_cell(f"{chr(65 + c)}{r}", str(v)) for c, v in enumerate(row) if v is not None)
+        out.append(f'<row r="{r}">{cells}</row>')
+    return "".join(out)
+
+
+def write_parts_xlsx(path: Path, sheets: dict[str, str | bytes], shared: Sequence[str] | bytes | None = None,
+                     styles: str | None = None, chart_sheets: Sequence[str] = (),
+                     compression: int = zipfile.ZIP_DEFLATED) -> Path:
+    """An .xlsx made from hand-written parts: ``sheets`` maps a sheet name to its worksheet XML.
+
+    ``shared`` is the shared-string table (texts, or the raw part); ``chart_sheets`` are
+    listed in the workbook as chart sheets (no cells).
+    """
+    names = list(sheets) + list(chart_sheets)
+    book = "".join(f'<sheet name="{n}" sheetId="{i}" r:id="rId{i}"/>' for i, n in enumerate(names, start=1))
+    rels = "".join(
+        f'<Relationship Id="rId{i}" Type="{_REL}/{"worksheet" if n in sheets else "chartsheet"}" '
+        f'Target="{"worksheets/sheet" if n in sheets else "chartsheets/sheet"}{i}.xml"/>'
+        for i, n in enumerate(names, start=1))
+    office = "application/vnd.openxmlformats-officedocument.spreadsheetml"
+    overrides = [("/xl/workbook.xml", f"{office}.sheet.main+xml")]
+    overrides += [(f"/xl/{'worksheets' if n in sheets else 'chartsheets'}/sheet{i}.xml",
+                   f"{office}.{'worksheet' if n in sheets else 'chartsheet'}+xml") for i, n in enumerate(names, start=1)]
+    if shared is not None:
+        overrides.append(("/xl/sharedStrings.xml", f"{office}.sharedStrings+xml"))
+    if styles is not None:
+        overrides.append(("/xl/styles.xml", f"{office}.styles+xml"))
+    types = "".join(f'<Override PartName="{p}" ContentType="{c}"/>' for p, c in overrides)
+    parts: dict[str, str | bytes] = {
+        "[Content_Types].xml": '<?xml version="1.0"?><Types xmlns="http://schemas.openxmlformats.org/package/2006/content-types">'
+        '<Default Extension="rels" ContentType="application/vnd.openxmlformats-package.relationships+xml"/>'
+        f'<Default Extension="xml" ContentType="application/xml"/>{types}</Types>',
+        "_rels/.rels": f'<?xml version="1.0"?><Relationships xmlns="http://schemas.openxmlformats.org/package/2006/relationships">'
+        f'<Relationship Id="rId1" Type="{_REL}/officeDocument" Target="xl/workbook.xml"/></Relationships>',
+        "xl/workbook.xml": f'<?xml version="1.0"?><workbook xmlns="{_MAIN}" xmlns:r="{_REL}"><sheets>{book}</sheets></workbook>',
+        "xl/_rels/workbook.xml.rels": '<?xml version="1.0"?><Relationships '
+        f'xmlns="http://schemas.openxmlformats.org/package/2006/relationships">{rels}</Relationships>',
+    }
+    for i, n in enumerate(names, start=1):
+        if n in sheets:
+            parts[f"xl/worksheets/sheet{i}.xml"] = sheets[n]
+        else:
+            parts[f"xl/chartsheets/sheet{i}.xml"] = f'<chartsheet xmlns="{_MAIN}"/>'
+    if shared is not None:
+        if isinstance(shared, bytes):
+            parts["xl/sharedStrings.xml"] = shared
+        else:
+            items = "".join(f"<si><t>{t}</t></si>" for t in shared)
+            parts["xl/sharedStrings.xml"] = f'<?xml version="1.0"?><sst xmlns="{_MAIN}" count="{len(shared)}">{items}</sst>'
+    if styles is not None:
+        parts["xl/styles.xml"] = styles
+    with zipfile.ZipFile(path, "w", compression) as z:
+        for n, data in parts.items():
+            z.writestr(n, data)
+    return path
+
+
+def flip_bytes(path: Path, member: str, count: int = 8) -> Path:
+    """Invert ``count`` bytes in the middle of a member's packed data, as a damaged disk or download does."""
+    with zipfile.ZipFile(path) as z:
+        info = z.getinfo(member)
+    data = bytearray(path.read_bytes())
+    name_len, extra_len = int.from_bytes(data[info.header_offset + 26:info.header_offset + 28], "little"), \
+        int.from_bytes(data[info.header_offset + 28:info.header_offset + 30], "little")
+    start = info.header_offset + 30 + name_len + extra_len
+    middle = start + info.compress_size // 2
+    for i in range(middle, min(middle + count, start + info.compress_size)):
+        data[i] ^= 0xFF
+    path.write_bytes(bytes(data))
+    return path

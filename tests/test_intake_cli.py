@@ -185,3 +185,42 @@ def test_libreoffice_copy_of_the_template_reads_the_same(tmp_path: Path):
         assert [(r.kind, r.events) for r in problem.rules] == [(r.kind, r.events) for r in original.rules]
         assert problem.events == original.events
         assert problem.rooms == original.rooms
+
+
+def _damaged_number_cell(path: Path) -> Path:
+    from intake_builders import inline_cell, rows_xml, sheet_xml, write_parts_xlsx
+
+    body = rows_xml([["Student", "Exam"], ["HV-S0001", "MAT101"]])
+    body += f'<row r="3">{inline_cell("A3", "HV-S0002")}<c r="B3" t="n"><v>twelve</v></c></row>'
+    return write_parts_xlsx(path, {"Entries": sheet_xml(body)})
+
+
+def test_a_damaged_workbook_is_bad_input_not_a_bug(tmp_path: Path, run_command):
+    """A malformed cell inside the rows is exit 2 with file, sheet and cell named (it was exit 1, a traceback)."""
+    path = _damaged_number_cell(tmp_path / "entries.xlsx")
+    result = run_command("inspect", path)
+    assert result.status == 2, result.stderr
+    assert "Traceback" not in result.stderr
+    text = " ".join(result.stderr.split())
+    assert "sheet 'Entries', row 3, column 'B3'" in text and "number cell holds text" in text
+
+
+def test_a_damaged_earlier_timetable_is_bad_input(tmp_path: Path, run_command):
+    good = write_text(tmp_path / "entries.csv", [["Student", "Exam"], ["HV-S0001", "MAT101"], ["HV-S0002", "PHY110"]])
+    earlier = _damaged_number_cell(tmp_path / "earlier.xlsx")
+    result = run_command("solve", good, "--slots", "2", "--keep", earlier, "--time-limit", "5")
+    assert result.status == 2, result.stderr
+    assert "number cell holds text" in " ".join(result.stderr.split())
+
+
+def test_escape_sequences_in_a_file_never_reach_the_terminal(tmp_path: Path, run_command):
+    """Codes and ids holding terminal escape sequences are printed as visible escapes, in tables and warnings."""
+    path = write_text(tmp_path / "entries.csv", [["Student", "Exam"], ["HV-S0001", "MAT101\x1b[2J"],
+                                                 ["HV-S0001", "PHY110"], ["HV-S0002\x1b]0;title\x07", None]])
+    for args in (("inspect", path), ("inspect", path, "--json"), ("solve", path, "--slots", "2", "--time-limit", "5")):
+        result = run_command(*args)
+        assert result.status == 0, result.stderr
+        for stream in (result.stdout, result.stderr):
+            assert "\x1b" not in stream and "\x07" not in stream, (args, stream)
+    shown = run_command("inspect", path)
+    assert "Found: 'HV-S0002\\x1b]0;title\\x07'" in " ".join(shown.stderr.split()), shown.stderr

@@ -18,7 +18,17 @@ from typing import Callable
 
 import pytest
 
-from intake_builders import patch_cached_formula_values, write_ods, write_text, write_xlsx
+from intake_builders import (
+    flip_bytes,
+    inline_cell,
+    patch_cached_formula_values,
+    rows_xml,
+    sheet_xml,
+    write_ods,
+    write_parts_xlsx,
+    write_text,
+    write_xlsx,
+)
 from timetabler.errors import InputError
 from timetabler.intake import Limits, ReadOptions, read_problem
 
@@ -383,6 +393,181 @@ def _formula_book(path: Path) -> Path:
     return path
 
 
+# --- damaged and hostile workbooks (each part written by hand) ---------------------------
+
+
+def _one_bad_cell(cell: str, row: int = 3, shared=None, styles=None):
+    """The BASE enrolments with one hand-written cell in column B of ``row``."""
+    def build(t: Path) -> Path:
+        rows = long_rows()
+        body = rows_xml(rows[: row - 1]) + f'<row r="{row}">{inline_cell(f"A{row}", "HV-S0009")}{cell}</row>'
+        return write_parts_xlsx(t / "a.xlsx", {"S": sheet_xml(body)}, shared=shared, styles=styles)
+    return build
+
+
+def _far_row(t: Path) -> Path:
+    """5 KB: declares the whole sheet (A1:XFD1048576) and holds one enrolment in its last row."""
+    body = rows_xml(long_rows()) + rows_xml([["HV-S0009", "GEO140"]], first_row=1_048_576)
+    return write_parts_xlsx(t / "a.xlsx", {"S": sheet_xml(body, dimension="A1:XFD1048576")})
+
+
+def _far_corner(t: Path) -> Path:
+    body = rows_xml(long_rows()) + '<row r="1048576">' + inline_cell("XFD1048576", "x") + "</row>"
+    return write_parts_xlsx(t / "a.xlsx", {"S": sheet_xml(body, dimension="A1:XFD1048576")})
+
+
+def _far_rows_in_sheets(t: Path) -> Path:
+    far = rows_xml([["HV-S0009", "GEO140"]], first_row=1_048_576)
+    sheets = {"S": sheet_xml(rows_xml(long_rows()))}
+    sheets.update({f"Copy {i}": sheet_xml(far) for i in range(1, 4)})
+    return write_parts_xlsx(t / "a.xlsx", sheets)
+
+
+def _flipped(t: Path) -> Path:
+    path = write_parts_xlsx(t / "a.xlsx", {"S": sheet_xml(rows_xml(long_rows(BASE * 40)))})
+    return flip_bytes(path, "xl/worksheets/sheet1.xml")
+
+
+def _shared_book(t: Path, texts: list[str]) -> Path:
+    body = '<row r="1"><c r="A1" t="s"><v>0</v></c><c r="B1" t="s"><v>1</v></c></row>'
+    body += "".join(f'<row r="{r}">{inline_cell(f"A{r}", a)}<c r="B{r}" t="s"><v>{2 + i}</v></c></row>'
+                    for i, (r, (a, _)) in enumerate(zip(range(2, 12), BASE)))
+    return write_parts_xlsx(t / "a.xlsx", {"S": sheet_xml(body)}, shared=["Student", "Exam", *texts])
+
+
+DATE_STYLES = ('<?xml version="1.0"?><styleSheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main">'
+               '<cellXfs count="2"><xf numFmtId="0"/><xf numFmtId="14"/></cellXfs></styleSheet>')
+
+BILLION_LAUGHS = ('<?xml version="1.0"?><!DOCTYPE lolz [<!ENTITY lol "lol"><!ENTITY lol2 "&lol;&lol;&lol;&lol;">]>'
+                  '<worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><sheetData>'
+                  '<row r="1"><c r="A1" t="inlineStr"><is><t>&lol2;</t></is></c></row></sheetData></worksheet>')
+
+CASES += [
+    Case("a number cell holding text", _one_bad_cell('<c r="B3" t="n"><v>twelve</v></c>'),
+         error=("number cell holds text", "S", 3, "B3")),
+    Case("a number cell holding 'nan'", _one_bad_cell('<c r="B3"><v>nan</v></c>'),
+         error=("number cell holds text", "S", 3, "B3")),
+    Case("a date cell (type d) holding text", _one_bad_cell('<c r="B3" t="d"><v>next Tuesday</v></c>'),
+         error=("date cell holds text", "S", 3, "B3")),
+    Case("a number beyond floating point", _one_bad_cell('<c r="B3"><v>1E+999</v></c>'),
+         error=("number too large", "S", 3, "B3")),
+    Case("a date-formatted serial beyond the year 9999", _one_bad_cell('<c r="B3" s="1"><v>99999999</v></c>', styles=DATE_STYLES),
+         error=("number that is no date", "S", 3, "B3")),
+    Case("a date-formatted number reads as a date",
+         # Excel's 1900 date system counts days from 1899-12-30 for dates after February 1900
+         # (ECMA-376 Part 1, 18.17.4.1, as recalled); computed here, not typed in
+         _one_bad_cell(f'<c r="B3" s="1"><v>{(dt.date(2027, 5, 3) - dt.date(1899, 12, 30)).days}</v></c>', styles=DATE_STYLES),
+         check=lambda r: ("HV-S0009", "2027-05-03") in r.problem.enrolments or pytest.fail(str(r.problem.enrolments))),
+    Case("a true/false cell holding something else", _one_bad_cell('<c r="B3" t="b"><v>maybe</v></c>'),
+         error=("true/false cell", "S", 3, "B3")),
+    Case("a cell reference beyond column XFD", _one_bad_cell('<c r="XFE3" t="inlineStr"><is><t>MAT101</t></is></c>'),
+         error=("impossible reference", "S", 3, "XFE3")),
+    Case("a cell reference in row 0", _one_bad_cell('<c r="B0" t="inlineStr"><is><t>MAT101</t></is></c>'),
+         error=("impossible reference", "S", 3, "B0")),
+    Case("a cell reference that is not one", _one_bad_cell('<c r="3B" t="inlineStr"><is><t>MAT101</t></is></c>'),
+         error=("impossible reference", "S", 3, "3B")),
+    Case("a row number beyond the last row of a sheet",
+         lambda t: write_parts_xlsx(t / "a.xlsx", {"S": sheet_xml(rows_xml(long_rows()) + '<row r="1048577"></row>')}),
+         error=("impossible row number", "S", None, None)),
+    Case("a row number that is not a number",
+         lambda t: write_parts_xlsx(t / "a.xlsx", {"S": sheet_xml(rows_xml(long_rows()) + '<row r="-4"></row>')}),
+         error=("impossible row number", "S", None, None)),
+    Case("a shared-text index out of range",
+         _one_bad_cell('<c r="B3" t="s"><v>7</v></c>', shared=["Student", "Exam", "MAT101"]),
+         error=("shared text that the workbook does not hold", "S", 3, "B3")),
+    Case("a shared-text index that is not a number",
+         _one_bad_cell('<c r="B3" t="s"><v>x</v></c>', shared=["MAT101"]),
+         error=("shared text that the workbook does not hold", "S", 3, "B3")),
+    Case("shared texts read as the cells they fill", lambda t: _shared_book(t, [e for _, e in BASE]),
+         check=_check_figures()),
+    Case("flipped bytes inside a sheet", _flipped, error=("sheet is damaged", "S", None, None)),
+    Case("a sheet cut off in the middle of a cell",
+         lambda t: write_parts_xlsx(t / "a.xlsx", {"S": sheet_xml(rows_xml(long_rows()))[:300]}),
+         error=("sheet is damaged", "S", None, None)),
+    Case("entity declarations inside a sheet", lambda t: write_parts_xlsx(t / "a.xlsx", {"S": BILLION_LAUGHS}),
+         error=("sheet is damaged", "S", None, None)),
+    Case("the full sheet width declared and one row in the last row",
+         _far_row, check=_warned("blank rows", row=1_048_576, pairs=BASE + [("HV-S0009", "GEO140")])),
+    Case("one cell in the last cell of the sheet (XFD1048576)", _far_corner, check=_check_figures()),
+    Case("far rows in several sheets, beyond the cell limit", _far_rows_in_sheets,
+         options={"limits": Limits(max_cells=2_500_000)}, error=("more cells", None, None, None)),
+    Case("shared text larger than the limit, refused before parsing",
+         lambda t: _shared_book(t, [e for _, e in BASE[:-1]] + ["x" * 100_000]),
+         options={"limits": Limits(max_shared_strings_bytes=64 * 1024)}, error=("shared text is larger", None, None, None)),
+    Case("a shared text longer than a cell holds (32,767 characters)",
+         lambda t: _shared_book(t, [e for _, e in BASE[:-1]] + ["G" * 40_000]),
+         error=("more text than a spreadsheet cell can", "S", 11, "B11")),
+    Case("an inline text longer than a cell holds", _one_bad_cell(inline_cell("B3", "M" * 40_000)),
+         error=("more text than a spreadsheet cell can", "S", 3, "B3")),
+    Case("sheets larger than the limit, refused before parsing",
+         lambda t: write_parts_xlsx(t / "a.xlsx", {"S": sheet_xml(rows_xml(long_rows()))}),
+         options={"limits": Limits(max_sheet_bytes=1000)}, error=("sheets unpack to more data", None, None, None)),
+    Case("more cell text than the limit",
+         lambda t: write_parts_xlsx(t / "a.xlsx", {"S": sheet_xml(rows_xml(long_rows()))}),
+         options={"limits": Limits(max_text_chars=50)}, error=("more text than timetabler reads", None, None, None)),
+    Case("a workbook whose only sheet is a chart",
+         lambda t: write_parts_xlsx(t / "a.xlsx", {}, chart_sheets=["Chart 1"]),
+         error=("no sheet of cells", None, None, None)),
+    Case("a workbook listing no sheets at all", lambda t: write_parts_xlsx(t / "a.xlsx", {}),
+         error=("no sheet of cells", None, None, None)),
+    Case("a chart sheet beside the data is passed over with a note",
+         lambda t: write_parts_xlsx(t / "a.xlsx", {"S": sheet_xml(rows_xml(long_rows()))}, chart_sheets=["Chart 1"]),
+         check=_warned("is a chart sheet")),
+    Case("a control character in a sheet name is shown, not sent",
+         lambda t: write_parts_xlsx(t / "a.xlsx", {"S\u009b2J": sheet_xml(rows_xml(long_rows()))}),
+         check=_check_figures(sheet="S\\x9b2J")),
+    # --- hostile and damaged text files ------------------------------------------------
+    Case("a CSV cell over the csv module's field limit",
+         lambda t: _bytes(t / "a.csv", b'Student,Exam\nHV-S0001,"' + b"M" * 200_000 + b'"\n'),
+         error=("longer than timetabler reads", None, 2, None)),
+    Case("an unclosed quote swallowing a few rows",
+         lambda t: _bytes(t / "a.csv", b'Student,Exam\nHV-S0001,MAT101\nHV-S0002,"PHY110\nHV-S0003,CHM120\nHV-S0004,HIS130\n'),
+         error=("double quote", None, 3, "column 2")),
+    Case("an unclosed quote in the last row",
+         lambda t: _bytes(t / "a.csv", ("Student\tExam\n" + "".join(f"{a}\t{e}\n" for a, e in BASE[:-1])
+                                        + f'{BASE[-1][0]}\t"{BASE[-1][1]}\n').encode()),
+         error=("double quote", None, 11, "column 2")),
+    Case("a quoted cell with a line break in a notes column reads",
+         lambda t: write_text(t / "a.csv", [["Student", "Exam", "Notes"]] + [[a, e, "late entry\napproved" if i == 2 else ""]
+                                                                             for i, (a, e) in enumerate(BASE)]),
+         check=_check_figures()),
+    Case("control characters in a CSV are shown, not sent to the terminal",
+         lambda t: write_text(t / "a.csv", long_rows(BASE + [("HV-S0009", "GEO140\x1b[2J\x07")])),
+         check=lambda r: ("HV-S0009", "GEO140\\x1b[2J\\x07") in r.problem.enrolments
+         or pytest.fail(str(r.problem.enrolments))),
+    Case("UTF-16 big-endian without a byte-order mark",
+         lambda t: write_text(t / "a.csv", long_rows(), ",", "utf-16-be"),
+         check=_check_figures(encoding="UTF-16 (big-endian)")),
+    # --- event codes and titles in the enrolment sheet ---------------------------------
+    Case("codes joined by a slash are one code each, with a located warning",
+         lambda t: write_xlsx(t / "a.xlsx", {"S": long_rows(BASE + [("HV-S0009", "MAT101 / PHY110")])}),
+         check=_warned("join two codes", row=12, column="B (Exam)", pairs=BASE + [("HV-S0009", "MAT101 / PHY110")])),
+    Case("a committee name with & is not taken for two codes",
+         lambda t: write_text(t / "a.csv", [["Member", "Committee"], ["Ann", "Finance & Estates"], ["Ben", "Finance & Estates"]]),
+         check=lambda r: not any("join two codes" in w.message for w in r.warnings) or pytest.fail(str(r.warnings))),
+    Case("a few cells holding a semicolon: a warning naming the first row",
+         lambda t: write_xlsx(t / "a.xlsx", {"S": long_rows(BASE + [("HV-S0009", "MAT101; PHY110")])}),
+         check=_warned("comma or semicolon", row=12, column="B (Exam)", pairs=BASE + [("HV-S0009", "MAT101; PHY110")])),
+    Case("an exam title column gives the events their titles",
+         lambda t: write_xlsx(t / "a.xlsx", {"S": [["Student", "Exam", "Exam title"]] + [[a, e, f"Title of {e}"] for a, e in BASE]}),
+         check=lambda r: ({c: e.title for c, e in r.problem.events.items()} == {e: f"Title of {e}" for _, e in BASE}
+                          and not r.warnings) or pytest.fail(str(r.warnings))),
+    Case("module name beside module code is the title",
+         lambda t: write_text(t / "a.csv", [["Candidate", "Module code", "Module name"]] + [[a, e, e.lower()] for a, e in BASE]),
+         check=lambda r: (r.event_column == "Module code" and r.problem.events["MAT101"].title == "mat101")
+         or pytest.fail(r.describe())),
+    Case("two titles for one exam in the enrolments",
+         lambda t: write_xlsx(t / "a.xlsx", {"S": [["Student", "Exam", "Title"]] + [[a, e, "Algebra" if i == 3 else e]
+                                                                                  for i, (a, e) in enumerate(BASE)]}),
+         check=_warned("has two titles", row=5, column="C (Title)")),
+    Case("an enrolment title differing from the events sheet's",
+         lambda t: write_xlsx(t / "a.xlsx", {"S": [["Student", "Exam", "Title"]] + [[a, e, e] for a, e in BASE],
+                                             "Events": [["Event", "Title"], ["MAT101", "Mathematics I"]]}),
+         check=lambda r: (r.problem.events["MAT101"].title == "Mathematics I" and r.problem.events["PHY110"].title == "PHY110"
+                          and _warned("the events sheet's title was kept", row=2)(r)) is None or pytest.fail("")),
+]
+
+
 def test_the_corpus_is_large_enough():
     assert len(CASES) >= 30
 
@@ -458,3 +643,70 @@ def test_clash_list_gives_the_listed_graph(tmp_path: Path):
     reference = nx.Graph()
     reference.add_weighted_edges_from(listed, weight="shared")
     assert nx.utils.graphs_equal(nx.Graph(graph.edges(data=True)), reference)
+
+
+# --- the same files through the other readers of intake ---------------------------------
+
+DAMAGED_WORKBOOKS = [c for c in CASES if c.error is not None and not c.options
+                     and c.name.startswith(("a number cell", "a date cell", "a cell reference", "a row number",
+                                            "a shared-text index", "flipped bytes", "a sheet cut off",
+                                            "an inline text longer"))]
+
+
+def test_the_damaged_workbooks_are_many():
+    assert len(DAMAGED_WORKBOOKS) >= 10, [c.name for c in DAMAGED_WORKBOOKS]
+
+
+@pytest.mark.parametrize("case", DAMAGED_WORKBOOKS, ids=[c.name for c in DAMAGED_WORKBOOKS])
+def test_earlier_timetable_reader_locates_the_same_damage(case: Case, tmp_path: Path):
+    """``solve --keep FILE`` reads FILE with the enrolment reader's file reading: same located errors."""
+    from timetabler.intake.previous_timetable import read_previous_timetable
+
+    path = case.build(tmp_path)
+    with pytest.raises(InputError) as info:
+        read_previous_timetable(path)
+    message, sheet, row, column = case.error
+    f = next(f for f in info.value.findings if message in f.message)
+    assert (f.where.file, f.where.sheet) == (str(path), sheet), str(f)
+    if row is not None:
+        assert f.where.row == row, str(f)
+    if column is not None:
+        assert column in (f.where.column or ""), str(f)
+
+
+def test_earlier_timetable_with_a_far_row_reads_at_once(tmp_path: Path):
+    """A timetable sheet declaring the full width, with its last row at the bottom of the sheet."""
+    from timetabler.intake.previous_timetable import read_previous_timetable
+
+    body = rows_xml([["Event", "Slot"], ["MAT101", 2], ["PHY110", 1]]) + rows_xml([["CHM120", 3]], first_row=1_048_576)
+    path = write_parts_xlsx(tmp_path / "earlier.xlsx", {"Events": sheet_xml(body, dimension="A1:XFD1048576")})
+    refs = read_previous_timetable(path)
+    assert refs.slots == {"MAT101": "2", "PHY110": "1", "CHM120": "3"}
+    assert refs.where["CHM120"].row == 1_048_576
+
+
+TEXT_CASES = [c for c in CASES if c.error is None]
+
+
+@pytest.mark.parametrize("case", TEXT_CASES, ids=[c.name for c in TEXT_CASES])
+def test_the_upload_check_accepts_every_file_intake_reads(case: Case, tmp_path: Path):
+    """The web page's upload check judges text as intake does (UTF-16 without a mark included)."""
+    from timetabler.web.uploads import sniff_kind
+
+    path = case.build(tmp_path)
+    read_problem(path, ReadOptions(**case.options))
+    assert sniff_kind(path.read_bytes()[:65536], path) in ("csv", "xlsx", "ods")
+
+
+def test_no_finding_sends_a_control_character(tmp_path: Path):
+    """Escape sequences typed into a file (cells, headers) reach no message or value as they are."""
+    path = write_text(tmp_path / "a.csv", [["Student", "Exam", "Notes\u001b]0;owned\u0007"], ["HV-S0001\u009b31m", "MAT101"],
+                                           ["HV-S0002\u001b[2J", None], ["HV-S0003", "MAT101/\u001b[5mPHY110"],
+                                           ["HV-S0004", "PHY110\r\u001b[1A"]])
+    reading = read_problem(path)
+    texts = [str(w) for w in reading.warnings] + [v for w in reading.warnings for v in w.to_dict().values() if isinstance(v, str)]
+    texts += [reading.describe(), *reading.problem.events, *reading.problem.attendees]
+    assert len(reading.warnings) >= 2, [str(w) for w in reading.warnings]
+    for text in texts:
+        assert not any(ord(ch) < 32 or 0x7f <= ord(ch) <= 0x9f for ch in text), repr(text)
+    assert "HV-S0001\\x9b31m" in reading.problem.attendees

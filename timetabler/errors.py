@@ -51,7 +51,7 @@ class Finding:
         """The finding in one paragraph; every part that may come from a user's file passes :func:`visible`."""
         text = f"{self.where}: {self.message}" if self.where else self.message
         if self.found is not None:
-            text += f" Found: {self.found!r}."
+            text += f" Found: '{self.found}'."  # quoted as typed; visible() below escapes what must be
         if self.expected:
             text += f" Expected: {self.expected}."
         if self.suggestion:

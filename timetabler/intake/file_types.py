@@ -171,12 +171,13 @@ def text_rows(name: str, text: str, delimiter: str, budget: CellBudget | None = 
     reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)
     line = 0
     i = 0
-    spanning: list[str] | None = None  # the last record, when it spanned lines
+    tail = ""  # the last cell of the last record
+    width = 0
     try:
         for i, row in enumerate(reader, start=1):
-            spanning = None
+            if row:
+                tail, width = row[-1], len(row)
             if reader.line_num - line > 1:  # this record spans lines: a quoted cell holds line breaks
-                spanning = row
                 for j, cell in enumerate(row):
                     lines = cell.splitlines()
                     if len(lines) >= 10 or any(delimiter in part for part in lines[1:]):
@@ -198,8 +199,8 @@ def text_rows(name: str, text: str, delimiter: str, budget: CellBudget | None = 
                 suggestion="Remove the stray double quote, or enclose the whole cell in double quotes.")) from None
         raise InputError(Finding("The text file cannot be read as CSV.", where=Location(name, None, i + 1),
                                  found=str(exc), suggestion="Save it again as CSV from your spreadsheet program.")) from None
-    if spanning and ("\n" in spanning[-1] or "\r" in spanning[-1]) and not text.rstrip().endswith('"'):
-        raise _open_quote(name, i, len(spanning) - 1, spanning[-1])  # the file ends inside the quoted cell
+    if ("\n" in tail or "\r" in tail) and not text.rstrip().endswith('"'):
+        raise _open_quote(name, i, width - 1, tail)  # the file ends inside a quoted cell, never closed
     return rows
 
 
@@ -301,8 +302,12 @@ def sniff_delimiter(text: str, prefer: str = ",") -> str:
     lines = [line for line in text.splitlines()[:400] if line.strip()][:200]
     best: tuple[float, int, int] | None = None
     choice = prefer
+    lines = [line[:4096] for line in lines]  # enough to count fields; a huge cell cannot stop the count
     for d in DELIMITERS:
-        counts = [len(r) for r in csv.reader(lines, delimiter=d)]
+        try:
+            counts = [len(r) for r in csv.reader(lines, delimiter=d)]
+        except csv.Error:
+            continue
         split = [c for c in counts if c >= 2]
         if not split:
             continue

@@ -103,7 +103,7 @@ def _attendee_rows(sheet: RawSheet, layout: Layout, file: str, findings: Finding
 
     for r in range(layout.header_row + 1, len(sheet.rows) + 1):
         row = sheet.rows[r - 1]
-        if all(is_blank(c) for c in row):
+        if not row or all(is_blank(c) for c in row):
             out.blank_rows += 1
             continue
         out.rows_read += 1

@@ -514,8 +514,11 @@ class _SheetReader:
             self.merges.append((r1 - 1, c1 - 1, r2 - 1, c2 - 1))
 
     def rows_list(self) -> list:
-        rows = self.rows
-        return [rows.get(i, _EMPTY) for i in range(1, self.last + 1)]
+        out: list = [_EMPTY] * self.last
+        for r, row in self.rows.items():
+            if r <= self.last:
+                out[r - 1] = row
+        return out
 
 
 def read_xlsx(name: str, archive: zipfile.ZipFile, limits: Limits, budget: CellBudget,
