@@ -10,6 +10,7 @@ import webbrowser
 import click
 
 from .common import err_console
+from .store_options import open_store, store_options
 
 
 def _is_loopback(host: str) -> bool:
@@ -42,7 +43,9 @@ def _port_free(host: str, port: int) -> bool:
 @click.option("--count-seconds", type=click.FloatRange(1, 3600), default=600.0, show_default=True,
               help="Time the counting of clash-free timetables may go on in the background for the overview page "
                    "(the page shows bounds after a few seconds and the exact figures when they are ready).")
-def command(port: int, open_browser: bool, host: str, max_upload_mb: int, count_seconds: float) -> None:
+@store_options
+def command(port: int, open_browser: bool, host: str, max_upload_mb: int, count_seconds: float, store_at: str | None,
+            retention_days: int) -> None:
     """Start the timetabler web page on this computer.
 
     \b
@@ -54,7 +57,9 @@ def command(port: int, open_browser: bool, host: str, max_upload_mb: int, count_
     \b
     Everything stays on this computer: the page fetches nothing from the internet, and
     uploaded files sit in a private temporary folder that is deleted when you delete the
-    file on the page, after a few hours unused, or when the page stops.
+    file on the page, after a few hours unused, or when the page stops. Timetables you
+    publish on the page are kept in the store (--store) until you delete them or until
+    they sit unused for --retention-days; the page's "stored work" lists them.
     """
     import uvicorn
 
@@ -71,7 +76,10 @@ def command(port: int, open_browser: bool, host: str, max_upload_mb: int, count_
             "Open it in the browser, or choose another port with --port."
         )
     extra = () if _is_loopback(host) else (host,)
-    settings = WebSettings(max_upload_bytes=max_upload_mb * 1024 * 1024, count_budget_seconds=count_seconds, extra_hosts=extra)
+    with open_store(store_at, retention_days) as records:  # created or upgraded now; old inputs deleted
+        kept = str(records.path)
+    settings = WebSettings(max_upload_bytes=max_upload_mb * 1024 * 1024, count_budget_seconds=count_seconds, extra_hosts=extra,
+                           store_path=kept, retention_days=retention_days)
     app = create_app(settings)
     config = uvicorn.Config(app, host=host, port=port, log_level="warning", access_log=False, lifespan="on")
     server = uvicorn.Server(config)

@@ -19,6 +19,7 @@ from ..errors import Finding, InputError
 from ..intake.previous_timetable import PreviousTimetable, read_previous_timetable
 from ..store import Store, store_path
 from ..store.location import RETENTION_ENV
+from ..store.records import publication_problems
 from .common import err_console
 
 #: Days a stored input (its enrolments, results and labels) is kept after it was last used.
@@ -116,7 +117,7 @@ def record_solve(store: Store, problem: Any, runs: Sequence[Any], settings: dict
         run = solved[0] if len(solved) == 1 else (runs[0] if len(runs) == 1 else None)
         if run is None:
             raise InputError(f"--publish: {len(runs)} timetables were solved; nothing was recorded.")
-        problems = _unpublishable(problem, run)
+        problems = publication_problems(problem, run)
         if problems:
             raise InputError(Finding(
                 f"The timetable for {run.slots} slots was not published under '{publish_label}' and nothing was "
@@ -132,18 +133,3 @@ def record_solve(store: Store, problem: Any, runs: Sequence[Any], settings: dict
         else:
             err_console.print(f"[dim]Recorded in {where} (input #{saved.input_id}; 'timetabler history' lists "
                               "what is kept).[/dim]", soft_wrap=True)
-
-
-def _unpublishable(problem: Any, run: Any) -> str:
-    if run.status not in ("optimal", "feasible") or not run.assignment:
-        return f"the result is {run.status}" + (f" ({run.reason})" if run.reason else "") + "."
-    missing = sorted(set(problem.events) - set(run.assignment))
-    if missing:
-        return f"{len(missing)} event(s) have no slot (for example {missing[0]})."
-    validation = getattr(run, "validation", None)
-    if validation is None:
-        return "the validator did not check it."
-    if not validation.ok:
-        return "the validator found " + "; ".join(validation.violations[:3]) + "."
-    return ""
-

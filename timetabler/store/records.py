@@ -500,6 +500,21 @@ class _Transaction:
         return False
 
 
+def publication_problems(problem: Any, run: Any) -> str:
+    """Why ``run`` may not be published (empty when it may): not clash-free, events left out, not validated."""
+    if run.status not in ("optimal", "feasible") or not run.assignment:
+        return f"the result is {run.status}" + (f" ({run.reason})" if run.reason else "") + "."
+    missing = sorted(set(problem.events) - set(run.assignment))
+    if missing:
+        return f"{len(missing)} event(s) have no slot (for example {missing[0]})."
+    validation = getattr(run, "validation", None)
+    if validation is None:
+        return "the validator did not check it."
+    if not validation.ok:
+        return "the validator found " + "; ".join(validation.violations[:3]) + "."
+    return ""
+
+
 def check_label(label: str) -> str:
     """A label as stored: trimmed, not empty, printable, at most 100 characters."""
     text = " ".join(str(label).split())

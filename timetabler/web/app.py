@@ -79,6 +79,10 @@ class WebSettings:
     #: Uploads kept at once, and how long an upload may sit unused.
     max_uploads: int = 12
     idle_seconds: float = 4 * 3600
+    #: The store of published timetables (None: --store / TIMETABLER_STORE / the user's data folder),
+    #: and the days an unused stored input is kept (0: until deleted).
+    store_path: str | None = None
+    retention_days: int = 180
     #: Every host name the page answers as: the loopback names and extra_hosts.
     allowed_hosts: tuple[str, ...] = field(default=(), init=False)
 
@@ -185,7 +189,7 @@ def create_app(settings: WebSettings | None = None) -> Starlette:
     ...     client.get("/").status_code
     200
     """
-    from . import routes
+    from . import records_pages, routes
 
     settings = settings or WebSettings()
     templates = make_templates()
@@ -219,7 +223,7 @@ def create_app(settings: WebSettings | None = None) -> Starlette:
         )
 
     app = Starlette(
-        routes=[*routes.ROUTES, Mount("/static", app=StaticFiles(directory=str(HERE / "static")), name="static")],
+        routes=[*routes.ROUTES, *records_pages.ROUTES, Mount("/static", app=StaticFiles(directory=str(HERE / "static")), name="static")],
         lifespan=lifespan,
         exception_handlers={HTTPException: not_found, Exception: server_error},
     )
