@@ -6,7 +6,7 @@
 ``GET  /stored/changes?from=A&to=B``  what moved between two published timetables and who must be told
 ``GET  /stored/changes/{name}``       notices.xlsx, notices-csv.zip, calendars-ics.zip (same query)
 ``POST /stored/forget``               delete a published label (``label``) or an input (``input``)
-``POST /files/{token}/publish``       record a finished timetable of an upload as published (``slots``, ``label``)
+``POST /files/{token}/solves/{solve}/publish``  record a finished timetable of a solve as published (``slots``, ``label``)
 ====================================  =============================================================
 
 The store is the same SQLite file the command line uses (``timetabler serve --store PATH``,
@@ -158,18 +158,21 @@ async def forget(request: Request) -> Response:
 
 async def publish(request: Request) -> Response:
     upload = routes.upload_of(request)
-    back = f"/files/{upload.token}/timetable"
-    if routes.job_running(upload):
+    kept = routes.solve_of(request, upload)
+    if kept is None:
+        return routes.message(request, 404, "Nothing to publish", "Solve first.", back=f"/files/{upload.token}")
+    back = f"{routes.solve_base(upload, kept)}/timetable"
+    if kept.job.running:
         return routes.message(request, 409, "Still solving", "Publish once the solve has finished.", back=back)
     form = await request.form()
     label = str(form.get("label") or "").strip()
     wanted = str(form.get("slots") or "")
-    runs = [r for r in routes._finished_runs(upload) if r.assignment and str(r.slots) == wanted]
+    runs = [r for r in routes._finished_runs(kept) if r.assignment and str(r.slots) == wanted]
     if not runs:
         return routes.message(request, 400, "Nothing to publish",
                               f"There is no finished timetable for {wanted or 'that number of'} slots.", back=back)
-    problem = upload.state["job_problem"]
-    settings = {"input file": upload.name, **upload.state.get("job_settings", {})}
+    problem = kept.problem
+    settings = {"input file": upload.name, **(kept.settings or {})}
 
     def work() -> Any:
         from ..scheduling import validate
@@ -198,5 +201,5 @@ ROUTES = [
     Route("/stored/changes", changes, methods=["GET"]),
     Route("/stored/changes/{name}", change_download, methods=["GET"]),
     Route("/stored/forget", forget, methods=["POST"]),
-    Route("/files/{token}/publish", publish, methods=["POST"]),
+    Route("/files/{token}/solves/{solve}/publish", publish, methods=["POST"]),
 ]
