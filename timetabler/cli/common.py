@@ -9,6 +9,7 @@ from typing import Any, Callable
 
 import click
 from rich.console import Console
+from rich.text import Text
 
 from ..errors import InputError
 from ..intake import ReadOptions, Reading, read_problem
@@ -17,8 +18,20 @@ EXIT_DONE = 0
 EXIT_BUG = 1
 EXIT_BAD_INPUT = 2
 
-console = Console(stderr=False, highlight=False)
-err_console = Console(stderr=True, highlight=False)
+# Markup and emoji codes are off: file names, event codes and attendee ids reach these
+# consoles as they are ('week[bold].csv', 'MA[/i]1', ':fire:' print as typed). Styling is
+# given with Text objects or ``style=``, never with markup inside a string.
+console = Console(stderr=False, highlight=False, markup=False, emoji=False)
+err_console = Console(stderr=True, highlight=False, markup=False, emoji=False)
+
+
+def styled(*parts: str | tuple[str, str]) -> Text:
+    """A line of plain text and ``(text, style)`` pieces, none of it read as markup.
+
+    >>> styled(("MA[/i]1", "bold"), " moved").plain
+    'MA[/i]1 moved'
+    """
+    return Text.assemble(*parts)
 
 
 def input_options(func: Callable) -> Callable:
@@ -104,7 +117,7 @@ def read_input(path: str, sheet: str | None, attendee_column: str | None, event_
 def _reading_progress(stage: str, done: int, total: int | None) -> None:
     if done and done % 50_000 == 0:
         of = f" of {total:,}" if total else ""
-        err_console.print(f"[dim]{stage}: {done:,}{of} rows[/dim]")
+        err_console.print(f"{stage}: {done:,}{of} rows", style="dim")
 
 
 def print_json(document: Any) -> None:
@@ -115,7 +128,12 @@ def print_json(document: Any) -> None:
 def show_warnings(reading: Reading, as_json: bool) -> None:
     """Warnings from intake go to stderr (so --json stdout stays one document)."""
     for finding in reading.warnings:
-        err_console.print(f"[yellow]warning:[/yellow] {finding}", soft_wrap=True)
+        warn(finding)
+
+
+def warn(finding: Any) -> None:
+    """One warning on stderr: 'warning:' in yellow, then the finding as plain text."""
+    err_console.print(styled(("warning:", "yellow"), f" {finding}"), soft_wrap=True)
 
 
 def run_guarded(cli: click.Group, argv: list[str] | None = None) -> int:
@@ -127,7 +145,7 @@ def run_guarded(cli: click.Group, argv: list[str] | None = None) -> int:
     try:
         cli.main(args=argv, prog_name="timetabler", standalone_mode=False)
     except InputError as exc:
-        err_console.print("[bold red]error:[/bold red] " + str(exc), soft_wrap=True, markup=True)
+        err_console.print(styled(("error:", "bold red"), " " + str(exc)), soft_wrap=True)
         return EXIT_BAD_INPUT
     except click.exceptions.Abort:
         err_console.print("Stopped.")
@@ -141,10 +159,9 @@ def run_guarded(cli: click.Group, argv: list[str] | None = None) -> int:
         err_console.print("Stopped.")
         return 130
     except Exception:  # noqa: BLE001 - the last line of defence
-        err_console.print(
-            "[bold red]internal error[/bold red]: this is a bug in timetabler, not a problem with your file. "
-            "Please report it with the details below.",
-        )
+        err_console.print(styled(
+            ("internal error", "bold red"), ": this is a bug in timetabler, not a problem with your file. "
+            "Please report it with the details below."))
         traceback.print_exc(file=sys.stderr)
         return EXIT_BUG
     return EXIT_DONE

@@ -16,7 +16,7 @@ from ..export.tables import comparison_table, rows_as_json, run_figures, value_t
 from ..model import generic_slots
 from ..scheduling import SolveOptions, fewest_slots, solve, validate
 from .command_clock import CommandClock
-from .common import console, err_console, input_options, print_json, read_input, show_warnings
+from .common import console, err_console, input_options, print_json, read_input, show_warnings, styled
 from ..export.publishing import count_for_runs
 from .output_options import output_options, publish
 from .slot_counts import SlotCountsOption, parse_slot_counts
@@ -147,7 +147,7 @@ def _print_side_by_side(table, counts, fewest, count_note: str | None) -> None:
     for row in table.rows:
         reason = row[index["Reason"]]
         if reason and row[index["Status"]] in ("infeasible", "unknown"):
-            console.print(f"[bold]{row[0]} slots[/bold]: {reason}", soft_wrap=True)
+            console.print(styled((f"{row[0]} slots", "bold"), f": {reason}"), soft_wrap=True)
     if count_note:
         console.print(count_note)
     if fewest is not None and fewest.upper is not None:
@@ -170,7 +170,7 @@ def readable_count(digits: str) -> str:
 @contextlib.contextmanager
 def _step(enabled: bool, text: str):
     if enabled and err_console.is_terminal:
-        with err_console.status(text + " …"):
+        with err_console.status(styled(text + " …")):
             yield
     else:
         yield

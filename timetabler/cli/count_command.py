@@ -9,7 +9,7 @@ from ..conflicts import conflict_graph
 from ..counting.problem_counts import count_problem
 from ..counting.polynomial import ChromaticPolynomial, edgeless_power, poly_mul
 from ..errors import Finding, InputError
-from .common import console, err_console, input_options, print_json, read_input, show_warnings
+from .common import console, err_console, input_options, print_json, read_input, show_warnings, styled
 from .slot_counts import SlotCountsOption, parse_slot_counts
 
 
@@ -90,9 +90,9 @@ def command(file: str, sheet, attendee_column, event_column, slot_counts, time_l
         print_json(doc)
         return
 
-    with err_console.status("Counting clash-free timetables…") as status:
+    with err_console.status(styled("Counting clash-free timetables…")) as status:
         def progress(done: int, total: int, message: str) -> None:
-            status.update(f"Counting clash-free timetables… group {done} of {total} done ({message})")
+            status.update(styled(f"Counting clash-free timetables… group {done} of {total} done ({message})"))
 
         report = work(progress)
     _print_report(file, report, notes)
@@ -131,9 +131,9 @@ def _log_text(log10: float | None) -> str:
 
 def _print_report(file: str, report, notes: list[str]) -> None:
     groups = len(report.components)
-    console.print(f"[bold]{file}[/bold]: {report.events} events, {report.clashes} clashing pairs, "
+    console.print(styled((file, "bold"), f": {report.events} events, {report.clashes} clashing pairs, "
                   f"{groups} {'group' if groups == 1 else 'groups'} of events linked by clashes, "
-                  f"{report.isolated_events} {'event' if report.isolated_events == 1 else 'events'} with no clash")
+                  f"{report.isolated_events} {'event' if report.isolated_events == 1 else 'events'} with no clash"))
     table = Table(title="Clash-free timetables", title_justify="left")
     table.add_column("Slots", justify="right")
     table.add_column("Timetables", justify="right", no_wrap=True)
@@ -160,9 +160,10 @@ def _print_report(file: str, report, notes: list[str]) -> None:
     if report.constrained:
         console.print("Counts keep every fixed event in its slot and no event in a barred slot.")
     for note in notes:
-        console.print(f"[yellow]note:[/yellow] {note}")
+        console.print(styled(("note:", "yellow"), f" {note}"))
     if report.chromatic_number is not None:
-        console.print(f"\nFewest slots: [bold]{report.chromatic_number}[/bold] — {report.fewest_slots_reason}.")
+        console.print(styled("\nFewest slots: ", (str(report.chromatic_number), "bold"),
+                             f" — {report.fewest_slots_reason}."))
     else:
         console.print("\nFewest slots: not known exactly (a group was too large to count within the time limit; "
                       "`timetabler solve` can still find timetables).")

@@ -6,7 +6,7 @@ import click
 from rich.table import Table
 
 from ..conflicts import conflict_graph, summarise
-from .common import console, input_options, print_json, read_input, show_warnings
+from .common import console, input_options, print_json, read_input, show_warnings, styled
 
 
 @click.command("inspect")
@@ -37,7 +37,7 @@ def command(file: str, sheet, attendee_column, event_column, as_json: bool) -> N
         doc["warnings"] = [w.to_dict() for w in reading.warnings]
         print_json(doc)
         return
-    console.print(f"[bold]{file}[/bold]: {reading.describe()}", soft_wrap=True)
+    console.print(styled((file, "bold"), f": {reading.describe()}"), soft_wrap=True)
     table = Table(show_header=False, box=None, pad_edge=False)
     table.add_column(style="bold")
     table.add_column(justify="right")
@@ -59,12 +59,11 @@ def command(file: str, sheet, attendee_column, event_column, as_json: bool) -> N
     if not summary.events:
         console.print("\nNo events yet, so there is nothing to timetable.")
     elif summary.max_clique <= 1:
-        console.print("\nAt least [bold]1[/bold] slot is needed: no two events share an attendee.")
+        console.print(styled("\nAt least ", ("1", "bold"), " slot is needed: no two events share an attendee."))
     else:
-        console.print(
-            f"\nAt least [bold]{summary.max_clique}[/bold] slots are needed: "
-            f"these events pairwise share attendees: {', '.join(summary.clique_events)}."
-        )
+        console.print(styled(
+            "\nAt least ", (str(summary.max_clique), "bold"),
+            f" slots are needed: these events pairwise share attendees: {', '.join(summary.clique_events)}."))
     if summary.busiest_attendees:
         console.print("Busiest attendees: " + ", ".join(f"{a} ({n})" for a, n in summary.busiest_attendees))
 

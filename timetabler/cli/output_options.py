@@ -25,7 +25,7 @@ from typing import Any, Callable, Mapping
 import click
 
 from ..export.publishing import publish as export_publish, wants_output
-from .common import err_console
+from .common import err_console, styled
 
 __all__ = ["OUTPUT_KEYS", "output_options", "publish", "wants_output"]
 
@@ -73,7 +73,7 @@ def publish(outputs: Mapping[str, Any] | None, *, quiet: bool = False, **results
     written = export_publish(
         outputs,
         quiet=quiet,
-        notify=lambda text: err_console.print(text, soft_wrap=True, markup=False),
+        notify=lambda text: err_console.print(text, soft_wrap=True),
         status=functools.partial(_status, False),
         **results,
     )
@@ -88,8 +88,8 @@ def _status(quiet: bool, text: str):
     if quiet or not err_console.is_terminal:
         yield lambda message: None
         return
-    with err_console.status(text + " …") as status:
-        yield lambda message: status.update(message + " …")
+    with err_console.status(styled(text + " …")) as status:
+        yield lambda message: status.update(styled(message + " …"))
 
 
 def _tell(written: list[Path]) -> None:

@@ -9,7 +9,7 @@ import webbrowser
 
 import click
 
-from .common import err_console
+from .common import err_console, styled
 from .store_options import open_store, store_options
 
 
@@ -66,10 +66,9 @@ def command(port: int, open_browser: bool, host: str, max_upload_mb: int, count_
     from ..web.app import WebSettings, create_app
 
     if not _is_loopback(host):
-        err_console.print(
-            f"[bold yellow]careful:[/bold yellow] listening on {host} lets other computers on the network reach the page, "
-            "which has no login. Enrolments are personal data; prefer the default address 127.0.0.1."
-        )
+        err_console.print(styled(
+            ("careful:", "bold yellow"), f" listening on {host} lets other computers on the network reach the page, "
+            "which has no login. Enrolments are personal data; prefer the default address 127.0.0.1."))
     if port and not _port_free(host, port):
         raise click.UsageError(
             f"Port {port} is already in use on {host} — perhaps the page is already running. "
@@ -95,8 +94,8 @@ def command(port: int, open_browser: bool, host: str, max_upload_mb: int, count_
                 bound = sock.getsockname()[1]
         shown = f"[{host}]" if ":" in host else host
         url = f"http://{shown}:{bound}/"
-        err_console.print(f"timetabler page ready at [bold]{url}[/bold]  (Ctrl+C stops it and deletes the uploads)",
-                          soft_wrap=True)
+        err_console.print(styled("timetabler page ready at ", (url, "bold"),
+                                 "  (Ctrl+C stops it and deletes the uploads)"), soft_wrap=True)
         if open_browser:
             webbrowser.open(url)
 

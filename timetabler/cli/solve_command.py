@@ -10,13 +10,14 @@ from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 from rich.table import Table
 
 from ..conflicts import conflict_graph
+from ..export.tables import slot_words
 from ..errors import Finding, InputError
 from ..intake.previous_timetable import resolve_previous
 from ..intake.vocabulary import GOAL_WORDS, key
 from ..model import Weights, generic_slots
 from ..scheduling import SolveOptions, fewest_slots, solve, validate
 from .command_clock import CommandClock
-from .common import console, err_console, input_options, print_json, read_input, show_warnings
+from .common import console, err_console, input_options, print_json, read_input, show_warnings, styled, warn
 from .output_options import output_options, publish
 from .slot_counts import SlotCountsOption, parse_slot_counts
 from .store_options import check_publish_request, earlier_timetable, open_store, record_solve, store_options
@@ -74,8 +75,11 @@ def _parse_weights(ctx, param, values):
 @click.option("--split-rooms", is_flag=True, help="Let a large event spread over several rooms (each extra room is penalised).")
 @click.option("--keep", "keep", metavar="PREVIOUS", type=click.Path(dir_okay=False),
               help="Repair an earlier timetable (a workbook from --out, a CSV with Event and Slot columns, or the label "
-                   "of a published timetable; an existing file is read as a file): move as few events as possible and "
-                   "list every move.")
+                   "of a published timetable; an existing file is read as a file). What is minimised is the total "
+                   "penalty, each event moved counting as the weight 'moved' (20): an event moves when a change "
+                   "forces it, or when moving it saves more than 20 of the other goals. For the fewest moves whatever "
+                   "the rest costs, give --weight moved=N with N above the rest of the penalty (e.g. 1000). Every "
+                   "move and every event placed afresh is listed.")
 @click.option("--publish", "publish_label", metavar="LABEL",
               help="Record the timetable in the store as published under LABEL (one --slots K, or --fewest). "
                    "Refused, with nothing recorded, unless it is clash-free and passes the validator, or when LABEL "
@@ -193,9 +197,9 @@ def command(file, sheet, attendee_column, event_column, slot_counts, fewest, ses
 
 def _resolve_previous(problem, refs, slots) -> dict[str, int]:
     """The earlier timetable for these slots; events whose earlier slot is gone are warned about."""
-    resolved = resolve_previous(problem, refs, slots)  # events dropped since are simply not kept
-    for finding in resolved.unplaced[:10]:
-        err_console.print(f"[yellow]warning:[/yellow] {finding}", soft_wrap=True)
+    resolved = resolve_previous(problem, refs, slots)  # events dropped since are left out and named
+    for finding in (resolved.dropped + resolved.unplaced)[:20]:
+        warn(finding)
     return resolved.slots
 
 
@@ -209,8 +213,9 @@ class _progress_display:
 
     def __enter__(self):
         if self.enabled:
-            self.progress = Progress(TextColumn("{task.description}"), BarColumn(), TimeElapsedColumn(),
-                                     TextColumn("{task.fields[state]}"), console=err_console, transient=True)
+            self.progress = Progress(TextColumn("{task.description}", markup=False), BarColumn(), TimeElapsedColumn(),
+                                     TextColumn("{task.fields[state]}", markup=False), console=err_console,
+                                     transient=True)
             self.progress.__enter__()
         return self
 
@@ -246,13 +251,13 @@ def _print_runs(problem, runs, fewest_result) -> None:
     if fewest_result is not None:
         f = fewest_result
         if f.upper is None:
-            console.print(f"Fewest slots: at least [bold]{f.lower}[/bold] ({f.lower_reason}); "
-                          "no timetable was found within the time limit.")
+            console.print(styled("Fewest slots: at least ", (str(f.lower), "bold"),
+                                 f" ({f.lower_reason}); no timetable was found within the time limit."))
         elif f.proven:
-            console.print(f"Fewest slots: [bold]{f.upper}[/bold], proven ({f.lower_reason}).")
+            console.print(styled("Fewest slots: ", (str(f.upper), "bold"), f", proven ({f.lower_reason})."))
         else:
-            console.print(f"Fewest slots: between [bold]{f.lower}[/bold] ({f.lower_reason}) and "
-                          f"[bold]{f.upper}[/bold] (a timetable was found); not proven within the time limit.")
+            console.print(styled("Fewest slots: between ", (str(f.lower), "bold"), f" ({f.lower_reason}) and ",
+                                 (str(f.upper), "bold"), " (a timetable was found); not proven within the time limit."))
     table = Table(title="Timetables", title_justify="left")
     for name, right in (("Slots", True), ("Result", False), ("Penalty", True), ("Lower bound", True),
                         ("Back to back", True), ("Moved", True), ("Check", False), ("Seconds", True)):
@@ -274,17 +279,23 @@ def _print_runs(problem, runs, fewest_result) -> None:
             parts = ", ".join(f"{name.replace('_', ' ')} {value}" for name, value in r.penalty_breakdown.items() if value)
             console.print(f"{r.slots} slots — penalty by goal: {parts}", soft_wrap=True)
         if r.status in ("infeasible", "unknown") and r.reason:
-            console.print(f"[bold]{r.slots} slots[/bold] — {r.status}:")
+            console.print(styled((f"{r.slots} slots", "bold"), f" — {r.status}:"))
             for reason in r.reasons[:8] or [r.reason]:
                 console.print(f"  • {reason}", soft_wrap=True)
         if r.validation is not None and not r.validation.ok:
-            console.print(f"[bold red]{r.slots} slots: the validator found problems[/bold red] (this is a bug):")
+            console.print(styled((f"{r.slots} slots: the validator found problems", "bold red"), " (this is a bug):"))
             for text in r.validation.violations[:10]:
                 console.print(f"  • {text}", soft_wrap=True)
         if r.moves:
-            console.print(f"[bold]{r.slots} slots[/bold] — {len(r.moves)} event(s) moved from the earlier timetable:")
+            console.print(styled((f"{r.slots} slots", "bold"), f" — {len(r.moves)} event(s) moved from the earlier timetable:"))
             for mv in r.moves[:50]:
-                console.print(f"  • {mv['event']}: slot {mv['from']} → slot {mv['to']}")
+                console.print(f"  • {mv['event']}: {slot_words(r.slot_list, mv['from'])} → "
+                              f"{slot_words(r.slot_list, mv['to'])}", soft_wrap=True)
+        if r.placed:
+            console.print(styled((f"{r.slots} slots", "bold"),
+                                 f" — {len(r.placed)} event(s) placed afresh (no slot in the earlier timetable):"))
+            for new in r.placed[:50]:
+                console.print(f"  • {new['event']}: {slot_words(r.slot_list, new['to'])}", soft_wrap=True)
 
 
 def _num(value) -> str:

@@ -368,24 +368,52 @@ def rooms_table(problem: Problem, run: Any) -> PublishedTable | None:
     return table
 
 
+def slot_words(slots: Sequence[Slot], number: int | None) -> str:
+    """A slot as a reader names it: its label, with its date and start when it has them.
+
+    >>> from timetabler.model import Slot, generic_slots
+    >>> slot_words(generic_slots(3), 2)
+    'Slot 2'
+    >>> slot_words([Slot("Mon AM", dt.date(2027, 1, 11), dt.time(9, 30))], 1)
+    'Mon AM (Mon 11 Jan 2027 09:30, slot 1)'
+    """
+    if not isinstance(number, int) or not 1 <= number <= len(slots):
+        return "no slot" if number is None else f"slot {number}"
+    slot = slots[number - 1]
+    when = " ".join(part for part in (slot.date.strftime("%a %d %b %Y") if slot.date else "",
+                                      slot.start.strftime("%H:%M") if slot.start else "") if part)
+    return f"{slot.label} ({when}, slot {number})" if when else slot.label
+
+
 def moves_table(problem: Problem, run: Any) -> PublishedTable | None:
-    """Events moved from an earlier timetable (repair mode), with the attendees each move affects."""
+    """Repair mode: every event moved from the earlier timetable, and every event placed afresh
+    (not in the earlier timetable, or its slot is gone), with the old and new slot of each and
+    the attendees each change affects."""
     moves = getattr(run, "moves", None) or []
-    if not moves:
+    placed = getattr(run, "placed", None) or []
+    if not moves and not placed:
         return None
     slots = _run_slots(run)
     sizes = problem.event_sizes()
     table = PublishedTable(
         "Moves",
-        [Column("Event"), Column("From slot", INT), Column("To slot", INT), Column("New slot label"), Column("New date", DATE),
+        [Column("Event"), Column("Change"), Column("From slot", INT), Column("Old slot label"), Column("Old date", DATE),
+         Column("Old start", TIME), Column("To slot", INT), Column("New slot label"), Column("New date", DATE),
          Column("New start", TIME), Column("Attendees affected", INT)],
-        title="Events moved from the earlier timetable",
+        title="Events moved from the earlier timetable, and events placed afresh",
     )
+
+    def at(number: Any) -> list[Any]:
+        slot = slots[number - 1] if isinstance(number, int) and 1 <= number <= len(slots) else None
+        return [number, slot.label if slot else "", slot.date if slot else None, slot.start if slot else None]
+
     for move in moves:
-        code, to = move.get("event"), move.get("to")
-        slot = slots[to - 1] if isinstance(to, int) and 1 <= to <= len(slots) else None
-        table.rows.append([code, move.get("from"), to, slot.label if slot else "", slot.date if slot else None,
-                           slot.start if slot else None, sizes.get(code, 0)])
+        code = move.get("event")
+        table.rows.append([code, "moved", *at(move.get("from")), *at(move.get("to")), sizes.get(code, 0)])
+    for new in placed:
+        code = new.get("event")
+        table.rows.append([code, "placed afresh (no earlier slot)", None, "", None, None, *at(new.get("to")),
+                           sizes.get(code, 0)])
     return table
 
 

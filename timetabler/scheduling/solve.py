@@ -106,6 +106,7 @@ class SolveRun:
     penalty_breakdown: dict[str, int] = field(default_factory=dict)
     wall_seconds: float = 0.0
     moves: list[dict] = field(default_factory=list)
+    placed: list[dict] = field(default_factory=list)  # repair: events with no earlier slot, and where they went
     first_feasible_seconds: float | None = None
     validation: object | None = None  # a validator.Validation, filled by callers that check
 
@@ -134,6 +135,7 @@ class SolveRun:
             "moves": list(self.moves),
             "first_feasible_seconds": (None if self.first_feasible_seconds is None
                                        else round(self.first_feasible_seconds, 3)),
+            "placed": list(self.placed),
             "wall_seconds": round(self.wall_seconds, 3),
         }
         if self.validation is not None:
@@ -304,6 +306,7 @@ def solve(
         return run
 
     large = large_event_codes(sizes)
+    repairing = previous is not None
     previous = {c: s for c, s in (previous or {}).items() if c in problem.events}
     blocks = _blocks(problem, graph, slots, options)
     results: list[SolveRun] = []
@@ -320,6 +323,8 @@ def solve(
     if run.status in ("optimal", "feasible"):
         run.moves = [{"event": c, "from": previous[c], "to": s} for c, s in sorted(run.assignment.items())
                      if c in previous and previous[c] != s]
+        if repairing:
+            run.placed = [{"event": c, "to": s} for c, s in sorted(run.assignment.items()) if c not in previous]
     run.wall_seconds = time.perf_counter() - start
     say("done")
     return run
