@@ -13,7 +13,7 @@ import sys
 
 import click
 
-from .common import run_guarded
+from .common import PipeAwareGroup, run_guarded, stop_on_sigterm
 
 COMMAND_MODULES = [
     "inspect_command",
@@ -29,6 +29,7 @@ COMMAND_MODULES = [
 
 
 @click.group(
+    cls=PipeAwareGroup,
     context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100},
     invoke_without_command=True,
 )
@@ -63,4 +64,5 @@ for _name in COMMAND_MODULES:
 
 def main(argv: list[str] | None = None) -> None:
     """Entry point of the ``timetabler`` script."""
+    stop_on_sigterm()
     sys.exit(run_guarded(cli, argv))

@@ -3,16 +3,20 @@
 from __future__ import annotations
 
 import json
+import os
+import signal
 import sys
 import traceback
+from pathlib import Path
 from typing import Any, Callable
 
 import click
 from rich.console import Console
 from rich.text import Text
 
-from ..errors import InputError
+from ..errors import Finding, InputError
 from ..intake import ReadOptions, Reading, read_problem
+from ..model import Location
 
 EXIT_DONE = 0
 EXIT_BUG = 1
@@ -21,8 +25,22 @@ EXIT_BAD_INPUT = 2
 # Markup and emoji codes are off: file names, event codes and attendee ids reach these
 # consoles as they are ('week[bold].csv', 'MA[/i]1', ':fire:' print as typed). Styling is
 # given with Text objects or ``style=``, never with markup inside a string.
-console = Console(stderr=False, highlight=False, markup=False, emoji=False)
-err_console = Console(stderr=True, highlight=False, markup=False, emoji=False)
+class StdoutClosed(Exception):
+    """stdout's reader went away. Raised instead of BrokenPipeError, which click would turn
+    into a bare exit status 1 (see :class:`PipeAwareGroup`)."""
+
+
+class _Console(Console):
+    """rich's Console, except that a closed pipe is reported to :func:`run_guarded` (rich's own
+    handling exits with status 1, which would read as a bug)."""
+
+    def on_broken_pipe(self) -> None:
+        self.quiet = True
+        raise StdoutClosed()
+
+
+console = _Console(stderr=False, highlight=False, markup=False, emoji=False)
+err_console = _Console(stderr=True, highlight=False, markup=False, emoji=False)
 
 
 def styled(*parts: str | tuple[str, str]) -> Text:
@@ -120,6 +138,18 @@ def _reading_progress(stage: str, done: int, total: int | None) -> None:
         err_console.print(f"{stage}: {done:,}{of} rows", style="dim")
 
 
+def require_enrolments(reading: Reading) -> None:
+    """Solving needs enrolments: a file with headers and no rows is bad input (exit 2), located
+    at its header row, not an empty timetable reported as optimal."""
+    if reading.problem.enrolments:
+        return
+    file = getattr(reading.problem, "source", None) or "the input file"
+    raise InputError(Finding(
+        "No enrolments were found below the header row, so there is nothing to timetable.",
+        where=Location(str(file), reading.sheet, reading.header_row),
+        expected="one row per attendee and event under the headers"))
+
+
 def print_json(document: Any) -> None:
     """Print exactly one JSON document on stdout. Big integers must already be strings."""
     click.echo(json.dumps(document, indent=2, ensure_ascii=False, default=str))
@@ -136,28 +166,85 @@ def warn(finding: Any) -> None:
     err_console.print(styled(("warning:", "yellow"), f" {finding}"), soft_wrap=True)
 
 
+#: Files this command has finished writing, in order (filled as each one is complete), so
+#: that an interruption or a failed later output can say what is on disk.
+written_files: list[Path] = []
+
+EXIT_INTERRUPTED = 130  # 128 + SIGINT, as shells report Ctrl-C
+
+
+def stop_on_sigterm() -> None:
+    """Turn SIGTERM (``kill``, a closing terminal session, a job scheduler) into the same clean
+    stop as Ctrl-C: half-written files and temporary sheet files are removed on the way out."""
+    def handler(signum, frame):  # noqa: ARG001 - the signal module's signature
+        raise KeyboardInterrupt
+
+    try:
+        signal.signal(signal.SIGTERM, handler)
+    except (ValueError, OSError):  # not the main thread, or no such signal here
+        pass
+
+
+def _interrupted() -> int:
+    if written_files:
+        names = ", ".join(str(p) for p in written_files[:10])
+        more = f" and {len(written_files) - 10} more" if len(written_files) > 10 else ""
+        err_console.print(f"Interrupted: wrote {names}{more}; nothing else was written.", soft_wrap=True)
+    else:
+        err_console.print("Interrupted: nothing was written.", soft_wrap=True)
+    return EXIT_INTERRUPTED
+
+
+def _stdout_closed() -> int:
+    """The reader of stdout went away (``timetabler inspect FILE | head -1``): not a bug. Exit
+    quietly with 141 (128 + SIGPIPE, what a shell reports for a program stopped by a closed
+    pipe), pointing stdout at /dev/null so that Python's final flush does not complain."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError, AttributeError):
+        pass
+    return EXIT_PIPE_CLOSED
+
+
+EXIT_PIPE_CLOSED = 141
+
+
+class PipeAwareGroup(click.Group):
+    """The command group: a closed stdout pipe becomes :class:`StdoutClosed` for run_guarded."""
+
+    def invoke(self, ctx: click.Context) -> Any:
+        try:
+            result = super().invoke(ctx)
+            sys.stdout.flush()  # a pipe closed after the last print is found here, not at exit
+            return result
+        except BrokenPipeError as exc:
+            raise StdoutClosed() from exc
+
+
 def run_guarded(cli: click.Group, argv: list[str] | None = None) -> int:
     """Run the click group and map outcomes to exit statuses.
 
     Bad input (InputError) and bad arguments (click usage errors) exit 2 with a message and
-    no traceback; anything else is a bug: exit 1 with a message that says so.
+    no traceback; Ctrl-C (and SIGTERM, see :func:`stop_on_sigterm`) exits 130 saying what was
+    written; a closed stdout pipe exits 141 quietly; anything else is a bug: exit 1 with a
+    message that says so.
     """
+    written_files.clear()
     try:
         cli.main(args=argv, prog_name="timetabler", standalone_mode=False)
     except InputError as exc:
         err_console.print(styled(("error:", "bold red"), " " + str(exc)), soft_wrap=True)
         return EXIT_BAD_INPUT
-    except click.exceptions.Abort:
-        err_console.print("Stopped.")
-        return 130
+    except (click.exceptions.Abort, KeyboardInterrupt):
+        return _interrupted()
+    except (StdoutClosed, BrokenPipeError):
+        return _stdout_closed()
     except click.ClickException as exc:
         exc.show()
         return EXIT_BAD_INPUT
     except click.exceptions.Exit as exc:
         return exc.exit_code
-    except KeyboardInterrupt:
-        err_console.print("Stopped.")
-        return 130
     except Exception:  # noqa: BLE001 - the last line of defence
         err_console.print(styled(
             ("internal error", "bold red"), ": this is a bug in timetabler, not a problem with your file. "

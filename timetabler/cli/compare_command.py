@@ -16,9 +16,10 @@ from ..export.tables import comparison_table, rows_as_json, run_figures, value_t
 from ..model import generic_slots
 from ..scheduling import SolveOptions, fewest_slots, solve, validate
 from .command_clock import CommandClock
-from .common import console, err_console, input_options, print_json, read_input, show_warnings, styled
+from .common import (console, err_console, input_options, print_json, read_input, require_enrolments, show_warnings,
+                     styled)
 from ..export.publishing import count_for_runs
-from .output_options import output_options, publish
+from .output_options import check_outputs, output_options, try_publish
 from .slot_counts import SlotCountsOption, parse_slot_counts
 
 
@@ -62,6 +63,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, sessions_pe
     """
     started = time.perf_counter()
     reading = read_input(file, sheet, attendee_column, event_column)
+    require_enrolments(reading)
     show_warnings(reading, as_json)
     problem = reading.problem
     ks = sorted(slot_counts)
@@ -69,6 +71,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, sessions_pe
         raise InputError(Finding(
             f"--slots asks for {max(ks)} slots but the slots sheet lists only {len(problem.slots)}.",
             suggestion="Add slots to the slots sheet, or ask for fewer."))
+    check_outputs(outputs, problem=problem, slots=problem.slots[:max(ks)] if problem.slots else [])
 
     def slots_for(k: int):
         return list(problem.slots[:k]) if problem.slots else generic_slots(k, sessions_per_day)
@@ -94,8 +97,8 @@ def command(file, sheet, attendee_column, event_column, slot_counts, sessions_pe
     settings = {"compared slot counts": ks, "time limit (s)": time_limit, "count time (s)": count_time,
                 "workers": workers, "seed": seed, "repeatable": repeatable, "sessions per day": None if problem.slots else sessions_per_day,
                 "share rooms": share_rooms, "split rooms": split_rooms}
-    written = publish(outputs, problem=problem, runs=runs, counts=counts, reading=reading, settings=settings,
-                      validations=validations, fewest=fewest, quiet=as_json)
+    written, write_error = try_publish(outputs, problem=problem, runs=runs, counts=counts, reading=reading,
+                                   settings=settings, validations=validations, fewest=fewest, quiet=as_json)
     figures = {r.slots: run_figures(problem, r) for r in runs}
     table = comparison_table(problem, runs, counts, validations, figures, fewest)
     if as_json:
@@ -106,8 +109,10 @@ def command(file, sheet, attendee_column, event_column, slot_counts, sessions_pe
             doc["counts_note"] = count_note
         doc["written"] = [str(p) for p in written]
         print_json(doc)
-        return
-    _print_side_by_side(table, counts, fewest, count_note)
+    else:
+        _print_side_by_side(table, counts, fewest, count_note)
+    if write_error is not None:  # the results are shown above; the failed output is bad input (exit 2)
+        raise write_error
 
 
 SHOWN = [

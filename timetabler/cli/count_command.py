@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from decimal import Decimal
+
 import click
 from rich.table import Table
 
@@ -111,13 +113,18 @@ def whole_polynomial(report, graph) -> ChromaticPolynomial | None:
 
 
 def readable_count(value: int | None, digits: bool = False) -> str:
-    """Up to 12 digits in full; beyond, ``6.439 × 10^16`` (the full number is in --json)."""
+    """Up to 12 digits in full; beyond, four significant digits, rounded (the full number is in --json).
+
+    >>> readable_count(1260), readable_count(3 ** 30), readable_count(10 ** 13 - 1, digits=True)
+    ('1,260', '2.059 × 10^14', '1.000 × 10^13 (13 digits)')
+    """
     if value is None:
         return "?"
     text = str(value)
     if len(text) <= 12:
         return f"{value:,}"
-    short = f"{text[0]}.{text[1:4]} × 10^{len(text) - 1}"
+    mantissa, exponent = f"{Decimal(value):.3e}".split("e")  # rounds half to even, like the Decimal context
+    short = f"{mantissa} × 10^{int(exponent)}"
     return short + (f" ({len(text)} digits)" if digits else "")
 
 

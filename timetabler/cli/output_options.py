@@ -24,10 +24,11 @@ from typing import Any, Callable, Mapping
 
 import click
 
-from ..export.publishing import publish as export_publish, wants_output
+from ..errors import InputError
+from ..export.publishing import check_outputs as export_check_outputs, publish as export_publish, wants_output
 from .common import err_console, styled
 
-__all__ = ["OUTPUT_KEYS", "output_options", "publish", "wants_output"]
+__all__ = ["OUTPUT_KEYS", "check_outputs", "output_options", "publish", "try_publish", "wants_output"]
 
 OUTPUT_KEYS = ("out", "csv", "ics", "ics_time_zone", "plot", "pseudonyms", "pseudonym_key")
 
@@ -67,19 +68,48 @@ def output_options(func: Callable) -> Callable:
     return wrapper
 
 
+def check_outputs(outputs: Mapping[str, Any] | None, *, problem: Any, slots: Any = None, keep: Any = None) -> None:
+    """Check every output option before the solving starts (see
+    :func:`timetabler.export.publishing.check_outputs`): a bad name, folder or time zone is
+    bad input found at once, not after minutes of work."""
+    export_check_outputs(outputs, inputs=[getattr(problem, "source", None), keep], slots=slots)
+
+
 def publish(outputs: Mapping[str, Any] | None, *, quiet: bool = False, **results: Any) -> list[Path]:
     """Write the outputs asked for (see :func:`timetabler.export.publishing.publish`), with
-    messages and a spinner on stderr, and say what was written."""
-    written = export_publish(
-        outputs,
-        quiet=quiet,
-        notify=lambda text: err_console.print(text, soft_wrap=True),
-        status=functools.partial(_status, False),
-        **results,
-    )
-    if not quiet:
-        _tell(written)
+    messages and a spinner on stderr, and say what was written. Raises InputError when an
+    output cannot be written (after saying what was)."""
+    written, error = try_publish(outputs, quiet=quiet, **results)
+    if error is not None:
+        raise error
     return written
+
+
+def try_publish(outputs: Mapping[str, Any] | None, *, quiet: bool = False,
+                **results: Any) -> tuple[list[Path], InputError | None]:
+    """:func:`publish`, returning the paths written and the error when writing failed part way
+    instead of raising it: the command then shows its results first and raises the error
+    afterwards (exit status 2), so a finished solve is never lost to a full disk or a
+    read-only folder."""
+    from .common import written_files
+
+    error = None
+    start = len(written_files)
+    try:
+        export_publish(
+            outputs,
+            quiet=quiet,
+            notify=lambda text: err_console.print(text, soft_wrap=True),
+            status=functools.partial(_status, False),
+            written=written_files,
+            **results,
+        )
+    except InputError as exc:
+        error = exc
+    written = written_files[start:]
+    if not quiet:  # what was written before a failure is said too
+        _tell(written)
+    return written, error
 
 
 @contextlib.contextmanager

@@ -17,8 +17,9 @@ from ..intake.vocabulary import GOAL_WORDS, key
 from ..model import Weights, generic_slots
 from ..scheduling import SolveOptions, fewest_slots, solve, validate
 from .command_clock import CommandClock
-from .common import console, err_console, input_options, print_json, read_input, show_warnings, styled, warn
-from .output_options import output_options, publish
+from .common import (console, err_console, input_options, print_json, read_input, require_enrolments, show_warnings,
+                     styled, warn)
+from .output_options import check_outputs, output_options, try_publish
 from .slot_counts import SlotCountsOption, parse_slot_counts
 from .store_options import check_publish_request, earlier_timetable, open_store, record_solve, store_options
 
@@ -123,6 +124,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, fewest, ses
     """
     started = time.perf_counter()
     reading = read_input(file, sheet, attendee_column, event_column)
+    require_enrolments(reading)
     show_warnings(reading, as_json)
     problem = reading.problem
     if weights:
@@ -136,6 +138,8 @@ def command(file, sheet, attendee_column, event_column, slot_counts, fewest, ses
         raise InputError(Finding(
             f"--slots asks for {max(slot_counts)} slots but the slots sheet lists only {len(problem.slots)}.",
             suggestion="Add slots to the slots sheet, or ask for fewer."))
+    check_outputs(outputs, problem=problem, keep=keep,
+                  slots=problem.slots[:max(slot_counts or [len(problem.slots)])] if problem.slots else [])
     options = SolveOptions(time_limit=time_limit, workers=workers, seed=seed, deterministic=repeatable,
                            room_sharing=share_rooms, room_splitting=split_rooms)
     stores: list = []
@@ -180,9 +184,9 @@ def command(file, sheet, attendee_column, event_column, slot_counts, fewest, ses
                 "sessions per day": None if problem.slots else sessions_per_day,
                 "weights": dataclasses.asdict(problem.weights), "share rooms": share_rooms,
                 "split rooms": split_rooms, "kept from": keep}
-    written = publish(outputs, problem=problem, runs=runs, reading=reading, settings=settings,
-                      validations={r.slots: r.validation for r in runs if r.validation is not None},
-                      fewest=fewest_result, quiet=as_json)
+    written, write_error = try_publish(outputs, problem=problem, runs=runs, reading=reading, settings=settings,
+                                   validations={r.slots: r.validation for r in runs if r.validation is not None},
+                                   fewest=fewest_result, quiet=as_json)
     if not no_record:
         record_solve(store(), problem, runs, settings, publish_label=publish_label, kept_from=kept_from, quiet=as_json)
     if as_json:
@@ -191,8 +195,10 @@ def command(file, sheet, attendee_column, event_column, slot_counts, fewest, ses
             doc["fewest"] = {k: v for k, v in fewest_result.to_json().items() if k != "timetable"}
         doc["written"] = [str(p) for p in written]
         print_json(doc)
-        return
-    _print_runs(problem, runs, fewest_result)
+    else:
+        _print_runs(problem, runs, fewest_result)
+    if write_error is not None:  # the results are shown above; the failed output is bad input (exit 2)
+        raise write_error
 
 
 def _resolve_previous(problem, refs, slots) -> dict[str, int]:

@@ -288,7 +288,7 @@ def count_timetables(
                     lower=value,
                     upper=value,
                     ratio_to_previous=(_ratio(value, prev) if prev else None),
-                    groupings=_groupings(results, isolated, k) if unconstrained_polys else None,
+                    groupings=_groupings(results, isolated, k, deadline) if unconstrained_polys else None,
                 )
             )
         else:
@@ -415,22 +415,28 @@ def _ratio(value: int, prev: int) -> float:
     return 10 ** (_log10_int(value) - _log10_int(prev))
 
 
-def _groupings(results: list[ComponentCount], isolated: list, k: int) -> int:
+def _groupings(results: list[ComponentCount], isolated: list, k: int, deadline: float | None = None) -> int | None:
     """Ways to split all events into at most ``k`` non-empty clash-free groups.
 
-    From the values ``P(0) … P(k)`` of the whole graph by Newton's forward differences:
+    From the values ``P(0) … P(m)`` of the whole graph by Newton's forward differences:
     ``a_j = Δ^j P(0) / j!`` are the falling-factorial coefficients (groupings into exactly
-    ``j`` groups), summed for ``j ≤ k``.
+    ``j`` groups), summed for ``j ≤ m`` with ``m = min(k, n)``: n events make at most n
+    non-empty groups, so ``a_j = 0`` for ``j > n`` and a huge ``k`` costs no more than
+    ``k = n``. None when the ``deadline`` (a ``time.monotonic()`` value) passes first.
     """
+    n = len(isolated) + sum(len(r.events) for r in results)
+    m = min(k, n)
     samples = []
-    for i in range(k + 1):
+    for i in range(m + 1):
         value = i ** len(isolated)
         for r in results:
             value *= r.polynomial(i)  # type: ignore[union-attr]
         samples.append(value)
     total = 0
     diffs = samples
-    for j in range(k + 1):
+    for j in range(m + 1):
+        if deadline is not None and time.monotonic() > deadline:
+            return None
         total += diffs[0] // math.factorial(j)
         diffs = [diffs[i + 1] - diffs[i] for i in range(len(diffs) - 1)]
     return total

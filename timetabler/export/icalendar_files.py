@@ -82,20 +82,23 @@ def _entry(problem: Problem, run: Any, code: str, tz: ZoneInfo | None, stamp: dt
 
 
 def check_dated(run: Any) -> None:
-    missing = [s.label for s in run.slot_list if s.date is None]
-    if missing:
+    check_dated_slots(run.slot_list)
+
+
+def check_dated_slots(slots: Any) -> None:
+    """iCalendar files need a date for every slot (none at all: K generic slots)."""
+    slots = list(slots)
+    missing = [s.label for s in slots if s.date is None]
+    if missing or not slots:
         raise InputError(
             Finding(
-                f"iCalendar files need a date for every slot; {len(missing)} of the {len(run.slot_list)} slots have none "
-                f"(for example '{missing[0]}').",
+                f"iCalendar files need a date for every slot; {len(missing)} of the {len(slots)} slots have none "
+                f"(for example '{missing[0]}')." if missing else
+                "iCalendar files need a date for every slot, and the file has no slots sheet (numbered slots "
+                "have no dates).",
                 suggestion="Give a slots sheet with a date (and start time and length) for each slot.",
             )
         )
-
-
-def safe_file_stem(text: str) -> str:
-    stem = re.sub(r"[^A-Za-z0-9._-]+", "_", text).strip("._") or "attendee"
-    return stem[:80]
 
 
 def time_zone(name: str | None) -> ZoneInfo | None:
@@ -104,8 +107,14 @@ def time_zone(name: str | None) -> ZoneInfo | None:
         return None
     try:
         return ZoneInfo(name)
-    except (ZoneInfoNotFoundError, ValueError) as exc:
-        raise InputError(Finding(f"Unknown time zone {name!r}.", expected="an IANA name such as Europe/London")) from exc
+    except (ZoneInfoNotFoundError, ValueError, OSError) as exc:
+        raise InputError(Finding(f"Unknown time zone {name!r} (--ics-time-zone).",
+                                 expected="an IANA name such as Europe/London")) from exc
+
+
+def safe_file_stem(text: str) -> str:
+    stem = re.sub(r"[^A-Za-z0-9._-]+", "_", text).strip("._") or "attendee"
+    return stem[:80]
 
 
 def write_calendars(folder: str | Path, *, problem: Problem, run: Any, show: Callable[[str], str] = str,

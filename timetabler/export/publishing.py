@@ -37,6 +37,7 @@ def publish(
     quiet: bool = False,
     notify: Callable[[str], None] | None = None,
     status: Callable[[str], Any] | None = None,
+    written: list[Path] | None = None,
 ) -> list[Path]:
     """Write every output asked for in ``outputs``; return the paths written.
 
@@ -48,6 +49,8 @@ def publish(
     messages for the person (a created key, an output that could not be made) and
     ``status(text)`` is a context manager factory yielding a ``show(text)`` function for
     long writes; both are optional (the web page passes neither). ``quiet`` silences both.
+    ``written``, when given, receives each path as soon as it is complete (so a caller knows
+    what was written when a later output fails or the run is interrupted).
     """
     notify = (lambda text: None) if (quiet or notify is None) else notify
     status = _no_status if (quiet or status is None) else status
@@ -83,7 +86,7 @@ def publish(
             notify(f"Created the pseudonym key {key_file}; keep it private and keep it to get the same pseudonyms next time.")
         problem, runs, reading = pseudonymise(problem, runs, Pseudonyms(key), reading)
         settings["attendees shown as"] = "pseudonyms"
-    written: list[Path] = []
+    written = [] if written is None else written
     if outputs.get("out"):
         kept = [settings[k] for k in ("kept from",) if settings.get(k)]
         with status(f"Writing {outputs['out']}") as show:
@@ -110,6 +113,55 @@ def publish(
 
         written.append(write_count_chart(outputs["plot"], counts, inputs=(problem.source,)))
     return written
+
+
+def check_outputs(outputs: Mapping[str, Any] | None, *, inputs: Sequence[Any] = (), slots: Sequence[Any] | None = None) -> None:
+    """Check every output asked for before any work is done: each file's extension, that no
+    output is an input file, that each folder can be written (or created), the time zone,
+    that iCalendar files have dated ``slots`` (None: not known yet) and the pseudonym key.
+
+    Raises :class:`InputError` naming the option and the place.
+    """
+    from .icalendar_files import check_dated_slots, time_zone
+    from .safe_write import check_target, check_writable_folder
+
+    outputs = dict(outputs or {})
+    inputs = [i for i in inputs if i]
+    for key, option, suffix in (("out", "--out", ".xlsx"), ("plot", "--plot", ".png")):
+        if outputs.get(key):
+            target = Path(outputs[key]).expanduser()
+            check_target(target, inputs=inputs, suffixes=(suffix,))
+            check_writable_folder(target.parent, f"{target.name} ({option})")
+    for key, option in (("csv", "--csv"), ("ics", "--ics")):
+        if outputs.get(key):
+            folder = Path(outputs[key]).expanduser()
+            for source in inputs:
+                if Path(source).expanduser().resolve() == folder.resolve():
+                    raise InputError(Finding(f"The output folder {folder} ({option}) is an input file.",
+                                             suggestion="Give a folder name for the output files."))
+            if folder.exists() and not folder.is_dir():
+                raise InputError(Finding(f"{folder} ({option}) is a file, not a folder.",
+                                         suggestion="Give a folder name for the output files."))
+            check_writable_folder(folder, f"the files of {option}")
+    if outputs.get("ics_time_zone") and not outputs.get("ics"):
+        raise InputError(Finding("--ics-time-zone is the time zone of the iCalendar files, and no --ics folder "
+                                 "was given.", suggestion="Add --ics FOLDER, or leave out --ics-time-zone."))
+    time_zone(outputs.get("ics_time_zone"))
+    if outputs.get("ics") and slots is not None:
+        check_dated_slots(slots)
+    key_file = outputs.get("pseudonym_key")
+    if key_file and not outputs.get("pseudonyms"):
+        raise InputError(Finding("--pseudonym-key is the key of --pseudonyms, which was not given.",
+                                 suggestion="Add --pseudonyms, or leave out --pseudonym-key."))
+    if outputs.get("pseudonyms"):
+        from .pseudonyms import default_key_file
+
+        file = Path(key_file).expanduser() if key_file else default_key_file()
+        if file.exists():
+            if not file.is_file():
+                raise InputError(Finding(f"The pseudonym key {file} is a folder, not a key file."))
+        else:
+            check_writable_folder(file.parent, f"the pseudonym key {file.name}")
 
 
 def count_for_runs(problem: Any, runs: Sequence[Any], budget: float, *, graph: Any = None) -> tuple[Any, str | None]:

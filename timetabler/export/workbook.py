@@ -41,10 +41,15 @@ written with openpyxl in write-only (streaming) mode, through
 
 from __future__ import annotations
 
+import contextlib
 import dataclasses
 import datetime as dt
 import math
+import os
 import re
+import shutil
+import tempfile
+import threading
 import warnings
 from pathlib import Path
 from typing import Any, Callable, Mapping, Sequence
@@ -59,6 +64,7 @@ from openpyxl.styles import Alignment, Font, PatternFill
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.filters import AutoFilter
 from openpyxl.worksheet.properties import PageSetupProperties
+from openpyxl.worksheet import _writer as openpyxl_sheet_writer
 from openpyxl.worksheet.table import Table, TableColumn, TableStyleInfo
 
 from ..conflicts import conflict_graph
@@ -120,6 +126,13 @@ def write_workbook(
 
     def build(tmp: Path) -> None:
         wb = Workbook(write_only=True)
+        try:
+            _build(wb, tmp)
+        except BaseException:
+            _abandon_sheets(wb)
+            raise
+
+    def _build(wb: Workbook, tmp: Path) -> None:
         book = _Book(wb, progress)
         _overview(book, problem, runs, counts, reading, settings or {}, validations, figures, fewest)
         if runs:
@@ -150,7 +163,58 @@ def write_workbook(
                 book.table_sheet("Moves" + suffix, moves)
         wb.save(tmp)
 
-    return write_safely(target, build)
+    with private_sheet_files():
+        return write_safely(target, build)
+
+
+# openpyxl's write-only mode streams each sheet into a temporary file named openpyxl.* in
+# the system's temporary folder and removes it when the workbook is saved (or at exit).
+# Those files hold attendee ids; an interrupted or failed export would leave them behind.
+# While a workbook is built, this thread's sheet files go to a private folder (mode 0700)
+# that is removed on every way out.
+_sheet_folders = threading.local()
+_openpyxl_create_temporary_file = openpyxl_sheet_writer.create_temporary_file
+
+
+def _create_sheet_file(suffix: str = "") -> str:
+    folder = getattr(_sheet_folders, "path", None)
+    if folder is None:
+        return _openpyxl_create_temporary_file(suffix)
+    handle, name = tempfile.mkstemp(prefix="openpyxl.", suffix=suffix, dir=folder)
+    os.close(handle)
+    openpyxl_sheet_writer.ALL_TEMP_FILES.append(name)
+    return name
+
+
+openpyxl_sheet_writer.create_temporary_file = _create_sheet_file
+
+
+def _abandon_sheets(wb: Workbook) -> None:
+    """Close the half-written sheet streams of a workbook that will not be saved, so that they
+    do not complain when they are collected (openpyxl offers no public call for this)."""
+    for sheet in wb.worksheets:
+        stream = getattr(getattr(sheet, "_writer", None), "xf", None)
+        if stream is not None:
+            try:
+                stream.close()
+            except Exception:  # noqa: BLE001 - the stream is being thrown away
+                pass
+
+
+@contextlib.contextmanager
+def private_sheet_files():
+    """Send this thread's openpyxl sheet files to a private folder, removed when done."""
+    folder = tempfile.mkdtemp(prefix="timetabler-sheets-")
+    outer = getattr(_sheet_folders, "path", None)
+    _sheet_folders.path = folder
+    try:
+        yield Path(folder)
+    finally:
+        _sheet_folders.path = outer
+        left = [n for n in openpyxl_sheet_writer.ALL_TEMP_FILES if n.startswith(folder + os.sep)]
+        for name in left:
+            openpyxl_sheet_writer.ALL_TEMP_FILES.remove(name)
+        shutil.rmtree(folder, ignore_errors=True)
 
 
 # --------------------------------------------------------------------------- writing helpers

@@ -119,6 +119,7 @@ def write_template(path: str | Path, *, force: bool = False, example: bool = Fal
         handle, tmp = tempfile.mkstemp(prefix=".~timetabler-", suffix=".xlsx", dir=folder)
         os.close(handle)
         book.save(tmp)
+        os.chmod(tmp, 0o666 & ~_umask())  # the usual mode of a new file (mkstemp makes it 0600)
         os.replace(tmp, path)
     except PermissionError:
         raise InputError(Finding("The file cannot be written: permission denied, or it is open in another program.",
@@ -127,6 +128,21 @@ def write_template(path: str | Path, *, force: bool = False, example: bool = Fal
         if "tmp" in locals() and os.path.exists(tmp):
             os.unlink(tmp)
     return path
+
+
+def _umask() -> int:
+    """The process's umask, read without changing it where the system allows (Linux), since
+    setting it to read it would briefly affect files other threads create."""
+    try:
+        with open("/proc/self/status", encoding="ascii") as status:
+            for line in status:
+                if line.startswith("Umask:"):
+                    return int(line.split()[1], 8)
+    except (OSError, ValueError):
+        pass
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return mask
 
 
 def build_template(example: bool = False):

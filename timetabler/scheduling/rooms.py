@@ -304,6 +304,7 @@ def _exact(problem, codes, rooms, sizes, sharing, splitting, seconds, seed, goal
         for c, v in miss.items():
             m.AddHint(v, not any(name.casefold() in goals.wanted[c] for name, _ in hint.get(c, [])))
     solver = cp_model.CpSolver()
+    solver.parameters.catch_sigint_signal = False  # Ctrl-C and SIGTERM stay the caller's (see solve._parameters)
     solver.parameters.max_time_in_seconds = seconds
     solver.parameters.num_workers = 1
     solver.parameters.random_seed = seed

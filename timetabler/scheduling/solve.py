@@ -190,6 +190,11 @@ def _parameters(solver: cp_model.CpSolver, options: SolveOptions, seconds: float
                 pairs: int = 0) -> None:
     """Every CP-SAT parameter the tool sets, in one place (``pairs``: clashing pairs in the model)."""
     p = solver.parameters
+    # CP-SAT would catch Ctrl-C (ending the search as if the time were up, so the command went on)
+    # and leave SIGINT and SIGTERM at their defaults afterwards, so a later Ctrl-C or kill ended
+    # the process without cleaning up. Off: both reach the caller as KeyboardInterrupt once the
+    # current search returns (at the latest when its time share is spent).
+    p.catch_sigint_signal = False
     p.num_workers = max(1, workers if workers is not None else options.workers)
     p.random_seed = options.seed
     p.log_search_progress = options.log
