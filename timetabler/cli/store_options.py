@@ -131,5 +131,5 @@ def record_solve(store: Store, problem: Any, runs: Sequence[Any], settings: dict
             err_console.print(f"Published the {target[0]}-slot timetable as '{saved.published}' in {where} "
                               f"(input #{saved.input_id}).", soft_wrap=True)
         else:
-            err_console.print(f"[dim]Recorded in {where} (input #{saved.input_id}; 'timetabler history' lists "
-                              "what is kept).[/dim]", soft_wrap=True)
+            err_console.print(f"Recorded in {where} (input #{saved.input_id}; 'timetabler history' lists "
+                              "what is kept).", soft_wrap=True, style="dim")
