@@ -193,12 +193,12 @@ def _abandon_sheets(wb: Workbook) -> None:
     """Close the half-written sheet streams of a workbook that will not be saved, so that they
     do not complain when they are collected (openpyxl offers no public call for this)."""
     for sheet in wb.worksheets:
-        stream = getattr(getattr(sheet, "_writer", None), "xf", None)
-        if stream is not None:
-            try:
-                stream.close()
-            except Exception:  # noqa: BLE001 - the stream is being thrown away
-                pass
+        for stream in (getattr(sheet, "_rows", None), getattr(getattr(sheet, "_writer", None), "xf", None)):
+            if stream is not None and hasattr(stream, "close"):
+                try:
+                    stream.close()
+                except Exception:  # noqa: BLE001 - the stream is being thrown away
+                    pass
 
 
 @contextlib.contextmanager
