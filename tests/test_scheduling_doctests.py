@@ -7,7 +7,7 @@ import importlib
 
 import pytest
 
-MODULES = ["dsatur", "cliques", "validator", "solve", "arrangement", "tabucol", "transversals"]
+MODULES = ["dsatur", "cliques", "validator", "solve", "arrangement", "tabucol", "transversals", "kempe_search"]
 
 
 @pytest.mark.parametrize("name", MODULES)

@@ -24,6 +24,7 @@ apart, each with a share of the time limit proportional to its size.
 from __future__ import annotations
 
 import math
+import threading
 import time
 from dataclasses import dataclass, field
 from typing import Callable
@@ -39,6 +40,8 @@ from .cpsat_model import (BuildStopped, TimetableModel, build_model, large_event
 from .arrangement import arrange
 from .dsatur import dsatur
 from .infeasibility import prechecks, room_count_witness
+from .kempe_search import improve
+from .penalty_state import build_state
 from .rooms import seat_events
 from .tabucol import tabucol
 from .transversals import colour_by_transversals
@@ -153,9 +156,11 @@ class _Watcher(cp_model.CpSolverSolutionCallback):
         self.start = start
         self.first: float | None = None
         self.solutions = 0
+        self.moved = self.last_solution = time.perf_counter()
 
     def on_solution_callback(self) -> None:
         self.solutions += 1
+        self.last_solution = time.perf_counter()
         if self.first is None:
             self.first = time.perf_counter() - self.start
         if self.progress:
@@ -184,6 +189,11 @@ class _Budget:
     def charge(self, solver: cp_model.CpSolver) -> None:
         if self.deterministic:
             self.used += solver.response_proto.deterministic_time
+
+    def charge_seconds(self, seconds: float) -> None:
+        """Charge work measured in budget seconds (the local search's move count in repeatable mode)."""
+        if self.deterministic:
+            self.used += seconds
 
 
 def _parameters(solver: cp_model.CpSolver, options: SolveOptions, seconds: float, *, workers: int | None = None,
@@ -295,6 +305,8 @@ def solve(
         return run
 
     say("checking")
+    if k > 1 and not _objective_order_free(problem, slots, previous or {}):
+        _warm_up_local_search()  # its compiled loop is ready by the time CP-SAT has a timetable
     domains = physical_domains(problem, slots, codes, sizes, room_splitting=options.room_splitting)
     cover = clique_cover(graph)
     clique = largest_clique_found(graph, cover)
@@ -472,19 +484,38 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
             run.assignment = dict(feasible_hint)
             run.status, run.proven, run.penalty, run.bound = "optimal", True, 0, 0.0
             break
+        # Two orders, by the model's size. Small (at most LIGHT_PRESOLVE_PAIRS clashing pairs): CP-SAT can often
+        # prove optimality, and its bound tends to move only at the proof, so a short local search first gives
+        # it a good hint, CP-SAT then has most of the time without stopping on a stall, and the local search
+        # the rest. Large: CP-SAT first for a share of the time, stopping when it stalls; then the local search.
+        local = k > 1 and not order_free
+        small = sub.number_of_edges() <= LIGHT_PRESOLVE_PAIRS
+
+        def polish(assignment: dict[str, int], bound: float | None, share: float = 1.0) -> SolveRun | None:
+            say("improving by local search")
+            spare = left() - _reserve(seconds, problem)
+            return _improve_locally(problem, slots, graph, block, sizes, domains, previous, large, options,
+                                    assignment, spare * share, progress, info, start, bound, budget)
+        start_from = feasible_hint
+        if local and small and feasible_hint is not None and not problem.rooms:
+            first = polish(feasible_hint, None, share=SMALL_FIRST_SEARCH_SHARE)
+            if first is not None:
+                start_from = first.assignment
         say("improving the timetable" if feasible_hint else "searching for a timetable")
         try:
             tm = build_model(problem, slots, graph, block, sizes=sizes, domains=domains, objective=True,
                              symmetry=sym_clique if (symmetric and order_free) else None, previous=previous,
                              large=large, room_splitting=options.room_splitting, room_sharing=options.room_sharing,
-                             nogoods=nogoods, cover=cover, stop_at=_build_deadline(options, remaining))
+                             nogoods=nogoods, cover=cover, stop_at=_build_deadline(options, left()))
         except BuildStopped:
             tm = None  # the goal model is too large for the time left: the first timetable stands (below)
         if tm is not None:
-            _add_hint(tm, feasible_hint or _repair_hint(previous, hint, block))
+            _add_hint(tm, start_from or _repair_hint(previous, hint, block))
             remaining = left()  # building a large model takes a good part of the time
-            status, solver, watcher = _run(tm, options, _search_seconds(remaining, tm), progress,
-                                           {**info, "phase": "goals"}, start)
+            cp_seconds = remaining * (CPSAT_SMALL_SHARE if small else CPSAT_SHARE) if local else remaining
+            stall = _stall_seconds(cp_seconds) if local and not small and not options.deterministic else None
+            status, solver, watcher = _run(tm, options, _search_seconds(cp_seconds, tm), progress,
+                                           {**info, "phase": "goals"}, start, stall=stall)
             budget.charge(solver)
         else:
             status = cp_model.UNKNOWN
@@ -504,6 +535,12 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
                 return run
             return _explain(problem, slots, graph, block, sizes, domains, options, left, run, cover)
         if status not in (cp_model.OPTIMAL, cp_model.FEASIBLE) and fallback is not None:
+            better = polish(fallback.assignment, None) if local else None
+            kept = fallback
+            # seated and checked by keep_fallback; kept only when better with its rooms too
+            if better is not None and (not keep_fallback(better.assignment)
+                                       or (fallback.penalty or 0) >= (kept.penalty or 0)):
+                fallback = kept
             fallback.first_feasible_seconds = run.first_feasible_seconds
             fallback.wall_seconds = time.perf_counter() - t0
             return fallback
@@ -529,12 +566,31 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
                 assignment = run.assignment = moved
                 run.penalty, run.penalty_breakdown = better.penalty, {
                     name: v for name, v in better.penalty_breakdown.items() if name != "room_split"}
+        solver_result = None  # CP-SAT's own timetable, kept while the local search's is seated
+        if local and status == cp_model.FEASIBLE:
+            better = polish(assignment, run.bound)
+            if better is not None and better.penalty is not None and better.penalty < (run.penalty or 0):
+                solver_result = (dict(run.assignment), run.penalty, dict(run.penalty_breakdown))
+                assignment = run.assignment = better.assignment
+                run.penalty = better.penalty
+                run.penalty_breakdown = {name: v for name, v in better.penalty_breakdown.items() if name != "room_split"}
+                if run.bound is not None and run.penalty <= math.ceil(run.bound - 1e-6):
+                    run.status, run.proven = "optimal", True  # the local search reached CP-SAT's bound
         if not problem.rooms:
             break
         say("seating events in rooms")
         seating = seat_events(problem, slots, assignment, sizes, sharing=options.room_sharing,
                               splitting=options.room_splitting, seed=options.seed,
                               seconds_per_slot=min(5.0, max(0.5, left() / 10)))
+        if seating.failed_slots and solver_result is not None:
+            # the local search keeps only the aggregate room limits: when its timetable cannot be seated,
+            # CP-SAT's (which the room cuts so far shaped) is seated instead
+            run.assignment, run.penalty, run.penalty_breakdown = solver_result
+            run.status, run.proven = "feasible", False
+            assignment = run.assignment
+            seating = seat_events(problem, slots, assignment, sizes, sharing=options.room_sharing,
+                                  splitting=options.room_splitting, seed=options.seed,
+                                  seconds_per_slot=min(5.0, max(0.5, left() / 10)))
         if not seating.failed_slots:
             run.rooms = seating.rooms
             splits = sum(len(v) - 1 for v in seating.rooms.values())
@@ -658,7 +714,80 @@ def _add_hint(tm: TimetableModel, hint: dict[str, int] | None) -> None:
 LIGHT_PRESOLVE_PAIRS = 10_000
 
 
-def _run(tm: TimetableModel, options: SolveOptions, seconds: float, progress, info, start):
+_local_search_loading: threading.Thread | None = None
+
+
+def _load_local_search() -> None:
+    from .kempe_moves import compile_now  # imports numba
+
+    compile_now()
+
+
+def _warm_up_local_search() -> None:
+    """Import and compile the local search's loop in a background thread, once per process."""
+    global _local_search_loading
+    if _local_search_loading is None:
+        _local_search_loading = threading.Thread(target=_load_local_search, name="compiling the local search",
+                                                 daemon=True)
+        _local_search_loading.start()
+
+
+#: Share of a block's remaining time CP-SAT gets on the full model when the local search follows
+#: (it stops sooner when it stalls, see :func:`_stall_seconds`; the local search takes the rest).
+CPSAT_SHARE = 0.4
+#: On a model of at most LIGHT_PRESOLVE_PAIRS clashing pairs, where CP-SAT can often prove optimality
+#: (the sample exam week's 5 slots take it 7-10 s on this 2-core machine under load) and the local search
+#: needs little time: the local search's first share of the time, then CP-SAT's share of what is left.
+SMALL_FIRST_SEARCH_SHARE = 0.15
+CPSAT_SMALL_SHARE = 0.8
+
+
+def _stall_seconds(seconds: float) -> float:
+    """CP-SAT stops when neither its best timetable nor its bound has moved for this long."""
+    return max(3.0, 0.15 * seconds)
+
+
+def _reserve(seconds: float, problem: Problem) -> float:
+    """Seconds of a block's share kept back after the local search: seating the rooms, the last checks."""
+    return min(5.0, seconds * (0.08 if problem.rooms else 0.02))
+
+
+def _improve_locally(problem, slots, graph, block, sizes, domains, previous, large, options: SolveOptions,
+                     assignment: dict[str, int], seconds: float, progress, info, start, bound,
+                     budget: _Budget) -> SolveRun | None:
+    """The local search (:mod:`.kempe_search`) from ``assignment``; its result only when it is better and
+    the independent validator confirms every hard rule and the penalty the search computed."""
+    waited_from = time.perf_counter()
+    if _local_search_loading is not None:  # the compiled loop, loaded in the background since the start
+        _local_search_loading.join(timeout=max(0.0, seconds))
+        if _local_search_loading.is_alive():
+            return None
+        seconds -= time.perf_counter() - waited_from
+    if seconds < 0.2 or len(assignment) != len(block):
+        return None
+    state = build_state(problem, slots, graph, list(block), sizes=sizes, domains=domains, previous=previous,
+                        large=large, room_sharing=options.room_sharing, room_splitting=options.room_splitting)
+
+    def report(best: int, _seconds: float) -> None:
+        if progress:
+            gap = 0.0 if best == 0 or bound is None else max(0.0, (best - bound) / best)
+            progress({**info, "event": "solution", "phase": "local search", "penalty": int(best),
+                      "bound": float(bound) if bound is not None else 0.0, "gap": gap,
+                      "seconds": time.perf_counter() - start})
+
+    result = improve(state, assignment, seconds=seconds, seed=options.seed, deterministic=options.deterministic,
+                     progress=report)
+    budget.charge_seconds(seconds)
+    if result.penalty >= result.start_penalty:
+        return None
+    scored = _scored(problem, slots, result.assignment, {}, previous, options, set(block), rooms_later=True)
+    if scored is None or scored.penalty != result.penalty:
+        return None  # never happens when the search is right; the validator has the last word
+    return scored
+
+
+def _run(tm: TimetableModel, options: SolveOptions, seconds: float, progress, info, start,
+         stall: float | None = None):
     solver = cp_model.CpSolver()
     _parameters(solver, options, seconds, pairs=tm.pairs)
     watcher = _Watcher(progress, info, time.perf_counter())
@@ -666,7 +795,35 @@ def _run(tm: TimetableModel, options: SolveOptions, seconds: float, progress, in
         def bound_seen(bound: float) -> None:
             progress({**info, "event": "bound", "bound": bound, "seconds": time.perf_counter() - start})
         solver.best_bound_callback = bound_seen
-    status = solver.solve(tm.model, watcher)
+    if stall is None:
+        return solver.solve(tm.model, watcher), solver, watcher
+    # stop when neither the best timetable nor the bound has moved for `stall` seconds
+    watcher.moved = time.perf_counter()
+    seen = {"bound": None}
+    shown = solver.best_bound_callback if hasattr(solver, "best_bound_callback") else None
+
+    def bound_moved(bound: float) -> None:
+        if seen["bound"] is None or bound > seen["bound"] + 1e-9:
+            seen["bound"] = bound
+            watcher.moved = time.perf_counter()
+        if shown:
+            shown(bound)
+    if hasattr(solver, "best_bound_callback"):
+        solver.best_bound_callback = bound_moved
+    done = threading.Event()
+
+    def guard() -> None:  # counts only once CP-SAT has a timetable (presolve may take long on a large model)
+        while not done.wait(0.25):
+            if watcher.solutions and time.perf_counter() - max(watcher.moved, watcher.last_solution) > stall:
+                solver.stop_search()
+                return
+    thread = threading.Thread(target=guard, daemon=True)
+    thread.start()
+    try:
+        status = solver.solve(tm.model, watcher)
+    finally:
+        done.set()
+        thread.join()
     return status, solver, watcher
 
 
