@@ -157,13 +157,14 @@ def improve(
     seed: int = 0,
     deterministic: bool = False,
     progress: Callable[[int, float], None] | None = None,
+    stop: Callable[[], bool] | None = None,
 ) -> SearchResult:
     """Lower the penalty of the timetable ``start`` (event -> slot 1..K) within ``seconds``.
 
     ``start`` must meet every hard rule of ``state``; every timetable the search visits
     does too. ``seconds`` counts search time: loading the compiled loop comes first (see
     :mod:`.kempe_moves`; :func:`.solve.solve` has it loaded in the background). ``progress(best_penalty, seconds)`` is called when the best improves (at most
-    a few times a second). In ``deterministic`` mode the search does a fixed number of moves
+    a few times a second); ``stop()`` returning True ends the search early. In ``deterministic`` mode the search does a fixed number of moves
     (``MOVES_PER_SECOND`` per second of budget) so runs repeat exactly.
 
     Examples
@@ -195,7 +196,7 @@ def improve(
         done = 0
         chunk = 2000
         last_best, last_report = search.best, 0.0
-        while True:
+        while not (stop and stop()):
             used = time.perf_counter() - t0
             if deterministic:
                 if done >= total_moves:

@@ -73,6 +73,9 @@ class SolveOptions:
         Search for the rules that cannot all hold when no timetable exists.
     split_components
         Solve independent groups of events apart.
+    stop
+        Asked between rounds of the local search; when it returns True the search ends as if its time
+        were up (the web page's stop button; CP-SAT's searches are stopped by the caller directly).
     max_memory_mb
         CP-SAT stops searching (keeping the best timetable) when its own memory accounting reaches this
         (CP-SAT's accounting leaves out part of the process: the 2,000-exam benchmark peaks at 3,319 MiB
@@ -89,6 +92,7 @@ class SolveOptions:
     split_components: bool = True
     log: bool = False
     max_memory_mb: int = 3000
+    stop: Callable[[], bool] | None = None
     deadline: float | None = None
 
 
@@ -776,7 +780,7 @@ def _improve_locally(problem, slots, graph, block, sizes, domains, previous, lar
                       "seconds": time.perf_counter() - start})
 
     result = improve(state, assignment, seconds=seconds, seed=options.seed, deterministic=options.deterministic,
-                     progress=report)
+                     progress=report, stop=options.stop)
     budget.charge_seconds(seconds)
     if result.penalty >= result.start_penalty:
         return None

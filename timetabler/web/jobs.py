@@ -39,7 +39,6 @@ log = logging.getLogger("timetabler.web")
 #: Fewest seconds between two progress messages from the child for one slot count.
 PROGRESS_EVERY = 0.25
 
-<<<<<<< HEAD
 #: Seconds a stopped child has to send back the slot count in hand before it is terminated.
 STOP_GRACE = 12.0
 
@@ -50,6 +49,8 @@ STOP_EVERY = 0.2
 PHASE_WORDS = {
     "goals": "improving the timetable",
     "clash-free": "looking for a clash-free timetable",
+    "local search": "improving the timetable by local search",
+    "improving by local search": "improving the timetable by local search",
     "checking": "checking the slots and rules",
     "checking the DSATUR timetable": "checking a quick first timetable",
     "arranging groups over the slots": "arranging groups of exams over the slots",
@@ -78,11 +79,6 @@ def phase_words(phase: str) -> str:
         if pattern.match(phase):
             return pattern.sub(words, phase)
     return phase
-=======
-#: The engine's short phase names, in the words the page shows.
-PHASE_WORDS = {"goals": "improving the timetable", "clash-free": "looking for a clash-free timetable",
-               "local search": "improving the timetable by local search"}
->>>>>>> b696bcf (Improvement phase: simulated annealing over Kempe chains, single moves and slot swaps (kempe_search.py, compiled loop kempe_moves.py with numba) on delta-evaluated arrays of every goal and hard rule (penalty_state.py), working with CP-SAT in solve.py; benchmarks/toronto.py; tests against the validator and brute force)
 
 #: Fields of a progress report the page shows (any others are ignored).
 _PROGRESS_KEYS = ("best", "penalty", "objective", "bound", "gap", "solutions", "elapsed", "wall_seconds", "phase", "message")
@@ -166,6 +162,8 @@ def _child_main() -> None:
         (size,) = struct.unpack(">Q", _read_exactly(control, 8))
         problem, plan, options, previous_for, fewest_per_day = pickle.loads(_read_exactly(control, size))
         stop = _stoppable_searches(control)
+        if options is not None and hasattr(options, "stop"):
+            options.stop = stop.is_set  # the local search asks it between rounds
         from timetabler.conflicts import conflict_graph
         from timetabler.scheduling import fewest_slots, solve, validate
 
