@@ -120,12 +120,16 @@ def test_publishing_from_the_timetable_page(private_store):
         assert state["state"] == "finished", state
         page = client.get(f"{token_url}/timetable")
         assert page.status_code == 200
+        with Store(private_store) as store:  # shown once: the solve is recorded, not yet published
+            assert [r.slot_count for r in store.runs()] == [3] and store.labels() == []
+        assert client.get(f"{token_url}/timetable").status_code == 200
         (action,) = re.findall(r'<form action="([^"]+)" method="post" id="publish-form">', page.text)
         done = client.post(action, data={"slots": "3", "label": "web 1"}, headers=SAME)
         assert done.status_code == 200, done.text[:500]
         again = client.post(action, data={"slots": "3", "label": "web 1"}, headers=SAME)
         assert again.status_code == 400 and "already published" in again.text
     with Store(private_store) as store:
+        assert len(store.runs()) == 1  # shown twice and published: still the one recorded result
         version = store.published_version("web 1")
         # the triangle A, B, C needs three different slots
         assert len({version.assignment[e] for e in "ABC"}) == 3

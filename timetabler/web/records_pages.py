@@ -13,11 +13,14 @@ The store is the same SQLite file the command line uses (``timetabler serve --st
 ``TIMETABLER_STORE``, else the user's data folder), so what was published survives a
 restart of the page and is seen by ``timetabler history``. Each request opens it in a
 worker thread, does its work in one transaction and closes it; inputs older than the
-retention period are deleted when the stored-work page is shown.
+retention period are deleted when the stored-work page is shown. A finished solve is recorded
+(input, settings, each result with its validator verdict) when its timetable page is first
+shown; publishing then marks that recorded result.
 """
 
 from __future__ import annotations
 
+import logging
 import shutil
 import tempfile
 from pathlib import Path
@@ -34,6 +37,8 @@ from ..errors import InputError
 from ..store import Store, changes_between, store_path
 from ..store.records import publication_problems
 from . import routes
+
+log = logging.getLogger("timetabler.web")
 
 DOWNLOADS = {
     "notices.xlsx": "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
@@ -156,6 +161,30 @@ async def forget(request: Request) -> Response:
     return routes.message(request, 200, "Deleted", done, link=("/stored", "Back to the stored work"))
 
 
+def _recorded(upload: Any) -> dict:
+    """Solve id -> {slot count: stored run id}, for the solves of this upload already in the store."""
+    return upload.state.setdefault("recorded_solves", {})
+
+
+async def remember_solve(request: Request, upload: Any, kept: Any, runs: list) -> None:
+    """Record a finished solve of the page in the store (input, settings, each result), once per solve.
+
+    A store that cannot be written is reported in the server's terminal; the page goes on without it.
+    """
+    if kept.id in _recorded(upload) or not runs:
+        return
+    settings = {"input file": upload.name, **(kept.settings or {})}
+
+    def work() -> dict:
+        with _open(request) as store:
+            return store.record_solve(kept.problem, runs, settings).run_ids
+
+    try:
+        _recorded(upload)[kept.id] = await run_in_threadpool(work)
+    except Exception:  # noqa: BLE001 - the timetable is still shown; the terminal says why it was not kept
+        log.exception("the solve could not be recorded in the store %s", _path(request))
+
+
 async def publish(request: Request) -> Response:
     upload = routes.upload_of(request)
     kept = routes.solve_of(request, upload)
@@ -184,14 +213,18 @@ async def publish(request: Request) -> Response:
         if problems:
             raise InputError(f"The timetable for {run.slots} slots was not published: {problems}")
         with _open(request) as store:
-            return store.record_solve(problem, [run], settings, publish=(int(run.slots), label))
+            run_id = _recorded(upload).get(kept.id, {}).get(int(run.slots))
+            if run_id is not None and run_id in {r.id for r in store.runs()}:
+                store.publish(run_id, label)  # the result recorded when the timetable was shown
+                return label
+            return store.record_solve(problem, [run], settings, publish=(int(run.slots), label)).published
 
     try:
         saved = await run_in_threadpool(work)
     except InputError as exc:
         return routes.message(request, 400, "Not published", str(exc), back=back)
     return routes.message(request, 200, "Published",
-                          f"The {wanted}-slot timetable is published as '{saved.published}' and kept in the store. "
+                          f"The {wanted}-slot timetable is published as '{saved}' and kept in the store. "
                           "Compare it with an earlier version on the stored-work page to see who must be told.",
                           link=("/stored", "Stored work and published timetables"), back=back)
 

@@ -599,6 +599,9 @@ async def timetable(request: Request) -> Response:
         return RedirectResponse(f"{base}/solving", status_code=303)
     runs = _finished_runs(kept)
     problem = kept.problem
+    from .records_pages import remember_solve  # the store keeps every finished solve (once)
+
+    await remember_solve(request, stored, kept, runs)
     analysis = _current_analysis(stored)
     counts = _cached_counts(analysis, [r.slots for r in runs])
     table = await run_in_threadpool(_comparison, problem, runs, counts, job.fewest)
