@@ -248,3 +248,15 @@ def test_retention_deletes_only_inputs_not_used_for_the_period(tmp_path):
         assert store.labels() == ["new"]
         assert [i.source_name for i in store.inputs()] == ["new-0.csv"]
         assert store.conn.execute("SELECT count(*) FROM input_enrolments").fetchone()[0] == len(new_problem.enrolments)
+
+
+def test_forgetting_one_of_two_labels_on_one_result_keeps_the_other(tmp_path):
+    with Store(tmp_path / "store.sqlite3") as store:
+        problem, run = instance("both", 0)
+        saved = store.record_solve(problem, [run], {}, publish=(8, "sent to staff"))
+        store.publish(saved.run_ids[8], "sent to students")
+        store.forget_label("sent to staff")
+        assert store.labels() == ["sent to students"]
+        assert store.published_version("sent to students").assignment == run.assignment
+        store.forget_label("sent to students")
+        assert store.labels() == [] and store.runs() == [] and len(store.inputs()) == 1

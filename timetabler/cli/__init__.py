@@ -43,6 +43,8 @@ def cli(ctx: click.Context) -> None:
       timetabler inspect enrolments.xlsx          what is in the file, the fewest slots it could need
       timetabler count enrolments.xlsx --slots 5 6   how many clash-free timetables each choice allows
       timetabler solve enrolments.xlsx --slots 6 --out timetable.xlsx   a good timetable, as a workbook
+      timetabler solve enrolments.xlsx --slots 6 --publish "week 1"     keep it as published
+      timetabler changes "week 1" "week 2" --out notices.xlsx          who must be told what moved
 
     Input is an .xlsx workbook or a .csv file with one row per enrolment: a column naming
     the attendee (student, member, ...) and a column naming the event (exam, module,

@@ -322,13 +322,16 @@ class Store:
     # deleting
 
     def forget_label(self, label: str) -> StoredRun:
-        """Delete a published label and the timetable (run) it marks; the input stays. One transaction."""
+        """Delete a published label and the timetable (run) it marks, unless another label marks that run too;
+        the input stays. One transaction."""
         with self._write() as conn:
             row = conn.execute("SELECT run_id FROM published WHERE label = ?", (label,)).fetchone()
             if row is None:
                 raise self.unknown_label(label, conn)
             run = self._runs(conn, "WHERE r.id = ?", (row[0],))[0]
-            conn.execute("DELETE FROM runs WHERE id = ?", (row[0],))  # cascades to the label and the assignment
+            conn.execute("DELETE FROM published WHERE label = ?", (label,))
+            if not conn.execute("SELECT 1 FROM published WHERE run_id = ?", (row[0],)).fetchone():
+                conn.execute("DELETE FROM runs WHERE id = ?", (row[0],))  # and its assignment (cascade)
         self._checkpoint()
         return run
 
