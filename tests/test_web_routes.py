@@ -111,6 +111,20 @@ def test_static_files_are_served(client):
     assert client.get("/static/../app.py").status_code == 404
 
 
+def test_downloads_are_refused_to_other_sites(client):
+    """Another site's link, image or script must not make the browser fetch a file from here
+    (issue 15, item 13): the template download answered such requests."""
+    for headers in ({"sec-fetch-site": "cross-site"}, {"sec-fetch-site": "same-site"},
+                    {"origin": "http://timetabler.evil.example"}, {"referer": "http://timetabler.evil.example/page"}):
+        for path in ("/template.xlsx", "/template.xlsx?example=1"):
+            r = client.get(path, headers=headers)
+            assert r.status_code == 403 and "another web site" in r.text, (path, headers)
+            assert "spreadsheetml" not in r.headers["content-type"]
+    # From the page itself, and typed into the address bar, it downloads as before.
+    for headers in ({"sec-fetch-site": "same-origin", "referer": BASE + "/"}, {"sec-fetch-site": "none"}, {}):
+        assert client.get("/template.xlsx", headers=headers).status_code == 200, headers
+
+
 def test_template_workbook_downloads_and_opens(client):
     r = client.get("/template.xlsx")
     assert r.status_code == 200

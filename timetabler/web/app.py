@@ -8,6 +8,10 @@ uvicorn (and that the tests drive through the ASGI test client). Safety, in orde
   tab cannot reach the page by rebinding its own domain name to this machine.
 * **Same origin for every POST** — the ``Origin`` header (or, failing that, ``Referer``)
   must be this page; a form on another site cannot upload to it or start a solve.
+* **No downloads for other sites** — a file (the template, a timetable workbook, CSV or
+  calendar files) is sent only to a request from this page or typed in by the user
+  (``Sec-Fetch-Site`` ``same-origin`` or ``none``; without it, no ``Origin`` or ``Referer``
+  of another site), so a page elsewhere cannot make the browser fetch one.
 * **Headers** — a content security policy allowing only this page's own scripts, styles
   and images (nothing is fetched from anywhere else), no framing, no MIME sniffing, no
   referrer sent elsewhere.
@@ -111,6 +115,14 @@ class GuardMiddleware:
             )
             await response(scope, receive, _with_headers(send))
             return
+        if _is_download(request.url.path) and not _not_from_elsewhere(request):
+            response = _plain_refusal(
+                403,
+                "This download was asked for by another web site, so it was refused. "
+                "Open the timetabler page at its own address and download the file from there.",
+            )
+            await response(scope, receive, _with_headers(send))
+            return
         if request.method not in ("GET", "HEAD", "OPTIONS") and not _same_origin(request):
             response = _plain_refusal(
                 403,
@@ -156,6 +168,26 @@ def _same_origin(request: Request) -> bool:
             return False
     parts = urlsplit(origin)
     return parts.scheme in ("http", "https") and parts.netloc.lower() == own_host
+
+
+def _is_download(path: str) -> bool:
+    return path == "/template.xlsx" or "/download/" in path
+
+
+def _not_from_elsewhere(request: Request) -> bool:
+    """True for a request from this page itself or typed in by the user (a bookmark, the address
+    bar); False when another site asked for it (a link, an image or a script on that site)."""
+    own_host = request.headers.get("host", "").lower()
+    site = request.headers.get("sec-fetch-site")
+    if site is not None and site not in ("same-origin", "none"):
+        return False
+    for header in ("origin", "referer"):
+        value = request.headers.get(header)
+        if value and value != "null":
+            parts = urlsplit(value)
+            if parts.netloc.lower() != own_host:
+                return False
+    return True
 
 
 def _plain_refusal(status: int, message: str) -> Response:
