@@ -111,6 +111,21 @@ def test_static_files_are_served(client):
     assert client.get("/static/../app.py").status_code == 404
 
 
+def test_the_page_script_upload_gets_the_next_address_or_the_message(client):
+    """The first page's script sends the file itself, to show its progress (issue 15, item 13): it is
+    told where the overview is, or gets the same message page as a plain form upload."""
+    progress = {"x-timetabler-upload": "progress"}
+    r = post_file(client, "triangle.csv", TRIANGLE_CSV.encode(), **progress)
+    assert r.status_code == 200 and re.fullmatch(r"/files/[A-Za-z0-9_-]{16,64}", r.json()["next"])
+    assert client.get(r.json()["next"]).status_code == 200
+    r = post_file(client, "scan.pdf", b"%PDF-1.7 not a spreadsheet", **progress)
+    assert r.status_code == 400 and "<h1>This file cannot be used</h1>" in r.text and "PDF" in r.text
+    script = client.get("/static/page.js").text
+    assert "upload.addEventListener(\"progress\"" in script and "X-Timetabler-Upload" in script
+    page = client.get("/").text
+    assert 'id="upload-progress"' in page and '<progress id="upload-bar"' in page
+
+
 def test_downloads_are_refused_to_other_sites(client):
     """Another site's link, image or script must not make the browser fetch a file from here
     (issue 15, item 13): the template download answered such requests."""

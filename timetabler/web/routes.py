@@ -185,6 +185,9 @@ async def upload(request: Request) -> Response:
             return message(request, exc.status, "This file cannot be used", str(exc), back="/")
     finally:
         await form.close()
+    if request.headers.get("x-timetabler-upload") == "progress":
+        # The page's script sent the file (to show its progress): it opens the overview itself.
+        return JSONResponse({"next": f"/files/{stored.token}"})
     return RedirectResponse(f"/files/{stored.token}", status_code=303)
 
 

@@ -1,6 +1,7 @@
-// timetabler local page: two small helps, both optional (every page works without script).
-// 1. Drag and drop a file onto the upload box.
+// timetabler local page: small helps, all optional (every page works without script).
+// 1. Drag and drop a file onto the upload box; the upload shows its progress, then the reading.
 // 2. Live progress of a solve, polled from this page's own server.
+// 3. The counts table put in place when the (exact) counts arrive.
 (function () {
   "use strict";
 
@@ -21,6 +22,70 @@
       var hint = document.getElementById("drop-hint");
       if (hint) hint.textContent = "Uploading " + e.dataTransfer.files[0].name + " …";
       form.requestSubmit ? form.requestSubmit() : form.submit();
+    });
+  }
+
+  function megabytes(bytes) { return (bytes / (1024 * 1024)).toFixed(1); }
+
+  // Send the chosen file with a progress bar (a large file takes a while to send), then say that
+  // the page is reading it while the browser opens the overview (reading a large file takes a while too).
+  function setupUploadProgress() {
+    var form = document.getElementById("upload-form");
+    var input = document.getElementById("file-input");
+    var box = document.getElementById("upload-progress");
+    if (!form || !input || !box || !window.XMLHttpRequest || !window.FormData) return;
+    var bar = document.getElementById("upload-bar");
+    var line = document.getElementById("upload-progress-text");
+    var button = document.getElementById("upload-button");
+    form.addEventListener("submit", function (event) {
+      if (!input.files || !input.files.length) return;
+      event.preventDefault();
+      var file = input.files[0];
+      box.hidden = false;
+      if (button) button.disabled = true;
+      bar.max = file.size || 1;
+      bar.value = 0;
+      line.textContent = "Sending " + file.name + " \u2026";
+      var reading = null;
+      function startReading() {
+        if (reading !== null) return;
+        var began = Date.now();
+        bar.removeAttribute("value");  // no figure to show: an indeterminate bar
+        line.textContent = "Sent. Reading and checking the file \u2026";
+        reading = window.setInterval(function () {
+          line.textContent = "Sent. Reading and checking the file \u2026 " + Math.round((Date.now() - began) / 1000) + " s";
+        }, 1000);
+      }
+      var request = new XMLHttpRequest();
+      request.open("POST", form.action);
+      request.setRequestHeader("X-Timetabler-Upload", "progress");
+      request.upload.addEventListener("progress", function (e) {
+        if (!e.lengthComputable) return;
+        bar.max = e.total;
+        bar.value = e.loaded;
+        line.textContent = "Sending " + file.name + ": " + megabytes(e.loaded) + " of " + megabytes(e.total) + " MB (" +
+          Math.round(100 * e.loaded / e.total) + " %)";
+      });
+      request.upload.addEventListener("load", startReading);
+      request.addEventListener("load", function () {
+        var next = null;
+        try { next = JSON.parse(request.responseText).next; } catch (ignored) { next = null; }
+        if (request.status === 200 && next) {
+          startReading();
+          window.location.assign(next);  // the overview: the page reads the file for it
+          return;
+        }
+        if (reading !== null) window.clearInterval(reading);
+        document.open();  // the server's own message page (file too large, not a spreadsheet, ...)
+        document.write(request.responseText);
+        document.close();
+      });
+      request.addEventListener("error", function () {
+        if (reading !== null) window.clearInterval(reading);
+        line.textContent = "The file could not be sent: is the page server still running? Try again.";
+        if (button) button.disabled = false;
+      });
+      request.send(new FormData(form));
     });
   }
 
@@ -130,5 +195,7 @@
     poll();
   }
 
-  document.addEventListener("DOMContentLoaded", function () { setupDrop(); setupProgress(); setupCounting(); });
+  document.addEventListener("DOMContentLoaded", function () {
+    setupDrop(); setupUploadProgress(); setupProgress(); setupCounting();
+  });
 })();
