@@ -51,3 +51,24 @@ def test_number_formats_keep_every_digit_or_say_the_power():
     assert short_count(n) == "9.31 × 10^20"
     assert short_count(999) == "999"
     assert short_count(None) == "—"
+
+
+def test_both_axes_are_labelled():
+    """Issue 15, item 14: the vertical axis had tick marks but no words."""
+    bars = [bar_from_count(_count(k, k ** 3)) for k in (2, 3, 4)]
+    root = ET.fromstring(count_chart_svg(bars))
+    labels = {"".join(t.itertext()): t for t in root.iter(f"{SVG}text") if t.get("class") == "axis-label"}
+    assert set(labels) == {"number of slots", "clash-free timetables (log scale)"}
+    upright = labels["clash-free timetables (log scale)"]
+    assert upright.get("transform", "").startswith("rotate(-90")
+    # The vertical label sits left of every tick label (no overlap with the powers of ten).
+    ticks = [float(t.get("x")) for t in root.iter(f"{SVG}text") if t.get("class") == "tick"]
+    assert float(upright.get("x")) + 8 < min(ticks) - 30
+
+
+def test_powers_of_ten_are_rounded_not_cut():
+    from timetabler.web.page_format import scientific
+
+    # 13 972 305 600 000 (the sample week's 5-slot count) is 1.397... × 10^13, so 1.40 × 10^13.
+    assert scientific(13_972_305_600_000) == "1.40 × 10^13"
+    assert scientific(19_999) == "2.00 × 10^4" and scientific(10**20) == "1.00 × 10^20"

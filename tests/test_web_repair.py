@@ -87,7 +87,7 @@ def grid_of(page: str) -> dict[str, int]:
     grid = re.search(r'<table class="grid" id="grid">(.*?)</table>', page, re.S).group(1)
     placed = {}
     for number, cell in re.findall(r'<td><div class="slot-head">Slot (\d+).*?</div>(.*?)</td>', grid, re.S):
-        for code in re.findall(r'<span class="code">([^<]+)</span>', cell):
+        for code in re.findall(r'<span class="code"[^>]*>([^<]+)</span>', cell):
             placed[code] = int(number)
     return placed
 

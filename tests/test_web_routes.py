@@ -180,16 +180,70 @@ def test_counts_table_matches_the_closed_form(client):
     r = overview(client, token, "?slots=2-5")
     assert r.status_code == 200
     table = re.search(r'<table class="counts" id="counts">(.*?)</table>', r.text, re.S).group(1)
-    rows = re.findall(r'<th scope="row" class="num">(\d+)</th>\s*<td class="num">(.*?)</td>', table, re.S)
-    shown = {int(k): plain(cell) for k, cell in rows}
+    rows = re.findall(r'<th scope="row" class="num">(\d+)</th>\s*<td class="num count"[^>]*>(.*?)</td>\s*'
+                      r'<td class="exactness">(.*?)</td>', table, re.S)
+    shown = {int(k): plain(cell) for k, cell, _ in rows}
+    exactness = {int(k): plain(flag).strip() for k, _, flag in rows}
     assert sorted(shown) == [2, 3, 4, 5]
     assert shown[2].split()[0] == "none"
     for k in (3, 4, 5):
-        assert shown[k].split()[0] == str(triangle_count(k)) and "exact" in shown[k]
+        assert shown[k].split()[0] == str(triangle_count(k)) and exactness[k] == "exact"
     assert "<svg" in r.text and 'role="img"' in r.text
     # The triangle's group needs 3 slots on its own (K3's chromatic number); D stands alone.
     groups = re.search(r'<table class="components">(.*?)</table>', r.text, re.S).group(1)
     assert re.search(r'<td class="num">3</td><td class="num">3</td><td class="num">3</td><td>A, B, C</td>', groups)
+
+
+def test_a_counts_column_has_one_format_with_every_digit_at_hand(client):
+    """Issue 15, item 14: the column mixed full digits and powers of ten, and wrapped 'exact' under
+    some rows. Ten exams with no shared student: P = k^10 (edgeless graph), 3^10 has 5 digits,
+    20^10 has 14: past 12 digits every count of the column is a power of ten, rounded, with all
+    its digits in the cell's title and in the list below the table; exactness has its own column."""
+    csv = "Student,Exam\n" + "".join(f"HV-S{i:04d},E{i:02d}\n" for i in range(10))
+    token = upload_ok(client, "free.csv", csv.encode())
+    r = overview(client, token, "?slots=3+6+20")
+    table = re.search(r'<table class="counts" id="counts">(.*?)</table>', r.text, re.S).group(1)
+    rows = re.findall(r'<th scope="row" class="num">(\d+)</th>\s*<td class="num count" title="([^"]+)">(.*?)</td>\s*'
+                      r'<td class="exactness">exact</td>', table, re.S)
+    assert [int(k) for k, _, _ in rows] == [3, 6, 20]
+    for k, title, cell in rows:
+        value = int(k) ** 10
+        assert title.replace(THIN, "") == str(value)  # every digit on hover
+        mantissa, power = re.fullmatch(r"(\d\.\d\d) × 10<sup>(\d+)</sup>", cell.strip()).groups()
+        assert abs(float(mantissa) * 10 ** int(power) - value) <= 0.005 * 10 ** int(power)  # rounded, 3 figures
+    listed = re.search(r'<details class="all-digits" id="all-digits">(.*?)</details>', r.text, re.S).group(1)
+    assert str(20 ** 10) in listed.replace(THIN, "") and str(3 ** 10) in listed.replace(THIN, "")
+    assert "td.count { white-space: nowrap; }" in client.get("/static/style.css").text
+
+
+def test_an_error_after_count_is_shown_at_the_top(client):
+    token = upload_ok(client, "triangle.csv", TRIANGLE_CSV.encode())
+    r = client.get(f"/files/{token}?slots=2-99999")
+    top = r.text.index('id="page-errors"')
+    assert top < r.text.index('id="figures"')  # above the figures: on the first screen
+    assert "A number of slots must be between" in r.text[top:r.text.index('id="figures"')]
+    assert 'href="#count-slots"' in r.text and 'aria-invalid="true"' in r.text
+
+
+def test_the_fewest_slots_box_reads_plainly(client):
+    # Issue 15, item 14: a reason in brackets inside brackets ended in a doubled bracket.
+    token = upload_ok(client, "triangle.csv", TRIANGLE_CSV.encode())
+    box = plain(re.search(r'id="fewest-count">(.*?)</p>', overview(client, token, "?slots=2-4").text, re.S).group(1))
+    assert "3" in box and "))" not in box and box.count("(") == box.count(")")
+
+
+def test_a_very_long_event_code_wraps_in_the_grid_and_keeps_its_full_name(client):
+    long_code = "MODULE-" + "X" * 110
+    csv = f"Student,Exam\nHV-S0001,{long_code}\nHV-S0001,B\n"
+    token = upload_ok(client, "long.csv", csv.encode())
+    client.get(f"/files/{token}")
+    r = client.post(f"/files/{token}/solve", data={"slots": ["2"], "time_limit": "5"}, headers=SAME)
+    wait_finished(client, token)
+    page = client.get(f"/files/{token}/timetable").text
+    assert f'<span class="code" title="{long_code}">{long_code}</span>' in page
+    style = client.get("/static/style.css").text
+    assert re.search(r"\.code[^{]*\{[^}]*overflow-wrap: anywhere", style)
+    assert re.search(r"\.grid td \{[^}]*max-width", style)
 
 
 def test_big_counts_show_every_digit(client):
@@ -406,7 +460,7 @@ def test_solve_then_timetable_then_downloads(client, tmp_path, monkeypatch):
     grid = re.search(r'<table class="grid" id="grid">(.*?)</table>', page.text, re.S).group(1)
     placed = dict()
     for number, cell in re.findall(r'<td><div class="slot-head">Slot (\d+).*?</div>(.*?)</td>', grid, re.S):
-        for code in re.findall(r'<span class="code">([^<]+)</span>', cell):
+        for code in re.findall(r'<span class="code"[^>]*>([^<]+)</span>', cell):
             placed[code] = int(number)
     # Direct check from the enrolments, not through any project code: nobody sits two exams at once.
     assert sorted(placed) == ["A", "B", "C", "D"]

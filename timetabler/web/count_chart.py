@@ -54,7 +54,7 @@ def _log10_int(n: int) -> float:
 
 def count_chart_svg(bars: list[ChartBar], *, width: int = 560, height: int = 260) -> str:
     """The SVG markup of the chart (a string to place inside the page as it is)."""
-    left, right, top, bottom = 56, 16, 28, 44
+    left, right, top, bottom = 72, 16, 28, 44
     plot_w, plot_h = width - left - right, height - top - bottom
     values = [b.log10 for b in bars if b.log10 is not None and b.log10 != -math.inf]
     top_value = max(values, default=1.0)
@@ -104,7 +104,11 @@ def count_chart_svg(bars: list[ChartBar], *, width: int = 560, height: int = 260
             label_y = top + plot_h - 6
         out.append(f'<text x="{cx:.1f}" y="{label_y:.1f}" text-anchor="middle" class="value" font-size="12">{_label_markup(b.label)}</text>')
         out.append(f'<text x="{cx:.1f}" y="{top + plot_h + 18:.1f}" text-anchor="middle" class="slots" font-size="13">{b.slots}</text>')
-    out.append(f'<text x="{left + plot_w / 2:.1f}" y="{height - 6}" text-anchor="middle" font-size="13">number of slots</text>')
+    out.append(f'<text x="{left + plot_w / 2:.1f}" y="{height - 6}" text-anchor="middle" class="axis-label" '
+               f'font-size="13">number of slots</text>')
+    middle = top + plot_h / 2
+    out.append(f'<text x="16" y="{middle:.1f}" transform="rotate(-90 16 {middle:.1f})" text-anchor="middle" '
+               f'class="axis-label" font-size="13">clash-free timetables (log scale)</text>')
     out.append(
         f'<text x="{left}" y="{top - 12}" font-size="12">solid: exact count; dashed outline: estimate or bound</text>'
     )

@@ -38,6 +38,52 @@ def short_count(n: int | None) -> str:
     return f"{head[0]}.{head[1:]} × 10^{digits - 1}"
 
 
+#: Largest number of digits a counts table shows in full; beyond, every count of it is a power of ten.
+DIGITS_IN_FULL = 12
+
+
+def scientific(n: int) -> str:
+    """A whole number as three significant figures times a power of ten, rounded (not cut).
+
+    >>> scientific(13_972_305_600_000)
+    '1.40 × 10^13'
+    >>> scientific(99_960)    # rounds up into the next power
+    '1.00 × 10^5'
+    """
+    n = int(n)
+    sign = "-" if n < 0 else ""
+    n = abs(n)
+    exponent = len(str(n)) - 1
+    if exponent < 2:
+        return f"{sign}{n}"
+    head = (n + 5 * 10 ** (exponent - 3)) // 10 ** (exponent - 2)  # three figures, rounded half up
+    if head >= 1000:
+        head, exponent = head // 10, exponent + 1
+    text = str(head)
+    return f"{sign}{text[0]}.{text[1:]} × 10^{exponent}"
+
+
+def count_style(values) -> str:
+    """One format for a whole column of counts: ``"digits"`` when every count fits in
+    :data:`DIGITS_IN_FULL` digits, else ``"powers"`` for all of them (so rows compare at a glance)."""
+    widest = max((len(str(abs(int(v)))) for v in values if v is not None), default=0)
+    return "digits" if widest <= DIGITS_IN_FULL else "powers"
+
+
+def table_count(n: int | None, style: str = "digits") -> str:
+    """A count in the column's format (see :func:`count_style`); 0 stays 0.
+
+    >>> table_count(5**30, "powers"), table_count(24, "powers"), table_count(1234, "digits") == "1\u2009234"
+    ('9.31 × 10^20', '24', True)
+    """
+    if n is None:
+        return "—"
+    n = int(n)
+    if style == "powers" and abs(n) >= 1000:
+        return scientific(n)
+    return group_digits(n)
+
+
 def power_of_ten(log10: float | None) -> str:
     if log10 is None:
         return "—"
@@ -93,6 +139,8 @@ def digits(n: int | None) -> int:
 FILTERS = {
     "group_digits": group_digits,
     "short_count": short_count,
+    "table_count": table_count,
+    "count_style_of": count_style,
     "power_of_ten": power_of_ten,
     "seconds": seconds,
     "number": number,

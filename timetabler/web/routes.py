@@ -44,7 +44,7 @@ from .count_chart import bar_from_count, count_chart_svg
 from .count_jobs import exact_share, start_count, stop_counts
 from .jobs import SolveJob
 from .solves import Solve, add_solve, is_solve_id, latest_solve, running_solve, solves_of
-from .page_format import group_digits
+from .page_format import count_style, group_digits, table_count
 from .uploads import StoredUpload, UploadRejected, UploadStore
 
 log = logging.getLogger("timetabler.web")
@@ -668,20 +668,22 @@ def _comparison(problem, runs: list, counts: Any, fewest: Any) -> dict:
         values = [row[i] for row in table.rows]
         if all(v in (None, "") for v in values):
             continue
-        rows.append({"label": column.header, "kind": column.kind, "values": [_cell(v, column.kind, value_text) for v in values]})
+        whole = [int(v) for v in values if (isinstance(v, int) and not isinstance(v, bool)) or (isinstance(v, str) and v.isdigit())]
+        style = count_style(whole)  # one format for the whole row, as in the counts table
+        rows.append({"label": column.header, "kind": column.kind,
+                     "values": [_cell(v, column.kind, value_text, style) for v in values]})
     return {"slots": [row[0] for row in table.rows], "rows": rows}
 
 
-def _cell(value: Any, kind: str, value_text) -> dict:
-    """One value of the side-by-side, shaped for the page: big counts short, numbers grouped."""
+def _cell(value: Any, kind: str, value_text, style: str = "digits") -> dict:
+    """One value of the side-by-side, shaped for the page: numbers grouped, or every whole number of
+    the row as a power of ten when one of them is too long (all the digits in the title)."""
     if isinstance(value, bool) or value is None:
         return {"text": value_text(value, kind), "numeric": False}
     if isinstance(value, str) and value.isdigit():
         value = int(value)  # counts travel as decimal text
     if isinstance(value, int):
-        if len(str(value)) > 15:
-            return {"text": value, "big": True, "numeric": True}
-        return {"text": group_digits(value), "numeric": True}
+        return {"text": table_count(value, style), "all": group_digits(value), "numeric": True}
     if isinstance(value, float):
         if value.is_integer() and abs(value) < 1e15:
             return {"text": group_digits(int(value)), "numeric": True}

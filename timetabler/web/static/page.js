@@ -172,6 +172,8 @@
       }
       box = document.getElementById("counting");
       shownState = box ? box.getAttribute("data-state") : doc.state;
+      var error = result.querySelector(".error");
+      if (error && error.scrollIntoView) error.scrollIntoView({ block: "center" });
     }
     function poll() {
       fetch(source, { headers: { "Accept": "application/json" }, credentials: "same-origin" })
