@@ -85,6 +85,8 @@ def test_stop_keeps_the_best_timetable_found_and_says_so(client):
     assert page.status_code == 200
     note = plain(re.search(r'<p class="note" role="status" id="stopped-note">(.*?)</p>', page.text, re.S).group(1))
     assert "stopped" in note and "12 slots" in note and "validator" in note
+    status = re.search(r'<th scope="row">Status</th>(.*?)</tr>', page.text, re.S).group(1)
+    assert "(stopped)" in plain(status)
     # Direct check from the enrolments, not through project code: every exam placed, nobody twice in a slot.
     placed = grid_slots(page.text)
     exams_of = defaultdict(set)

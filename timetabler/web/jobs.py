@@ -53,15 +53,15 @@ PHASE_WORDS = {
     "improving by local search": "improving the timetable by local search",
     "checking": "checking the slots and rules",
     "checking the DSATUR timetable": "checking a quick first timetable",
-    "arranging groups over the slots": "arranging groups of exams over the slots",
+    "arranging groups over the slots": "arranging groups of events over the slots",
     "seating the first timetable": "seating the first timetable in rooms",
     "done": "finishing",
 }
 
 #: Phase names of the fewest-slots search that carry a number of slots, in plain words.
 _PHASE_PATTERNS = (
-    (re.compile(r"^transversals for (\d+) slots$"), r"trying \1 slots (one exam from each group of clashing exams per slot)"),
-    (re.compile(r"^tabu search for (\d+) slots$"), r"trying \1 slots (moving clashing exams)"),
+    (re.compile(r"^transversals for (\d+) slots$"), r"trying \1 slots (one event from each group of clashing events per slot)"),
+    (re.compile(r"^tabu search for (\d+) slots$"), r"trying \1 slots (moving clashing events)"),
 )
 
 
@@ -71,7 +71,7 @@ def phase_words(phase: str) -> str:
     >>> phase_words("checking the DSATUR timetable")
     'checking a quick first timetable'
     >>> phase_words("tabu search for 12 slots")
-    'trying 12 slots (moving clashing exams)'
+    'trying 12 slots (moving clashing events)'
     """
     if phase in PHASE_WORDS:
         return PHASE_WORDS[phase]

@@ -608,6 +608,11 @@ async def timetable(request: Request) -> Response:
     analysis = _current_analysis(stored)
     counts = _cached_counts(analysis, [r.slots for r in runs])
     table = await run_in_threadpool(_comparison, problem, runs, counts, job.fewest)
+    for row in table["rows"]:
+        if row["label"] == "Status":  # a run that came back because of Stop says so beside its status
+            for k, cell in zip(table["slots"], row["values"]):
+                if int(k) in job.stopped:
+                    cell["text"] = f"{cell['text']} (stopped)"
     shown_k = request.query_params.get("slots")
     with_timetable = [r for r in runs if r.assignment]
     shown = next((r for r in with_timetable if str(r.slots) == shown_k), with_timetable[0] if with_timetable else None)
