@@ -189,17 +189,25 @@ def test_room_too_small_is_explained_and_splitting_fixes_it():
     assert v.soft["room_split"] == 1 and run.penalty_breakdown.get("room_split") == p.weights.room_split
 
 
-def test_room_count_binds_without_sharing_and_sharing_relaxes_it():
+def test_rooms_are_shared_by_default_even_by_events_of_different_lengths():
     rooms = [Room("Hall", 100)]
     enrol = [("a", "A"), ("b", "B")]
     p = Problem(enrol, rooms=rooms, weights=ZERO,
-                events={"A": Event("A", duration_minutes=90), "B": Event("B", duration_minutes=90)})
+                events={"A": Event("A", duration_minutes=90), "B": Event("B", duration_minutes=180)})
+    # the default: both sit in the one hall in the one slot (2 of its 100 seats)
+    run, _ = solved(p, generic_slots(1))
+    assert run.rooms["A"][0][0] == run.rooms["B"][0][0] == "Hall"
+    # sharing switched off (--no-share-rooms), or the hall marked not shared: one event per room
+    alone = SolveOptions(time_limit=10, workers=2, room_sharing=False)
+    run, _ = solved(p, generic_slots(2), alone)
+    assert run.assignment["A"] != run.assignment["B"]
+    run = infeasible(p, generic_slots(1), alone)
+    assert any("one event per room" in r for r in run.reasons)
+    rooms[0].shared = False
     run, _ = solved(p, generic_slots(2))
     assert run.assignment["A"] != run.assignment["B"]
     run = infeasible(p, generic_slots(1))
-    assert any("one event per room" in r for r in run.reasons)
-    run, _ = solved(p, generic_slots(1), SolveOptions(time_limit=10, workers=2, room_sharing=True))
-    assert run.rooms["A"][0][0] == run.rooms["B"][0][0] == "Hall"
+    assert any("1 such rooms give only 1 places" in r for r in run.reasons), run.reasons
 
 
 def test_rooms_of_a_type_run_out_of_seats():
@@ -247,10 +255,19 @@ def test_too_few_large_rooms_over_the_session_is_explained_before_search():
     rooms = [Room("Great Hall", 100), Room("Seminar 1", 20), Room("Seminar 2", 20)]
     enrol = [(f"HV-S{e}{i:03d}", f"BIG{e}") for e in range(3) for i in range(50)]
     p = Problem(enrol, rooms=rooms, weights=ZERO)
-    run = infeasible(p, generic_slots(2))
+    alone = SolveOptions(time_limit=10, workers=2, room_sharing=False)
+    run = infeasible(p, generic_slots(2), alone)
     assert "3 events need rooms with at least 21 seats" in run.reason and "only 2 places over 2 slots" in run.reason
-    run, v = solved(p, generic_slots(3))
+    run, v = solved(p, generic_slots(3), alone)
     assert all(r == [("Great Hall", 50)] for r in run.rooms.values())
+    # shared (the default), the hall seats two events of 50 at once: 2 slots hold the 3 events ...
+    run, v = solved(p, generic_slots(2))
+    assert sorted(len([c for c in run.assignment if run.assignment[c] == s]) for s in (1, 2)) == [1, 2]
+    # ... but not 5 of them: every one takes 50 of its 100 seats, so 2 places a slot, 4 over 2 slots,
+    # though the 250 seats needed are fewer than the 280 the rooms give over the 2 slots
+    five = Problem([(f"HV-S{e}{i:03d}", f"BIG{e}") for e in range(5) for i in range(50)], rooms=rooms, weights=ZERO)
+    run = infeasible(five, generic_slots(2))
+    assert "5 events need rooms with at least 50 seats" in run.reason and "only 4 places over 2 slots" in run.reason
 
 
 @pytest.mark.parametrize("proven", [True, False])

@@ -76,8 +76,18 @@ def test_rooms_type_capacity_availability_sharing_splitting():
     too_many = validate(p, slots, {"E1": 1, "E2": 1}, {"E1": [("Lab 1", 8)], "E2": [("Small", 12)]})
     assert any("more than its 5 seats" in t for t in too_many.violations)
     shared = validate(p, slots, {"E1": 1, "E2": 1}, {"E1": [("Lab 1", 8)], "E2": [("Lab 1", 2), ("Hall", 10)]},
-                      room_splitting=True)
+                      room_splitting=True, room_sharing=False)
     assert any("sharing is not allowed" in t for t in shared.violations)
+    # sharing is the default: two events in one room within its seats pass, whatever their lengths
+    p.events["E2"] = Event("E2", duration_minutes=60)
+    p.events["E1"] = Event("E1", duration_minutes=180)
+    both = {"E1": [("Hall", 8)], "E2": [("Hall", 12)]}
+    assert validate(p, slots, {"E1": 1, "E2": 1}, both).ok
+    # ... except in a room marked not shared (the Rooms sheet's Shared column)
+    p.rooms[0].shared = False
+    alone = validate(p, slots, {"E1": 1, "E2": 1}, both)
+    assert any("marked as not shared" in t for t in alone.violations)
+    assert validate(p, slots, {"E1": 1, "E2": 2}, both).ok
     assert validate(p, slots, {"E1": 1, "E2": 1}, {"E1": [("Lab 1", 8)], "E2": [("Small", 5), ("Hall", 7)]},
                     room_splitting=True).soft["room_split"] == 1
 

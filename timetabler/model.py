@@ -14,8 +14,10 @@ attendee
 enrolment
     One attendee booked on one event. Duplicates are removed by intake.
 slot
-    A labelled period of time (a session). Slots are numbered 1..K in the order given;
-    the number is what ``solve --json`` reports.
+    A labelled period of time (a session). Slots are numbered 1..K in time order (intake
+    sorts a slots sheet by date and start time; slots without dates keep the order of their
+    rows); the number is what ``solve --json`` reports. Engines take the order of the list
+    they are given as the order in time: consecutive numbers are consecutive slots.
 rule
     A hard relation between events given by the registrar (see :class:`RuleKind`).
 """
@@ -69,7 +71,11 @@ class Event:
 
 @dataclass
 class Slot:
-    """One slot (session). ``day`` groups slots into days for same-day and back-to-back rules."""
+    """One slot (session). ``day`` groups slots into days for same-day and back-to-back rules.
+
+    ``penalised`` is the Slots sheet's Avoid column (the "avoided slot" goal); ``where`` is
+    the row the slot was read from, for messages that name it (None for generic slots).
+    """
 
     label: str
     date: _dt.date | None = None
@@ -78,6 +84,7 @@ class Slot:
     seat_capacity: int | None = None
     day: int | None = None
     penalised: bool = False
+    where: Location | None = field(default=None, compare=False, repr=False)
 
     @property
     def end(self) -> _dt.time | None:
@@ -90,13 +97,19 @@ class Slot:
 @dataclass
 class Room:
     """One room. ``penalised`` marks a room to use only when the others do not suffice (a soft
-    goal; the Rooms sheet's Avoid column, as ``Slot.penalised`` is the Slots sheet's)."""
+    goal; the Rooms sheet's Avoid column, as ``Slot.penalised`` is the Slots sheet's).
+
+    ``shared``: several events may sit in the room in one slot, as long as their attendees
+    fit in its seats (events of different lengths too: the seats are counted for the whole
+    slot). The Rooms sheet's Shared column sets it to False for a room that holds one event.
+    """
 
     name: str
     capacity: int
     room_type: str | None = None
     unavailable_slots: tuple[str, ...] = ()
     penalised: bool = False
+    shared: bool = True
 
 
 class RuleKind(str, enum.Enum):
@@ -226,6 +239,36 @@ def generic_slots(k: int, per_day: int | None = None) -> list[Slot]:
     return [Slot(label=f"Slot {i}", day=(i - 1) // per + 1) for i in range(1, k + 1)]
 
 
+def time_order(slots: Sequence[Slot]) -> list[int]:
+    """Positions of ``slots`` in time order: by date (or by day number when no slot has a date),
+    then by start time within a day when every slot of that day has one; slots of a day without
+    start times keep the order they were given in, and so do all slots when some have no date
+    (or, without dates, no day number).
+
+    >>> import datetime as dt
+    >>> d = dt.date(2027, 1, 11)
+    >>> time_order([Slot("PM", date=d, start=dt.time(14)), Slot("AM", date=d, start=dt.time(9)),
+    ...             Slot("Tue", date=d + dt.timedelta(days=1))])
+    [1, 0, 2]
+    """
+    if all(s.date is not None for s in slots):
+        day_of = [s.date for s in slots]
+    elif not any(s.date is not None for s in slots) and all(s.day is not None for s in slots):
+        day_of = [s.day for s in slots]
+    else:
+        return list(range(len(slots)))
+    by_day: dict[object, list[int]] = {}
+    for i, d in enumerate(day_of):
+        by_day.setdefault(d, []).append(i)
+    out: list[int] = []
+    for d in sorted(by_day):
+        members = by_day[d]
+        if all(slots[i].start is not None for i in members):
+            members = sorted(members, key=lambda i: slots[i].start)  # stable: equal starts keep their rows
+        out.extend(members)
+    return out
+
+
 def days_of(slots: Sequence[Slot]) -> list[int]:
     """Day index (1-based) of each slot: from ``Slot.day``, else from ``Slot.date``, else one day per slot."""
     if all(s.day is not None for s in slots):
@@ -234,6 +277,33 @@ def days_of(slots: Sequence[Slot]) -> list[int]:
         order = {d: i for i, d in enumerate(sorted({s.date for s in slots}), start=1)}
         return [order[s.date] for s in slots]
     return list(range(1, len(slots) + 1))
+
+
+def event_times(event: Event | None, slot: Slot) -> tuple[_dt.datetime | None, _dt.datetime | None]:
+    """When ``event`` starts and ends if it sits in ``slot``: the one definition every export uses.
+
+    The event starts with the slot and ends ``event.duration_minutes`` later when it has a
+    duration, else when the slot ends (its start plus ``length_minutes``). Without a date the
+    times fall on 1 January 2000 (only their time of day is meant). The end is None when
+    neither the event's duration nor the slot's length is known, and both are None when the
+    slot has no start time: no time is invented.
+
+    >>> import datetime as dt
+    >>> slot = Slot("Mon AM", date=dt.date(2027, 1, 11), start=dt.time(9), length_minutes=180)
+    >>> [t.strftime("%H:%M") for t in event_times(Event("LAW101", duration_minutes=120), slot)]
+    ['09:00', '11:00']
+    >>> event_times(Event("LAW102"), slot)[1].strftime("%H:%M")
+    '12:00'
+    >>> event_times(Event("LAW103"), Slot("Mon AM", start=dt.time(9)))[1] is None
+    True
+    """
+    if slot.start is None:
+        return None, None
+    start = _dt.datetime.combine(slot.date or _dt.date(2000, 1, 1), slot.start)
+    minutes = event.duration_minutes if event is not None and event.duration_minutes else slot.length_minutes
+    if not minutes:
+        return start, None
+    return start, start + _dt.timedelta(minutes=minutes)
 
 
 def distinct_enrolments(pairs: Iterable[tuple[str, str]]) -> tuple[list[tuple[str, str]], int]:

@@ -22,6 +22,11 @@ EXIT_DONE = 0
 EXIT_BUG = 1
 EXIT_BAD_INPUT = 2
 
+#: ``--share-rooms/--no-share-rooms`` of solve and compare.
+SHARE_ROOMS_HELP = ("Several events may sit in one room in a slot, of any lengths, as long as their attendees fit in "
+                    "its seats (the default: --share-rooms is accepted and changes nothing). A room whose Shared "
+                    "column in the Rooms sheet says no holds one event; --no-share-rooms makes every room hold one.")
+
 # Markup and emoji codes are off: file names, event codes and attendee ids reach these
 # consoles as they are ('week[bold].csv', 'MA[/i]1', ':fire:' print as typed). Styling is
 # given with Text objects or ``style=``, never with markup inside a string.

@@ -16,7 +16,7 @@ from ..export.tables import comparison_table, rows_as_json, run_figures, value_t
 from ..model import generic_slots
 from ..scheduling import SolveOptions, fewest_slots, solve, validate
 from .command_clock import CommandClock
-from .common import (console, err_console, input_options, print_json, read_input, require_enrolments, show_warnings,
+from .common import (SHARE_ROOMS_HELP, console, err_console, input_options, print_json, read_input, require_enrolments, show_warnings,
                      styled)
 from ..export.publishing import count_for_runs
 from .output_options import check_outputs, output_options, try_publish
@@ -40,7 +40,7 @@ from .slot_counts import SlotCountsOption, parse_slot_counts
 @click.option("--repeatable", is_flag=True,
               help="The same timetables on every run with the same seed and workers (the search then stops on "
                    "work done rather than on the clock, so it may take longer or shorter than the time limit).")
-@click.option("--share-rooms", is_flag=True, help="Let several events of the same length share a room.")
+@click.option("--share-rooms/--no-share-rooms", default=True, help=SHARE_ROOMS_HELP)
 @click.option("--split-rooms", is_flag=True, help="Let a large event spread over several rooms (each extra room is penalised).")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document instead of a table.")
 @output_options

@@ -17,7 +17,7 @@ from ..intake.vocabulary import GOAL_WORDS, key
 from ..model import Weights, generic_slots
 from ..scheduling import SolveOptions, fewest_slots, solve, validate
 from .command_clock import CommandClock
-from .common import (console, err_console, input_options, print_json, read_input, require_enrolments, show_warnings,
+from .common import (SHARE_ROOMS_HELP, console, err_console, input_options, print_json, read_input, require_enrolments, show_warnings,
                      styled, warn)
 from .output_options import check_outputs, output_options, try_publish
 from .slot_counts import SlotCountsOption, parse_slot_counts
@@ -72,7 +72,7 @@ def _parse_weights(ctx, param, values):
                    "--weight \"avoided room=5\").")
 @click.option("--max-per-day", type=click.IntRange(1, 24), metavar="N",
               help="No attendee may have more than N events on one day (overrides the rules sheet).")
-@click.option("--share-rooms", is_flag=True, help="Let several events of the same length share a room.")
+@click.option("--share-rooms/--no-share-rooms", default=True, help=SHARE_ROOMS_HELP)
 @click.option("--split-rooms", is_flag=True, help="Let a large event spread over several rooms (each extra room is penalised).")
 @click.option("--keep", "keep", metavar="PREVIOUS", type=click.Path(dir_okay=False),
               help="Repair an earlier timetable (a workbook from --out, a CSV with Event and Slot columns, or the label "

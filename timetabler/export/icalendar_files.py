@@ -4,8 +4,12 @@ Written with the ``icalendar`` library. Each event of the timetable becomes a VE
 with the event code and title as its summary, the rooms as its location, and a stable
 UID (a hash of the input file name, the slot count and the event code), so importing an
 updated file replaces entries instead of duplicating them. Slots need dates; a slot
-with a start time and length gives timed entries, a slot with only a date gives an
-all-day entry. Times are "floating" local times (RFC 5545 §3.3.5) unless a time zone
+with a start time gives timed entries, a slot with only a date gives an all-day entry
+(DTSTART and DTEND as dates, RFC 5545 §3.6.1). A timed entry ends when the event does
+(:func:`timetabler.model.event_times`: the slot's start plus the event's duration, else the
+slot's length); when neither is known no end is invented: the files are refused with a
+message naming the slot, since an entry with a start time and no end would be an instant
+(RFC 5545 §3.6.1). Times are "floating" local times (RFC 5545 §3.3.5) unless a time zone
 name (IANA, e.g. ``Europe/London``) is given.
 
 Each entry's SEQUENCE (its revision number, RFC 5545 §3.8.7.4) is the number of minutes
@@ -25,7 +29,9 @@ from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 from icalendar import Calendar, Event as CalEvent
 
 from ..errors import Finding, InputError
-from ..model import Problem, Slot
+from dataclasses import replace
+
+from ..model import Event, Location, Problem, Slot, event_times
 from .csv_folder import prepare_folder
 from .safe_write import check_target, write_safely
 
@@ -43,11 +49,12 @@ def _uid(source: str, k: int, code: str) -> str:
     return f"{digest}@timetabler.invalid"
 
 
-def _times(slot: Slot, tz: ZoneInfo | None) -> tuple[Any, Any]:
+def _times(event: Event, slot: Slot, tz: ZoneInfo | None) -> tuple[Any, Any]:
     if slot.start is None:
         return slot.date, slot.date + dt.timedelta(days=1)
-    start = dt.datetime.combine(slot.date, slot.start)
-    end = start + dt.timedelta(minutes=slot.length_minutes or 60)
+    start, end = event_times(event, slot)
+    if end is None:  # check_dated refuses this before anything is written
+        raise ValueError(f"no end time for {event.code} in {slot.label}")
     if tz is not None:
         start, end = start.replace(tzinfo=tz), end.replace(tzinfo=tz)
     return start, end
@@ -66,7 +73,7 @@ def _entry(problem: Problem, run: Any, code: str, tz: ZoneInfo | None, stamp: dt
     k = int(run.slots)
     slot = run.slot_list[run.assignment[code] - 1]
     event = problem.events[code]
-    start, end = _times(slot, tz)
+    start, end = _times(event, slot, tz)
     entry = CalEvent()
     entry.add("uid", _uid(problem.source, k, code))
     entry.add("dtstamp", stamp)
@@ -81,8 +88,15 @@ def _entry(problem: Problem, run: Any, code: str, tz: ZoneInfo | None, stamp: dt
     return entry
 
 
-def check_dated(run: Any) -> None:
+def check_dated(run: Any, problem: Problem | None = None) -> None:
+    """Refuse calendars that would need an invented time: a slot without a date, or (with ``problem``)
+    an event placed in a slot with a start time but no length that has no duration of its own."""
     check_dated_slots(run.slot_list)
+    if problem is None:
+        return
+    endless = calendar_end_findings(problem, run.slot_list, run.assignment)
+    if endless:
+        raise InputError(endless)
 
 
 def check_dated_slots(slots: Any) -> None:
@@ -99,6 +113,27 @@ def check_dated_slots(slots: Any) -> None:
                 suggestion="Give a slots sheet with a date (and start time and length) for each slot.",
             )
         )
+
+
+def calendar_end_findings(problem: Problem, slots: list[Slot], assignment: dict[str, int] | None = None) -> list[Finding]:
+    """One finding per slot with a start time and no length holding an event without a duration
+    (with ``assignment`` None: any event without a duration, as before solving)."""
+    out: list[Finding] = []
+    without = sorted(c for c, e in problem.events.items() if not e.duration_minutes)
+    for number, slot in enumerate(slots, start=1):
+        if slot.start is None or slot.length_minutes:
+            continue
+        here = without if assignment is None else [c for c in without if assignment.get(c) == number]
+        if not here:
+            continue
+        where = replace(slot.where, column="Length") if isinstance(slot.where, Location) else None
+        out.append(Finding(
+            f"The slot '{slot.label}' has a start time but no length, and {here[0]}"
+            + (f" (and {len(here) - 1} more events)" if len(here) > 1 else "")
+            + " has no duration, so its calendar entry would have no end time.",
+            where=where, found="no length", expected="the slot's length in minutes",
+            suggestion="Give the slot a length in the Slots sheet, or the events a duration in the Events sheet."))
+    return out
 
 
 def time_zone(name: str | None) -> ZoneInfo | None:

@@ -73,7 +73,7 @@ def publish(
         from .icalendar_files import check_dated
 
         for run in solved:
-            check_dated(run)
+            check_dated(run, problem)
     validations = dict(validations or {})
     for run in runs:
         if int(run.slots) not in validations and run.assignment and run.status in ("optimal", "feasible"):

@@ -32,7 +32,7 @@ from collections import Counter, defaultdict
 from dataclasses import dataclass, field
 from typing import Any, Callable, Mapping, Sequence
 
-from ..model import Problem, Slot, days_of
+from ..model import Problem, Slot, days_of, event_times
 
 TEXT, INT, FLOAT, DATE, TIME, FLAG, BIGINT = "text", "int", "float", "date", "time", "flag", "bigint"
 
@@ -204,6 +204,15 @@ def seats_by_slot(problem: Problem, slots: Sequence[Slot], assignment: Mapping[s
 # --------------------------------------------------------------------------- tables of one timetable
 
 
+def event_end(problem: Problem, code: str, slot: Slot | None) -> dt.time | None:
+    """The time of day ``code`` ends in ``slot`` (:func:`timetabler.model.event_times`: the slot's
+    start plus the event's duration, else the slot's end; None when neither is known)."""
+    if slot is None:
+        return None
+    end = event_times(problem.events.get(code), slot)[1]
+    return end.time() if end is not None else None
+
+
 def _room_text(run: Any, code: str) -> tuple[str, int | None]:
     rooms = (getattr(run, "rooms", None) or {}).get(code) or []
     if not rooms:
@@ -213,6 +222,8 @@ def _room_text(run: Any, code: str) -> tuple[str, int | None]:
 
 def events_table(problem: Problem, run: Any) -> PublishedTable:
     """One row per event: its slot, date, start, end, rooms, seats and size.
+
+    The end is the event's own (start plus its duration), not the slot's, when it has a duration.
 
     When some event names preferred rooms, two more columns: those rooms, and whether the
     event has seats in one of them (blank when it has no preference or no rooms).
@@ -239,7 +250,7 @@ def events_table(problem: Problem, run: Any) -> PublishedTable:
         row = [
             code, event.title or "", n, place.slot.label if place else "", place.day if place else None,
             place.session if place else None, place.slot.date if place else None, place.slot.start if place else None,
-            place.slot.end if place else None, rooms, seats, sizes.get(code, 0),
+            event_end(problem, code, place.slot if place else None), rooms, seats, sizes.get(code, 0),
         ]
         if preferences:
             wanted = {name.strip().casefold() for name in event.preferred_rooms}
@@ -270,7 +281,7 @@ def personal_table(problem: Problem, run: Any, show: Callable[[str], str] = str)
         rows.append([
             show(attendee), code, problem.events[code].title or "", n, place.slot.label if place else "",
             place.day if place else None, place.slot.date if place else None, place.slot.start if place else None,
-            place.slot.end if place else None, rooms,
+            event_end(problem, code, place.slot if place else None), rooms,
         ])
     rows.sort(key=lambda r: (r[0], r[3] if r[3] is not None else 10**9, r[1]))
     table.rows = rows
@@ -430,7 +441,8 @@ class GridDay:
 def grid_rows(problem: Problem, run: Any) -> tuple[list[str], list[GridDay]]:
     """The timetable as a grid: session headers, and per day the slot headings and events of each session.
 
-    Events are listed one per line under their session, as ``CODE`` or ``CODE Title``.
+    Events are listed one per line under their session, as ``CODE`` or ``CODE Title``, followed by
+    ``(until HH:MM)`` when the event ends before (or without) the end the heading shows for its slot.
     """
     slots = _run_slots(run)
     places = slot_places(slots)
@@ -438,7 +450,12 @@ def grid_rows(problem: Problem, run: Any) -> tuple[list[str], list[GridDay]]:
     by_slot: dict[int, list[str]] = defaultdict(list)
     for code, n in assignment.items():
         title = problem.events[code].title if code in problem.events else None
-        by_slot[n].append(f"{code} {title}" if title else code)
+        text = f"{code} {title}" if title else code
+        slot = slots[n - 1] if isinstance(n, int) and 1 <= n <= len(slots) else None
+        end = event_end(problem, code, slot)
+        if end is not None and end != slot.end:
+            text += f" (until {end.strftime('%H:%M')})"
+        by_slot[n].append(text)
     sessions = max((p.session for p in places), default=0)
     headers = [f"Session {i}" for i in range(1, sessions + 1)]
     days: dict[int, list[SlotPlace]] = defaultdict(list)

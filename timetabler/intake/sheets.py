@@ -13,7 +13,7 @@ import datetime as _dt
 import re
 from dataclasses import dataclass, field
 
-from ..model import Event, Location, Room, Rule, RuleKind, Slot, Weights
+from ..model import Event, Location, Room, Rule, RuleKind, Slot, Weights, time_order
 from .file_types import RawSheet
 from .findings import FindingList
 from .header_detection import SCAN_ROWS, column_letter
@@ -172,7 +172,6 @@ _AMBIGUOUS_DATE = re.compile(r"^\s*(\d{1,2})[/.-](\d{1,2})[/.-]\d{2,4}\s*$")
 def read_slots(table: Table, findings: FindingList, extras: Extras) -> None:
     seen: dict[str, int] = {}
     ambiguous: tuple[int, str, object] | None = None
-    previous: tuple[int, tuple] | None = None
     for r, cells in table.rows():
         label = identifier(table.get(cells, "Slot"))
         if _total_row(cells):
@@ -219,22 +218,104 @@ def read_slots(table: Table, findings: FindingList, extras: Extras) -> None:
             findings.error("The day is not a day number.", table.where(r, "Day"), found=identifier(raw_day),
                            expected="1 for the first day, 2 for the second, ...")
             day = None
-        avoid = _avoid(table, cells, r, findings)
-        slot = Slot(label=label, date=date, start=start, length_minutes=length, seat_capacity=seats, day=day, penalised=avoid)
+        avoid = _yes_no_cell(table, cells, r, "Avoid", findings)
+        slot = Slot(label=label, date=date, start=start, length_minutes=length, seat_capacity=seats, day=day,
+                    penalised=avoid, where=table.where(r))
         extras.slots.append((slot, table.where(r)))
-        if date is not None:
-            moment = (date, start or _dt.time(0))
-            if previous is not None and moment < previous[1]:
-                findings.warn(f"The slots are not in time order: this one comes before the slot of row {previous[0]}.",
-                              table.where(r, "Date"), found=f"{date.isoformat()} {start.strftime('%H:%M') if start else ''}".strip(),
-                              suggestion="List the slots in time order: slot numbers, back-to-back and same-day "
-                              "goals follow the order of the rows.")
-            previous = (r, moment)
     if ambiguous is not None:
         r, text, date = ambiguous
         findings.warn(f"Dates such as '{text}' were read day first, as {date:%d %B %Y}.", table.where(r, "Date"),
                       suggestion="If your dates are month first, write them as year-month-day (e.g. 2027-03-05) "
                       "or as date cells.")
+    extras.slots = _in_time_order(table, extras.slots, findings)
+
+
+def _moment(slot: Slot) -> str:
+    when = slot.date.isoformat() if slot.date else (f"day {slot.day}" if slot.day else "")
+    return " ".join(x for x in (when, slot.start.strftime("%H:%M") if slot.start else "") if x)
+
+
+def _in_time_order(table: Table, read: list[tuple[Slot, Location]], findings: FindingList) -> list[tuple[Slot, Location]]:
+    """The slots sorted into time order, with a finding for each thing about time worth knowing:
+    rows out of order (the slots are numbered in time order, not by row), a Day column that
+    disagrees with the dates, no dates and no day numbers (each slot is then a day of its own,
+    in the order of the rows), and slots that overlap in time."""
+    if not read:
+        return read
+    slots = [s for s, _ in read]
+    dated = [s for s in slots if s.date is not None]
+    numbered = [s for s in slots if s.day is not None]
+    if not dated and not numbered:
+        findings.warn("The slots sheet gives no dates and no day numbers, so each slot is taken as a day of its own, "
+                      "in the order of the rows: back-to-back and same-day goals cannot be judged.",
+                      table.where(table.header_row, "Date" if "Date" in table.index else None),
+                      suggestion="Give each slot a date (and a start time), or a day number in a Day column.")
+    elif not dated and len(numbered) < len(slots):
+        first = next(w for s, w in read if s.day is None)
+        findings.warn("Some slots have a day number and some do not, so each slot is taken as a day of its own, "
+                      "in the order of the rows.", table.where(first.row, "Day"),
+                      suggestion="Give every slot a day number, or none.")
+    if dated and len(dated) == len(slots) and numbered:
+        _check_days_match_dates(table, read, findings)
+    order = time_order(slots)
+    moved = [n for n, i in enumerate(order) if i != n]
+    if moved:
+        first = read[order[moved[0]]]
+        findings.warn(
+            f"The rows of the slots sheet are not in time order; the slots are used in time order (by date, then "
+            f"start time), "
+            f"so slot {moved[0] + 1} is '{first[0].label}' ({_moment(first[0])}, row {first[1].row}).",
+            table.where(first[1].row, "Date" if dated else "Day"), found=_moment(first[0]),
+            suggestion="Slot numbers (in the Events and Rooms sheets, --slots K and the results) count in time "
+                       "order; list the rows in time order to make them match the rows.")
+    ordered = [read[i] for i in order]
+    _warn_overlaps(table, ordered, findings)
+    return ordered
+
+
+def _check_days_match_dates(table: Table, read: list[tuple[Slot, Location]], findings: FindingList) -> None:
+    """A Day column beside dates must give one number per date, rising with the dates."""
+    day_of_date: dict[_dt.date, tuple[int, int | None]] = {}
+    date_of_day: dict[int, _dt.date] = {}
+    for slot, where in read:
+        if slot.day is None:
+            findings.error("This slot has a date but no day number, while other slots have one.",
+                           table.where(where.row, "Day"), expected="a day number on every row, or none",
+                           suggestion="Leave the Day column out: days follow the dates.")
+            return
+        known = day_of_date.setdefault(slot.date, (slot.day, where.row))
+        other = date_of_day.setdefault(slot.day, slot.date)
+        if known[0] != slot.day or other != slot.date:
+            findings.error("The day number disagrees with the dates.", table.where(where.row, "Day"),
+                           found=f"day {slot.day} on {slot.date.isoformat()}",
+                           expected=(f"day {known[0]}, as on row {known[1]} of the same date" if known[0] != slot.day
+                                     else f"a day number other than {slot.day}, which is {other.isoformat()}"),
+                           suggestion="Leave the Day column out: days follow the dates.")
+            return
+    dates = sorted(day_of_date)
+    for a, b in zip(dates, dates[1:]):
+        if day_of_date[a][0] > day_of_date[b][0]:
+            findings.error("The day numbers do not rise with the dates.", table.where(day_of_date[b][1], "Day"),
+                           found=f"day {day_of_date[b][0]} on {b.isoformat()}, after day {day_of_date[a][0]} on "
+                                 f"{a.isoformat()}", suggestion="Leave the Day column out: days follow the dates.")
+            return
+
+
+def _warn_overlaps(table: Table, ordered: list[tuple[Slot, Location]], findings: FindingList) -> None:
+    """Consecutive dated slots whose times overlap: an attendee could be given events in both."""
+    for (a, wa), (b, wb) in zip(ordered, ordered[1:]):
+        if a.date is None or a.date != b.date or a.start is None or b.start is None:
+            continue
+        start_a = _dt.datetime.combine(a.date, a.start)
+        end_a = start_a + _dt.timedelta(minutes=a.length_minutes or 0)
+        start_b = _dt.datetime.combine(b.date, b.start)
+        if start_b < end_a or start_b == start_a:
+            findings.warn(f"The slots '{a.label}' (row {wa.row}) and '{b.label}' (row {wb.row}) overlap in time, "
+                          "so an attendee could be given events in both at once.", table.where(wb.row, "Start"),
+                          found=f"{_moment(b)}, while '{a.label}' runs {_moment(a)}"
+                                + (f" for {a.length_minutes} minutes" if a.length_minutes else ""),
+                          suggestion="Check the start times and lengths; merge slots that are really one session.")
+            return
 
 
 def read_rooms(table: Table, findings: FindingList, extras: Extras) -> None:
@@ -258,9 +339,11 @@ def read_rooms(table: Table, findings: FindingList, extras: Extras) -> None:
             findings.error("The capacity is not a whole number of seats.", table.where(r, "Capacity"),
                            found=identifier(raw), expected="a whole number, 1 or more")
             capacity = 0
-        avoid = _avoid(table, cells, r, findings)
+        avoid = _yes_no_cell(table, cells, r, "Avoid", findings)
+        shared = _yes_no_cell(table, cells, r, "Shared", findings, blank=True)
         room = Room(name=name, capacity=capacity, room_type=identifier(table.get(cells, "Room type")) or None,
-                    unavailable_slots=tuple(split_list(table.get(cells, "Unavailable slots"))), penalised=avoid)
+                    unavailable_slots=tuple(split_list(table.get(cells, "Unavailable slots"))), penalised=avoid,
+                    shared=shared)
         extras.rooms.append((room, table.where(r)))
 
 
@@ -300,15 +383,18 @@ def read_rules(table: Table, findings: FindingList, extras: Extras) -> None:
         extras.rules.append(Rule(kind=kind, events=events, where=table.where(r)))
 
 
-def _avoid(table: Table, cells, r: int, findings: FindingList) -> bool:
-    """The Avoid column of a slots or rooms row: yes/no (blank is no); anything else is an error."""
-    raw = table.get(cells, "Avoid")
-    avoid = yes_no(raw)
-    if avoid is None:
-        findings.error("Avoid must be yes or no.", table.where(r, "Avoid"), found=identifier(raw),
-                       expected="yes, or no (or blank)")
-        return False
-    return avoid
+def _yes_no_cell(table: Table, cells, r: int, column: str, findings: FindingList, *, blank: bool = False) -> bool:
+    """A yes/no column of a slots or rooms row (Avoid, Shared): a blank cell is ``blank``;
+    anything but yes or no is an error."""
+    raw = table.get(cells, column)
+    if is_blank(raw):
+        return blank
+    value = yes_no(raw)
+    if value is None:
+        findings.error(f"{column} must be yes or no.", table.where(r, column), found=identifier(raw),
+                       expected=f"yes, or no (or blank for {'yes' if blank else 'no'})")
+        return blank
+    return value
 
 
 def read_weights(table: Table, findings: FindingList, extras: Extras) -> None:

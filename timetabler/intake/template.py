@@ -89,8 +89,8 @@ EXAMPLE = {
         ("Tue 4 May AM", dt.date(2027, 5, 4), dt.time(9, 30), 180, 120, None, "no"),
         ("Tue 4 May PM", dt.date(2027, 5, 4), dt.time(14, 0), 180, 120, None, "yes"),
     ],
-    ROOMS: [("Orchard Hall", 100, "Hall", None, "no"), ("Beacon Lab", 20, "Lab", "Tue 4 May PM", "no"),
-            ("Cloister Room", 40, "Hall", None, "yes")],
+    ROOMS: [("Orchard Hall", 100, "Hall", None, "no", "yes"), ("Beacon Lab", 20, "Lab", "Tue 4 May PM", "no", "no"),
+            ("Cloister Room", 40, "Hall", None, "yes", "yes")],
     RULES: [("before", "MAT101", "PHY110"), ("different days", "PHY110", "CHM120")],
 }
 
@@ -207,6 +207,7 @@ def build_template(example: bool = False):
         elif sheet_name == ROOMS:
             check("Capacity", whole(1, 100_000, "Seats in the room"))
             check("Avoid", DataValidation(type="list", formula1='"yes,no"', allow_blank=True, error="Choose yes or no."))
+            check("Shared", DataValidation(type="list", formula1='"yes,no"', allow_blank=True, error="Choose yes or no."))
         elif sheet_name == RULES:
             check("Rule", DataValidation(type="list", formula1='"' + ",".join(RULE_CHOICES) + '"',
                                          error="Choose a rule from the list."))
@@ -271,7 +272,8 @@ def _write_instructions(ws, example: bool) -> None:
          "as a grid with one column per event code and an x where the attendee is enrolled; "
          "and, when only clash counts are known, a sheet with columns 'Event', 'Other event' and "
          "'Shared' (how many attendees the two events share).", None),
-        ("Slots are named in the Slots sheet ('Mon 3 May AM') or numbered 1, 2, 3 ... in time order. "
+        ("Slots are named in the Slots sheet ('Mon 3 May AM') or numbered 1, 2, 3 ... in time order "
+         "(by date, then start time, whatever the order of the rows). "
          "Several slots in one cell are separated by ; (semicolon).", None),
         ("Check the workbook with:  timetabler inspect FILE.xlsx", None),
     ]

@@ -37,7 +37,9 @@ Slots         Slot                the slot's name, e.g. ``Mon 11 Jan AM`` (sheet
               Start               a time of day (a time cell or ``09:00``)
               Length              minutes
               Seats               seats available in the slot over all rooms
-              Day                 day number, when there are no dates (optional)
+              Day                 day number, when there are no dates (optional); slots are
+                                  used in time order (date or day, then start), whatever the
+                                  order of the rows
               Avoid               ``yes`` to use the slot only when needed (a soft goal)
 Rooms         Room                the room's name
               Capacity            seats
@@ -45,6 +47,9 @@ Rooms         Room                the room's name
               Unavailable slots   slots the room cannot be used, separated by ``;`` or ``,``
               Avoid               ``yes`` to use the room only when the others do not suffice
                                   (a soft goal)
+              Shared              ``no`` for a room that holds one event at a time; blank or
+                                  ``yes``: several events may sit in it at once, of any
+                                  lengths, as long as their attendees fit in its seats
 Rules         Rule                one of: ``before``, ``same slot``, ``different days``, ``alone``
               First event         the event the rule is about
               Other events        the other event(s), separated by ``;`` or ``,``
@@ -239,6 +244,8 @@ ROOMS_COLUMNS = (
     Column("Unavailable slots", ("unavailable", "not available", "closed", "barred slots", "closed slots"), "slots it cannot be used"),
     Column("Avoid", ("avoid if possible", "penalised", "discouraged", "use only if needed"),
            "yes to use the room only when the others do not suffice"),
+    Column("Shared", ("share", "sharing", "can share", "shared use", "several events"),
+           "yes (or blank) lets several events sit in the room at once; no: one event at a time"),
 )
 
 RULES_COLUMNS = (

@@ -19,7 +19,9 @@ Hard rules:
 * physical limits (event length within slot length, event seats within the slot's seats
   and the rooms that could hold it) shrink each event's slots;
 * fixed and barred slots, "same slot", "before", "different days", "alone", the seat limit of
-  each slot, the seats of the rooms of each type in each slot, the cap on events per
+  each slot, the seats of the rooms of each type in each slot (and, without splitting, the
+  places they have for events of each size: one per room not shared, ``capacity // size``
+  per shared room), the cap on events per
   attendee per day. In *explain* mode each of these carries its own enforcement literal,
   which the solver takes as an assumption; the sufficient assumptions for infeasibility
   then name a set of rules that cannot all hold.
@@ -217,7 +219,7 @@ def physical_domains(problem: Problem, slots: list[Slot], codes, sizes: dict[str
                 reasons[s] = f"it has {sizes[code]} attendees and slot {s} only {slot.seat_capacity} seats"
                 continue
             if problem.rooms and sizes[code] > 0:
-                caps = room_caps[s].get(_type_key(ev.room_type), [])
+                caps = [cap for cap, _ in room_caps[s].get(_type_key(ev.room_type), [])]
                 room_word = f"rooms of type '{ev.room_type}'" if ev.room_type else "rooms"
                 if room_splitting:
                     if sizes[code] > sum(caps):
@@ -237,17 +239,20 @@ def _type_key(room_type: str | None) -> str | None:
     return room_type.casefold() if room_type else None
 
 
-def _room_capacity_by_slot(problem: Problem, slots: list[Slot]) -> dict[int, dict[str | None, list[int]]]:
-    """Capacities of the rooms free in each slot, by room type (key None: every room)."""
-    out: dict[int, dict[str | None, list[int]]] = {}
+def _room_capacity_by_slot(problem: Problem, slots: list[Slot], *, shared_only: bool = False
+                           ) -> dict[int, dict[str | None, list[tuple[int, bool]]]]:
+    """(capacity, may be shared) of the rooms free in each slot, by room type (key None: every room).
+    With ``shared_only`` (room sharing switched off) no room may be shared."""
+    out: dict[int, dict[str | None, list[tuple[int, bool]]]] = {}
     for s in range(1, len(slots) + 1):
-        by_type: dict[str | None, list[int]] = {None: []}
+        by_type: dict[str | None, list[tuple[int, bool]]] = {None: []}
         for room in problem.rooms:
             if any(problem.slot_number(ref, slots) == s for ref in room.unavailable_slots):
                 continue
-            by_type[None].append(room.capacity)
+            entry = (room.capacity, room.shared and not shared_only)
+            by_type[None].append(entry)
             if room.room_type:
-                by_type.setdefault(room.room_type.casefold(), []).append(room.capacity)
+                by_type.setdefault(room.room_type.casefold(), []).append(entry)
         out[s] = by_type
     return out
 
@@ -297,7 +302,7 @@ def build_model(
     previous: dict[str, int] | None = None,
     large: set[str] | None = None,
     room_splitting: bool = False,
-    room_sharing: bool = False,
+    room_sharing: bool = True,
     nogoods: list[tuple[int, list[str]]] | None = None,
     cover: list[list[Hashable]] | None = None,
     stop_at: float | None = None,
@@ -439,7 +444,7 @@ def build_model(
 
     # rooms: seats of the rooms of each type free in each slot
     if problem.rooms:
-        caps = _room_capacity_by_slot(problem, slots)
+        caps = _room_capacity_by_slot(problem, slots, shared_only=not room_sharing)
         types = sorted({_type_key(problem.events[c].room_type) for c in codes}, key=lambda v: (v is not None, v or ""))
         for s in range(k):
             for ty in types:
@@ -447,23 +452,28 @@ def build_model(
                            and (ty is None or _type_key(problem.events[c].room_type) == ty)]
                 room_caps = caps[s + 1].get(ty, [])
                 word = f"rooms of type '{ty}'" if ty else "rooms"
-                if sum(sizes[c] for c in members) > sum(room_caps):
-                    lit = rule_literal(f"the {word} free in slot {s + 1} seat {sum(room_caps)}", "rooms")
-                    enforce(m.add(sum(sizes[c] * x[c][s] for c in members) <= sum(room_caps)), lit)
-                if not room_sharing and len(members) > len(room_caps):
+                if sum(sizes[c] for c in members) > sum(cap for cap, _ in room_caps):
+                    total = sum(cap for cap, _ in room_caps)
+                    lit = rule_literal(f"the {word} free in slot {s + 1} seat {total}", "rooms")
+                    enforce(m.add(sum(sizes[c] * x[c][s] for c in members) <= total), lit)
+                if not room_splitting:
+                    # Hall's condition: the events needing at least `need` seats cannot outnumber the places
+                    # for them, a room of `cap` seats holding one such event, or cap // need when shared
+                    # (exact without sharing for one room type, since the rooms an event fits are nested by size)
+                    needs = {cap + 1 for cap, _ in room_caps} | {min((sizes[c] for c in members), default=1)}
+                    if any(shared for _, shared in room_caps):
+                        needs |= {sizes[c] for c in members}
+                    for need in sorted(needs):
+                        big = [c for c in members if sizes[c] >= need]
+                        fits = sum((cap // need if shared else 1) for cap, shared in room_caps if cap >= need)
+                        if len(big) > fits:
+                            lit = rule_literal(f"slot {s + 1} has places for {fits} events with {need} seats or more "
+                                               f"in its {word}", "rooms")
+                            enforce(m.add(sum(x[c][s] for c in big) <= fits), lit)
+                elif not any(shared for _, shared in room_caps) and len(members) > len(room_caps):
+                    # split events still take a room each, and no room takes two
                     lit = rule_literal(f"slot {s + 1} has {len(room_caps)} {word} free, one event per room", "rooms")
                     enforce(m.add(sum(x[c][s] for c in members) <= len(room_caps)), lit)
-                if not room_sharing and not room_splitting:
-                    # Hall's condition for seating one event per room: the events needing at least
-                    # `need` seats cannot outnumber the rooms that have them (exact for one room type,
-                    # since the rooms an event fits are nested by size)
-                    for need in sorted({cap + 1 for cap in room_caps} | {min((sizes[c] for c in members), default=1)}):
-                        big = [c for c in members if sizes[c] >= need]
-                        fits = sum(1 for cap in room_caps if cap >= need)
-                        if len(big) > fits:
-                            lit = rule_literal(f"slot {s + 1} has {fits} {word} free with {need} seats or more, "
-                                               "one event per room", "rooms")
-                            enforce(m.add(sum(x[c][s] for c in big) <= fits), lit)
     for s, group in nogoods or ():
         if all(c in code_set for c in group):
             m.add(sum(x[c][s - 1] for c in group) <= len(group) - 1)

@@ -8,8 +8,8 @@ The pre-checks need no search and name concrete evidence:
 * an event that fits no slot (too long, too many attendees for the slot's seats or for the
   rooms free then), or whose fixed slot is not a slot or is barred;
 * two events fixed to the same slot that share an attendee;
-* (one event per room, no splitting) more events needing a room of some size than there are
-  such rooms, counted over all slots.
+* (no splitting) more events needing a room of some size than there are places for them over
+  all slots: one per (room, slot) for a room not shared, ``capacity // size`` for a shared one.
 
 When these find nothing and CP-SAT proves the slot count infeasible, the model is built
 again with one enforcement literal per user rule, each taken as an assumption; CP-SAT's
@@ -103,9 +103,12 @@ def prechecks(problem: Problem, slots: list[Slot], graph: nx.Graph, clique: list
     return out
 
 
-def room_count_witness(problem: Problem, slots: list[Slot], sizes: dict[str, int]) -> Witness | None:
-    """One event per room and no splitting: events needing at least ``need`` seats (of a room type)
-    cannot outnumber the (room, slot) places with that many seats."""
+def room_count_witness(problem: Problem, slots: list[Slot], sizes: dict[str, int], *,
+                       sharing: bool = True) -> Witness | None:
+    """No splitting: events needing at least ``need`` seats (of a room type) cannot outnumber the places
+    for them over all slots. A room that may not be shared (``Room.shared`` False, or ``sharing``
+    off) gives one place per slot it is free; a shared room of ``cap`` seats gives ``cap // need``,
+    since every such event takes at least ``need`` of its seats."""
     if not problem.rooms:
         return None
     types = {None} | {(e.room_type or "").casefold() or None for e in problem.events.values()}
@@ -113,15 +116,24 @@ def room_count_witness(problem: Problem, slots: list[Slot], sizes: dict[str, int
         members = [c for c, e in problem.events.items() if sizes.get(c, 0) > 0
                    and (ty is None or (e.room_type or "").casefold() == ty)]
         rooms = [r for r in problem.rooms if ty is None or (r.room_type or "").casefold() == ty]
-        for need in sorted({r.capacity + 1 for r in rooms} | {min((sizes[c] for c in members), default=1)}):
+        free = {r.name: sum(1 for s in range(1, len(slots) + 1)
+                            if not any(problem.slot_number(u, slots) == s for u in r.unavailable_slots)) for r in rooms}
+        shared = {r.name: sharing and r.shared for r in rooms}
+        needs = {r.capacity + 1 for r in rooms} | {min((sizes[c] for c in members), default=1)}
+        if any(shared.values()):
+            needs |= {sizes[c] for c in members}
+        for need in sorted(needs):
             big = [c for c in members if sizes[c] >= need]
-            places = sum(1 for r in rooms for s in range(1, len(slots) + 1) if r.capacity >= need
-                         and not any(problem.slot_number(u, slots) == s for u in r.unavailable_slots))
+            places = sum(free[r.name] * (r.capacity // need if shared[r.name] else 1)
+                         for r in rooms if r.capacity >= need)
             if len(big) > places:
                 word = f"rooms of type '{ty}'" if ty else "rooms"
                 count = sum(1 for r in rooms if r.capacity >= need)
+                how = ("one event per room; sharing or splitting rooms may help" if not any(shared.values()) else
+                       "a shared room holds as many of them as its seats allow, a room marked not shared one; "
+                       "splitting events over rooms may help")
                 return Witness("rooms", f"{len(big)} events need {word} with at least {need} seats, but the "
                                         f"{count} such rooms give only {places} places over {len(slots)} slots "
-                                        "(one event per room; sharing or splitting rooms may help)",
+                                        f"({how})",
                                events=sorted(big))
     return None

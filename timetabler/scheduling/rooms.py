@@ -1,7 +1,11 @@
 """Seating the events of each slot in rooms, once the slots are chosen.
 
 The slot model (:mod:`.cpsat_model`) keeps only the aggregate room limits (seats of the
-free rooms of each type per slot, and one event per room unless sharing is allowed). Given
+free rooms of each type per slot, and the places they have for events of each size).
+Rooms are shared by default: several events, of any lengths, sit in one room as long as
+their attendees fit in its seats (counted for the whole slot); a room marked not shared
+(``Room.shared`` False, the Rooms sheet's Shared column) or every room when sharing is
+switched off holds one event. Given
 its timetable, each slot is seated here: best-fit decreasing first (largest event first,
 into the smallest room that holds it). When that fails, or leaves a room-goal penalty (below),
 one event per room, whole, is solved exactly as an assignment problem; when rooms may be
@@ -71,7 +75,7 @@ class Seating:
 
 
 def seat_events(problem: Problem, slots: list[Slot], assignment: dict[str, int], sizes: dict[str, int], *,
-                sharing: bool = False, splitting: bool = False, seconds_per_slot: float = 5.0,
+                sharing: bool = True, splitting: bool = False, seconds_per_slot: float = 5.0,
                 seed: int = 0) -> Seating:
     """Rooms for every event of ``assignment`` (event -> [(room, seats)])."""
     out = Seating()
@@ -95,8 +99,9 @@ def seat_events(problem: Problem, slots: list[Slot], assignment: dict[str, int],
                 got = whole
             # Splitting alone adds room_split per extra room, so it cannot beat a whole seating
             # costing room_split or less; sharing is free and always worth the search.
-            settled = whole is not None and not sharing and goals.cost(whole)[0] <= goals.split
-            if (sharing or splitting) and not settled:  # CP-SAT may still do better by sharing or splitting
+            shares = sharing and any(r.shared for r in free)
+            settled = whole is not None and not shares and goals.cost(whole)[0] <= goals.split
+            if (shares or splitting) and not settled:  # CP-SAT may still do better by sharing or splitting
                 better, proven = _exact(problem, codes, free, sizes, sharing, splitting, seconds_per_slot, seed,
                                         goals, hint=got)
                 if better is not None and (got is None or goals.cost(better) < goals.cost(got)):
@@ -171,21 +176,17 @@ def _greedy(problem, codes, rooms, sizes, sharing, splitting, goals: _RoomGoals 
         return goals is not None and bool(goals.avoided) and room.name.casefold() in goals.avoid
 
     left = {r.name: r.capacity for r in rooms}
-    length_in: dict[str, int | None] = {}
     used: set[str] = set()
     result: dict[str, list[tuple[str, int]]] = {}
     for code in codes:
         need = sizes[code]
-        length = problem.events[code].duration_minutes
-        ok = [r for r in rooms if _fits_type(problem, code, r)
-              and (r.name not in used or (sharing and length_in.get(r.name) == length))]
+        ok = [r for r in rooms if _fits_type(problem, code, r) and (r.name not in used or (sharing and r.shared))]
         whole = sorted((r for r in ok if left[r.name] >= need), key=lambda r: (cost(code, r), left[r.name], r.name))
         if whole:
             r = whole[0]
             result[code] = [(r.name, need)]
             left[r.name] -= need
             used.add(r.name)
-            length_in[r.name] = length
             continue
         if not splitting:
             return None
@@ -203,7 +204,6 @@ def _greedy(problem, codes, rooms, sizes, sharing, splitting, goals: _RoomGoals 
         for name, take in parts:
             left[name] -= take
             used.add(name)
-            length_in[name] = length
         result[code] = parts
     return result
 
@@ -271,13 +271,8 @@ def _exact(problem, codes, rooms, sizes, sharing, splitting, seconds, seed, goal
         if not here:
             continue
         m.Add(sum(seats[c, r.name] for c in here) <= r.capacity)
-        if not sharing:
+        if not (sharing and r.shared):
             m.AddAtMostOne(use[c, r.name] for c in here)
-        else:
-            for i, a in enumerate(here):
-                for b in here[i + 1:]:
-                    if problem.events[a].duration_minutes != problem.events[b].duration_minutes:
-                        m.AddBoolOr([use[a, r.name].Not(), use[b, r.name].Not()])
     weighted = []
     if goals.split and splitting:
         weighted += [goals.split * v for v in use.values()]

@@ -33,7 +33,7 @@ import networkx as nx
 from ortools.sat.python import cp_model
 
 from ..conflicts import conflict_graph
-from ..model import Problem, Slot, generic_slots
+from ..model import Problem, Slot, generic_slots, time_order
 from .cliques import clique_cover, largest_clique_found
 from .cpsat_model import (BuildStopped, TimetableModel, build_model, large_event_codes, physical_domains,
                           slots_interchangeable)
@@ -67,8 +67,9 @@ class SolveOptions:
         Interleave the workers in fixed batches and stop on CP-SAT's deterministic time
         (about ``time_limit`` seconds of work) instead of the wall clock, so runs repeat exactly.
     room_sharing, room_splitting
-        Several events of equal length may share a room; a large event may be spread over
-        several rooms (each extra room costs ``Weights.room_split``).
+        Several events may share a room, of any lengths, as long as their attendees fit in its
+        seats (the default; a room with ``Room.shared`` False never holds two); a large event
+        may be spread over several rooms (each extra room costs ``Weights.room_split``).
     explain
         Search for the rules that cannot all hold when no timetable exists.
     split_components
@@ -86,7 +87,7 @@ class SolveOptions:
     workers: int = 2
     seed: int = 0
     deterministic: bool = False
-    room_sharing: bool = False
+    room_sharing: bool = True
     room_splitting: bool = False
     explain: bool = True
     split_components: bool = True
@@ -284,6 +285,9 @@ def solve(
     if options.deadline is not None and not options.deterministic:
         limit = max(0.2, min(limit, options.deadline - start))
     k = len(slots)
+    if time_order(slots) != list(range(k)):
+        # the model reads consecutive numbers as consecutive slots; intake sorts a slots sheet by time
+        raise ValueError("the slots must be given in time order (by date, then start time)")
     graph = conflict_graph(problem) if graph is None else graph
     sizes = {c: int(graph.nodes[c].get("size", 0)) for c in graph}
     for c in problem.events:
@@ -315,8 +319,8 @@ def solve(
     cover = clique_cover(graph)
     clique = largest_clique_found(graph, cover)
     witnesses = prechecks(problem, slots, graph, clique, domains.allowed, domains.why_not)
-    if not options.room_sharing and not options.room_splitting:
-        seat_witness = room_count_witness(problem, slots, sizes)
+    if not options.room_splitting:
+        seat_witness = room_count_witness(problem, slots, sizes, sharing=options.room_sharing)
         if seat_witness is not None:
             witnesses.append(seat_witness)
     if witnesses:
@@ -1025,12 +1029,15 @@ def fewest_slots(
             else:
                 budget *= 2
         best_run = SolveRun(slots=hi, slot_list=slots_for(hi), status="feasible", assignment=dict(colouring))
-    # without a timetable yet (rules), look upwards from the lower bound
+    # without a timetable yet (rules), look upwards from the lower bound while counts are proven
+    # impossible (a witness settles most at once); at the first count left open, take an upper bound
+    # from all the slots first (the easiest count), so the bisection below has a timetable in hand
+    tried_all = False
     while hi is None and lo <= max_k:
         left = options.time_limit - (time.perf_counter() - start)
         if left <= 0.2:
             break
-        quick.time_limit = left / 2 if lo < max_k else left
+        quick.time_limit = left / 4 if lo < max_k and not tried_all else (left / 2 if lo < max_k else left)
         run = solve(_without_goals(problem), slots_for(lo), quick, graph=graph)
         result.attempts.append({"slots": lo, "status": run.status, "seconds": round(run.wall_seconds, 3)})
         if run.status in ("optimal", "feasible"):
@@ -1041,6 +1048,20 @@ def fewest_slots(
             lo += 1
         else:
             lo += 1
+            if not tried_all and lo < max_k:
+                tried_all = True
+                left = options.time_limit - (time.perf_counter() - start)
+                if left <= 0.2:
+                    break
+                quick.time_limit = left / 3
+                top = solve(_without_goals(problem), slots_for(max_k), quick, graph=graph)
+                result.attempts.append({"slots": max_k, "status": top.status, "seconds": round(top.wall_seconds, 3)})
+                if top.status in ("optimal", "feasible"):
+                    hi, best_run, result.upper_reason = max_k, top, "CP-SAT"
+                elif top.status == "infeasible":  # fewer slots only make it harder
+                    proven_lo = max(proven_lo, max_k + 1)
+                    why_not[max_k] = top.reason or ""
+                    break
     # with a timetable in hand: the lower bound first, then bisection
     first_try = True
     while hi is not None and lo < hi:

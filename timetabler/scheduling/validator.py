@@ -34,6 +34,16 @@ Soft-goal counts (``Validation.soft``), all per attendee and pair of that attend
     (event, room) pairs in which the room is marked Avoid.
 
 Room names are compared without regard to case, as the rooms sheet is read.
+
+Time is read here afresh from the slots themselves, not from their numbers (see
+:func:`_timeline`): slots are put in order by date (or by day number when there are no
+dates) and start time, days are the dates, and "consecutive", "same day", "before" and
+the distance of the proximity cost follow that order. Slots numbered against the calendar
+are reported as a violation, so a timetable whose slot numbers do not run with time (the
+model takes consecutive numbers as consecutive slots) cannot pass.
+
+Rooms: a room holds several events in one slot when their attendees fit in its seats
+(whatever their lengths), unless sharing is switched off or the room is marked not shared.
 """
 
 from __future__ import annotations
@@ -43,7 +53,7 @@ from collections import defaultdict
 from dataclasses import dataclass, field
 from typing import Mapping, Sequence
 
-from ..model import Problem, RuleKind, Slot, days_of
+from ..model import Problem, RuleKind, Slot
 
 #: Carter, Laporte & Lee (1996): weight of two events of one attendee ``gap`` slots apart.
 CARTER_WEIGHTS = {1: 16, 2: 8, 3: 4, 4: 2, 5: 1}
@@ -70,7 +80,7 @@ def validate(
     rooms: Mapping[str, Sequence[tuple[str, int]]] | None = None,
     *,
     previous: Mapping[str, int] | None = None,
-    room_sharing: bool = False,
+    room_sharing: bool = True,
     room_splitting: bool = False,
 ) -> Validation:
     """Check ``assignment`` (event code -> slot 1..K) against ``problem`` and recount soft goals.
@@ -86,8 +96,8 @@ def validate(
     previous
         An earlier timetable: events placed elsewhere now are counted as ``moved``.
     room_sharing, room_splitting
-        Whether several events may share a room (of equal length) and whether an event
-        may be spread over several rooms.
+        Whether several events may share a room (within its seats; rooms with
+        ``shared=False`` never) and whether an event may be spread over several rooms.
 
     Examples
     --------
@@ -100,10 +110,15 @@ def validate(
     """
     k = len(slots)
     violations: list[str] = []
-    day = days_of(slots)
+    rank, day = _timeline(slots)
 
     def label(s: int) -> str:
         return f"slot {s} ({slots[s - 1].label})" if 1 <= s <= k else f"slot {s}"
+
+    for s in range(2, k + 1):
+        if rank[s - 1] < rank[s - 2]:
+            violations.append(f"the slots are not numbered in time order: {label(s)} comes before {label(s - 1)}")
+            break
 
     # every event placed once, in a real slot
     placed: dict[str, int] = {}
@@ -129,10 +144,10 @@ def validate(
         "preferred_slot", "penalised_slot", "room_split", "moved", "preferred_room", "penalised_room")}
     load: dict[str, dict[str, int]] = {}
     for attendee in sorted(by_attendee):
-        mine = sorted((placed[c], c) for c in by_attendee[attendee] if c in placed)
+        mine = sorted((rank[placed[c] - 1], placed[c], c) for c in by_attendee[attendee] if c in placed)
         per_slot: dict[int, list[str]] = defaultdict(list)
         per_day: dict[int, int] = defaultdict(int)
-        for s, c in mine:
+        for _, s, c in mine:
             per_slot[s].append(c)
             per_day[day[s - 1]] += 1
         for s, codes in sorted(per_slot.items()):
@@ -145,9 +160,9 @@ def validate(
                         f"{attendee} has {n} events on day {d}, more than the limit of {problem.max_per_day}")
         for i in range(len(mine)):
             for j in range(i + 1, len(mine)):
-                s, t = mine[i][0], mine[j][0]
-                gap = t - s
-                if gap == 0:
+                (rs, s, _), (rt, t, _) = mine[i], mine[j]
+                gap = rt - rs  # slots apart in time, not in numbering
+                if s == t:
                     continue
                 if day[s - 1] == day[t - 1]:
                     if gap == 1:
@@ -193,7 +208,7 @@ def validate(
         cut = enrolled[max(1, math.ceil(len(enrolled) / 10)) - 1]
         for code, n in sizes.items():
             if n >= cut and code in placed:
-                soft["large_late"] += placed[code] - 1
+                soft["large_late"] += rank[placed[code] - 1]
 
     # seats per slot
     seats_in: dict[int, int] = defaultdict(int)
@@ -204,7 +219,7 @@ def validate(
         if cap is not None and seats_in[s] > cap:
             violations.append(f"{label(s)} seats {seats_in[s]} attendees, more than its {cap} seats")
 
-    _check_rules(problem, slots, placed, day, label, violations)
+    _check_rules(problem, slots, placed, rank, day, label, violations)
     if problem.rooms:
         _check_rooms(problem, slots, placed, sizes, rooms, room_sharing, room_splitting, label, violations, soft)
 
@@ -222,7 +237,40 @@ def validate(
     return Validation(ok=not violations, violations=violations, soft=soft, attendee_load=load, penalty=penalty)
 
 
-def _check_rules(problem, slots, placed, day, label, violations) -> None:
+def _timeline(slots: Sequence[Slot]) -> tuple[list[int], list[int]]:
+    """Each slot's place in time (0 for the earliest) and its day (1 for the first day), read from
+    the slots' dates, day numbers and start times rather than from their positions in the list.
+
+    Days are the dates when every slot has one, else the Day numbers when every slot has one,
+    else every slot is a day of its own. Within a day, slots go by start time when all of that
+    day's slots have one, else in list order; days go in calendar (or number) order; slots that
+    have neither dates nor day numbers keep the list order.
+    """
+    k = len(slots)
+    if k and all(sl.date is not None for sl in slots):
+        day_key: list = [sl.date for sl in slots]
+    elif k and all(sl.day is not None for sl in slots) and not any(sl.date is not None for sl in slots):
+        day_key = [int(sl.day) for sl in slots]
+    else:
+        return list(range(k)), list(range(1, k + 1))
+    timed_days = {dk for dk in day_key}
+    for sl, dk in zip(slots, day_key):
+        if sl.start is None:
+            timed_days.discard(dk)
+
+    def when(i: int) -> tuple:
+        sl = slots[i]
+        minute = sl.start.hour * 60 + sl.start.minute + sl.start.second / 60 if day_key[i] in timed_days else 0
+        return (day_key[i], minute, i)
+
+    rank = [0] * k
+    for place, i in enumerate(sorted(range(k), key=when)):
+        rank[i] = place
+    day_number = {dk: n for n, dk in enumerate(sorted(set(day_key)), start=1)}
+    return rank, [day_number[dk] for dk in day_key]
+
+
+def _check_rules(problem, slots, placed, rank, day, label, violations) -> None:
     for rule in problem.rules:
         missing = [c for c in rule.events if c not in problem.events]
         if missing:
@@ -232,7 +280,7 @@ def _check_rules(problem, slots, placed, day, label, violations) -> None:
         if any(s is None for s in ss):
             continue
         if rule.kind is RuleKind.BEFORE:
-            if not ss[0] < ss[1]:
+            if not rank[ss[0] - 1] < rank[ss[1] - 1]:
                 violations.append(f"rule broken: {rule.describe()} ({rule.events[0]} in {label(ss[0])}, "
                                   f"{rule.events[1]} in {label(ss[1])})")
         elif rule.kind is RuleKind.SAME_SLOT:
@@ -291,11 +339,10 @@ def _check_rooms(problem, slots, placed, sizes, rooms, sharing, splitting, label
         total = sum(n for _, n in holders)
         if total > room.capacity:
             violations.append(f"{name} holds {total} attendees in {label(s)}, more than its {room.capacity} seats")
-        if len(holders) > 1:
-            codes = sorted(c for c, _ in holders)
+        codes = sorted({c for c, _ in holders})
+        if len(codes) > 1:
             if not sharing:
                 violations.append(f"{name} holds {', '.join(codes)} together in {label(s)}, and sharing is not allowed")
-            else:
-                lengths = {problem.events[c].duration_minutes for c in codes}
-                if len(lengths) > 1:
-                    violations.append(f"{name} holds events of different lengths in {label(s)}: {', '.join(codes)}")
+            elif not room.shared:
+                violations.append(f"{name} holds {', '.join(codes)} together in {label(s)}, but it is marked "
+                                  "as not shared")

@@ -23,6 +23,7 @@ from ..conflicts import ConflictSummary, conflict_graph, summarise
 from ..errors import Finding, InputError
 from ..intake import ReadOptions, Reading, read_problem
 from ..model import Problem, Slot, Weights, days_of, generic_slots
+from ..export.tables import event_end
 
 log = logging.getLogger("timetabler.web")
 
@@ -271,13 +272,20 @@ def grid(problem: Problem, run: Any) -> dict:
         by_slot.setdefault(n, []).append(code)
     sizes = problem.event_sizes()
     rows: dict[int, list[dict]] = {}
+
+    def until(code: str, slot: Slot) -> str | None:
+        """The event's own end time when it differs from the slot's (export.tables.event_end)."""
+        end = event_end(problem, code, slot)
+        return end.strftime("%H:%M") if end is not None and end != slot.end else None
+
     for i, slot in enumerate(slots, start=1):
         rows.setdefault(days[i - 1], []).append(
             {
                 "number": i,
                 "label": slot.label,
                 "when": _when(slot),
-                "events": [{"code": c, "size": sizes.get(c, 0), "title": problem.events[c].title if c in problem.events else None} for c in by_slot.get(i, [])],
+                "events": [{"code": c, "size": sizes.get(c, 0), "title": problem.events[c].title if c in problem.events else None,
+                            "until": until(c, slot)} for c in by_slot.get(i, [])],
                 "seats": sum(sizes.get(c, 0) for c in by_slot.get(i, [])),
             }
         )

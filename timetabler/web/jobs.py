@@ -175,7 +175,7 @@ def _child_main() -> None:
             if run.assignment:
                 run.validation = validate(
                     problem, slots, run.assignment, run.rooms or None, previous=previous,
-                    room_sharing=bool(getattr(options, "room_sharing", False)),
+                    room_sharing=bool(getattr(options, "room_sharing", True)),
                     room_splitting=bool(getattr(options, "room_splitting", False)),
                 )
             _send(out, ("run", k, run))

@@ -421,7 +421,8 @@ async def _start_solve(request: Request, stored: StoredUpload, analysis: an.Anal
         return earlier
     from ..scheduling import SolveOptions
 
-    rooms_shared = bool(problem.rooms) and fields.get("room_sharing") == "on"
+    # rooms are shared by default (within their seats; a room marked Shared: no holds one event)
+    rooms_shared = fields.get("one_event_per_room") != "on"
     rooms_split = bool(problem.rooms) and fields.get("room_splitting") == "on"
     options = SolveOptions(time_limit=float(limit), room_sharing=rooms_shared, room_splitting=rooms_split)
     find_fewest = fields.get("find_fewest") == "on"
