@@ -8,6 +8,11 @@ with most uncoloured neighbours. With per-vertex allowed colours the rule genera
 may carry a set of allowed slots (fixed and barred slots, slot lengths), so the same
 routine gives the upper bound of :func:`~timetabler.scheduling.fewest_slots` and the
 warm start of the CP-SAT model.
+
+With ``seats`` the colouring also keeps within seat limits: each limit is a set of vertices
+and the seats each colour has for them (a slot's seats, the seats of the rooms of one type
+free in a slot), and a vertex takes only a colour with room left for its size in every limit
+it belongs to (first fit, in DSATUR's order).
 """
 
 from __future__ import annotations
@@ -23,6 +28,10 @@ def dsatur(
     allowed: Mapping[Hashable, set[int]] | None = None,
     *,
     limit: int | None = None,
+    sizes: Mapping[Hashable, int] | None = None,
+    seats: list[tuple[set, Mapping[int, int]]] | None = None,
+    apart: Mapping[Hashable, set] | None = None,
+    day: Mapping[int, int] | None = None,
 ) -> dict[Hashable, int]:
     """Colour ``graph`` with DSATUR; colours are 1, 2, ....
 
@@ -35,6 +44,12 @@ def dsatur(
     limit
         Optional largest colour. A vertex that cannot be coloured within its allowed colours
         and the limit is left out of the result (the colouring is then partial).
+    sizes, seats
+        Optional seat limits: ``seats`` lists (vertices, colour -> seats) pairs; a vertex of
+        ``sizes[v]`` seats takes a colour only where every limit holding it has that many left
+        (colours missing from a limit's mapping have no limit).
+    apart, day
+        Optional: vertices that must take colours of different days (``day`` maps colour to day).
 
     Examples
     --------
@@ -44,6 +59,19 @@ def dsatur(
     (3, True)
     """
     allowed = allowed or {}
+    sizes = sizes or {}
+    limits = [(members, caps, {}) for members, caps in (seats or [])]
+    mine = {v: [lim for lim in limits if v in lim[0]] for v in graph} if (limits or apart) else {}
+
+    apart = apart or {}
+    day = day or {}
+
+    def room_for(v, c: int) -> bool:
+        need = sizes.get(v, 0)
+        if any(u in colour and day.get(colour[u]) == day.get(c) for u in apart.get(v, ())):
+            return False
+        return all(c not in caps or used.get(c, 0) + need <= caps[c] for _, caps, used in mine.get(v, ()))
+
     colour: dict[Hashable, int] = {}
     seen: dict[Hashable, set[int]] = {v: set() for v in graph}
     uncoloured_deg = {v: graph.degree(v) for v in graph}
@@ -69,13 +97,20 @@ def dsatur(
         c = None
         if options is None:
             c = 1
-            while c in seen[v]:
+            while c in seen[v] or (mine and not room_for(v, c) and (limit is None or c <= limit)):
                 c += 1
             if limit is not None and c > limit:
                 c = None
         else:
-            free = sorted(x for x in options if x not in seen[v] and (limit is None or x <= limit))
-            c = free[0] if free else None
+            free = sorted(x for x in options if x not in seen[v] and (limit is None or x <= limit)
+                          and (not mine or room_for(v, x)))
+            if free and mine.get(v):  # seat limits: the colour with most seats left, so none fills up first
+                c = max(free, key=lambda x: (min(caps.get(x, 0) - used.get(x, 0) for _, caps, used in mine[v]), -x))
+            else:
+                c = free[0] if free else None
+        if c is not None:
+            for _, caps, used in mine.get(v, ()):
+                used[c] = used.get(c, 0) + sizes.get(v, 0)
         for u in graph[v]:
             if u in done:
                 continue

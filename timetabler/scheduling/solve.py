@@ -33,10 +33,10 @@ import networkx as nx
 from ortools.sat.python import cp_model
 
 from ..conflicts import conflict_graph
-from ..model import Problem, Slot, generic_slots, time_order
+from ..model import Problem, Slot, days_of, generic_slots, time_order
 from .cliques import clique_cover, largest_clique_found
-from .cpsat_model import (BuildStopped, TimetableModel, build_model, large_event_codes, physical_domains,
-                          slots_interchangeable)
+from .cpsat_model import (BuildStopped, TimetableModel, _room_capacity_by_slot, build_model, large_event_codes,
+                          physical_domains, slots_interchangeable)
 from .arrangement import arrange
 from .dsatur import dsatur
 from .infeasibility import prechecks, room_count_witness
@@ -410,7 +410,7 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
         if ev.fixed_slot is not None and str(ev.fixed_slot).strip():
             allowed[c] &= {problem.slot_number(ev.fixed_slot, slots)}
         allowed[c] -= {problem.slot_number(r, slots) for r in ev.barred_slots}
-    hint = dsatur(sub, allowed, limit=k)
+    hint = _first_colouring(problem, slots, sub, block, allowed, sizes, k)
     symmetric = slots_interchangeable(problem, slots, block)
     order_free = _objective_order_free(problem, slots, previous)
     sym_clique = [c for c in clique if c in block_set] if symmetric else []
@@ -651,6 +651,58 @@ def _out_of_time(run: SolveRun, k: int, t0: float) -> SolveRun:
     run.reasons = [run.reason]
     run.wall_seconds = time.perf_counter() - t0
     return run
+
+
+def _first_colouring(problem: Problem, slots: list[Slot], sub: nx.Graph, block, allowed: dict[str, set[int]],
+                     sizes: dict[str, int], k: int) -> dict[str, int]:
+    """DSATUR's timetable of a block, keeping the seat limits and the "same slot" rules when it can
+    (events that must share a slot are coloured as one); else clashes and allowed slots only."""
+    limits = _seat_limits(problem, slots, block, sizes)
+    groups = nx.utils.UnionFind(block)
+    for rule in problem.rules:
+        if rule.kind.value == "same slot" and all(c in sub for c in rule.events):
+            groups.union(*rule.events)
+    lead = {c: groups[c] for c in block}
+    if any(lead[c] != c for c in block) or limits or any(r.kind.value == "different days" for r in problem.rules):
+        merged = nx.Graph()
+        merged.add_nodes_from(set(lead.values()))
+        merged.add_edges_from((lead[a], lead[b]) for a, b in sub.edges if lead[a] != lead[b])
+        if all(not sub.has_edge(a, b) or lead[a] != lead[b] for a, b in sub.edges):
+            together: dict[str, set[int]] = {}
+            weight: dict[str, int] = {}
+            for c in block:
+                together[lead[c]] = together.get(lead[c], allowed[c]) & allowed[c]
+                weight[lead[c]] = weight.get(lead[c], 0) + sizes.get(c, 0)
+            seats = [({lead[c] for c in members}, caps) for members, caps in limits]
+            apart: dict[str, set[str]] = {}
+            for rule in problem.rules:
+                if rule.kind.value == "different days" and all(c in sub for c in rule.events):
+                    for a in rule.events:
+                        apart.setdefault(lead[a], set()).update(lead[b] for b in rule.events if lead[b] != lead[a])
+            day = dict(enumerate(days_of(slots), start=1))
+            merged_colour = dsatur(merged, together, limit=k, sizes=weight, seats=seats, apart=apart, day=day)
+            hint = {c: merged_colour[lead[c]] for c in block if lead[c] in merged_colour}
+            if len(hint) == len(block):
+                return hint
+    return dsatur(sub, allowed, limit=k)
+
+
+def _seat_limits(problem: Problem, slots: list[Slot], block, sizes: dict[str, int]) -> list[tuple[set, dict[int, int]]]:
+    """The seat limits a first timetable must keep, for DSATUR: each slot's seats, and the seats of
+    the rooms of each type free in each slot (slot number -> seats)."""
+    seated = {c for c in block if sizes.get(c, 0) > 0}
+    out: list[tuple[set, dict[int, int]]] = []
+    caps = {s: slot.seat_capacity for s, slot in enumerate(slots, start=1) if slot.seat_capacity is not None}
+    if caps:
+        out.append((seated, caps))
+    if problem.rooms:
+        free = _room_capacity_by_slot(problem, slots)
+        kinds = {(problem.events[c].room_type or "").casefold() or None for c in seated} | {None}
+        for kind in kinds:  # None: every room, which every seated event uses
+            members = seated if kind is None else \
+                {c for c in seated if (problem.events[c].room_type or "").casefold() == kind}
+            out.append((members, {s: sum(cap for cap, _ in free[s].get(kind, [])) for s in free}))
+    return out
 
 
 def _arrange_effort(options: SolveOptions, seconds: float) -> dict:
@@ -1029,39 +1081,26 @@ def fewest_slots(
             else:
                 budget *= 2
         best_run = SolveRun(slots=hi, slot_list=slots_for(hi), status="feasible", assignment=dict(colouring))
-    # without a timetable yet (rules), look upwards from the lower bound while counts are proven
-    # impossible (a witness settles most at once); at the first count left open, take an upper bound
-    # from all the slots first (the easiest count), so the bisection below has a timetable in hand
-    tried_all = False
-    while hi is None and lo <= max_k:
+    # without a timetable yet (rules, rooms, a slots sheet): a quick pass upwards from the lower bound,
+    # each count with a short budget (enough for DSATUR's seat-aware first timetable, a witness of
+    # impossibility, or a short CP-SAT search), stopping at the first timetable; the counts below it that
+    # were left open are then tried again, with the rest of the time, by the bisection below
+    step_time = max(1.0, options.time_limit / 20)
+    k = lo
+    while hi is None and k <= max_k:
         left = options.time_limit - (time.perf_counter() - start)
         if left <= 0.2:
             break
-        quick.time_limit = left / 4 if lo < max_k and not tried_all else (left / 2 if lo < max_k else left)
-        run = solve(_without_goals(problem), slots_for(lo), quick, graph=graph)
-        result.attempts.append({"slots": lo, "status": run.status, "seconds": round(run.wall_seconds, 3)})
+        quick.time_limit = min(step_time, left) if k < max_k else left
+        run = solve(_without_goals(problem), slots_for(k), quick, graph=graph)
+        result.attempts.append({"slots": k, "status": run.status, "seconds": round(run.wall_seconds, 3)})
         if run.status in ("optimal", "feasible"):
-            hi, best_run, result.upper_reason = lo, run, "CP-SAT"
+            hi, best_run, result.upper_reason = k, run, "CP-SAT"
         elif run.status == "infeasible":
-            proven_lo = max(proven_lo, lo + 1)
-            why_not[lo] = run.reason or ""
-            lo += 1
-        else:
-            lo += 1
-            if not tried_all and lo < max_k:
-                tried_all = True
-                left = options.time_limit - (time.perf_counter() - start)
-                if left <= 0.2:
-                    break
-                quick.time_limit = left / 3
-                top = solve(_without_goals(problem), slots_for(max_k), quick, graph=graph)
-                result.attempts.append({"slots": max_k, "status": top.status, "seconds": round(top.wall_seconds, 3)})
-                if top.status in ("optimal", "feasible"):
-                    hi, best_run, result.upper_reason = max_k, top, "CP-SAT"
-                elif top.status == "infeasible":  # fewer slots only make it harder
-                    proven_lo = max(proven_lo, max_k + 1)
-                    why_not[max_k] = top.reason or ""
-                    break
+            proven_lo = max(proven_lo, k + 1)
+            why_not[k] = run.reason or ""
+        k += 1
+    lo = max(lo, proven_lo)
     # with a timetable in hand: the lower bound first, then bisection
     first_try = True
     while hi is not None and lo < hi:
