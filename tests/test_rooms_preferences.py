@@ -73,7 +73,29 @@ def test_a_csv_has_no_room_sheets_and_the_weights_keep_their_defaults(tmp_path: 
                       "--time-limit", "2", "--json").json()
     assert doc["runs"][0]["status"] == "optimal"
     bad = run_command("solve", path, "--slots", "2", "--weight", "preferred-chairs=3")
-    assert bad.status == 2 and "penalised-room" in bad.stderr and "preferred-room" in bad.stderr
+    assert bad.status == 2 and "avoided-room" in bad.stderr and "preferred-room" in bad.stderr
+
+
+def test_one_name_for_slots_and_rooms_to_avoid(tmp_path: Path, run_command):
+    # the goal is "avoided slot" / "avoided room" in the Weights sheet, --weight, its help, the workbook
+    # and the terminal; the older "penalised" names are still read
+    from openpyxl import load_workbook
+
+    from timetabler.cli.solve_command import _parse_weights
+    from timetabler.intake.vocabulary import GOAL_LABELS
+
+    assert GOAL_LABELS["penalised_slot"] == "avoided slot" and GOAL_LABELS["penalised_room"] == "avoided room"
+    for typed in ("avoided-room=4", "penalised-room=4", "avoided room=4", "penalised_room=4"):
+        assert _parse_weights(None, None, (typed,)) == {"penalised_room": 4}
+    assert _parse_weights(None, None, ("avoided-slot=2",)) == {"penalised_slot": 2}
+    helped = run_command("solve", "--help").stdout
+    assert "avoided-slot" in helped and "penalised slot" not in helped
+    path = write_text(tmp_path / "hv.csv", [["Student", "Exam"], ["HV-S0001", "MAT101"], ["HV-S0001", "HIS130"]])
+    out = tmp_path / "out.xlsx"
+    assert run_command("solve", path, "--slots", "2", "--time-limit", "2", "--out", out).status == 0
+    text = " ".join(str(v) for ws in load_workbook(out).worksheets for row in ws.iter_rows(values_only=True)
+                    for v in row if v is not None)
+    assert "avoided room" in text and "avoided slot" in text and "penalised" not in text
 
 
 def test_unknown_preferred_room_names_file_sheet_row_and_column(tmp_path: Path):

@@ -164,6 +164,25 @@ class Weights:
     penalised_room: int = 1
 
 
+#: What each soft goal (a :class:`Weights` field) is called wherever a person reads or writes it: the
+#: Weights sheet, ``--weight`` (with ``-`` for spaces), the workbook and the terminal. Slots and rooms
+#: to use only when needed are "avoided" everywhere, after the Slots and Rooms sheets' Avoid column
+#: (the fields keep their older names ``penalised_slot`` and ``penalised_room``, as in the JSON).
+GOAL_NAMES: dict[str, str] = {
+    "back_to_back": "back-to-back",
+    "overnight": "overnight",
+    "same_day": "same day",
+    "proximity": "proximity",
+    "large_late": "large late",
+    "preferred_slot": "preferred slot",
+    "penalised_slot": "avoided slot",
+    "room_split": "room split",
+    "moved": "moved",
+    "preferred_room": "preferred room",
+    "penalised_room": "avoided room",
+}
+
+
 @dataclass
 class Problem:
     """A whole timetabling instance as read from the registrar's files.

@@ -14,7 +14,7 @@ from ..export.tables import slot_words
 from ..errors import Finding, InputError
 from ..intake.previous_timetable import resolve_previous
 from ..intake.vocabulary import GOAL_WORDS, key
-from ..model import Weights, generic_slots
+from ..model import GOAL_NAMES, Weights, generic_slots
 from ..scheduling import SolveOptions, fewest_slots, solve, validate
 from .command_clock import CommandClock
 from .common import (SHARE_ROOMS_HELP, console, err_console, input_options, print_json, read_input, require_enrolments, show_warnings,
@@ -23,7 +23,10 @@ from .output_options import check_outputs, output_options, try_publish
 from .slot_counts import SlotCountsOption, parse_slot_counts
 from .store_options import check_publish_request, earlier_timetable, open_store, record_solve, store_options
 
-WEIGHT_NAMES = {f.name.replace("_", "-"): f.name for f in dataclasses.fields(Weights)}
+#: --weight names: the goals' names (model.GOAL_NAMES, '-' for spaces); the Weights fields' own older
+#: names (penalised-slot, penalised-room, back-to-back, ...) are still understood
+WEIGHT_NAMES = {GOAL_NAMES[f.name].replace(" ", "-"): f.name for f in dataclasses.fields(Weights)}
+_OLD_WEIGHT_NAMES = {f.name.replace("_", "-"): f.name for f in dataclasses.fields(Weights)}
 
 
 def _parse_weights(ctx, param, values):
@@ -31,7 +34,8 @@ def _parse_weights(ctx, param, values):
     for item in values or ():
         name, sep, number = item.partition("=")
         # the option's own names, or a goal as the Weights sheet names it ('avoided room')
-        attr = WEIGHT_NAMES.get(name.strip().lower().replace("_", "-")) or GOAL_WORDS.get(key(name))
+        typed = name.strip().lower().replace("_", "-")
+        attr = WEIGHT_NAMES.get(typed) or _OLD_WEIGHT_NAMES.get(typed) or GOAL_WORDS.get(key(name))
         if not sep or attr is None:
             raise click.BadParameter(
                 f"'{item}' should be NAME=NUMBER with NAME one of {', '.join(sorted(WEIGHT_NAMES))}")
@@ -68,8 +72,8 @@ def _parse_weights(ctx, param, values):
                    "not on the clock, so the time limit is approximate).")
 @click.option("--weight", "weights", multiple=True, metavar="NAME=N", callback=_parse_weights,
               help="Change a soft-goal weight, e.g. --weight back-to-back=20 --weight proximity=1. Names: "
-                   + ", ".join(sorted(WEIGHT_NAMES)) + " (the Weights sheet's goal names work too, in quotes: "
-                   "--weight \"avoided room=5\").")
+                   + ", ".join(sorted(WEIGHT_NAMES)) + " (the older names penalised-slot and penalised-room still "
+                   "work, and so do the Weights sheet's goal names, in quotes: --weight \"avoided room=5\").")
 @click.option("--max-per-day", type=click.IntRange(1, 24), metavar="N",
               help="No attendee may have more than N events on one day (overrides the rules sheet).")
 @click.option("--share-rooms/--no-share-rooms", default=True, help=SHARE_ROOMS_HELP)
@@ -108,7 +112,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, fewest, ses
     Soft goals and their default weights (penalty per attendee affected, change with --weight
     or the weights sheet): back-to-back on one day 10, last of a day then first of the next 3,
     two on one day 2, Carter proximity cost 0 (off), large events late 0 (off), event outside its
-    preferred slots 1, event in a penalised slot 1, extra room for a split event 5, event moved
+    preferred slots 1, event in a slot marked Avoid 1, extra room for a split event 5, event moved
     from the earlier timetable (--keep) 20, event seated outside its preferred rooms 1, event
     in a room marked Avoid 1 (per room).
 
@@ -282,7 +286,8 @@ def _print_runs(problem, runs, fewest_result) -> None:
                       style="dim")
     for r in runs:
         if r.penalty_breakdown and any(r.penalty_breakdown.values()):
-            parts = ", ".join(f"{name.replace('_', ' ')} {value}" for name, value in r.penalty_breakdown.items() if value)
+            parts = ", ".join(f"{GOAL_NAMES.get(name, name.replace('_', ' '))} {value}"
+                              for name, value in r.penalty_breakdown.items() if value)
             console.print(f"{r.slots} slots — penalty by goal: {parts}", soft_wrap=True)
         if r.status in ("infeasible", "unknown") and r.reason:
             console.print(styled((f"{r.slots} slots", "bold"), f" — {r.status}:"))

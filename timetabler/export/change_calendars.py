@@ -22,6 +22,7 @@ from typing import Any, Callable
 from icalendar import Event as CalEvent
 
 from ..errors import Finding, InputError
+from ..model import Event
 from .csv_folder import prepare_folder
 from .icalendar_files import _calendar, _times, _uid, revision, safe_file_stem, time_zone
 from .safe_write import check_target, write_safely
@@ -34,6 +35,14 @@ def _check_dated(version: Any) -> None:
             f"Calendars need a date for every slot; the version '{version.label}' has {len(missing)} slot(s) "
             f"without one (for example '{missing[0]}'). Nothing was written.",
             suggestion="Publish timetables made from a slots sheet with dates to send calendars."))
+    durations = getattr(version, "durations", None) or {}
+    for code, n in sorted(version.assignment.items()):
+        slot = version.slots[n - 1]
+        if slot.start is not None and not slot.length_minutes and not durations.get(code):
+            raise InputError(Finding(
+                f"The slot '{slot.label}' of the version '{version.label}' has a start time but no length, and "
+                f"{code} has no duration, so its calendar entry would have no end time. Nothing was written.",
+                suggestion="Give the slot a length, or the event a duration, and publish again."))
 
 
 def write_change_calendars(folder: str | Path, *, before: Any, after: Any, changes: Any,
@@ -48,8 +57,9 @@ def write_change_calendars(folder: str | Path, *, before: Any, after: Any, chang
     source, k = before.source_name, before.slot_count  # the UIDs the earlier calendars used
     titles = {**(before.titles or {}), **(after.titles or {})}
 
-    def entry(code: str, slot: Any, rooms: Any, cancelled: bool) -> CalEvent:
-        start, end = _times(slot, tz)
+    def entry(code: str, slot: Any, rooms: Any, cancelled: bool, version: Any) -> CalEvent:
+        minutes = (getattr(version, "durations", None) or {}).get(code)
+        start, end = _times(Event(code, duration_minutes=minutes), slot, tz)
         item = CalEvent()
         item.add("uid", _uid(source, k, code))
         item.add("dtstamp", stamp)
@@ -77,11 +87,11 @@ def write_change_calendars(folder: str | Path, *, before: Any, after: Any, chang
         codes = sorted(set(mine_after.get(person.attendee, ())), key=lambda c: (after.assignment[c], c))
         for code in codes:
             n = after.assignment[code]
-            cal.add_component(entry(code, after.slots[n - 1], after.rooms.get(code), False))
+            cal.add_component(entry(code, after.slots[n - 1], after.rooms.get(code), False, after))
         for code, was, now_at in person.events:
             if now_at is None and code in before.assignment:
                 n = before.assignment[code]
-                cal.add_component(entry(code, before.slots[n - 1], before.rooms.get(code), True))
+                cal.add_component(entry(code, before.slots[n - 1], before.rooms.get(code), True, before))
         if tz is not None:
             cal.add_missing_timezones()
         stem = base = safe_file_stem(show(person.attendee))

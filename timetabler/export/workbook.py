@@ -68,7 +68,7 @@ from openpyxl.worksheet import _writer as openpyxl_sheet_writer
 from openpyxl.worksheet.table import Table, TableColumn, TableStyleInfo
 
 from ..conflicts import conflict_graph
-from ..model import Problem, Weights
+from ..model import GOAL_NAMES, Problem, Weights
 from .safe_write import check_target, write_safely
 from .tables import (
     Column,
@@ -520,7 +520,7 @@ def _overview(book: _Book, problem: Problem, runs, counts, reading, settings, va
     ws.append([c(ws, "Weights (penalty per occurrence)", font=BOLD)])
     weights = problem.weights if isinstance(problem.weights, Weights) else Weights()
     for f in dataclasses.fields(weights):
-        ws.append([f.name.replace("_", " "), c(ws, getattr(weights, f.name), left=True)])
+        ws.append([GOAL_NAMES.get(f.name, f.name.replace("_", " ")), c(ws, getattr(weights, f.name), left=True)])
     if settings:
         ws.append([])
         ws.append([c(ws, "Settings", font=BOLD)])
@@ -528,7 +528,7 @@ def _overview(book: _Book, problem: Problem, runs, counts, reading, settings, va
             if value is None or value == {} or value == []:
                 continue
             if isinstance(value, dict):
-                value = ", ".join(f"{k2}={v2}" for k2, v2 in value.items())
+                value = ", ".join(f"{GOAL_NAMES.get(k2, k2)}={v2}" for k2, v2 in value.items())
             if isinstance(value, (list, tuple)):
                 value = ", ".join(str(v) for v in value)
             ws.append([c(ws, str(key)), c(ws, value if isinstance(value, (int, float, str)) else str(value), left=True)])

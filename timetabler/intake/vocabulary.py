@@ -78,6 +78,8 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass
 
+from ..model import GOAL_NAMES
+
 # --- sheets ------------------------------------------------------------------------------
 
 ENROLMENTS = "Enrolments"
@@ -314,20 +316,8 @@ GOAL_WORDS: dict[str, str] = {
 #: The Weights sheet row that sets a hard limit rather than a weight.
 MOST_PER_DAY = ("most events per day", "max per day", "maximum per day", "most per day")
 
-#: Written form of each goal, in the order the template lists them.
-GOAL_LABELS: dict[str, str] = {
-    "back_to_back": "back-to-back",
-    "overnight": "overnight",
-    "same_day": "same day",
-    "proximity": "proximity",
-    "large_late": "large late",
-    "preferred_slot": "preferred slot",
-    "penalised_slot": "avoided slot",
-    "room_split": "room split",
-    "moved": "moved",
-    "preferred_room": "preferred room",
-    "penalised_room": "avoided room",
-}
+#: Written form of each goal, in the order the template lists them (one name per goal: model.GOAL_NAMES).
+GOAL_LABELS: dict[str, str] = dict(GOAL_NAMES)
 
 GOAL_HELP: dict[str, str] = {
     "back_to_back": "an attendee has two events in consecutive slots of one day",
@@ -336,11 +326,11 @@ GOAL_HELP: dict[str, str] = {
     "proximity": "Carter proximity cost: events of one attendee close together in time",
     "large_late": "a large event placed late in the timetable",
     "preferred_slot": "an event not in one of its preferred slots",
-    "penalised_slot": "an event placed in a slot marked Avoid",
+    "penalised_slot": "an event placed in a slot marked Avoid (an avoided slot)",
     "room_split": "an event spread over more than one room",
     "moved": "an event moved from the previous timetable (repair mode)",
     "preferred_room": "an event with preferred rooms seated in none of them",
-    "penalised_room": "each room marked Avoid that an event is seated in",
+    "penalised_room": "each room marked Avoid (an avoided room) that an event is seated in",
 }
 
 YES_WORDS = ("yes", "y", "true", "1", "x", "avoid")

@@ -86,7 +86,8 @@ def _json(value: Any) -> str:
 
 
 def slot_to_dict(slot: Slot) -> dict:
-    return _plain(slot)
+    # the row the slot was read from is not part of the input (the same slots from another file are the same)
+    return {k: v for k, v in _plain(slot).items() if k != "where"}
 
 
 def slot_from_dict(data: dict) -> Slot:
@@ -170,6 +171,7 @@ class PublishedVersion:
     titles: dict[str, str | None]
     status: str
     penalty: int | None
+    durations: dict[str, int | None] = dataclasses.field(default_factory=dict)  # event -> minutes, for end times
 
     @property
     def slot_count(self) -> int:
@@ -409,11 +411,15 @@ class Store:
                 rooms[event] = [(str(r), int(n)) for r, n in placed]
         enrolments = [(a, e) for a, e in conn.execute(
             "SELECT attendee, event FROM input_enrolments WHERE input_id = ? ORDER BY position", (input_id,))]
-        titles = dict(conn.execute("SELECT code, title FROM input_events WHERE input_id = ?", (input_id,)).fetchall())
+        titles, durations = {}, {}
+        for code, title, details in conn.execute(
+                "SELECT code, title, details_json FROM input_events WHERE input_id = ?", (input_id,)):
+            titles[code] = title
+            durations[code] = json.loads(details).get("duration_minutes")
         return PublishedVersion(label=row[0], published_at=_moment(published_at), run_id=run_id, input_id=input_id,
                                 source_name=source_name, slots=[slot_from_dict(s) for s in json.loads(slots_json)],
                                 assignment=assignment, rooms=rooms, enrolments=enrolments, titles=titles,
-                                status=status, penalty=penalty)
+                                status=status, penalty=penalty, durations=durations)
 
     def problem(self, input_id: int) -> Problem:
         """The stored input as a :class:`Problem` again (events, enrolments, slots, rooms, rules, weights)."""

@@ -233,7 +233,7 @@ WEIGHT_LABELS = {
     "proximity": "Spread (Carter proximity cost)",
     "large_late": "Large event late in the session",
     "preferred_slot": "Event outside its preferred slots",
-    "penalised_slot": "Event in a penalised slot",
+    "penalised_slot": "Event in a slot marked Avoid",
     "room_split": "Event split over rooms",
     "moved": "Event moved from the earlier timetable (repair)",
     "preferred_room": "Event outside its preferred rooms",
