@@ -166,3 +166,17 @@ def flip_bytes(path: Path, member: str, count: int = 8) -> Path:
         data[i] ^= 0xFF
     path.write_bytes(bytes(data))
     return path
+
+
+def add_ods_rows(path: Path, rows_xml_text: str) -> Path:
+    """Append hand-written ``<table:table-row>`` elements to the first sheet of an .ods file."""
+    with zipfile.ZipFile(path) as z:
+        parts = {n: z.read(n) for n in z.namelist()}
+    content = parts["content.xml"].decode()
+    end = content.index("</table:table>")
+    parts["content.xml"] = (content[:end] + rows_xml_text + content[end:]).encode()
+    with zipfile.ZipFile(path, "w", zipfile.ZIP_DEFLATED) as z:
+        z.writestr("mimetype", parts.pop("mimetype"), compress_type=zipfile.ZIP_STORED)
+        for n, data in parts.items():
+            z.writestr(n, data)
+    return path

@@ -19,6 +19,7 @@ from typing import Callable
 import pytest
 
 from intake_builders import (
+    add_ods_rows,
     flip_bytes,
     inline_cell,
     patch_cached_formula_values,
@@ -518,6 +519,20 @@ CASES += [
     Case("a control character in a sheet name is shown, not sent",
          lambda t: write_parts_xlsx(t / "a.xlsx", {"S\u009b2J": sheet_xml(rows_xml(long_rows()))}),
          check=_check_figures(sheet="S\\x9b2J")),
+    Case("an .ods repeating a filled row and cell far past the cell limit (2 KB)",
+         lambda t: add_ods_rows(write_ods(t / "a.ods", {"S": long_rows()}),
+                                '<table:table-row table:number-rows-repeated="10000"><table:table-cell '
+                                'table:number-columns-repeated="1000" office:value-type="string"><text:p>x</text:p>'
+                                '</table:table-cell></table:table-row>'),
+         error=("declares more cells than timetabler reads", None, None, None)),
+    Case("an .ods with 100,000 repeated blank rows above its last row",
+         lambda t: add_ods_rows(write_ods(t / "a.ods", {"S": long_rows()}),
+                                '<table:table-row table:number-rows-repeated="100000"><table:table-cell '
+                                'table:number-columns-repeated="1024"/></table:table-row><table:table-row>'
+                                '<table:table-cell office:value-type="string"><text:p>HV-S0009</text:p></table:table-cell>'
+                                '<table:table-cell office:value-type="string"><text:p>GEO140</text:p></table:table-cell>'
+                                '</table:table-row>'),
+         check=_check_figures(pairs=BASE + [("HV-S0009", "GEO140")])),
     # --- hostile and damaged text files ------------------------------------------------
     Case("a CSV cell over the csv module's field limit",
          lambda t: _bytes(t / "a.csv", b'Student,Exam\nHV-S0001,"' + b"M" * 200_000 + b'"\n'),

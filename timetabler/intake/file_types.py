@@ -29,7 +29,7 @@ from typing import Callable
 
 from ..errors import Finding, InputError, visible
 from ..model import Location
-from .limits import CellBudget, Limits, check_archive, check_file_size
+from .limits import CellBudget, Limits, check_archive, check_file_size, check_ods_cells
 from .xlsx_sheets import read_xlsx
 
 TEXT_SUFFIXES = (".csv", ".tsv", ".txt", ".tab")
@@ -125,6 +125,7 @@ def load_book(path: Path, limits: Limits, progress: Progress | None = None) -> R
         names = set(archive.namelist())
         mimetype = archive.read("mimetype").decode("ascii", "replace").strip() if "mimetype" in names else ""
         if "opendocument.spreadsheet" in mimetype:
+            check_ods_cells(name, archive, limits)
             return RawBook("ods", _read_ods(name, data, budget, progress), notes=notes)
         if "xl/workbook.xml" in names or any(n.startswith("xl/") for n in names):
             if suffix in TEXT_SUFFIXES + ODS_SUFFIXES:

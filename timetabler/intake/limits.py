@@ -129,3 +129,87 @@ class CellBudget:
                     "a whole sheet), or keep only the attendee and event columns.",
                 )
             )
+
+
+def check_ods_cells(name: str, archive: zipfile.ZipFile, limits: Limits) -> None:
+    """Refuse an .ods whose repeated rows and columns would expand past the cell limit, before expanding them.
+
+    An OpenDocument sheet writes a run of equal cells or rows once, with a repeat count
+    (``table:number-rows-repeated``, ``table:number-columns-repeated``); a file of 2 KB may
+    so declare billions of cells, and the reader (pandas' ``odf`` engine) expands them all,
+    padding every row to the widest. This pass streams ``content.xml`` through expat and
+    works out what the reader would build: per sheet, the rows up to the last filled one
+    times the widest row up to its last filled cell.
+    """
+    from xml.parsers import expat
+
+    state = {"sheet_rows": 0, "blank_rows": 0, "width": 0, "pos": 0, "row_width": 0, "repeat": 1,
+             "cell_repeat": 1, "filled": False, "in_cell": False, "total": 0}
+
+    def count(attrs: dict, what: str) -> int:
+        for k, v in attrs.items():
+            if k.rpartition(":")[2] == what:
+                try:
+                    return max(1, int(v))
+                except ValueError:
+                    return 1
+        return 1
+
+    def start(tag: str, attrs: dict) -> None:
+        tag = tag.rpartition(":")[2]
+        if tag == "table":
+            state.update(sheet_rows=0, blank_rows=0, width=0)
+        elif tag == "table-row":
+            state.update(pos=0, row_width=0, repeat=count(attrs, "number-rows-repeated"))
+        elif tag in ("table-cell", "covered-table-cell"):
+            state.update(in_cell=True, cell_repeat=count(attrs, "number-columns-repeated"),
+                         filled=any(k.rpartition(":")[2] == "value-type" for k in attrs))
+
+    def chars(data: str) -> None:
+        if state["in_cell"] and data.strip():
+            state["filled"] = True
+
+    def end(tag: str) -> None:
+        tag = tag.rpartition(":")[2]
+        if tag in ("table-cell", "covered-table-cell"):
+            state["pos"] += state["cell_repeat"]
+            if state["filled"]:
+                state["row_width"] = state["pos"]
+            state["in_cell"] = False
+        elif tag == "table-row":
+            if state["row_width"]:
+                state["sheet_rows"] += state["blank_rows"] + state["repeat"]
+                state["blank_rows"] = 0
+                state["width"] = max(state["width"], state["row_width"])
+            else:
+                state["blank_rows"] += state["repeat"]
+        elif tag == "table":
+            state["total"] += state["sheet_rows"] * state["width"]
+        if state["total"] > limits.max_cells:
+            raise _TooManyCells()
+
+    parser = expat.ParserCreate()
+    parser.buffer_text = True
+    parser.StartElementHandler, parser.EndElementHandler, parser.CharacterDataHandler = start, end, chars
+    try:
+        with archive.open("content.xml") as stream:
+            while chunk := stream.read(1 << 20):
+                parser.Parse(chunk, False)
+        parser.Parse(b"", True)
+    except _TooManyCells:
+        raise InputError(
+            Finding(
+                "The spreadsheet declares more cells than timetabler reads (rows and columns repeated "
+                "far beyond the data); it was not read.",
+                where=Location(name),
+                found=f"more than {limits.max_cells:,} cells once repeated rows and columns are written out",
+                expected=f"at most {limits.max_cells:,} cells over all sheets",
+                suggestion="Delete unused sheets, columns and rows, or save it as .xlsx.",
+            )
+        ) from None
+    except (KeyError, expat.ExpatError, zipfile.BadZipFile, OSError, ValueError):
+        return  # damage is for the reader to report
+
+
+class _TooManyCells(Exception):
+    pass
