@@ -727,3 +727,42 @@ def test_no_finding_sends_a_control_character(tmp_path: Path):
     for text in texts:
         assert not any(ord(ch) < 32 or 0x7f <= ord(ch) <= 0x9f for ch in text), repr(text)
     assert "HV-S0001\\x9b31m" in reading.problem.attendees
+
+
+@pytest.mark.parametrize("epoch", ["1900", "1904"])
+def test_workbook_values_equal_openpyxls_own_reading(tmp_path: Path, epoch: str):
+    """Every value type reads as openpyxl's full (not read-only) load gives it: the reference here."""
+    import openpyxl
+    from openpyxl.utils.datetime import CALENDAR_MAC_1904
+
+    from timetabler.intake.file_types import load_book
+
+    book = openpyxl.Workbook()
+    if epoch == "1904":
+        book.epoch = CALENDAR_MAC_1904
+    ws = book.active
+    ws.title = "Values"
+    rows = [
+        ["Student", "Exam", "When", "Start", "Length", "Seats", "Share", "Late"],
+        ["HV-S0001", "MAT101", dt.datetime(2027, 5, 3, 9, 30), dt.time(14, 0), dt.timedelta(hours=2), 120, 0.25, True],
+        [40001, "PHY110", dt.date(2027, 5, 4), dt.time(9, 15), dt.timedelta(minutes=90), 3, -1.5e-7, False],
+        [None, None, None, None, None, None, None, "only the last"],
+    ]
+    for row in rows:
+        ws.append(row)
+    ws.merge_cells("A5:A6")
+    ws["A5"] = "merged"
+    ws["B6"] = "CHM120"
+    path = tmp_path / "values.xlsx"
+    book.save(path)
+    reference = openpyxl.load_workbook(path, data_only=True)["Values"]
+    want = []
+    for r in reference.iter_rows(values_only=True):
+        r = list(r)
+        while r and r[-1] is None:
+            r.pop()
+        want.append(r)
+    assert want[6 - 1] == [None, "CHM120"]
+    want[6 - 1][0] = "merged"  # intake fills a merged range with its top-left value
+    sheet = load_book(path, Limits()).sheets[0]
+    assert [list(r) for r in sheet.rows] == want

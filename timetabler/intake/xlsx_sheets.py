@@ -147,13 +147,23 @@ class _Workbook:
     """The workbook part: sheets (name, part or None, state, kind) and the date system."""
 
     def __init__(self, name: str, archive: zipfile.ZipFile):
-        workbook = _tree(name, archive, "xl/workbook.xml")
+        part = "xl/workbook.xml"  # where every producer puts it; the package relationships say for sure
+        package = _tree(name, archive, "_rels/.rels") if "_rels/.rels" in archive.NameToInfo else None
+        for rel in package if package is not None else ():
+            if rel.get("Type", "").endswith("/officeDocument") and _target("", rel.get("Target", "")) in archive.NameToInfo:
+                part = _target("", rel.get("Target", ""))
+                break
+        workbook = _tree(name, archive, part)
         if workbook is None:
-            raise _damaged(name, "The workbook has no workbook part (xl/workbook.xml).")
-        rels = _tree(name, archive, "xl/_rels/workbook.xml.rels")
+            raise _damaged(name, f"The workbook has no workbook part ({part}).")
+        folder, base = posixpath.split(part)
+        rels = _tree(name, archive, posixpath.join(folder, "_rels", base + ".rels"))
         targets: dict[str, tuple[str, str]] = {}
         for rel in rels if rels is not None else ():
-            targets[rel.get("Id", "")] = (_target("xl/workbook.xml", rel.get("Target", "")), rel.get("Type", ""))
+            targets[rel.get("Id", "")] = (_target(part, rel.get("Target", "")), rel.get("Type", ""))
+        self.shared_part = next((t for t, kind in targets.values() if kind.endswith("/sharedStrings")),
+                                "xl/sharedStrings.xml")
+        self.styles_part = next((t for t, kind in targets.values() if kind.endswith("/styles")), "xl/styles.xml")
         self.date1904 = False
         self.sheets: list[tuple[str, str | None, str, str]] = []
         for element in workbook.iter():
@@ -166,11 +176,11 @@ class _Workbook:
                 self.sheets.append((visible(element.get("name", "")), part, element.get("state", "visible"), kind))
 
 
-def _date_styles(name: str, archive: zipfile.ZipFile) -> tuple[set[int], set[int]]:
+def _date_styles(name: str, archive: zipfile.ZipFile, part: str) -> tuple[set[int], set[int]]:
     """Indexes of the cell styles (``s`` attributes) that show dates or times, and of those showing durations."""
     from openpyxl.styles.numbers import BUILTIN_FORMATS, is_date_format, is_timedelta_format
 
-    styles = _tree(name, archive, "xl/styles.xml")
+    styles = _tree(name, archive, part)
     dates: set[int] = set()
     durations: set[int] = set()
     if styles is None:
@@ -199,8 +209,7 @@ def _date_styles(name: str, archive: zipfile.ZipFile) -> tuple[set[int], set[int
     return dates, durations
 
 
-def _shared_strings(name: str, archive: zipfile.ZipFile, limits: Limits, budget: CellBudget) -> list:
-    part = "xl/sharedStrings.xml"
+def _shared_strings(name: str, archive: zipfile.ZipFile, part: str, limits: Limits, budget: CellBudget) -> list:
     try:
         info = archive.getinfo(part)
     except KeyError:
@@ -255,7 +264,7 @@ def _shared_strings(name: str, archive: zipfile.ZipFile, limits: Limits, budget:
     try:
         _feed(archive, part, _parser(start, end, chars))
     except _FAULTS as exc:
-        raise _damaged(name, "The workbook's shared text (xl/sharedStrings.xml) is damaged.",
+        raise _damaged(name, f"The workbook's shared text ({part}) is damaged.",
                        found=f"{type(exc).__name__}: {exc}") from None
     return strings
 
@@ -549,8 +558,8 @@ def read_xlsx(name: str, archive: zipfile.ZipFile, limits: Limits, budget: CellB
             where=Location(name), found=f"{mib(total)} of sheet data", expected=f"at most {mib(limits.max_sheet_bytes)}",
             suggestion="Delete unused sheets, columns and rows (a runaway export often fills a whole sheet), "
             "and save a copy."))
-    shared = _shared_strings(name, archive, limits, budget)
-    dates, durations = _date_styles(name, archive)
+    shared = _shared_strings(name, archive, book.shared_part, limits, budget)
+    dates, durations = _date_styles(name, archive, book.styles_part)
     epoch = CALENDAR_MAC_1904 if book.date1904 else CALENDAR_WINDOWS_1900
     sheets = []
     for title, part, state in worksheets:
