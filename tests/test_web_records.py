@@ -134,3 +134,52 @@ def test_publishing_from_the_timetable_page(private_store):
         # the triangle A, B, C needs three different slots
         assert len({version.assignment[e] for e in "ABC"}) == 3
         assert sorted(version.enrolments) == sorted(tuple(l.split(",")) for l in csv_text.splitlines()[1:])
+
+
+def test_repairing_against_a_published_version_from_the_solve_form(run_command, tmp_path, private_store):
+    from store_builders import write_csv
+
+    base = rows(seed=8, students=40)
+    first = run_command("solve", write_csv(tmp_path / "week.csv", base), "--slots", "6", "--time-limit", "2",
+                        "--publish", "week 1", "--out", tmp_path / "week1.xlsx", "--json")
+    assert first.status == 0, first.stderr
+    late = late_changes(base, first.json()["runs"][0]["assignment"], random.Random(3))
+    late_text = "Student,Exam\n" + "".join(f"{a},{e}\n" for a, e in late)
+    results = {}
+    with _client(private_store) as client:
+        for how in ("label", "file"):
+            sent = client.post("/upload", files={"file": ("late.csv", io.BytesIO(late_text.encode()), "text/csv")},
+                               headers=SAME, follow_redirects=False)
+            token_url = sent.headers["location"]
+            overview = client.get(token_url)
+            assert 'name="earlier_label"' in overview.text and "week 1" in overview.text
+            form = {"slots": ["6"], "sessions_per_day": "2", "time_limit": "3", "repeatable": "on"}
+            files = None
+            if how == "label":
+                form["earlier_label"] = "week 1"
+            else:
+                files = {"earlier": ("week1.xlsx", (tmp_path / "week1.xlsx").read_bytes(),
+                                     "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet")}
+            started = client.post(f"{token_url}/solve", data=form, files=files, headers=SAME, follow_redirects=False)
+            assert started.status_code == 303, started.text[:400]
+            import time
+
+            for _ in range(300):
+                state = client.get(f"{token_url}/solving.json").json()
+                if state.get("state") == "finished":
+                    break
+                time.sleep(0.1)
+            page = client.get(f"{token_url}/timetable")
+            assert page.status_code == 200
+            (table,) = re.findall(r'id="moves".*?</table>', page.text, re.S)
+            cells = [re.findall(r"<td[^>]*>(.*?)</td>", row) for row in re.findall(r"<tr>(.*?)</tr>", table, re.S)]
+            results[how] = {c[0]: c[2] for c in cells if c}
+        bad = client.post(f"{token_url}/solve", data={"slots": ["6"], "time_limit": "2", "earlier_label": "nope"},
+                          headers=SAME)
+        assert bad.status_code == 400 and "week 1" in bad.text
+    # either way the moves start from the published slots (ties may move different events; the page has no
+    # repeatable mode), and the late enrolments forced at least one move
+    published = {e: first.json()["runs"][0]["slot_labels"][n - 1] for e, n in first.json()["runs"][0]["assignment"].items()}
+    for how in ("label", "file"):
+        assert results[how], how
+        assert all(published[e] == was for e, was in results[how].items()), how

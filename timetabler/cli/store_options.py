@@ -102,10 +102,8 @@ def earlier_timetable(keep: str, store: Callable[[], Store]) -> tuple[PreviousTi
                                  f"is labelled '{keep}'.", found=keep,
                                  expected=f"an existing .xlsx or .csv file, or one of the published labels: {listed}"))
     version = opened.published_version(keep)
-    # Slot numbers, as the Events sheet of a workbook from --out gives them, so that --keep LABEL
-    # and --keep on that workbook repair exactly alike.
-    return PreviousTimetable(slots={code: str(n) for code, n in sorted(version.assignment.items())},
-                             sheet=f"published '{version.label}'"), f"label {version.label}"
+    return PreviousTimetable(slots=version.slot_references(), sheet=f"published '{version.label}'"), \
+        f"label {version.label}"
 
 
 def record_solve(store: Store, problem: Any, runs: Sequence[Any], settings: dict, *, publish_label: str | None,

@@ -177,6 +177,11 @@ class PublishedVersion:
     def slot_count(self) -> int:
         return len(self.slots)
 
+    def slot_references(self) -> dict[str, str]:
+        """Event -> slot number as text: the earlier timetable for a repair (``--keep LABEL``), as the Events
+        sheet of this version's workbook gives it, so keeping the label and keeping the workbook repair alike."""
+        return {code: str(n) for code, n in sorted(self.assignment.items())}
+
     def summary_json(self) -> dict:
         return {"label": self.label, "published_at": _stamp(self.published_at), "run": self.run_id,
                 "input": self.input_id, "file": self.source_name, "slots": self.slot_count,

@@ -161,6 +161,25 @@ async def forget(request: Request) -> Response:
     return routes.message(request, 200, "Deleted", done, link=("/stored", "Back to the stored work"))
 
 
+def published_labels(request: Request) -> list[str]:
+    """The published labels, for the solve form's choice of an earlier timetable (none when the store cannot be read)."""
+    try:
+        with _open(request) as store:
+            return store.labels()
+    except InputError:
+        log.exception("the store %s cannot be read", _path(request))
+        return []
+
+
+def published_refs(request: Request, label: str):
+    """The earlier timetable of a repair from a published version (as ``solve --keep LABEL``)."""
+    from ..intake.previous_timetable import PreviousTimetable
+
+    with _open(request) as store:
+        version = store.published_version(label)
+    return PreviousTimetable(slots=version.slot_references(), sheet=f"published '{version.label}'")
+
+
 def _recorded(upload: Any) -> dict:
     """Solve id -> {slot count: stored run id}, for the solves of this upload already in the store."""
     return upload.state.setdefault("recorded_solves", {})

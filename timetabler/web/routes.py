@@ -324,6 +324,7 @@ async def overview(request: Request) -> Response:
             "settings": settings,
             "solves": [(kept, solve_base(stored, kept)) for kept in solves_of(stored.state).values()],
             "options": options,
+            "published_labels": await _published_labels(request),
         },
     )
 
@@ -416,7 +417,8 @@ async def _start_solve(request: Request, stored: StoredUpload, analysis: an.Anal
         return message(request, 400, "Please check the choices", str(exc), back=f"/files/{stored.token}")
     chosen = dataclasses.replace(problem, weights=weights, rules=rules)
     plan = [(k, an.slot_list(chosen, k, per_day)) for k in ks]
-    earlier = await _earlier_timetable(request, stored, form.get("earlier"), chosen, plan)
+    earlier = await _earlier_timetable(request, stored, form.get("earlier"), chosen, plan,
+                                       label=str(form.get("earlier_label") or "").strip() or None)
     if isinstance(earlier, Response):
         return earlier
     from ..scheduling import SolveOptions
@@ -464,7 +466,14 @@ class EarlierTimetable:
 _GENERIC_REACH = 10_000
 
 
-async def _earlier_timetable(request: Request, stored: StoredUpload, sent: Any, problem, plan) -> "EarlierTimetable | Response | None":
+async def _published_labels(request: Request) -> list[str]:
+    from .records_pages import published_labels
+
+    return await run_in_threadpool(published_labels, request)
+
+
+async def _earlier_timetable(request: Request, stored: StoredUpload, sent: Any, problem, plan, *,
+                             label: str | None = None) -> "EarlierTimetable | Response | None":
     """Keep, read and check the earlier timetable sent with the solve form (None when none was sent).
 
     The file goes through the checks of the main upload and is kept in the upload's folder as
@@ -474,10 +483,18 @@ async def _earlier_timetable(request: Request, stored: StoredUpload, sent: Any, 
     longer in the enrolments (a cancelled exam, say) is left out and named on the timetable page,
     as ``solve --keep`` does on the command line.
     """
-    if sent is None or isinstance(sent, str) or not sent.filename:
-        return None
-    store = store_of(request)
     back = f"/files/{stored.token}"
+    if sent is None or isinstance(sent, str) or not sent.filename:
+        if not label:
+            return None
+        from .records_pages import published_refs  # a timetable published before, from the store
+
+        try:
+            refs = await run_in_threadpool(published_refs, request, label)
+        except InputError as exc:
+            return message(request, 400, "The earlier timetable cannot be used", str(exc), back=back)
+        return _earlier_from(request, stored, refs, f"published timetable '{label}'", None, problem, plan)
+    store = store_of(request)
     received = stored.folder / f"earlier-received-{secrets.token_hex(6)}"
     try:
         size = await run_in_threadpool(_copy_capped, sent.file, received, store.max_bytes)
@@ -491,14 +508,28 @@ async def _earlier_timetable(request: Request, stored: StoredUpload, sent: Any, 
         kept = await run_in_threadpool(store.keep_beside, stored, received, sent.filename, "earlier")
     except UploadRejected as exc:
         return message(request, exc.status, "The earlier timetable cannot be used", str(exc), back=back)
-    from ..intake.previous_timetable import read_previous_timetable, resolve_previous
+    from ..intake.previous_timetable import read_previous_timetable
 
     try:
         refs = await run_in_threadpool(read_previous_timetable, kept.path)
     except InputError as exc:
         return _earlier_findings(request, stored, kept.name, kept.path, exc.findings)
+    return _earlier_from(request, stored, refs, kept.name, kept.path, problem, plan)
+
+
+def _earlier_from(request: Request, stored: StoredUpload, refs, name: str, path: Path | None, problem,
+                  plan) -> "EarlierTimetable | Response":
+    """Check an earlier timetable (read from a file at ``path``, or from the store when ``path`` is None)."""
+    from ..intake.previous_timetable import resolve_previous
+
+    def findings(found: list) -> Response:
+        if path is None:
+            return message(request, 400, "The earlier timetable cannot be used", " ".join(str(f) for f in found),
+                           back=f"/files/{stored.token}")
+        return _earlier_findings(request, stored, name, path, found)
+
     if not refs.slots:
-        return _earlier_findings(request, stored, kept.name, kept.path, [Finding(
+        return findings([Finding(
             "No event of the earlier timetable has a slot.", expected="a slot number or label beside each event")])
     reach = list(problem.slots) if problem.slots else an.slot_list(problem, _GENERIC_REACH, 1)
     check = resolve_previous(problem, refs, reach)
@@ -506,7 +537,7 @@ async def _earlier_timetable(request: Request, stored: StoredUpload, sent: Any, 
                                 expected=f"a slot label of the slots sheet or a number from 1 to {len(reach)}"
                                 if problem.slots else "a slot number (1, 2, ...) or a label 'Slot N'") for f in check.unplaced]
     if bad:
-        return _earlier_findings(request, stored, kept.name, kept.path, bad)
+        return findings(bad)
     by_slots: dict[int, dict[str, int]] = {}
     unplaced: dict[int, list[dict]] = {}
     for k, slots in plan:
@@ -515,7 +546,7 @@ async def _earlier_timetable(request: Request, stored: StoredUpload, sent: Any, 
         unplaced[k] = [{"event": code, "slot": ref} for code, ref in refs.slots.items()
                        if code in problem.events and code not in resolved.slots]
     dropped = sorted(code for code in refs.slots if code not in problem.events)
-    return EarlierTimetable(name=kept.name, by_slots=by_slots, unplaced=unplaced, dropped=dropped)
+    return EarlierTimetable(name=name, by_slots=by_slots, unplaced=unplaced, dropped=dropped)
 
 
 def _earlier_findings(request: Request, stored: StoredUpload, name: str, path: Path, findings: list) -> Response:
