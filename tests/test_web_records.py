@@ -7,6 +7,7 @@ from __future__ import annotations
 import io
 import random
 import re
+import time
 import zipfile
 
 import openpyxl
@@ -35,6 +36,15 @@ def two_versions(run_command, tmp_path):
                          "--keep", "draft", "--publish", "final", "--json")
     assert second.status == 0, second.stderr
     return run_command("changes", "draft", "final", "--json").json()
+
+
+def _wait_finished(client, upload_url: str) -> None:
+    for _ in range(600):
+        state = client.get(f"{upload_url}/solving.json").json()
+        if state.get("state") == "finished":
+            return
+        time.sleep(0.1)
+    raise AssertionError(f"the solve did not finish: {state}")
 
 
 def _client(store_path, retention_days=180):
@@ -110,14 +120,7 @@ def test_publishing_from_the_timetable_page(private_store):
         started = client.post(f"{token_url}/solve", data={"slots": ["3"], "sessions_per_day": "2", "time_limit": "3"},
                               headers=SAME, follow_redirects=False)
         assert started.status_code == 303, started.text[:300]
-        import time
-
-        for _ in range(300):
-            state = client.get(f"{token_url}/solving.json").json()
-            if state.get("state") == "finished":
-                break
-            time.sleep(0.1)
-        assert state["state"] == "finished", state
+        _wait_finished(client, token_url)
         page = client.get(f"{token_url}/timetable")
         assert page.status_code == 200
         with Store(private_store) as store:  # shown once: the solve is recorded, not yet published
@@ -162,13 +165,7 @@ def test_repairing_against_a_published_version_from_the_solve_form(run_command, 
                                      "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet")}
             started = client.post(f"{token_url}/solve", data=form, files=files, headers=SAME, follow_redirects=False)
             assert started.status_code == 303, started.text[:400]
-            import time
-
-            for _ in range(300):
-                state = client.get(f"{token_url}/solving.json").json()
-                if state.get("state") == "finished":
-                    break
-                time.sleep(0.1)
+            _wait_finished(client, token_url)
             page = client.get(f"{token_url}/timetable")
             assert page.status_code == 200
             (table,) = re.findall(r'id="moves".*?</table>', page.text, re.S)
