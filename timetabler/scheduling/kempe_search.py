@@ -67,7 +67,7 @@ from .penalty_state import PenaltyState
 #: Share of tried moves that are slot swaps (the rest are Kempe chains and single moves).
 SWAP_SHARE = 0.01
 #: Acceptance probability of the median uphill move at the start, and of the smallest at the end.
-START_ACCEPTANCE = 0.6
+START_ACCEPTANCE = 0.45
 END_ACCEPTANCE = 0.01
 #: In repeatable mode the search counts moves instead of seconds: this many moves per second of budget.
 MOVES_PER_SECOND = 200_000

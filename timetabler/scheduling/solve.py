@@ -11,7 +11,11 @@ The steps of :func:`solve`:
    slots 1, 2, ...: slot symmetry broken) — infeasible there means infeasible everywhere;
    its timetable, arranged over the slots (:mod:`.arrangement`), is the hint for step 4;
 4. the full model with the soft goals, hinted, with CP-SAT's parallel portfolio and
-   large-neighbourhood search, under the remaining time;
+   large-neighbourhood search, and the local search of :mod:`.kempe_search` (simulated
+   annealing over Kempe chains, single moves and slot swaps, every hard rule kept): on a
+   large model CP-SAT first for a share of the time (stopping when it stalls), then the
+   local search; on a small one a short local search, CP-SAT from its timetable with most
+   of the time (to prove optimality), then the local search again;
 5. rooms seated slot by slot (:mod:`.rooms`); a slot that cannot be seated is forbidden
    for that group of events and step 4 resumes;
 6. when CP-SAT proves infeasibility, the model is rebuilt with one assumption per user
@@ -794,7 +798,7 @@ def _warm_up_local_search() -> None:
 
 #: Share of a block's remaining time CP-SAT gets on the full model when the local search follows
 #: (it stops sooner when it stalls, see :func:`_stall_seconds`; the local search takes the rest).
-CPSAT_SHARE = 0.4
+CPSAT_SHARE = 0.25
 #: On a model of at most LIGHT_PRESOLVE_PAIRS clashing pairs, where CP-SAT can often prove optimality
 #: (the sample exam week's 5 slots take it 7-10 s on this 2-core machine under load) and the local search
 #: needs little time: the local search's first share of the time, then CP-SAT's share of what is left.
