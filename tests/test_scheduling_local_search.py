@@ -154,3 +154,12 @@ def test_solve_reports_local_search_progress_and_validates():
     goals = [e["penalty"] for e in seen if e.get("event") == "solution" and e.get("phase") == "goals"]
     assert run.penalty <= min(goals + local)
     assert np.all(np.diff(local) <= 0)
+
+
+def test_repeatable_mode_gives_the_same_timetable_twice():
+    # in repeatable mode the search counts moves instead of seconds: same seed, same timetable
+    problem, slots, start, previous = generated(300, n=18, k=7, per_day=3)
+    state = state_of(problem, slots, previous)
+    a, b = (improve(state, start, seconds=0.05, seed=3, deterministic=True) for _ in range(2))
+    assert a.assignment == b.assignment and a.moves == b.moves and a.penalty == b.penalty
+    assert validate(problem, slots, a.assignment, previous=previous).penalty == a.penalty
