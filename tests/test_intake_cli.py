@@ -136,6 +136,9 @@ def test_template_reads_back_without_error(tmp_path: Path, capsys, example: bool
         assert {r.kind.value for r in p.rules} == {"before", "different days"}
         assert p.events["HIS130"].fixed_slot == "Tue 4 May AM"
         assert all(a.startswith("HV-S") for a in p.attendees)
+        # the Shared column: the lab holds one event at a time, the halls are shared
+        assert [(r.name, r.shared) for r in p.rooms] == [("Orchard Hall", True), ("Beacon Lab", False),
+                                                         ("Cloister Room", True)]
     else:
         assert reading.problem.enrolments == []
         assert [w.message for w in reading.warnings] == ["No enrolments were found below the header row."]

@@ -351,3 +351,17 @@ def test_a_room_name_with_a_comma_is_one_room(tmp_path: Path):
     sheets["Rooms"].append(["Room 1, East Wing", 30, "no"])
     problem = read_problem(write_xlsx(tmp_path / "comma.xlsx", sheets)).problem
     assert problem.events["MAT101"].preferred_rooms == ("Room 1, East Wing", "Orchard Hall", "Cloister Room")
+
+
+def test_rooms_list_shows_which_rooms_hold_one_event():
+    from timetabler.export.tables import rooms_table
+    from timetabler.scheduling.solve import SolveRun
+
+    p = Problem(enrol("A", 10, "S") + enrol("B", 10, "T"), rooms=[Room("Orchard Hall", 100), Room("Beacon Lab", 20, shared=False)])
+    run = SolveRun(slots=1, slot_list=generic_slots(1), status="feasible", assignment={"A": 1, "B": 1},
+                   rooms={"A": [("Orchard Hall", 10)], "B": [("Orchard Hall", 10)]})
+    table = rooms_table(p, run)
+    assert dict(zip(table.column("Room"), table.column("Shared"))) == {"Orchard Hall": True, "Beacon Lab": False}
+    assert table.column("Events")[0] == "A, B" and table.column("Seats used")[0] == 20
+    p.rooms[1].shared = True  # every room shared: no column
+    assert "Shared" not in rooms_table(p, run).headers

@@ -358,13 +358,15 @@ def rooms_table(problem: Problem, run: Any) -> PublishedTable | None:
         for name, seats in placed:
             used[(n, str(name))].append((code, int(seats)))
     avoided = any(getattr(r, "penalised", False) for r in problem.rooms)
+    single = any(not getattr(r, "shared", True) for r in problem.rooms)
     table = PublishedTable(
         "Rooms",
         [
             Column("Slot", INT), Column("Slot label"), Column("Date", DATE), Column("Start", TIME), Column("Room"),
             Column("Room type"), Column("Capacity", INT), Column("Events"), Column("Seats used", INT), Column("Free seats", INT),
             Column("Available", FLAG),
-        ] + ([Column("Avoid", FLAG, "marked Avoid: used only when the other rooms do not suffice")] if avoided else []),
+        ] + ([Column("Avoid", FLAG, "marked Avoid: used only when the other rooms do not suffice")] if avoided else [])
+        + ([Column("Shared", FLAG, "no: holds one event at a time")] if single else []),
         title="Room occupancy by slot",
     )
     for place in slot_places(slots):
@@ -375,7 +377,7 @@ def rooms_table(problem: Problem, run: Any) -> PublishedTable | None:
             table.rows.append([
                 place.number, place.slot.label, place.slot.date, place.slot.start, room.name, room.room_type or "",
                 room.capacity, ", ".join(c for c, _ in here), taken, room.capacity - taken, available,
-            ] + ([bool(room.penalised)] if avoided else []))
+            ] + ([bool(room.penalised)] if avoided else []) + ([bool(room.shared)] if single else []))
     return table
 
 
