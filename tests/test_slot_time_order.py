@@ -173,3 +173,14 @@ def test_an_event_placed_with_solve_numbers_matches_its_label_in_time(tmp_path):
     problem.events["HV100"] = Event("HV100", fixed_slot="Mon 11 Jan PM")
     run = solve(problem, problem.slots, SolveOptions(time_limit=5, workers=2, seed=1))
     assert run.assignment["HV100"] == 2 and run.to_json()["slot_labels"][1] == "Mon 11 Jan PM"
+
+
+def test_an_earlier_timetable_is_read_by_slot_label_rather_than_number(tmp_path):
+    # a workbook made before slots were sorted by time numbered them by row: the label says which slot it was
+    from intake_builders import write_text
+    from timetabler.intake.previous_timetable import read_previous_timetable, resolve_previous
+
+    earlier = write_text(tmp_path / "earlier.csv", [["Event", "Slot", "Slot label"], ["HV100", 2, "Wed 13 Jan AM"]])
+    problem = read_problem(workbook(tmp_path, am_rows_first()), ReadOptions()).problem
+    resolved = resolve_previous(problem, read_previous_timetable(earlier), problem.slots)
+    assert resolved.slots == {"HV100": 5}  # Wed AM is the fifth slot in time; number 2 is Mon PM

@@ -23,7 +23,9 @@ from .file_types import load_book
 from .limits import Limits
 
 EVENT_HEADERS = ("event", "exam", "code", "module", "meeting", "paper")
-SLOT_HEADERS = ("slot", "slot number", "slot label", "session")
+#: The label first: a workbook's slot numbers count in time order, and one written before slots were
+#: sorted by time (or from a sheet reordered since) may number them otherwise; labels do not move
+SLOT_HEADERS = ("slot label", "slot", "slot number", "session")
 
 
 @dataclass
