@@ -318,3 +318,18 @@ def test_fewest_slots_gives_the_reason_the_slot_count_below_fails():
     # seats alone ask for 2 slots (180 seats, 100 a slot); one event per room asks for 3
     assert res.upper == res.lower == 3 and res.proven
     assert res.lower_reason.startswith("2 slots cannot hold a timetable: ") and "places over 2 slots" in res.lower_reason
+
+
+def test_local_search_limits_count_places_in_shared_rooms():
+    # the local search's additive limits (penalty_state) mirror the slot model's: a shared room of 100
+    # seats has 2 places for events of 50 or more, a room marked not shared 1 (counted by hand)
+    from timetabler.scheduling.penalty_state import _resources
+    enrol = [(f"HV-S{e}{i:03d}", f"BIG{e}") for e in range(4) for i in range(50)]
+    p = Problem(enrol, rooms=[Room("Great Hall", 100), Room("Annexe", 60, shared=False)], weights=ZERO)
+    codes, sizes = sorted(p.events), p.event_sizes()
+    use, cap = _resources(p, generic_slots(1), codes, sizes, True, False)
+    limits = {tuple(use[:, j]): int(cap[0, j]) for j in range(use.shape[1])}
+    assert limits[(50, 50, 50, 50)] == 160  # seats
+    assert limits[(1, 1, 1, 1)] == 2 + 1  # places for events of 50 seats or more
+    use, cap = _resources(p, generic_slots(1), codes, sizes, False, False)  # sharing off: one event a room
+    assert {tuple(use[:, j]): int(cap[0, j]) for j in range(use.shape[1])}[(1, 1, 1, 1)] == 2

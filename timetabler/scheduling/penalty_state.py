@@ -152,7 +152,7 @@ def build_state(
     domains: Domains,
     previous: dict[str, int] | None = None,
     large: set[str] | None = None,
-    room_sharing: bool = False,
+    room_sharing: bool = True,
     room_splitting: bool = False,
 ) -> PenaltyState:
     """The arrays of the events ``codes`` (a block: a union of components of ``graph``)."""
@@ -262,7 +262,8 @@ def _resources(problem: Problem, slots: list[Slot], codes: list[str], sizes: dic
         caps.append(np.array([UNLIMITED if s.seat_capacity is None else s.seat_capacity for s in slots],
                              dtype=np.int64))
     if problem.rooms:
-        room_caps = _room_capacity_by_slot(problem, slots)
+        # (capacity, may be shared) of the free rooms: the same aggregate limits as cpsat_model.build_model
+        room_caps = _room_capacity_by_slot(problem, slots, shared_only=not sharing)
         kinds = np.array([_type_key(problem.events[c].room_type) or "" for c in codes], dtype=object)
         types = sorted({_type_key(problem.events[c].room_type) for c in codes}, key=lambda v: (v is not None, v or ""))
         for ty in types:
@@ -270,17 +271,23 @@ def _resources(problem: Problem, slots: list[Slot], codes: list[str], sizes: dic
             member = np.asarray(member, dtype=bool)
             per_slot = [room_caps[s + 1].get(ty, []) for s in range(k)]
             uses.append(np.where(member, size, 0))
-            caps.append(np.array([sum(c) for c in per_slot], dtype=np.int64))
-            if not sharing:
+            caps.append(np.array([sum(cap for cap, _ in c) for c in per_slot], dtype=np.int64))
+            shared_any = any(sh for c in per_slot for _, sh in c)
+            if not splitting:
+                # places for events of at least `need` seats: 1 per room not shared, cap // need per shared room
+                needs = {cap + 1 for c in per_slot for cap, _ in c} | {int(size[member].min(initial=1))}
+                if shared_any:
+                    needs |= {int(v) for v in size[member]}
+                for need in sorted(needs):
+                    big = member & (size >= need)
+                    places = np.array([sum((cap // need if sh else 1) for cap, sh in c if cap >= need)
+                                       for c in per_slot], dtype=np.int64)
+                    if big.sum() > (places.min() if places.size else 0):  # a limit that can bind
+                        uses.append(big.astype(np.int64))
+                        caps.append(places)
+            elif not shared_any:
                 uses.append(member.astype(np.int64))
                 caps.append(np.array([len(c) for c in per_slot], dtype=np.int64))
-            if not sharing and not splitting:
-                needs = sorted({cap + 1 for c in per_slot for cap in c} | {int(size[member].min(initial=1))})
-                for need in needs:
-                    big = member & (size >= need)
-                    if big.any():
-                        uses.append(big.astype(np.int64))
-                        caps.append(np.array([sum(1 for cap in c if cap >= need) for c in per_slot], dtype=np.int64))
     if not uses:
         return np.zeros((n, 0), dtype=np.int64), np.zeros((k, 0), dtype=np.int64)
     return np.stack(uses, axis=1), np.stack(caps, axis=1)
