@@ -7,10 +7,11 @@ Variables (one family per name):
 ``t[e]``, ``d[e]``
     slot number and day number of event ``e`` (integers linked to ``x``), made only when a
     rule or goal needs them.
-``adj``, ``sday``, ``b2b``, ``over``, ``twoday``, ``gap``, ``prox``
-    per clashing pair: in consecutive slots; on the same day; back-to-back on one day;
-    last-of-day then first-of-next; two in a day (not consecutive); slot distance; Carter
-    proximity weight.
+``before``, ``gap``, ``near<d>``, ``sday``, ``b2b``, ``over``, ``twoday``
+    per clashing pair, and only those the goals in force need (see :func:`_add_pair_goals`):
+    the order of the two; their slot distance, capped; at most ``d`` slots apart; on the
+    same day; back-to-back on one day; last-of-day then first-of-next; two in a day (not
+    consecutive). One pair costs at most one small integer, never one per goal.
 
 Hard rules:
 
@@ -504,24 +505,10 @@ def build_model(
 def _add_objective(tm: TimetableModel, problem, slots, sub, day, t, d, previous, large) -> None:
     m, x, k = tm.model, tm.x, tm.k
     w = problem.weights
-    terms: dict[str, list[tuple[int, object]]] = {}
-    one_day_each = len(set(day)) == len(day)
-    # a pair of consecutive slots exists on one day / across a day boundary?
-    same_day_adjacent = any(day[s] == day[s + 1] for s in range(k - 1))
-    cross_day_adjacent = any(day[s] != day[s + 1] for s in range(k - 1))
-    per_day_count: dict[int, int] = {}
-    for dd in day:
-        per_day_count[dd] = per_day_count.get(dd, 0) + 1
-    # two events of one day are then always back-to-back, provided each day's slots follow one another
-    runs = sum(1 for s in range(k) if s == 0 or day[s] != day[s - 1])
-    at_most_two_a_day = max(per_day_count.values(), default=0) <= 2 and runs == len(per_day_count)
-    want_b2b = w.back_to_back > 0 and same_day_adjacent
-    want_over = w.overnight > 0 and cross_day_adjacent
-    want_two = w.same_day > 0 and not one_day_each and not at_most_two_a_day
-    want_prox = w.proximity > 0 and k > 1
-    if k > 1 and (want_b2b or want_over or want_two or want_prox):
-        _add_pair_goals(tm, sub, day, t, d, terms, w, want_b2b=want_b2b, want_over=want_over, want_two=want_two,
-                        want_prox=want_prox, one_day_each=one_day_each, at_most_two_a_day=at_most_two_a_day)
+    terms: dict[str, list[tuple[int, int, tuple]]] = {}
+    plan = pair_plan(w, slots)
+    if plan.any:
+        _add_pair_goals(tm, sub, t, d, terms, w, plan)
     if w.large_late > 0:
         for c in tm.codes:
             if c in large:
@@ -584,8 +571,85 @@ def proximity_steps() -> list[tuple[int, int]]:
             if weights[d - 1] != weights[d]]
 
 
-def _add_pair_goals(tm: TimetableModel, sub, day, t, d, terms, weights, *, want_b2b: bool, want_over: bool, want_two: bool,
-                    want_prox: bool, one_day_each: bool, at_most_two_a_day: bool) -> None:
+@dataclass
+class PairPlan:
+    """What the pair goals in force need of each clashing pair (nothing for a goal weighted 0)."""
+
+    want_b2b: bool
+    want_over: bool
+    want_two: bool
+    want_prox: bool
+    one_day_each: bool
+    at_most_two_a_day: bool
+    monotone: bool  # days never go back as slots go on
+    steps: list[tuple[int, int]]  # Carter classes (distance, step) that some pairs can fall outside
+    always: int  # Carter steps every pair pays (classes as wide as the whole session)
+    classes: list[int]  # distance classes with a literal each
+
+    @property
+    def any(self) -> bool:
+        return self.want_b2b or self.want_over or self.want_two or self.want_prox
+
+    @property
+    def need_sday(self) -> bool:
+        return not self.one_day_each and (self.want_b2b or self.want_two or self.want_over)
+
+    def variables_per_pair(self) -> int:
+        """CP-SAT variables one clashing pair costs."""
+        if not self.any:
+            return 0
+        n = 1 + (len(self.classes) > 1) + len(self.classes)  # before, gap, near<d>
+        if self.need_sday:
+            n += 1 + (self.want_b2b and not self.at_most_two_a_day) + self.want_over + self.want_two
+        return n
+
+
+def pair_plan(weights, slots: list[Slot]) -> PairPlan:
+    """The per-pair variables the goals weighted above 0 need with these slots."""
+    k = len(slots)
+    day = days_of(slots)
+    one_day_each = len(set(day)) == len(day)
+    # a pair of consecutive slots exists on one day / across a day boundary?
+    same_day_adjacent = any(day[s] == day[s + 1] for s in range(k - 1))
+    cross_day_adjacent = any(day[s] != day[s + 1] for s in range(k - 1))
+    per_day_count: dict[int, int] = {}
+    for dd in day:
+        per_day_count[dd] = per_day_count.get(dd, 0) + 1
+    # two events of one day are then always back-to-back, provided each day's slots follow one another
+    runs = sum(1 for s in range(k) if s == 0 or day[s] != day[s - 1])
+    at_most_two_a_day = max(per_day_count.values(), default=0) <= 2 and runs == len(per_day_count)
+    want_b2b = weights.back_to_back > 0 and same_day_adjacent
+    want_over = weights.overnight > 0 and cross_day_adjacent
+    want_two = weights.same_day > 0 and not one_day_each and not at_most_two_a_day
+    want_prox = weights.proximity > 0 and k > 1
+    # a class "at most k - 1 apart" or wider holds for every pair: its cost is a constant
+    steps = [(dist, step) for dist, step in proximity_steps() if dist < k - 1] if want_prox else []
+    always = sum(step for dist, step in proximity_steps() if dist >= k - 1) if want_prox else 0
+    classes = sorted({dist for dist, _ in steps} | ({1} if (want_b2b and not at_most_two_a_day) or want_over
+                                                     or want_two else set()))
+    return PairPlan(want_b2b=want_b2b, want_over=want_over, want_two=want_two, want_prox=want_prox,
+                    one_day_each=one_day_each, at_most_two_a_day=at_most_two_a_day,
+                    monotone=all(day[s] <= day[s + 1] for s in range(k - 1)), steps=steps, always=always,
+                    classes=classes)
+
+
+def model_memory_mb(k: int, cover_literals: int, pairs: int, plan: PairPlan | None, workers: int) -> float:
+    """Peak resident memory of the whole process, in MiB, for a model of ``k`` slots whose clique cover holds
+    ``cover_literals`` events in all, with the pair goals of ``plan`` on ``pairs`` clashing pairs, solved
+    by ``workers`` CP-SAT workers.
+
+    Fitted on pur-s-93 (2,419 exams, 86,261 pairs, 42 slots, OR-Tools 9.15, presolve off as
+    :func:`.solve._parameters` sets it for large models): the Python side costs about 30 bytes a
+    cover literal and slot and 0.7 KB a pair variable, each CP-SAT worker about 50 bytes and 2 KB
+    (no goals: 0.86 GB with 2 workers; proximity: 2.0 GB with 1 worker, 3.6 GB with 2). An
+    estimate to choose the workers and whether to build the goal model at all, not a bound.
+    """
+    slots_literals = cover_literals * k
+    pair_vars = pairs * (plan.variables_per_pair() if plan is not None else 0)
+    return 180 + slots_literals * (30 + 52 * workers) / 1e6 + pair_vars * (0.69 + 1.95 * workers) / 1e3
+
+
+def _add_pair_goals(tm: TimetableModel, sub, t, d, terms, weights, plan: PairPlan) -> None:
     """The goals that count pairs of clashing events: Booleans, and at most one small integer a pair.
 
     Per pair (``a``, ``b``, sharing ``c`` attendees, so weighing ``c`` in every goal):
@@ -606,17 +670,14 @@ def _add_pair_goals(tm: TimetableModel, sub, day, t, d, terms, weights, *, want_
     penalty is therefore read from the timetable itself (:meth:`TimetableModel.evaluate`),
     not from these literals, which may be 1 needlessly in a timetable that is not optimal.
     """
-    m, k = tm.model, tm.k
-    monotone = all(day[s] <= day[s + 1] for s in range(k - 1))
-    # a class "at most k - 1 apart" or wider holds for every pair: its cost is a constant
-    steps = [(dist, step) for dist, step in proximity_steps() if dist < k - 1] if want_prox else []
-    always = sum(step for dist, step in proximity_steps() if dist >= k - 1) if want_prox else 0
-    classes = sorted({dist for dist, _ in steps} | ({1} if (want_b2b and not at_most_two_a_day) or want_over
-                                                     or want_two else set()))
+    m = tm.model
+    classes, steps, always, monotone = plan.classes, plan.steps, plan.always, plan.monotone
+    want_b2b, want_over, want_two = plan.want_b2b, plan.want_over, plan.want_two
     cap = max(classes, default=0) + 1  # a gap variable needs no value beyond the widest class
     exact_near1 = want_two
-    need_sday = not one_day_each and (want_b2b or want_two or want_over)
+    need_sday = plan.need_sday
     exact_sday = want_over
+    at_most_two_a_day = plan.at_most_two_a_day
     named = tm.pairs <= NAMED_PAIRS
 
     def var(family: str, a, b):  # every family is named in the docstring; each literal only on small models

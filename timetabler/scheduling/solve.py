@@ -40,7 +40,7 @@ from ..conflicts import conflict_graph
 from ..model import Problem, Slot, days_of, generic_slots, time_order
 from .cliques import clique_cover, largest_clique_found
 from .cpsat_model import (BuildStopped, TimetableModel, _room_capacity_by_slot, build_model, large_event_codes,
-                          physical_domains, slots_interchangeable)
+                          model_memory_mb, pair_plan, physical_domains, slots_interchangeable)
 from .arrangement import arrange
 from .dsatur import dsatur
 from .infeasibility import prechecks, room_count_witness
@@ -82,9 +82,10 @@ class SolveOptions:
         Asked between rounds of the local search; when it returns True the search ends as if its time
         were up (the web page's stop button; CP-SAT's searches are stopped by the caller directly).
     max_memory_mb
-        CP-SAT stops searching (keeping the best timetable) when its own memory accounting reaches this
-        (CP-SAT's accounting leaves out part of the process: the 2,000-exam benchmark peaks at 3,319 MiB
-        in 600 s with 2 workers, 4,420 MiB before pairs were encoded with an order literal).
+        The memory a run may take, in MiB (whole process). A model whose estimated size
+        (:func:`.cpsat_model.model_memory_mb`) is above it gets fewer CP-SAT workers; a goal model too
+        large even for one is not built, and the first clash-free timetable stands. CP-SAT also stops
+        searching (keeping its best timetable) when its own accounting reaches it.
     """
 
     time_limit: float = 30.0
@@ -96,7 +97,7 @@ class SolveOptions:
     explain: bool = True
     split_components: bool = True
     log: bool = False
-    max_memory_mb: int = 3000
+    max_memory_mb: int = 1800
     stop: Callable[[], bool] | None = None
     deadline: float | None = None
 
@@ -246,7 +247,9 @@ def _blocks(problem: Problem, graph: nx.Graph, slots: list[Slot], options: Solve
     comps = [sorted(c) for c in nx.connected_components(joined)]
     singles = [c[0] for c in comps if len(c) == 1]
     big = sorted((c for c in comps if len(c) > 1), key=lambda c: (-len(c), c[0]))
-    return big + ([sorted(singles)] if singles else [])
+    # events that clash with nothing first: they take a moment, and the whole timetable is then complete as
+    # soon as the large groups have their first timetables
+    return ([sorted(singles)] if singles else []) + big
 
 
 def solve(
@@ -514,20 +517,30 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
             if first is not None:
                 start_from = first.assignment
         say("improving the timetable" if feasible_hint else "searching for a timetable")
-        try:
-            tm = build_model(problem, slots, graph, block, sizes=sizes, domains=domains, objective=True,
-                             symmetry=sym_clique if (symmetric and order_free) else None, previous=previous,
-                             large=large, room_splitting=options.room_splitting, room_sharing=options.room_sharing,
-                             nogoods=nogoods, cover=cover, stop_at=_build_deadline(options, left()))
-        except BuildStopped:
-            tm = None  # the goal model is too large for the time left: the first timetable stands (below)
+        # a goal model too large for the memory or the time left is not built: the first timetable stands
+        workers = _workers_within_memory(options, k, cover, sub.number_of_edges(), pair_plan(problem.weights, slots))
+        if not workers and fallback is None:
+            workers = 1  # no timetable yet: the one way to one, whatever the memory
+        if not workers:
+            say("keeping the first timetable: the goal model would not fit the memory allowed")
+        tm = None
+        if workers:
+            try:
+                tm = build_model(problem, slots, graph, block, sizes=sizes, domains=domains, objective=True,
+                                 symmetry=sym_clique if (symmetric and order_free) else None, previous=previous,
+                                 large=large, room_splitting=options.room_splitting,
+                                 room_sharing=options.room_sharing, nogoods=nogoods, cover=cover,
+                                 stop_at=_build_deadline(options, left()))
+            except BuildStopped:
+                tm = None
         if tm is not None:
             _add_hint(tm, start_from or _repair_hint(previous, hint, block))
             remaining = left()  # building a large model takes a good part of the time
             cp_seconds = remaining * (CPSAT_SMALL_SHARE if small else CPSAT_SHARE) if local else remaining
             stall = _stall_seconds(cp_seconds) if local and not small and not options.deterministic else None
             status, solver, watcher = _run(tm, options, _search_seconds(cp_seconds, tm), progress,
-                                           {**info, "phase": "goals"}, start, stall=stall)
+                                           {**info, "phase": "goals"}, start, stall=stall,
+                                           workers=workers)
             budget.charge(solver)
         else:
             status = cp_model.UNKNOWN
@@ -627,6 +640,16 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
             return run
     run.wall_seconds = time.perf_counter() - t0
     return run
+
+
+def _workers_within_memory(options: SolveOptions, k: int, cover, pairs: int, plan) -> int:
+    """The most CP-SAT workers, up to ``options.workers``, whose goal model fits ``options.max_memory_mb``
+    (0 when even one does not)."""
+    literals = sum(len(c) for c in cover if len(c) > 1)
+    for workers in range(max(1, options.workers), 0, -1):
+        if model_memory_mb(k, literals, pairs, plan, workers) <= options.max_memory_mb:
+            return workers
+    return 0
 
 
 #: Share of the time left that building a model may take; a model that would take longer is not built.
@@ -859,9 +882,9 @@ def _improve_locally(problem, slots, graph, block, sizes, domains, previous, lar
 
 
 def _run(tm: TimetableModel, options: SolveOptions, seconds: float, progress, info, start,
-         stall: float | None = None):
+         stall: float | None = None, workers: int | None = None):
     solver = cp_model.CpSolver()
-    _parameters(solver, options, seconds, pairs=tm.pairs)
+    _parameters(solver, options, seconds, pairs=tm.pairs, workers=workers)
     watcher = _Watcher(progress, info, time.perf_counter())
     if progress and hasattr(solver, "best_bound_callback"):
         def bound_seen(bound: float) -> None:
