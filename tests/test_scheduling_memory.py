@@ -155,3 +155,22 @@ def test_the_command_counts_its_time_from_the_start(run_command, tmp_path):
     run = result.json()["runs"][0]
     assert run["status"] in ("feasible", "optimal") and run["validation"]["ok"]
     assert wall < 2 + 10  # loose, not a timing test: reading and building come out of the 2 s
+
+
+def test_the_daily_cap_weighs_each_pattern_once_and_drops_patterns_inside_others():
+    from timetabler.scheduling.cpsat_model import _attendee_event_sets
+
+    one = patterned_session(80, 400, copies=1, seed=4)
+    seven = patterned_session(80, 400, copies=7, seed=4)
+    for p in (one, seven):
+        p.max_per_day = 1
+        p.weights = Weights(**ALL_OFF)
+    assert model_size(one, 12, per_day=3) == model_size(seven, 12, per_day=3)
+    # reference: the plain quadratic check, every distinct set against every other
+    codes = set(one.events)
+    by: dict[str, set[str]] = {}
+    for a, c in one.enrolments:
+        by.setdefault(a, set()).add(c)
+    distinct = {frozenset(v) for v in by.values()}
+    maximal = {v for v in distinct if not any(v < w for w in distinct)}
+    assert {frozenset(v) for v in _attendee_event_sets(one, codes)} == maximal

@@ -753,21 +753,28 @@ def _add_pair_goals(tm: TimetableModel, sub, t, d, terms, weights, plan: PairPla
 
 
 def _attendee_event_sets(problem: Problem, code_set: set[str]) -> list[tuple[str, ...]]:
-    """Distinct event sets of attendees (within ``code_set``), dropping sets inside larger ones."""
+    """Distinct event sets of attendees (within ``code_set``), dropping sets inside larger ones.
+
+    Attendees with the same events weigh one set; a set inside another needs no constraint of
+    its own (a cap that holds for the larger set holds for it). Larger sets come first, and a
+    set can only lie inside a kept set that holds its rarest event, so each check looks at a
+    few candidates rather than at every kept set.
+    """
     by: dict[str, set[str]] = {}
     for a, c in problem.enrolments:
         if c in code_set:
             by.setdefault(a, set()).add(c)
-    sets = sorted({tuple(sorted(v)) for v in by.values()}, key=len, reverse=True)
-    kept: list[tuple[str, ...]] = []
-    kept_sets: list[set[str]] = []
-    for s in sets:
-        ss = set(s)
-        if len(sets) < 3000 and any(ss <= other for other in kept_sets):
+    sets = sorted({frozenset(v) for v in by.values()}, key=lambda v: (-len(v), sorted(v)))
+    kept: list[frozenset[str]] = []
+    holding: dict[str, list[int]] = {}  # event -> the kept sets holding it
+    for events in sets:
+        rarest = min(events, key=lambda c: len(holding.get(c, ())))
+        if any(events <= kept[i] for i in holding.get(rarest, ())):
             continue
-        kept.append(s)
-        kept_sets.append(ss)
-    return kept
+        for c in events:
+            holding.setdefault(c, []).append(len(kept))
+        kept.append(events)
+    return [tuple(sorted(v)) for v in kept]
 
 
 def _slot_name(slots: list[Slot], s: int | None, ref: str) -> str:
