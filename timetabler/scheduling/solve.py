@@ -246,10 +246,11 @@ def _blocks(problem: Problem, graph: nx.Graph, slots: list[Slot], options: Solve
             joined.add_edge(a, b)
     comps = [sorted(c) for c in nx.connected_components(joined)]
     singles = [c[0] for c in comps if len(c) == 1]
-    big = sorted((c for c in comps if len(c) > 1), key=lambda c: (-len(c), c[0]))
-    # events that clash with nothing first: they take a moment, and the whole timetable is then complete as
-    # soon as the large groups have their first timetables
-    return ([sorted(singles)] if singles else []) + big
+    groups = sorted((c for c in comps if len(c) > 1), key=lambda c: (len(c), c[0]))
+    # smallest first (events that clash with nothing, then small groups): they take a moment each, so the
+    # whole timetable is complete as soon as the largest group has its first timetable, and the largest
+    # group gets what the others leave
+    return ([sorted(singles)] if singles else []) + groups
 
 
 def solve(
@@ -665,9 +666,9 @@ def _build_deadline(options: SolveOptions, seconds_left: float) -> float | None:
 
 def _search_seconds(seconds_left: float, tm: TimetableModel) -> float:
     """CP-SAT's time limit out of what is left: it overruns on large models (loading, stopping its workers)
-    and the timetable must still be read back, arranged and checked; about 1 s per 100,000 pairs
-    (measured on a 2,419-exam session, 86,261 pairs, 2 workers: 3 s past the limit)."""
-    tail = 0.5 + tm.pairs / 30_000
+    and the timetable must still be read back, arranged and checked. Measured under a load of 9 on 2 cores:
+    car-s-91 (29,814 pairs, 2 workers) 3 s past a 30 s limit; pur-s-93 (86,261 pairs, 1 worker) 1.6 s."""
+    tail = 1.0 + tm.pairs / 10_000
     return max(0.2, min(seconds_left - tail, seconds_left * 0.9))
 
 
