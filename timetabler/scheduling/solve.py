@@ -668,8 +668,8 @@ def _search_seconds(seconds_left: float, tm: TimetableModel) -> float:
     """CP-SAT's time limit out of what is left: it overruns on large models (loading, stopping its workers)
     and the timetable must still be read back, arranged and checked. Measured under a load of 9 on 2 cores:
     car-s-91 (29,814 pairs, 2 workers) 3 s past a 30 s limit; pur-s-93 (86,261 pairs, 1 worker) 1.6 s."""
-    tail = 1.0 + tm.pairs / 10_000
-    return max(0.2, min(seconds_left - tail, seconds_left * 0.9))
+    tail = min(0.3 + tm.pairs / 10_000, 0.25 * seconds_left)
+    return max(0.2, seconds_left - tail)
 
 
 def _out_of_time(run: SolveRun, k: int, t0: float) -> SolveRun:
