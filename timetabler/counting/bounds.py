@@ -219,3 +219,199 @@ def _log10_int(x: int) -> float:
         return math.log10(x)
     shift = bits - 64
     return math.log10(x >> shift) + shift * math.log10(2)
+
+
+# --------------------------------------------------------------------------- bounds for large groups
+
+def degeneracy_lower(graph: nx.Graph, k: int, allowed: dict | None = None) -> int:
+    """The greedy product ``Π_v (|L_v| − e_v)`` over a degeneracy order: a lower bound on the count.
+
+    In the reverse of a smallest-last order (Matula & Beck 1983) each event has at most
+    the degeneracy of the graph as earlier neighbours ``e_v``. Colouring in that order,
+    event ``v`` has at least ``|L_v| − e_v`` free slots (``L_v`` its allowed slots, all
+    ``k`` without fixed or barred slots) whatever the earlier events took, so the search
+    tree has at least that product of leaves, each a distinct timetable. 0 (no bound)
+    as soon as some factor is not positive, which happens when ``k`` does not exceed the
+    degeneracy.
+    """
+    seen: set = set()
+    value = 1
+    for v in _smallest_last(graph):
+        size = k if not allowed or allowed.get(v) is None else len(allowed[v])
+        value *= max(size - sum(1 for u in graph[v] if u in seen), 0)
+        if value == 0:
+            return 0
+        seen.add(v)
+    return value
+
+
+def proper_within(graph: nx.Graph, colouring: dict, k: int, allowed: dict | None = None) -> bool:
+    """True when ``colouring`` (0-based slots) is a clash-free timetable of ``graph`` within ``k`` slots."""
+    if any(v not in colouring or not 0 <= colouring[v] < k for v in graph):
+        return False
+    if allowed and any(allowed.get(v) is not None and colouring[v] not in allowed[v] for v in graph):
+        return False
+    return all(colouring[u] != colouring[v] for u, v in graph.edges())
+
+
+def agreeing_family_lower(graph: nx.Graph, k: int, colouring: dict, allowed: dict | None = None,
+                          piece_edges: int = 10, piece_nodes: int = 6, deadline: float | None = None) -> int:
+    """Timetables that agree with a found one outside small pieces, counted exactly: a lower bound.
+
+    Take a clash-free timetable ``x`` and split the events into a fixed part ``F`` and
+    small pieces (the components of the rest, at most ``piece_nodes`` events and
+    ``piece_edges`` clashes each, grown greedily from the events with fewest clashes).
+    With ``F`` kept as in ``x``, each piece may take any clash-free assignment from its
+    lists ``L_v`` = allowed slots minus the slots of its neighbours in ``F``, and the
+    pieces do not touch, so the family has ``Π_pieces N(piece)`` members, each ``N``
+    counted exactly by inclusion–exclusion over the piece's clashes (Whitney's expansion
+    with lists: ``Σ_{A ⊆ E} (−1)^{|A|} Π_{parts of (V, A)} |∩ L_v|``). Without fixed or
+    barred slots every relabelling of the ``c`` slots used on ``F`` gives another such
+    family, disjoint from the first (they differ on ``F``), hence the factor
+    ``k (k − 1) … (k − c + 1)``. Returns 0 when ``colouring`` is not a clash-free
+    timetable within ``k`` slots.
+    """
+    if not proper_within(graph, colouring, k, allowed):
+        return 0
+    free: set = set()
+    part_of: dict = {}
+    parts: dict = {}
+    for v in sorted(graph, key=lambda u: (graph.degree(u), str(u))):
+        if deadline is not None and time.monotonic() > deadline:
+            break
+        touching = {part_of[u] for u in graph[v] if u in free}
+        nodes = {v}.union(*(parts[p] for p in touching)) if touching else {v}
+        edges = sum(1 for a in nodes for b in graph[a] if b in nodes) // 2
+        if len(nodes) > piece_nodes or edges > piece_edges:
+            continue
+        for p in touching:
+            del parts[p]
+        parts[v] = nodes
+        for u in nodes:
+            part_of[u] = v
+        free.add(v)
+    value = 1
+    for nodes in parts.values():
+        lists = {}
+        for v in nodes:
+            base = set(range(k)) if not allowed or allowed.get(v) is None else set(allowed[v])
+            lists[v] = base - {colouring[u] for u in graph[v] if u not in free}
+        value *= _list_colourings(graph.subgraph(nodes), lists)
+    if not allowed:
+        used = {colouring[v] for v in graph if v not in free}
+        value *= falling_factorial(k, len(used))
+    return value
+
+
+def _list_colourings(piece: nx.Graph, lists: dict) -> int:
+    """Clash-free assignments of a small graph with a list per vertex (exact).
+
+    Inclusion–exclusion over the clashes, or plain enumeration of all but the last
+    vertex, whichever has fewer terms.
+    """
+    nodes = sorted(piece, key=lambda v: (len(lists[v]), str(v)))
+    edges = list(piece.edges())
+    leaves = 1
+    for v in nodes[:-1]:
+        leaves *= max(len(lists[v]), 1)
+    if leaves < (1 << len(edges)):
+        return _enumerate_lists(piece, nodes, lists)
+    total = 0
+    for mask in range(1 << len(edges)):
+        parent = {v: v for v in piece}
+
+        def find(v):
+            while parent[v] != v:
+                parent[v] = parent[parent[v]]
+                v = parent[v]
+            return v
+
+        chosen = 0
+        for i, (a, b) in enumerate(edges):
+            if mask >> i & 1:
+                chosen += 1
+                ra, rb = find(a), find(b)
+                if ra != rb:
+                    parent[ra] = rb
+        common: dict = {}
+        for v in piece:
+            r = find(v)
+            common[r] = lists[v] if r not in common else common[r] & lists[v]
+        term = 1
+        for s in common.values():
+            term *= len(s)
+            if term == 0:
+                break
+        total += -term if chosen % 2 else term
+    return total
+
+
+def _enumerate_lists(piece: nx.Graph, nodes: list, lists: dict) -> int:
+    colour: dict = {}
+
+    def count(i: int) -> int:
+        v = nodes[i]
+        options = [c for c in lists[v] if all(colour.get(u) != c for u in piece[v])]
+        if i == len(nodes) - 1:
+            return len(options)
+        total = 0
+        for c in options:
+            colour[v] = c
+            total += count(i + 1)
+        colour.pop(v, None)
+        return total
+
+    return count(0) if nodes else 1
+
+
+def clique_product_upper(graph: nx.Graph, k: int, order: Sequence, allowed: dict | None = None,
+                         deadline: float | None = None) -> int | None:
+    """``Π_v min(|L_v|, k − ω_v)`` with ``ω_v`` a clique among the earlier neighbours: an upper bound.
+
+    Colouring in ``order``, the earlier neighbours of ``v`` that form a clique hold
+    distinct slots in every clash-free timetable, so ``v`` has at most ``k − |clique|``
+    choices, whatever the earlier events took; the search tree, whose leaves are the
+    timetables, has at most the product of these branchings as leaves (the argument of
+    the chordal-subgraph bound of Read 1968 without requiring the cliques to nest).
+    The cliques are grown greedily with bit sets; any clique gives a valid bound. None
+    when ``deadline`` (``time.monotonic``) passes first.
+    """
+    position = {v: i for i, v in enumerate(order)}
+    bit = {v: 1 << i for v, i in position.items()}
+    adjacency = {v: sum(bit[u] for u in graph[v]) for v in graph}
+    by_bit = {i: v for v, i in position.items()}
+    degree = dict(graph.degree())
+    value = 1
+    placed = 0
+    for v in order:
+        if deadline is not None and time.monotonic() > deadline:
+            return None
+        candidates = adjacency[v] & placed
+        size = 0
+        while candidates:
+            best, best_score = None, -1
+            if candidates.bit_count() > 24:  # many candidates: the one of highest degree, no rescoring
+                rest = candidates
+                while rest:
+                    low = rest & -rest
+                    u = by_bit[low.bit_length() - 1]
+                    if degree[u] > best_score:
+                        best, best_score = u, degree[u]
+                    rest ^= low
+            else:
+                rest = candidates
+                while rest:
+                    low = rest & -rest
+                    u = by_bit[low.bit_length() - 1]
+                    score = (adjacency[u] & candidates).bit_count()
+                    if score > best_score:
+                        best, best_score = u, score
+                    rest ^= low
+            size += 1
+            candidates &= adjacency[best]
+        options = k if not allowed or allowed.get(v) is None else len(allowed[v])
+        value *= max(min(options, k - size), 0)
+        if value == 0:
+            return 0
+        placed |= bit[v]
+    return value

@@ -25,7 +25,16 @@ from typing import Callable, Sequence
 
 import networkx as nx
 
-from .bounds import Estimate, _log10_int, chordal_subgraph_upper, dsatur_colour_count, knuth_estimate, lower_bound
+from ..conflicts import largest_clique
+from .bounds import (
+    _log10_int,
+    agreeing_family_lower,
+    chordal_subgraph_upper,
+    clique_product_upper,
+    degeneracy_lower,
+    lower_bound,
+)
+from .sequential_sampling import Moments, dsatur_order, sample_chain
 from .budget import Budget, BudgetExceeded
 from .frontier import colourings, frontier_order
 from .polynomial import ChromaticPolynomial
@@ -55,6 +64,17 @@ class SlotCount:
     estimate_relative_error: float | None = None
     ratio_to_previous: float | None = None  # count at K over count at K − 1
     groupings: int | None = None  # splits into at most K non-empty clash-free groups
+    estimate_interval_log10: tuple[float, float] | None = None  # 95 % interval for the count, log10
+    ratio_interval_log10: tuple[float, float] | None = None  # 95 % interval for count(K) / count(K − 1), log10
+    moments: Moments | None = field(default=None, repr=False)  # ln of the count: centre, variance
+    ratio_moments: Moments | None = field(default=None, repr=False)
+
+    @property
+    def ratio_interval(self) -> tuple[float, float] | None:
+        """The ratio's 95 % interval as plain numbers (None when they overflow a float)."""
+        if self.ratio_interval_log10 is None or max(self.ratio_interval_log10) > 300:
+            return None
+        return (10 ** self.ratio_interval_log10[0], 10 ** self.ratio_interval_log10[1])
 
     def to_json(self) -> dict:
         return {
@@ -68,6 +88,11 @@ class SlotCount:
             "estimate_relative_error": self.estimate_relative_error,
             "ratio_to_previous": self.ratio_to_previous,
             "groupings": None if self.groupings is None else str(self.groupings),
+            "estimate_interval_log10": None if self.estimate_interval_log10 is None
+            else [round(x, 4) for x in self.estimate_interval_log10],
+            "ratio_interval": None if self.ratio_interval is None else [float(f"{x:.6g}") for x in self.ratio_interval],
+            "ratio_interval_log10": None if self.ratio_interval_log10 is None
+            else [round(x, 4) for x in self.ratio_interval_log10],
         }
 
 
@@ -246,7 +271,9 @@ def count_timetables(
 
     for index, comp in enumerate(big):
         sub = nx.Graph(graph.subgraph(comp))  # a copy: subgraph views are slow to walk
-        budget = Budget(max(deadline - time.monotonic(), 0.5) + time.monotonic(), memory_bytes)
+        # exact counting may take three quarters of what is left; the rest is for estimates
+        left = max(deadline - time.monotonic(), 0.5)
+        budget = Budget(time.monotonic() + max(0.75 * left, min(left, 0.5)), memory_bytes)
         inner = None
         if progress is not None:
             def inner(done: int, total: int, index=index, size=len(comp)) -> None:
@@ -254,6 +281,11 @@ def count_timetables(
         results.append(_count_component(sub, needed, ks, budget, fixed, barred, constrained_events, inner))
         if progress is not None:
             progress(index + 1, len(big), f"counted a group of {len(comp)} events")
+    pending = [r for r in results if not r.exact]
+    if pending:
+        if progress is not None:
+            progress(len(big), len(big), f"estimating {len(pending)} large group(s) until the time limit")
+        _estimate_components(pending, graph, ks, deadline - 0.3, fixed, barred)
 
     def isolated_factor(k: int) -> int:
         value = 1
@@ -279,20 +311,10 @@ def count_timetables(
         if exact_everywhere:
             value = totals[k]
             prev = totals.get(k - 1)
-            counts.append(
-                SlotCount(
-                    slots=k,
-                    timetables=value,
-                    exact=True,
-                    log10=_log10_int(value) if value else None,
-                    lower=value,
-                    upper=value,
-                    ratio_to_previous=(_ratio(value, prev) if prev else None),
-                    groupings=_groupings(results, isolated, k, deadline) if unconstrained_polys else None,
-                )
-            )
+            counts.append(exact_slot_count(k, value, prev,
+                                           _groupings(results, isolated, k, deadline) if unconstrained_polys else None))
         else:
-            counts.append(_combine_inexact(results, isolated_factor(k), k))
+            counts.append(_combine_inexact(results, {j: isolated_factor(j) for j in (k - 1, k) if j >= 0}, k))
 
     chromatic = None
     reason = None
@@ -340,38 +362,147 @@ def _count_component(sub, needed, ks, budget, fixed, barred, constrained_events,
             reason = str(exc)
     elif exact:
         values = {k: poly(k) for k in needed}
-    colour_count = None if exact or constrained else dsatur_colour_count(sub)
-    for k in ks:
-        if exact:
-            v = values[k]
-            prev = values.get(k - 1)
-            counts.append(SlotCount(k, v, True, _log10_int(v) if v else None, v, v,
-                                    ratio_to_previous=_ratio(v, prev) if prev else None,
-                                    groupings=None if constrained else poly.groupings(k)))
-        else:
-            allowed = {v: allowed_slots(v, k, fixed, barred) for v in sub} if constrained else {}
-            allowed = {v: a for v, a in allowed.items() if a is not None}
-            upper = poly(k) if poly is not None else chordal_subgraph_upper(sub, k)
-            lower = 0 if constrained else lower_bound(sub, k, colour_count)
-            est = knuth_estimate(sub, k, allowed=allowed or None, seconds=0.5)
-            counts.append(_inexact_count(k, lower, upper, est))
-    return ComponentCount(events, sub.number_of_edges(), exact, method if exact else "bounds + Knuth estimate",
+    for k in ks if exact else []:
+        v = values[k]
+        prev = values.get(k - 1)
+        counts.append(exact_slot_count(k, v, prev, None if constrained else poly.groupings(k)))
+    return ComponentCount(events, sub.number_of_edges(), exact, method if exact else "bounds + sequential Monte Carlo estimate",
                           poly, constrained, counts, None if exact else reason, values if exact else {},
                           sorted(sub, key=str))
 
 
-def _inexact_count(k: int, lower: int, upper: int, est: Estimate) -> SlotCount:
-    if upper == 0:  # a chordal subgraph already needs more than k slots: exactly zero
-        return SlotCount(k, 0, True, None, 0, 0)
+def exact_slot_count(k: int, value: int, prev: int | None, groupings: int | None = None) -> SlotCount:
+    """An exact count, its interval the single point it is (empty for 0)."""
+    log10 = _log10_int(value) if value else None
+    ratio_log10 = _log10_int(value) - _log10_int(prev) if value and prev else None
     return SlotCount(
-        slots=k,
-        timetables=None,
-        exact=False,
-        lower=lower,
-        upper=upper,
-        estimate_log10=est.log10 if not est.zero else None,
-        estimate_relative_error=est.relative_error,
+        k, value, True, log10, value, value,
+        ratio_to_previous=_ratio(value, prev) if prev else None,
+        groupings=groupings,
+        estimate_interval_log10=None if log10 is None else (log10, log10),
+        ratio_interval_log10=None if ratio_log10 is None else (ratio_log10, ratio_log10),
     )
+
+
+# --------------------------------------------------------------------------- estimates for large groups
+
+LN10 = math.log(10)
+_CHAIN_GAP = 3  # numbers of slots further apart than this are sampled by separate chains
+
+
+def _estimate_components(pending: list[ComponentCount], graph: nx.Graph, ks: list[int], deadline: float,
+                         fixed: dict, barred: dict) -> None:
+    """Bounds and a sequential Monte Carlo estimate for every group not counted exactly.
+
+    The time left until ``deadline`` is shared between the groups in proportion to their
+    size (events plus clashes), smallest first; what a group leaves unused passes on.
+    """
+    weights = [len(r.nodes) + r.clashes for r in pending]
+    for index, comp in enumerate(pending):
+        left = max(deadline - time.monotonic(), 0.2)
+        share = left * weights[index] / sum(weights[index:])
+        _estimate_component(comp, nx.Graph(graph.subgraph(comp.nodes)), ks, time.monotonic() + share, fixed, barred)
+
+
+def _estimate_component(comp: ComponentCount, sub: nx.Graph, ks: list[int], stop: float, fixed: dict,
+                        barred: dict) -> None:
+    started = time.monotonic()
+    clique = largest_clique(sub, budget_nodes=120)
+    possible = [k for k in ks if k >= len(clique)]
+    allowed_at = {}
+    for k in possible:
+        allowed_at[k] = {v: allowed_slots(v, k, fixed, barred) for v in sub} if comp.constrained else {}
+        allowed_at[k] = {v: {c for c in a} for v, a in allowed_at[k].items() if a is not None}
+    possible = [k for k in possible if all(allowed_at[k].values()) or not allowed_at[k]]
+    bounds_stop = started + 0.15 * (stop - started)
+    order = dsatur_order(sub)
+    uppers: dict[int, int] = {}
+    lowers: dict[int, int] = {}
+    dsatur = nx.greedy_color(sub, strategy="saturation_largest_first")
+    for k in possible:
+        allowed = allowed_at[k] or None
+        upper = chordal_subgraph_upper(sub, k) if not allowed else _list_upper(sub, k, allowed)
+        if comp.polynomial is not None:
+            upper = min(upper, comp.polynomial(k))
+        tighter = clique_product_upper(sub, k, order, allowed, deadline=bounds_stop)
+        uppers[k] = min(upper, tighter) if tighter is not None else upper
+        lowers[k] = degeneracy_lower(sub, k, allowed)
+        if not allowed:
+            lowers[k] = max(lowers[k], lower_bound(sub, k, max(dsatur.values()) + 1))
+            if max(dsatur.values()) < k:
+                lowers[k] = max(lowers[k], agreeing_family_lower(sub, k, dsatur, deadline=bounds_stop))
+    possible = [k for k in possible if uppers[k] > 0]
+    chains: dict[int, object] = {}
+    if possible:
+        runs = _chain_runs(possible, len(clique), comp.constrained)
+        weights = [hi - lo + 1 for lo, hi in runs]
+        for index, (lo, hi) in enumerate(runs):
+            left = max(stop - time.monotonic(), 0.1)
+            share = 0.9 * left * weights[index] / sum(weights[index:])
+            allowed = allowed_at.get(lo) or None
+            chain = sample_chain(sub, lo, hi, seconds=share, allowed=allowed)
+            for k in chain.ks:
+                chains[k] = chain
+    counts = []
+    for k in ks:
+        if k not in uppers or uppers[k] == 0:
+            counts.append(exact_slot_count(k, 0, None))
+            continue
+        chain = chains.get(k)
+        allowed = allowed_at[k] or None
+        lower = lowers[k]
+        for colouring in (chain.colourings.get(k, []) if chain is not None else []):
+            if time.monotonic() > stop + 1.0:
+                break
+            lower = max(lower, agreeing_family_lower(sub, k, colouring, allowed, deadline=stop + 1.0))
+        moments = chain.count_moments(k) if chain is not None else None
+        ratio = chain.ratio_moments(k) if chain is not None and k - 1 in chain.ks else None
+        counts.append(_estimated_count(k, lower, uppers[k], moments, ratio))
+    comp.counts = counts
+
+
+def _list_upper(sub: nx.Graph, k: int, allowed: dict) -> int:
+    value = 1
+    for v in sub:
+        value *= len(allowed[v]) if v in allowed else k
+    return value
+
+
+def _chain_runs(ks: list[int], clique: int, constrained: bool) -> list[tuple[int, int]]:
+    """Ranges of consecutive numbers of slots sampled by one chain each (one per K with pins)."""
+    if constrained:
+        return [(k, k) for k in ks]
+    runs: list[list[int]] = []
+    for k in ks:
+        if runs and k - runs[-1][1] <= _CHAIN_GAP:
+            runs[-1][1] = k
+        else:
+            start = k - 1 if runs and k - 1 >= clique else k  # K − 1 too, for the ratio
+            runs.append([start, k])
+    return [(lo, hi) for lo, hi in runs]
+
+
+def _estimated_count(k: int, lower: int, upper: int, moments: Moments | None, ratio: Moments | None) -> SlotCount:
+    """A count known by proven bounds and an estimate; the interval is kept inside the bounds."""
+    count = SlotCount(slots=k, timetables=None, exact=False, lower=lower, upper=upper, moments=moments,
+                      ratio_moments=ratio)
+    _set_intervals(count)
+    return count
+
+
+def _set_intervals(count: SlotCount) -> None:
+    low_bound = _log10_int(count.lower) if count.lower else -math.inf
+    high_bound = _log10_int(count.upper) if count.upper else math.inf
+    if count.moments is not None:
+        iv = count.moments.interval()
+        centre = min(max(iv.estimate, low_bound), high_bound)
+        count.estimate_log10 = centre
+        count.estimate_relative_error = math.sqrt(count.moments.variance)
+        count.estimate_interval_log10 = (min(max(iv.low, low_bound), high_bound), max(min(iv.high, high_bound), low_bound))
+    if count.ratio_moments is not None:
+        iv = count.ratio_moments.interval()
+        count.ratio_interval_log10 = (iv.low, iv.high)
+        count.ratio_to_previous = 10 ** iv.estimate if iv.estimate < 300 else None
 
 
 def _value_at(r: ComponentCount, k: int) -> int:
@@ -382,11 +513,14 @@ def _value_at(r: ComponentCount, k: int) -> int:
     raise KeyError(k)
 
 
-def _combine_inexact(results: list[ComponentCount], iso: int, k: int) -> SlotCount:
-    lower, upper = iso, iso
-    log_est = math.log10(iso) if iso > 0 else None
-    rel_sq = 0.0
-    zero = iso == 0
+def _combine_inexact(results: list[ComponentCount], iso: dict[int, int], k: int) -> SlotCount:
+    """The whole count from the groups': products of bounds, sums of the logs' moments."""
+    lower, upper = iso[k], iso[k]
+    zero = iso[k] == 0
+    moments: Moments | None = Moments(math.log(iso[k]), 0.0, 10**9) if iso[k] else None
+    ratio: Moments | None = None
+    if iso[k] and iso.get(k - 1):
+        ratio = Moments(math.log(iso[k]) - math.log(iso[k - 1]), 0.0, 10**9)
     for r in results:
         c = next(c for c in r.counts if c.slots == k)
         if c.exact:
@@ -394,19 +528,24 @@ def _combine_inexact(results: list[ComponentCount], iso: int, k: int) -> SlotCou
             upper *= c.timetables
             if c.timetables == 0:
                 zero = True
-            elif log_est is not None:
-                log_est += _log10_int(c.timetables)
+                continue
+            if moments is not None:
+                moments = moments.shifted(_log10_int(c.timetables) * LN10)
+            prev = r.values.get(k - 1) if r.values else None
+            if ratio is not None and prev:
+                ratio = ratio.shifted((_log10_int(c.timetables) - _log10_int(prev)) * LN10)
+            else:
+                ratio = None
         else:
             lower *= c.lower or 0
             upper *= c.upper
-            if c.estimate_log10 is None:
-                log_est = None
-            elif log_est is not None:
-                log_est += c.estimate_log10
-                rel_sq += (c.estimate_relative_error or 0.0) ** 2
+            moments = None if moments is None or c.moments is None else moments + c.moments
+            ratio = None if ratio is None or c.ratio_moments is None else ratio + c.ratio_moments
     if zero or upper == 0:
-        return SlotCount(k, 0, True, None, 0, 0)
-    return SlotCount(k, None, False, None, lower, upper, log_est, math.sqrt(rel_sq) if log_est is not None else None)
+        return exact_slot_count(k, 0, None)
+    if lower == upper:
+        return exact_slot_count(k, lower, None)
+    return _estimated_count(k, lower, upper, moments, ratio)
 
 
 def _ratio(value: int, prev: int) -> float:
