@@ -11,6 +11,7 @@ from ..conflicts import conflict_graph
 from ..counting.problem_counts import count_problem
 from ..counting.polynomial import ChromaticPolynomial, edgeless_power, poly_mul
 from ..errors import Finding, InputError
+from ..export.tables import interval_words, ratio_words
 from .common import console, err_console, input_options, print_json, read_input, show_warnings, styled
 from .slot_counts import SlotCountsOption, parse_slot_counts
 
@@ -143,27 +144,35 @@ def _print_report(file: str, report, notes: list[str]) -> None:
                   f"{report.isolated_events} {'event' if report.isolated_events == 1 else 'events'} with no clash"))
     table = Table(title="Clash-free timetables", title_justify="left")
     table.add_column("Slots", justify="right")
-    table.add_column("Timetables", justify="right", no_wrap=True)
+    table.add_column("Timetables", justify="right")
     table.add_column("Exact", justify="center")
     table.add_column("× vs one slot fewer", justify="right")
     table.add_column("Groupings (slots unlabelled)", justify="right")
     for c in report.counts:
         if c.exact:
             shown = readable_count(c.timetables)
+        elif c.estimate_interval_log10 is not None:
+            shown = interval_words(c.estimate_interval_log10)
         else:
-            err = f" ± {100 * c.estimate_relative_error:.0f}%" if c.estimate_relative_error is not None else ""
-            shown = (f"about {_log_text(c.estimate_log10)}{err}" if c.estimate_log10 is not None
-                     else "unknown")
-        ratio = f"{c.ratio_to_previous:,.2f}" if c.ratio_to_previous is not None else "—"
+            shown = f"about {_log_text(c.estimate_log10)} (no interval)" if c.estimate_log10 is not None else "unknown"
+        if not c.exact and c.ratio_interval_log10 is not None:
+            ratio = ratio_words(c)
+        else:
+            ratio = f"{c.ratio_to_previous:,.2f}" if c.ratio_to_previous is not None else "—"
         table.add_row(str(c.slots), shown, "yes" if c.exact else "no", ratio, readable_count(c.groupings)
                       if c.groupings is not None else "—")
     console.print(table)
     for c in report.counts:
         if not c.exact:
-            probes = ("estimate by random probes of the search tree" if c.estimate_log10 is not None
-                      else "no timetable met in the random probes, so no estimate")
+            if c.estimate_interval_log10 is not None:
+                how = ("estimated by sequential Monte Carlo: repeated independent runs give the 95 % interval "
+                       "shown above")
+            elif c.estimate_log10 is not None:
+                how = "too many sampling runs met dead ends for an honest interval"
+            else:
+                how = "no timetable met by the sampling runs, so no estimate"
             console.print(f"  {c.slots} slots: not exact within the time limit; proven between "
-                          f"{readable_count(c.lower, True)} and {readable_count(c.upper, True)} ({probes}).")
+                          f"{readable_count(c.lower, True)} and {readable_count(c.upper, True)} ({how}).")
     if report.constrained:
         console.print("Counts keep every fixed event in its slot and no event in a barred slot.")
     for note in notes:

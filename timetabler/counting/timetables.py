@@ -433,6 +433,7 @@ def _estimate_component(comp: ComponentCount, sub: nx.Graph, ks: list[int], stop
                 lowers[k] = max(lowers[k], agreeing_family_lower(sub, k, dsatur, deadline=bounds_stop))
     possible = [k for k in possible if uppers[k] > 0]
     chains: dict[int, object] = {}
+    direct: dict[int, Moments | None] = {}
     if possible:
         runs = _chain_runs(possible, len(clique), comp.constrained)
         weights = [hi - lo + 1 for lo, hi in runs]
@@ -440,7 +441,15 @@ def _estimate_component(comp: ComponentCount, sub: nx.Graph, ks: list[int], stop
             left = max(stop - time.monotonic(), 0.1)
             share = 0.9 * left * weights[index] / sum(weights[index:])
             allowed = allowed_at.get(lo) or None
-            chain = sample_chain(sub, lo, hi, seconds=share, allowed=allowed)
+            if hi > lo:
+                # the fewest slots of the run are the hardest: the chain closing slots down to it may
+                # meet dead ends, so it is also sampled on its own, placing the events at lo slots
+                chain = sample_chain(sub, lo, hi, seconds=0.65 * share)
+                alone = sample_chain(sub, lo, lo, seconds=max(share - (time.monotonic() - (stop - left)), 0.1))
+                direct[lo] = alone.count_moments(lo)
+                chain.colourings.setdefault(lo, []).extend(alone.colourings.get(lo, []))
+            else:
+                chain = sample_chain(sub, lo, hi, seconds=share, allowed=allowed)
             for k in chain.ks:
                 chains[k] = chain
     counts = []
@@ -456,7 +465,18 @@ def _estimate_component(comp: ComponentCount, sub: nx.Graph, ks: list[int], stop
                 break
             lower = max(lower, agreeing_family_lower(sub, k, colouring, allowed, deadline=stop + 1.0))
         moments = chain.count_moments(k) if chain is not None else None
+        alone = direct.get(k)
+        if alone is not None and (moments is None or alone.variance < moments.variance):
+            moments = alone
         ratio = chain.ratio_moments(k) if chain is not None and k - 1 in chain.ks else None
+        if chain is not None and direct.get(k - 1) is not None and k - 1 in chain.ks:
+            above = chain.count_moments(k)
+            if above is not None:  # independent runs: the variances add
+                below = direct[k - 1]
+                other = Moments(above.centre - below.centre, above.variance + below.variance,
+                                min(above.replicates, below.replicates))
+                if ratio is None or other.variance < ratio.variance:
+                    ratio = other
         counts.append(_estimated_count(k, lower, uppers[k], moments, ratio))
     comp.counts = counts
 

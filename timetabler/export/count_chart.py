@@ -2,8 +2,8 @@
 
 Drawn with matplotlib's Agg backend (no display needed). The y axis is log10 of the
 count: counts grow so fast with slots that a linear axis shows nothing but the last point.
-Exact counts are filled markers; estimates are hollow, with their bounds as error bars
-where the counting engine gave them.
+Exact counts are filled markers; estimates are hollow, with their 95 % interval as error
+bars (their proven bounds where no interval was found).
 """
 
 from __future__ import annotations
@@ -18,17 +18,23 @@ from .tables import _big_log10, _count_log10
 
 
 def chart_points(counts: Any) -> list[tuple[int, float, bool, float | None, float | None]]:
-    """(slots, log10 count, exact, log10 lower, log10 upper) for every slot count with a positive count."""
+    """(slots, log10 count, exact, log10 low, log10 high) for every slot count with a positive count.
+
+    ``low``/``high`` are the 95 % interval of an estimate, else the proven bounds.
+    """
     points = []
     for c in getattr(counts, "counts", None) or []:
         lg = _count_log10(c)
         if lg is None or not math.isfinite(lg):
             continue
         lower, upper = getattr(c, "lower", None), getattr(c, "upper", None)
-        points.append((
-            int(c.slots), lg, bool(getattr(c, "exact", False)),
-            _big_log10(int(lower)) if lower else None, _big_log10(int(upper)) if upper else None,
-        ))
+        interval = getattr(c, "estimate_interval_log10", None)
+        if interval is not None and not getattr(c, "exact", False):
+            low, high = interval  # the 95 % interval of the estimate
+        else:
+            low = _big_log10(int(lower)) if lower else None
+            high = _big_log10(int(upper)) if upper else None
+        points.append((int(c.slots), lg, bool(getattr(c, "exact", False)), low, high))
     return sorted(points)
 
 

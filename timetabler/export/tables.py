@@ -509,6 +509,39 @@ def _big_log10(n: int) -> float:
     return math.log10(head) + digits - 17
 
 
+def power_text(log10: float) -> str:
+    """``10^x`` as a reader sees it: ``3.56 × 10^51``, or the plain number below a million."""
+    if log10 < 6:
+        value = 10 ** log10
+        return f"{value:,.2f}" if value < 100 else f"{value:,.0f}"
+    exponent = math.floor(log10)
+    mantissa = 10 ** (log10 - exponent)
+    if mantissa >= 9.995:
+        mantissa, exponent = 1.0, exponent + 1
+    return f"{mantissa:.2f} × 10^{exponent}"
+
+
+def interval_words(interval: Sequence[float] | None) -> str:
+    """``between 10^88 and 10^90, 95 % confidence`` for a log10 interval (empty when None)."""
+    if interval is None:
+        return ""
+    low, high = interval
+    if low == high:
+        return f"exactly {power_text(low)}"
+    return f"between {power_text(low)} and {power_text(high)}, 95 % confidence"
+
+
+def ratio_words(c: Any) -> str:
+    """The ratio to one slot fewer with its interval: ``× 2.38 million … ``, as text (empty when unknown)."""
+    interval = getattr(c, "ratio_interval_log10", None)
+    if interval is None:
+        return ""
+    low, high = interval
+    if low == high:
+        return f"exactly × {power_text(low)}"
+    return f"× between {power_text(low)} and {power_text(high)}, 95 % confidence"
+
+
 def counts_table(counts: Any) -> PublishedTable:
     """One row per slot count: the exact number of clash-free timetables (as text) and its figures."""
     table = PublishedTable(
@@ -517,6 +550,8 @@ def counts_table(counts: Any) -> PublishedTable:
             Column("Slots", INT), Column("Clash-free timetables", BIGINT), Column("Digits", INT), Column("log10", FLOAT),
             Column("Ratio to previous", FLOAT), Column("Exact", FLAG), Column("Lower bound", BIGINT),
             Column("Upper bound", BIGINT), Column("Estimate relative error", FLOAT), Column("Groupings", BIGINT),
+            Column("95 % interval, log10 low", FLOAT), Column("95 % interval, log10 high", FLOAT),
+            Column("95 % interval"), Column("Ratio to previous, 95 % interval"),
         ],
         title="Number of clash-free timetables for each number of slots",
     )
@@ -527,6 +562,8 @@ def counts_table(counts: Any) -> PublishedTable:
             getattr(c, "ratio_to_previous", None), bool(getattr(c, "exact", False)), count_text(getattr(c, "lower", None)),
             count_text(getattr(c, "upper", None)), getattr(c, "estimate_relative_error", None),
             count_text(getattr(c, "groupings", None)),
+            *(list(getattr(c, "estimate_interval_log10", None) or (None, None))),
+            interval_words(getattr(c, "estimate_interval_log10", None)), ratio_words(c),
         ])
     return table
 

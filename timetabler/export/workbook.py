@@ -59,6 +59,7 @@ from openpyxl import Workbook
 from openpyxl.cell import WriteOnlyCell
 from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
 from openpyxl.chart import Reference, ScatterChart, Series
+from openpyxl.chart.legend import Legend
 from openpyxl.formatting.rule import CellIsRule, FormulaRule
 from openpyxl.styles import Alignment, Font, PatternFill
 from openpyxl.utils import get_column_letter
@@ -583,6 +584,17 @@ def _counts_sheet(book: _Book, counts: Any) -> None:
     series.marker.symbol = "circle"
     series.marker.size = 7
     chart.series.append(series)
+    low_col = table.headers.index("95 % interval, log10 low") + 1
+    if any(row[low_col - 1] is not None and not row[table.headers.index("Exact")] for row in table.rows):
+        # the 95 % interval of the estimated counts as two dashed lines around the points
+        for col in (low_col, low_col + 1):
+            bound = Series(Reference(ws, min_col=col, min_row=1, max_row=n + 1), xs, title_from_data=True)
+            bound.marker.symbol = "dash"
+            bound.graphicalProperties.line.dashStyle = "dash"
+            bound.graphicalProperties.line.width = 9525
+            chart.series.append(bound)
+        chart.legend = Legend()
+        chart.legend.position = "b"
     chart.height, chart.width = 9, 16
     ws.add_chart(chart, f"{get_column_letter(len(table.columns) + 2)}2")
 

@@ -132,6 +132,20 @@ def ratio(value: float | None) -> str:
     return f"×\u2009{value:.2f}"
 
 
+def interval(log10_interval) -> str:
+    """A count's 95 % interval in words: 'between 3.56 × 10^51 and 4.58 × 10^51, 95 % confidence'."""
+    from ..export.tables import interval_words
+
+    return interval_words(log10_interval) if log10_interval else ""
+
+
+def ratio_interval(count) -> str:
+    """The 95 % interval of a count's ratio to one slot fewer, in words (empty when unknown)."""
+    from ..export.tables import ratio_words
+
+    return ratio_words(count)
+
+
 def digits(n: int | None) -> int:
     return 0 if n is None else len(str(abs(int(n))))
 
@@ -146,5 +160,7 @@ FILTERS = {
     "number": number,
     "digits": digits,
     "ratio": ratio,
+    "interval": interval,
+    "ratio_interval": ratio_interval,
     "sup": superscripts,
 }
