@@ -1,0 +1,146 @@
+"""Estimates with a 95 % interval, and the proven bounds for groups too large to count exactly.
+
+References outside the project, named beside each check:
+- brute force: every assignment of k slots to the events, counted by itertools;
+- closed forms: ``P(C_n, k) = (k − 1)^n + (−1)^n (k − 1)`` for a cycle and
+  ``P(W_n, k) = k · P(C_{n−1}, k − 1)`` for a wheel (Read 1968, as recalled);
+- ``networkx.chromatic_polynomial`` (sympy expression) on small graphs.
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+
+import networkx as nx
+import pytest
+
+from timetabler.counting import count_timetables
+from timetabler.counting.bounds import agreeing_family_lower, clique_product_upper, degeneracy_lower
+from timetabler.counting.sequential_sampling import dsatur_order, log_mean_moments, sample_chain
+
+
+def brute_count(graph: nx.Graph, k: int, allowed: dict | None = None) -> int:
+    nodes = list(graph)
+    total = 0
+    for slots in itertools.product(range(k), repeat=len(nodes)):
+        x = dict(zip(nodes, slots))
+        if allowed and any(x[v] not in ok for v, ok in allowed.items()):
+            continue
+        if all(x[u] != x[v] for u, v in graph.edges()):
+            total += 1
+    return total
+
+
+def cycle_count(n: int, k: int) -> int:
+    return (k - 1) ** n + (-1) ** n * (k - 1)  # closed form
+
+
+def networkx_count(graph: nx.Graph, k: int) -> int:
+    import sympy
+
+    poly = nx.chromatic_polynomial(graph)
+    (x,) = poly.free_symbols
+    return int(poly.subs(x, k))
+
+
+def cases():
+    """(graph, k, exact count at k, exact count at k + 1 or None, source), counted outside the project."""
+    out = []
+    for seed in range(4):
+        g = nx.gnp_random_graph(7, 0.45, seed=seed)
+        out.append((g, 3 if seed % 2 else 4, None, None, "brute force"))
+    out.append((nx.cycle_graph(12), 3, cycle_count(12, 3), cycle_count(12, 4), "closed form, cycle"))
+    out.append((nx.wheel_graph(9), 4, 4 * cycle_count(8, 3), 5 * cycle_count(8, 4), "closed form, wheel"))
+    prism = nx.circular_ladder_graph(3)
+    out.append((prism, 3, networkx_count(prism, 3), networkx_count(prism, 4), "networkx"))
+    return [(g, k, t if t is not None else brute_count(g, k), u if u is not None else brute_count(g, k + 1), src)
+            for g, k, t, u, src in out]
+
+
+def test_intervals_cover_exact_counts_and_ratios():
+    covered = ratios = 0
+    every = cases()
+    for g, k, truth, above, _source in every:
+        if truth == 0:
+            continue
+        chain = sample_chain(g, k, k + 1, seconds=1.0, particles=100)
+        iv = chain.count_moments(k).interval()
+        covered += iv.low <= math.log10(truth) <= iv.high
+        r = chain.ratio_moments(k + 1).interval()
+        ratios += r.low <= math.log10(above / truth) <= r.high
+        assert iv.high - iv.low < 1.0  # small graphs: far narrower than an order of magnitude
+    # 95 % intervals on 7 cases (fixed seeds): all but at most one must cover
+    assert covered >= len(every) - 1
+    assert ratios >= len(every) - 1
+
+
+def test_fixed_and_barred_slots_are_respected_by_the_estimate():
+    g = nx.gnp_random_graph(8, 0.4, seed=11)
+    allowed = {0: {1}, 3: {0, 2}, 5: {2, 3}}
+    truth = brute_count(g, 4, allowed)  # brute force
+    chain = sample_chain(g, 4, 4, seconds=1.0, allowed=allowed, particles=300)
+    iv = chain.count_moments(4).interval()
+    assert iv.low <= math.log10(truth) <= iv.high
+
+
+def test_dead_runs_give_no_interval_and_some_zeros_widen_it():
+    assert log_mean_moments([-math.inf] * 5 + [1.0, 2.0, 1.5]) is None
+    some = log_mean_moments([-math.inf, 1.0, 1.2, 0.9, 1.1, 1.0, 1.05, 0.95])
+    none = log_mean_moments([1.0, 1.2, 0.9, 1.1, 1.0, 1.05, 0.95])
+    # one zero in eight runs: the mean drops by the share of zeros, ln(7/8) (delta-log-normal)
+    assert some.centre == pytest.approx(none.centre + math.log(7 / 8))
+    assert some.variance > none.variance
+
+
+def test_bounds_bracket_brute_force():
+    for seed in range(25):
+        g = nx.gnp_random_graph(7, 0.4, seed=seed)
+        for k in (3, 4):
+            truth = brute_count(g, k)  # brute force
+            assert degeneracy_lower(g, k) <= truth <= clique_product_upper(g, k, dsatur_order(g))
+            colouring = nx.greedy_color(g, strategy="saturation_largest_first")
+            if max(colouring.values()) < k:
+                assert 0 < agreeing_family_lower(g, k, colouring) <= truth
+            allowed = {0: {0, 1}, 2: {1, 2}}
+            with_pins = brute_count(g, k, allowed)
+            assert degeneracy_lower(g, k, allowed) <= with_pins <= clique_product_upper(g, k, list(g), allowed)
+    # a timetable that is not clash-free proves nothing
+    g = nx.path_graph(3)
+    assert agreeing_family_lower(g, 3, {0: 0, 1: 0, 2: 1}) == 0
+
+
+def test_family_bound_is_exact_when_every_event_is_free():
+    # an edgeless graph: every event is its own piece, so the family is every timetable (k^n)
+    g = nx.empty_graph(5)
+    assert agreeing_family_lower(g, 3, {v: 0 for v in g}) == 3 ** 5
+
+
+def test_large_group_gets_bounds_interval_and_exact_zero_below_a_clique():
+    g = nx.gnp_random_graph(24, 0.3, seed=5)
+    clique = max(len(c) for c in nx.find_cliques(g))
+    report = count_timetables(g, [clique - 1, 6, 7], budget_seconds=3.0, exact_counting=False, what_if=False)
+    low, k9, k10 = report.counts
+    assert low.exact and low.timetables == 0  # fewer slots than a clique: exactly none
+    truth9 = count_timetables(g, [6], budget_seconds=30, what_if=False).counts[0]
+    for c in (k9, k10):
+        assert not c.exact and c.timetables is None and c.lower > 0  # a proven lower bound
+        lo, hi = c.estimate_interval_log10
+        assert math.log10(c.lower) <= lo <= hi <= math.log10(c.upper)
+        doc = c.to_json()
+        assert doc["estimate_interval_log10"] == [round(lo, 4), round(hi, 4)]
+    if truth9.exact:  # the exact engine, checked against networkx elsewhere
+        lo, hi = k9.estimate_interval_log10
+        assert lo - 0.05 <= truth9.log10 <= hi + 0.05
+    r_lo, r_hi = k10.ratio_interval_log10
+    assert r_lo < r_hi
+    assert k10.to_json()["ratio_interval"][0] == pytest.approx(10 ** r_lo, rel=1e-4)
+    assert k9.to_json()["ratio_interval"] is None  # the first K has no ratio
+
+
+def test_exact_counts_carry_a_point_interval():
+    report = count_timetables(nx.cycle_graph(5), [3, 4])
+    c3, c4 = report.counts
+    assert c3.timetables == cycle_count(5, 3)  # closed form
+    assert c3.estimate_interval_log10 == (math.log10(30), math.log10(30))
+    assert c4.to_json()["ratio_interval"] == [pytest.approx(cycle_count(5, 4) / 30)] * 2
