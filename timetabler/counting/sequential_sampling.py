@@ -17,16 +17,19 @@ The estimator (Knuth 1975 grown into a population method)
     sample size falls below half the population is the usual adaptive rule (Doucet &
     Johansen §3.5; the threshold is common practice, not a derived value).
 
-One slot more: the ratio ``P(G, k + 1) / P(G, k)``
-    From the clash-free ``k``-slot timetables reached at the end, the new slot is opened
-    to one event at a time (the telescoping product of M. Jerrum, "A very simple algorithm
-    for estimating the number of k-colorings of a low-degree graph", Random Struct.
-    Algorithms 7 (1995), with the samples carried by the same population instead of
-    independent Markov chains). If ``Ω_j`` are the timetables in which only the first
-    ``j`` events may use slot ``k + 1``, then ``|Ω_j| / |Ω_{j−1}| = E[g'_j / g_j]`` over
-    ``Ω_{j−1}``, with ``g_j`` the slots free for event ``j`` among the first ``k`` and
-    ``g'_j`` among all ``k + 1`` (a weight between 1 and 2). Each step of the ratio is so
-    close to 1 that the ratio is far more precise than the two counts it compares.
+One slot fewer: the ratio ``P(G, k) / P(G, k − 1)``
+    The chain starts at the largest ``k`` asked for. From the clash-free ``k``-slot
+    timetables reached at the end, slot ``k`` is closed to one event at a time (the
+    telescoping product of M. Jerrum, "A very simple algorithm for estimating the number
+    of k-colorings of a low-degree graph", Random Struct. Algorithms 7 (1995), with the
+    samples carried by the same population instead of independent Markov chains). If
+    ``Ω_j`` are the timetables in which only the events after the ``j``-th may use slot
+    ``k``, then ``|Ω_j| / |Ω_{j−1}| = E[g_j / g'_j]`` over ``Ω_{j−1}``, with ``g'_j`` the
+    slots free for event ``j`` among all ``k`` and ``g_j`` among the first ``k − 1`` (a
+    weight between 0 and 1; event ``j`` is then redrawn among its ``g_j`` slots). Closing,
+    not opening, matters: the sample space must shrink, or the timetables reachable only
+    through the new slot would be missed. Each step is close to 1, so the ratio is far
+    more precise than the two counts it compares.
 
 The interval
     The whole run is repeated ``R`` times independently (8 by default, as vectorised

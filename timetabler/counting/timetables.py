@@ -471,10 +471,10 @@ def _estimate_component(comp: ComponentCount, sub: nx.Graph, ks: list[int], stop
         chain = chains.get(k)
         allowed = allowed_at[k] or None
         lower = lowers[k]
-        for colouring in (chain.colourings.get(k, []) if chain is not None else []):
-            if time.monotonic() > stop + 1.0:
+        for colouring in (chain.colourings.get(k, [])[:3] if chain is not None else []):
+            if time.monotonic() > stop and lower > 0:
                 break
-            lower = max(lower, agreeing_family_lower(sub, k, colouring, allowed, deadline=stop + 1.0))
+            lower = max(lower, agreeing_family_lower(sub, k, colouring, allowed, deadline=stop))
         moments = chain.count_moments(k) if chain is not None else None
         alone = direct.get(k)
         if alone is not None and (moments is None or alone.variance < moments.variance):

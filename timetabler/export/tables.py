@@ -521,25 +521,19 @@ def power_text(log10: float) -> str:
     return f"{mantissa:.2f} × 10^{exponent}"
 
 
-def interval_words(interval: Sequence[float] | None) -> str:
+def interval_words(interval: Sequence[float] | None, prefix: str = "") -> str:
     """``between 10^88 and 10^90, 95 % confidence`` for a log10 interval (empty when None)."""
     if interval is None:
         return ""
     low, high = interval
     if low == high:
-        return f"exactly {power_text(low)}"
-    return f"between {power_text(low)} and {power_text(high)}, 95 % confidence"
+        return f"exactly {prefix}{power_text(low)}"
+    return f"{prefix}between {power_text(low)} and {power_text(high)}, 95 % confidence"
 
 
 def ratio_words(c: Any) -> str:
-    """The ratio to one slot fewer with its interval: ``× 2.38 million … ``, as text (empty when unknown)."""
-    interval = getattr(c, "ratio_interval_log10", None)
-    if interval is None:
-        return ""
-    low, high = interval
-    if low == high:
-        return f"exactly × {power_text(low)}"
-    return f"× between {power_text(low)} and {power_text(high)}, 95 % confidence"
+    """The ratio to one slot fewer as its interval, ``× between … and …, 95 % confidence`` (empty when unknown)."""
+    return interval_words(getattr(c, "ratio_interval_log10", None), "× ")
 
 
 def counts_table(counts: Any) -> PublishedTable:
