@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import contextlib
+import dataclasses
 import time
 from decimal import Decimal
 from typing import Any
@@ -21,6 +22,9 @@ from .common import (SHARE_ROOMS_HELP, console, err_console, input_options, prin
 from ..export.publishing import count_for_runs
 from .output_options import check_outputs, output_options, try_publish
 from .slot_counts import SlotCountsOption, parse_slot_counts
+from .solve_options import (apply_goal_options, keep_option, max_per_day_option, print_repair, resolve_kept,
+                            time_limit_option, weight_option)
+from .store_options import earlier_timetable, open_store, store_options
 
 
 @click.command("compare")
@@ -30,11 +34,10 @@ from .slot_counts import SlotCountsOption, parse_slot_counts
               required=True, help="The numbers of slots to put side by side, e.g. --slots 5 6 or --slots 8-12.")
 @click.option("--sessions-per-day", type=click.IntRange(1, 12), default=2, show_default=True,
               help="Without a slots sheet: how many slots make a day (for back-to-back and two-in-a-day figures).")
-@click.option("--time-limit", type=click.FloatRange(0.5, None), default=20.0, show_default=True, metavar="SECONDS",
-              help="Time for each number of slots, and again for the fewest-slots search, counted from the start of "
-                   "the command (reading the file comes out of it).")
-@click.option("--count-time", type=click.FloatRange(0.1, None), default=20.0, show_default=True, metavar="SECONDS",
-              help="Time for counting the clash-free timetables. Counts that take longer are estimated.")
+@time_limit_option(20.0, "Time for each number of slots, and again for the fewest-slots search, counted from the "
+                         "start of the command (reading the file comes out of it).")
+@time_limit_option(20.0, "Time for counting the clash-free timetables. Counts that take longer are estimated.",
+                   minimum=0.1, name="--count-time")
 @click.option("--workers", type=click.IntRange(1, 64), default=2, show_default=True, help="Search threads.")
 @click.option("--seed", type=int, default=0, show_default=True, help="Random seed of the search.")
 @click.option("--repeatable", is_flag=True,
@@ -42,10 +45,15 @@ from .slot_counts import SlotCountsOption, parse_slot_counts
                    "work done rather than on the clock, so it may take longer or shorter than the time limit).")
 @click.option("--share-rooms/--no-share-rooms", default=True, help=SHARE_ROOMS_HELP)
 @click.option("--split-rooms", is_flag=True, help="Let a large event spread over several rooms (each extra room is penalised).")
+@weight_option
+@max_per_day_option
+@keep_option
+@store_options
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document instead of a table.")
 @output_options
 def command(file, sheet, attendee_column, event_column, slot_counts, sessions_per_day, time_limit, count_time, workers,
-            seed, repeatable, share_rooms, split_rooms, as_json, outputs, **_ignored):
+            seed, repeatable, share_rooms, split_rooms, weights, max_per_day, keep, store_at, retention_days, as_json,
+            outputs, **_ignored):
     """Put several numbers of slots for FILE side by side, to decide how many to book.
 
     \b
@@ -66,12 +74,22 @@ def command(file, sheet, attendee_column, event_column, slot_counts, sessions_pe
     require_enrolments(reading)
     show_warnings(reading, as_json)
     problem = reading.problem
+    apply_goal_options(problem, weights, max_per_day)
     ks = sorted(slot_counts)
     if problem.slots and max(ks) > len(problem.slots):
         raise InputError(Finding(
             f"--slots asks for {max(ks)} slots but the slots sheet lists only {len(problem.slots)}.",
             suggestion="Add slots to the slots sheet, or ask for fewer."))
-    check_outputs(outputs, problem=problem, slots=problem.slots[:max(ks)] if problem.slots else [])
+    check_outputs(outputs, problem=problem, keep=keep, slots=problem.slots[:max(ks)] if problem.slots else [])
+    stores: list = []
+    click.get_current_context().call_on_close(lambda: [s.close() for s in stores])
+
+    def store():  # opened only for --keep LABEL (an earlier timetable published in the store)
+        if not stores:
+            stores.append(open_store(store_at, retention_days, quiet=as_json))
+        return stores[0]
+
+    previous_refs, _ = earlier_timetable(keep, store) if keep else (None, None)
 
     def slots_for(k: int):
         return list(problem.slots[:k]) if problem.slots else generic_slots(k, sessions_per_day)
@@ -86,9 +104,10 @@ def command(file, sheet, attendee_column, event_column, slot_counts, sessions_pe
     for i, k in enumerate(ks, start=1):
         with _step(not as_json, f"solving with {k} slots"):
             slots = slots_for(k)
-            run = solve(problem, slots, clock.options(options, i), graph=graph)
+            previous = resolve_kept(problem, previous_refs, slots) if previous_refs else None
+            run = solve(problem, slots, clock.options(options, i), previous=previous, graph=graph)
             if run.assignment:
-                run.validation = validate(problem, slots, run.assignment, run.rooms or None,
+                run.validation = validate(problem, slots, run.assignment, run.rooms or None, previous=previous,
                                           room_sharing=share_rooms, room_splitting=split_rooms)
             runs.append(run)
     with _step(not as_json, "counting clash-free timetables"):
@@ -96,7 +115,8 @@ def command(file, sheet, attendee_column, event_column, slot_counts, sessions_pe
     validations = {r.slots: r.validation for r in runs if getattr(r, "validation", None) is not None}
     settings = {"compared slot counts": ks, "time limit (s)": time_limit, "count time (s)": count_time,
                 "workers": workers, "seed": seed, "repeatable": repeatable, "sessions per day": None if problem.slots else sessions_per_day,
-                "share rooms": share_rooms, "split rooms": split_rooms}
+                "share rooms": share_rooms, "split rooms": split_rooms,
+                "weights": dataclasses.asdict(problem.weights), "kept from": keep}
     written, write_error = try_publish(outputs, problem=problem, runs=runs, counts=counts, reading=reading,
                                    settings=settings, validations=validations, fewest=fewest, quiet=as_json)
     figures = {r.slots: run_figures(problem, r) for r in runs}
@@ -111,6 +131,8 @@ def command(file, sheet, attendee_column, event_column, slot_counts, sessions_pe
         print_json(doc)
     else:
         _print_side_by_side(table, counts, fewest, count_note)
+        for run in runs:
+            print_repair(run)
     if write_error is not None:  # the results are shown above; the failed output is bad input (exit 2)
         raise write_error
 

@@ -14,6 +14,7 @@ from ..errors import Finding, InputError
 from ..export.tables import interval_words, ratio_words
 from .common import console, err_console, input_options, print_json, read_input, show_warnings, styled
 from .slot_counts import SlotCountsOption, parse_slot_counts
+from .solve_options import time_limit_option
 
 
 @click.command("count")
@@ -22,9 +23,8 @@ from .slot_counts import SlotCountsOption, parse_slot_counts
 @click.option("--slots", "slot_counts", cls=SlotCountsOption, metavar="K [K ...]", callback=parse_slot_counts,
               help="The numbers of slots to count for, e.g. --slots 5 6 or --slots 5-8 "
                    "(default: the number of slots in the slots sheet).")
-@click.option("--time-limit", type=click.FloatRange(min=0.1), default=20.0, show_default=True, metavar="SECONDS",
-              help="Time for exact counting. A group of events that takes longer is given bounds and an estimate, "
-                   "marked not exact.")
+@time_limit_option(20.0, "Time for exact counting. A group of events that takes longer is given bounds and an "
+                         "estimate, marked not exact.", minimum=0.1)
 @click.option("--polynomial", "show_polynomial", is_flag=True,
               help="Also print the counting polynomial P(k) and the number of ways to split the events into "
                    "j clash-free groups, for every j.")

@@ -10,43 +10,20 @@ from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 from rich.table import Table
 
 from ..conflicts import conflict_graph
-from ..export.tables import slot_words
 from ..errors import Finding, InputError
-from ..intake.previous_timetable import resolve_previous
-from ..intake.vocabulary import GOAL_WORDS, key
-from ..model import GOAL_NAMES, Weights, generic_slots
+from ..model import generic_slots
 from ..scheduling import SolveOptions, fewest_slots, solve, validate
 from .command_clock import CommandClock
-from .common import (SHARE_ROOMS_HELP, console, err_console, input_options, print_json, read_input, require_enrolments, show_warnings,
-                     styled, warn)
+from .common import (SHARE_ROOMS_HELP, console, err_console, input_options, print_json, read_input, require_enrolments,
+                     show_warnings, styled)
 from .output_options import check_outputs, output_options, try_publish
 from .slot_counts import SlotCountsOption, parse_slot_counts
+from .solve_options import (apply_goal_options, keep_option, max_per_day_option, parse_weights, print_repair,
+                            resolve_kept,
+                            time_limit_option, weight_option)
 from .store_options import check_publish_request, earlier_timetable, open_store, record_solve, store_options
 
-#: --weight names: the goals' names (model.GOAL_NAMES, '-' for spaces); the Weights fields' own older
-#: names (penalised-slot, penalised-room, back-to-back, ...) are still understood
-WEIGHT_NAMES = {GOAL_NAMES[f.name].replace(" ", "-"): f.name for f in dataclasses.fields(Weights)}
-_OLD_WEIGHT_NAMES = {f.name.replace("_", "-"): f.name for f in dataclasses.fields(Weights)}
-
-
-def _parse_weights(ctx, param, values):
-    out: dict[str, int] = {}
-    for item in values or ():
-        name, sep, number = item.partition("=")
-        # the option's own names, or a goal as the Weights sheet names it ('avoided room')
-        typed = name.strip().lower().replace("_", "-")
-        attr = WEIGHT_NAMES.get(typed) or _OLD_WEIGHT_NAMES.get(typed) or GOAL_WORDS.get(key(name))
-        if not sep or attr is None:
-            raise click.BadParameter(
-                f"'{item}' should be NAME=NUMBER with NAME one of {', '.join(sorted(WEIGHT_NAMES))}")
-        try:
-            n = int(number)
-        except ValueError:
-            raise click.BadParameter(f"the weight in '{item}' must be a whole number") from None
-        if n < 0:
-            raise click.BadParameter(f"the weight in '{item}' cannot be negative")
-        out[attr] = n
-    return out
+_parse_weights = parse_weights  # the one --weight parser, under its former name
 
 
 @click.command("solve")
@@ -60,8 +37,7 @@ def _parse_weights(ctx, param, values):
                    "and give that timetable.")
 @click.option("--sessions-per-day", type=click.IntRange(1, 12), default=2, show_default=True,
               help="Without a slots sheet: how many slots make a day (for back-to-back and same-day counts).")
-@click.option("--time-limit", type=click.FloatRange(0.5, None), default=30.0, show_default=True, metavar="SECONDS",
-              help="Time for each number of slots (and for --fewest), counted from the start of the command: "
+@time_limit_option(30.0, "Time for each number of slots (and for --fewest), counted from the start of the command: "
                    "reading the file and writing the results come out of it. The best timetable found by then is "
                    "given.")
 @click.option("--workers", type=click.IntRange(1, 64), default=2, show_default=True,
@@ -70,21 +46,11 @@ def _parse_weights(ctx, param, values):
 @click.option("--repeatable", is_flag=True,
               help="Give exactly the same timetable on every run with the same seed and workers (stops on work done, "
                    "not on the clock, so the time limit is approximate).")
-@click.option("--weight", "weights", multiple=True, metavar="NAME=N", callback=_parse_weights,
-              help="Change a soft-goal weight, e.g. --weight back-to-back=20 --weight proximity=1. Names: "
-                   + ", ".join(sorted(WEIGHT_NAMES)) + " (the older names penalised-slot and penalised-room still "
-                   "work, and so do the Weights sheet's goal names, in quotes: --weight \"avoided room=5\").")
-@click.option("--max-per-day", type=click.IntRange(1, 24), metavar="N",
-              help="No attendee may have more than N events on one day (overrides the rules sheet).")
+@weight_option
+@max_per_day_option
 @click.option("--share-rooms/--no-share-rooms", default=True, help=SHARE_ROOMS_HELP)
 @click.option("--split-rooms", is_flag=True, help="Let a large event spread over several rooms (each extra room is penalised).")
-@click.option("--keep", "keep", metavar="PREVIOUS", type=click.Path(dir_okay=False),
-              help="Repair an earlier timetable (a workbook from --out, a CSV with Event and Slot columns, or the label "
-                   "of a published timetable; an existing file is read as a file). What is minimised is the total "
-                   "penalty, each event moved counting as the weight 'moved' (20): an event moves when a change "
-                   "forces it, or when moving it saves more than 20 of the other goals. For the fewest moves whatever "
-                   "the rest costs, give --weight moved=N with N above the rest of the penalty (e.g. 1000). Every "
-                   "move and every event placed afresh is listed.")
+@keep_option
 @click.option("--publish", "publish_label", metavar="LABEL",
               help="Record the timetable in the store as published under LABEL (one --slots K, or --fewest). "
                    "Refused, with nothing recorded, unless it is clash-free and passes the validator, or when LABEL "
@@ -131,10 +97,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, fewest, ses
     require_enrolments(reading)
     show_warnings(reading, as_json)
     problem = reading.problem
-    if weights:
-        problem.weights = dataclasses.replace(problem.weights, **weights)
-    if max_per_day is not None:
-        problem.max_per_day = max_per_day
+    apply_goal_options(problem, weights, max_per_day)
     if not slot_counts and not fewest and not problem.slots:
         raise click.UsageError("Say how many slots to use (--slots 12, or several: --slots 10-14), or ask for the "
                                "fewest (--fewest). The file has no slots sheet to take them from.")
@@ -175,7 +138,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, fewest, ses
                 counts.insert(0, fewest_result.upper)
         for i, k in enumerate(counts, start=1 if fewest else 0):
             slots = slots_for(k)
-            previous = _resolve_previous(problem, previous_refs, slots) if previous_refs else None
+            previous = resolve_kept(problem, previous_refs, slots) if previous_refs else None
             task = show.add(f"{k} slots", time_limit)
             run = solve(problem, slots, clock.options(options, i), previous=previous, graph=graph,
                         progress=lambda e, task=task: show.update(task, e))
@@ -203,14 +166,6 @@ def command(file, sheet, attendee_column, event_column, slot_counts, fewest, ses
         _print_runs(problem, runs, fewest_result)
     if write_error is not None:  # the results are shown above; the failed output is bad input (exit 2)
         raise write_error
-
-
-def _resolve_previous(problem, refs, slots) -> dict[str, int]:
-    """The earlier timetable for these slots; events whose earlier slot is gone are warned about."""
-    resolved = resolve_previous(problem, refs, slots)  # events dropped since are left out and named
-    for finding in (resolved.dropped + resolved.unplaced)[:20]:
-        warn(finding)
-    return resolved.slots
 
 
 class _progress_display:
@@ -297,16 +252,7 @@ def _print_runs(problem, runs, fewest_result) -> None:
             console.print(styled((f"{r.slots} slots: the validator found problems", "bold red"), " (this is a bug):"))
             for text in r.validation.violations[:10]:
                 console.print(f"  • {text}", soft_wrap=True)
-        if r.moves:
-            console.print(styled((f"{r.slots} slots", "bold"), f" — {len(r.moves)} event(s) moved from the earlier timetable:"))
-            for mv in r.moves[:50]:
-                console.print(f"  • {mv['event']}: {slot_words(r.slot_list, mv['from'])} → "
-                              f"{slot_words(r.slot_list, mv['to'])}", soft_wrap=True)
-        if r.placed:
-            console.print(styled((f"{r.slots} slots", "bold"),
-                                 f" — {len(r.placed)} event(s) placed afresh (no slot in the earlier timetable):"))
-            for new in r.placed[:50]:
-                console.print(f"  • {new['event']}: {slot_words(r.slot_list, new['to'])}", soft_wrap=True)
+        print_repair(r)
 
 
 def _num(value) -> str:
