@@ -82,7 +82,7 @@ def test_attendee_load_agrees_with_the_independent_validator(published):
         assert all(r["Clashes"] == 0 for r in rows)
         for r in rows:
             assert r["Most in one day"] == verdict.attendee_load[r["Attendee"]]["most_in_one_day"]
-            assert r["Flagged"] == ("yes" if r["Back-to-back"] or r["Same day, not back-to-back"] else "no")
+            assert r["Clash or two in a day"] == ("yes" if r["Back-to-back"] or r["Same day, not back-to-back"] else "no")
 
 
 def test_seats_and_rooms_add_up(published):

@@ -298,7 +298,7 @@ def load_table(problem: Problem, run: Any, show: Callable[[str], str] = str, loa
         [
             Column("Attendee"), Column("Events", INT), Column("Most in one day", INT), Column("Clashes", INT),
             Column("Back-to-back", INT), Column("Same day, not back-to-back", INT), Column("Overnight", INT),
-            Column("Proximity cost", INT), Column("Flagged", FLAG),
+            Column("Proximity cost", INT), Column("Clash or two in a day", FLAG),  # yes: a clash, back-to-back or same day
         ],
         title="Attendee load",
     )

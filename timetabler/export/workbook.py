@@ -31,7 +31,7 @@ Moves
     In repair mode: every event moved from the earlier timetable, and how many attendees it affects.
 Attendee load
     Per attendee: events, most in one day, clashes, back-to-back, same day, overnight,
-    Carter proximity cost, flagged.
+    Carter proximity cost, and 'Clash or two in a day' (yes when the attendee has a clash or two events on one day).
 
 Every list is an Excel table with filters, a frozen header row, widths fitted to the
 content, real dates and times, and conditional highlighting of problems. The file is
@@ -433,9 +433,9 @@ def _load_highlight(ws, table: PublishedTable, last_row: int) -> None:
     ws.conditional_formatting.add(
         _range(table, "Same day, not back-to-back", last_row), CellIsRule(operator="greaterThan", formula=["0"], fill=AMBER, font=AMBER_FONT)
     )
-    f = _col(table, "Flagged")
+    f = _col(table, "Clash or two in a day")
     ws.conditional_formatting.add(
-        _range(table, "Flagged", last_row), FormulaRule(formula=[f'{f}2="yes"'], fill=AMBER, font=AMBER_FONT)
+        _range(table, "Clash or two in a day", last_row), FormulaRule(formula=[f'{f}2="yes"'], fill=AMBER, font=AMBER_FONT)
     )
 
 
@@ -453,7 +453,10 @@ def _overview(book: _Book, problem: Problem, runs, counts, reading, settings, va
     c = book.cell
     source = getattr(problem, "source", "") or ""
     ws.append([c(ws, f"Timetable from {Path(source).name}" if source else "Timetable", font=TITLE)])
-    ws.append([c(ws, "Written"), c(ws, dt.datetime.now().replace(microsecond=0).isoformat(sep=" "))])
+    written = WriteOnlyCell(ws, value=dt.datetime.now().replace(second=0, microsecond=0))  # a real date and time
+    written.number_format = "yyyy-mm-dd hh:mm"
+    written.alignment = Alignment(horizontal="left")
+    ws.append([c(ws, "Written"), written])
     try:
         from importlib.metadata import version
 
