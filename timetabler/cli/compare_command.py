@@ -22,7 +22,8 @@ from .common import (SHARE_ROOMS_HELP, console, err_console, input_options, prin
 from ..export.publishing import count_for_runs
 from .output_options import check_outputs, output_options, try_publish
 from .slot_counts import SlotCountsOption, parse_slot_counts
-from .solve_options import (apply_goal_options, keep_option, max_per_day_option, print_repair, resolve_kept,
+from .solve_options import (apply_goal_options, keep_option, max_per_day_option, print_repair, repeatable_option,
+                            resolve_kept,
                             time_limit_option, weight_option)
 from .store_options import earlier_timetable, open_store, store_options
 
@@ -40,9 +41,7 @@ from .store_options import earlier_timetable, open_store, store_options
                    minimum=0.1, name="--count-time")
 @click.option("--workers", type=click.IntRange(1, 64), default=2, show_default=True, help="Search threads.")
 @click.option("--seed", type=int, default=0, show_default=True, help="Random seed of the search.")
-@click.option("--repeatable", is_flag=True,
-              help="The same timetables on every run with the same seed and workers (the search then stops on "
-                   "work done rather than on the clock, so it may take longer or shorter than the time limit).")
+@repeatable_option
 @click.option("--share-rooms/--no-share-rooms", default=True, help=SHARE_ROOMS_HELP)
 @click.option("--split-rooms", is_flag=True, help="Let a large event spread over several rooms (each extra room is penalised).")
 @weight_option

@@ -19,6 +19,7 @@ from .common import (SHARE_ROOMS_HELP, console, err_console, input_options, prin
 from .output_options import check_outputs, output_options, try_publish
 from .slot_counts import SlotCountsOption, parse_slot_counts
 from .solve_options import (apply_goal_options, keep_option, max_per_day_option, parse_weights, print_repair,
+                            repeatable_option,
                             resolve_kept,
                             time_limit_option, weight_option)
 from .store_options import check_publish_request, earlier_timetable, open_store, record_solve, store_options
@@ -43,9 +44,7 @@ _parse_weights = parse_weights  # the one --weight parser, under its former name
 @click.option("--workers", type=click.IntRange(1, 64), default=2, show_default=True,
               help="Search threads. More finish sooner on a machine with more cores.")
 @click.option("--seed", type=int, default=0, show_default=True, help="Random seed of the search.")
-@click.option("--repeatable", is_flag=True,
-              help="Give exactly the same timetable on every run with the same seed and workers (stops on work done, "
-                   "not on the clock, so the time limit is approximate).")
+@repeatable_option
 @weight_option
 @max_per_day_option
 @click.option("--share-rooms/--no-share-rooms", default=True, help=SHARE_ROOMS_HELP)

@@ -89,6 +89,12 @@ weight_option = click.option(
          + ", ".join(sorted(WEIGHT_NAMES)) + " (the older names penalised-slot and penalised-room still "
          "work, and so do the Weights sheet's goal names, in quotes: --weight \"avoided room=5\").")
 
+repeatable_option = click.option(
+    "--repeatable", is_flag=True,
+    help="Give exactly the same timetables on every run with the same seed and workers. The search then stops "
+         "after an amount of work, not on the clock, so --time-limit is no longer a limit: the work takes about "
+         "that long on an idle two-core computer and several times longer on a busy one.")
+
 max_per_day_option = click.option(
     "--max-per-day", type=click.IntRange(1, 24), metavar="N",
     help="No attendee may have more than N events on one day (overrides the rules sheet).")
