@@ -221,3 +221,15 @@ def test_changes_of_an_unknown_label_lists_the_known_ones(run_command, small_csv
     assert run_command("solve", small_csv, "--slots", "6", "--time-limit", "2", "--publish", "one").status == 0
     result = run_command("changes", "one", "two")
     assert result.status == 2 and "'one'" in result.stderr and "Traceback" not in result.stderr
+
+
+def test_a_store_that_cannot_be_opened_costs_only_the_record(run_command, tmp_path, small_csv):
+    blocked = tmp_path / "a file, not a folder"
+    blocked.write_text("x")
+    where = blocked / "store.sqlite3"
+    plain = run_command("solve", small_csv, "--slots", "6", "--time-limit", "2", "--store", where, "--json")
+    assert plain.status == 0 and plain.json()["runs"][0]["status"] in ("optimal", "feasible")
+    assert "not recorded" in plain.stderr
+    publishing = run_command("solve", small_csv, "--slots", "6", "--time-limit", "2", "--store", where,
+                             "--publish", "x")
+    assert publishing.status == 2 and "cannot be opened" in publishing.stderr

@@ -116,7 +116,8 @@ def command(file, sheet, attendee_column, event_column, slot_counts, fewest, ses
             stores.append(open_store(store_at, retention_days, quiet=as_json))
         return stores[0]
 
-    check_publish_request(publish_label, slot_counts, fewest, problem, None if no_record else store())
+    check_publish_request(publish_label, slot_counts, fewest, problem,
+                          store() if publish_label and not no_record else None)
     previous_refs, kept_from = earlier_timetable(keep, store) if keep else (None, None)
     graph = conflict_graph(problem)
 
@@ -154,7 +155,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, fewest, ses
                                    validations={r.slots: r.validation for r in runs if r.validation is not None},
                                    fewest=fewest_result, quiet=as_json)
     if not no_record:
-        record_solve(store(), problem, runs, settings, publish_label=publish_label, kept_from=kept_from, quiet=as_json)
+        record_solve(store, problem, runs, settings, publish_label=publish_label, kept_from=kept_from, quiet=as_json)
     if as_json:
         doc = {"file": file, "runs": [r.to_json() for r in runs]}
         if fewest_result is not None:

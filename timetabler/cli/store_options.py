@@ -10,6 +10,7 @@ solves, :func:`earlier_timetable` to read ``--keep`` (a file, else a published l
 from __future__ import annotations
 
 import os
+import sqlite3
 from pathlib import Path
 from typing import Any, Callable, Sequence
 
@@ -106,9 +107,21 @@ def earlier_timetable(keep: str, store: Callable[[], Store]) -> tuple[PreviousTi
         f"label {version.label}"
 
 
-def record_solve(store: Store, problem: Any, runs: Sequence[Any], settings: dict, *, publish_label: str | None,
-                 kept_from: str | None, quiet: bool) -> None:
-    """Record the solve (input, runs, and the label), or refuse the publication and record nothing."""
+def record_solve(opened: Callable[[], Store], problem: Any, runs: Sequence[Any], settings: dict, *,
+                 publish_label: str | None, kept_from: str | None, quiet: bool) -> None:
+    """Record the solve (input, runs, and the label), or refuse the publication and record nothing.
+
+    Without ``--publish`` a store that cannot be opened or written costs only the record: a warning,
+    and the results already shown and written stand.
+    """
+    if publish_label is None:
+        try:
+            store = opened()
+        except InputError as exc:
+            err_console.print(f"[yellow]warning:[/yellow] this run was not recorded: {exc}", soft_wrap=True)
+            return
+    else:
+        store = opened()
     target = None
     if publish_label is not None:
         solved = [r for r in runs if r.assignment]
@@ -122,7 +135,13 @@ def record_solve(store: Store, problem: Any, runs: Sequence[Any], settings: dict
                 f"recorded: {problems}", suggestion="Publish only a clash-free timetable that the validator passed: "
                 "give more slots, more time (--time-limit) or fix the rules the reason names."))
         target = (int(run.slots), publish_label)
-    saved = store.record_solve(problem, runs, settings, kept_from=kept_from, publish=target)
+    try:
+        saved = store.record_solve(problem, runs, settings, kept_from=kept_from, publish=target)
+    except sqlite3.Error as exc:  # a full disc, a read-only file: the record is lost, not the results
+        if target is not None:
+            raise InputError(f"The timetable was not published: the store {store.path} cannot be written ({exc}).")
+        err_console.print(f"[yellow]warning:[/yellow] this run was not recorded in {store.path}: {exc}", soft_wrap=True)
+        return
     if not quiet:
         where = _shown(store.path)
         if saved.published:
