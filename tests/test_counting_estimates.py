@@ -144,3 +144,13 @@ def test_exact_counts_carry_a_point_interval():
     assert c3.timetables == cycle_count(5, 3)  # closed form
     assert c3.estimate_interval_log10 == (math.log10(30), math.log10(30))
     assert c4.to_json()["ratio_interval"] == [pytest.approx(cycle_count(5, 4) / 30)] * 2
+
+
+def test_bounds_that_meet_give_an_exact_count_and_ratio():
+    # a tree is chordal: both bounds equal k (k − 1)^(n − 1) (closed form), so the count is exact
+    g = nx.balanced_tree(2, 3)
+    n = g.number_of_nodes()
+    c3, c4 = count_timetables(g, [3, 4], budget_seconds=2.0, exact_counting=False, what_if=False).counts
+    assert c3.exact and c3.timetables == 3 * 2 ** (n - 1)
+    assert c4.exact and c4.timetables == 4 * 3 ** (n - 1)
+    assert c4.ratio_interval_log10[0] == pytest.approx(math.log10(c4.timetables / c3.timetables))

@@ -468,6 +468,16 @@ def _estimate_component(comp: ComponentCount, sub: nx.Graph, ks: list[int], stop
         if k not in uppers or uppers[k] == 0:
             counts.append(exact_slot_count(k, 0, None))
             continue
+        if lowers[k] == uppers[k]:  # the bounds meet (a chordal group): exact, and so is the ratio when they meet at K − 1
+            prev = None
+            if not comp.constrained and k - 1 >= len(clique):
+                below = lower_bound(sub, k - 1, max(dsatur.values()) + 1)
+                prev = below if below and below == chordal_subgraph_upper(sub, k - 1) else None
+            comp.values[k] = lowers[k]
+            if prev:
+                comp.values[k - 1] = prev
+            counts.append(exact_slot_count(k, lowers[k], prev))
+            continue
         chain = chains.get(k)
         allowed = allowed_at[k] or None
         lower = lowers[k]
@@ -575,7 +585,11 @@ def _combine_inexact(results: list[ComponentCount], iso: dict[int, int], k: int)
     if zero or upper == 0:
         return exact_slot_count(k, 0, None)
     if lower == upper:
-        return exact_slot_count(k, lower, None)
+        out = exact_slot_count(k, lower, None)
+        if ratio is not None and ratio.variance == 0:  # every group's ratio exact too
+            out.ratio_interval_log10 = (ratio.centre / LN10, ratio.centre / LN10)
+            out.ratio_to_previous = 10 ** (ratio.centre / LN10) if ratio.centre / LN10 < 300 else None
+        return out
     return _estimated_count(k, lower, upper, moments, ratio)
 
 
