@@ -24,13 +24,13 @@ class CommandClock:
 
     >>> clock = CommandClock(started=100.0, seconds_each=30.0, enrolments=0)
     >>> clock.end(0), clock.end(1)
-    (129.5, 159.5)
+    (129.0, 159.0)
     """
 
     def __init__(self, started: float, seconds_each: float, enrolments: int):
         self.started = started
         self.each = seconds_each
-        self.tail = 0.5 + 1.5 * enrolments / 100_000
+        self.tail = 1.0 + 5.0 * enrolments / 100_000
 
     def end(self, step: int) -> float:
         return self.started + (step + 1) * self.each - self.tail
