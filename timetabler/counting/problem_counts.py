@@ -14,7 +14,8 @@ from typing import Callable, Sequence
 import networkx as nx
 
 from ..model import Problem, Slot, generic_slots
-from .timetables import CountReport, count_timetables
+from .sequential_sampling import Moments
+from .timetables import CountReport, count_timetables, set_intervals
 
 
 def default_slots_for(problem: Problem) -> Callable[[int], list[Slot]]:
@@ -88,4 +89,17 @@ def count_problem(
         for mine, theirs in zip(merged.components, other.components):
             mine.counts.extend(theirs.counts)
     merged.seconds = sum(r.seconds for r in reports)
+    _ratios_between_runs(merged.counts)
     return merged, notes
+
+
+def _ratios_between_runs(counts: list) -> None:
+    """Each K was estimated on its own: the ratio to K − 1 from the two independent estimates (variances add)."""
+    by_k = {c.slots: c for c in counts}
+    for c in counts:
+        prev = by_k.get(c.slots - 1)
+        if c.exact or prev is None or c.ratio_moments is not None or c.moments is None or prev.moments is None:
+            continue
+        c.ratio_moments = Moments(c.moments.centre - prev.moments.centre, c.moments.variance + prev.moments.variance,
+                                  min(c.moments.replicates, prev.moments.replicates))
+        set_intervals(c)

@@ -527,11 +527,11 @@ def _estimated_count(k: int, lower: int, upper: int, moments: Moments | None, ra
     """A count known by proven bounds and an estimate; the interval is kept inside the bounds."""
     count = SlotCount(slots=k, timetables=None, exact=False, lower=lower, upper=upper, moments=moments,
                       ratio_moments=ratio)
-    _set_intervals(count)
+    set_intervals(count)
     return count
 
 
-def _set_intervals(count: SlotCount) -> None:
+def set_intervals(count: SlotCount) -> None:
     low_bound = _log10_int(count.lower) if count.lower else -math.inf
     high_bound = _log10_int(count.upper) if count.upper else math.inf
     if count.moments is not None:
