@@ -500,12 +500,12 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
             run.assignment = dict(feasible_hint)
             run.status, run.proven, run.penalty, run.bound = "optimal", True, 0, 0.0
             break
-        # Two orders, by the model's size. Small (at most LIGHT_PRESOLVE_PAIRS clashing pairs): CP-SAT can often
+        # Two orders, by the model's size. Small (at most PROOF_PAIRS clashing pairs): CP-SAT can often
         # prove optimality, and its bound tends to move only at the proof, so a short local search first gives
         # it a good hint, CP-SAT then has most of the time without stopping on a stall, and the local search
         # the rest. Large: CP-SAT first for a share of the time, stopping when it stalls; then the local search.
         local = k > 1 and not order_free
-        small = sub.number_of_edges() <= LIGHT_PRESOLVE_PAIRS
+        small = sub.number_of_edges() <= PROOF_PAIRS
 
         def polish(assignment: dict[str, int], bound: float | None, share: float = 1.0) -> SolveRun | None:
             say("improving by local search")
@@ -513,6 +513,7 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
             return _improve_locally(problem, slots, graph, block, sizes, domains, previous, large, options,
                                     assignment, spare * share, progress, info, start, bound, budget)
         start_from = feasible_hint
+        first = None
         if local and small and feasible_hint is not None and not problem.rooms:
             first = polish(feasible_hint, None, share=SMALL_FIRST_SEARCH_SHARE)
             if first is not None:
@@ -582,6 +583,12 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
         run.bound = min(float(solver.best_objective_bound), run.penalty) if tm.terms else 0.0
         run.status = "optimal" if status == cp_model.OPTIMAL else "feasible"
         run.proven = status == cp_model.OPTIMAL
+        if status == cp_model.FEASIBLE and first is not None and first.penalty is not None \
+                and first.penalty < run.penalty:
+            # CP-SAT may set a hint aside: the first local search's timetable stays when it is better
+            assignment = run.assignment = dict(first.assignment)
+            run.penalty = first.penalty
+            run.penalty_breakdown = {name: v for name, v in first.penalty_breakdown.items() if name != "room_split"}
         if status == cp_model.FEASIBLE and symmetric and not order_free and not previous:
             # one more pass of the group arrangement over the slots on CP-SAT's best timetable
             moved = arrange(sub, assignment, slots, problem.weights, large=large, seed=options.seed,
@@ -823,7 +830,11 @@ def _warm_up_local_search() -> None:
 #: Share of a block's remaining time CP-SAT gets on the full model when the local search follows
 #: (it stops sooner when it stalls, see :func:`_stall_seconds`; the local search takes the rest).
 CPSAT_SHARE = 0.25
-#: On a model of at most LIGHT_PRESOLVE_PAIRS clashing pairs, where CP-SAT can often prove optimality
+#: Models of at most this many clashing pairs take the order that leaves CP-SAT most of the time: the sample
+#: exam week (54 pairs) is proven optimal in 7-15 s on this machine under load, while hec-s-92 (1,363 pairs,
+#: Carter proximity) was not proven in 120 s (issue 12's table) and gains more from the local search.
+PROOF_PAIRS = 1_000
+#: On a model of at most PROOF_PAIRS clashing pairs, where CP-SAT can often prove optimality
 #: (the sample exam week's 5 slots take it 7-10 s on this 2-core machine under load) and the local search
 #: needs little time: the local search's first share of the time, then CP-SAT's share of what is left.
 SMALL_FIRST_SEARCH_SHARE = 0.15
