@@ -154,3 +154,13 @@ def test_bounds_that_meet_give_an_exact_count_and_ratio():
     assert c3.exact and c3.timetables == 3 * 2 ** (n - 1)
     assert c4.exact and c4.timetables == 4 * 3 ** (n - 1)
     assert c4.ratio_interval_log10[0] == pytest.approx(math.log10(c4.timetables / c3.timetables))
+
+
+def test_fill_in_lower_bound_gives_up_at_its_deadline():
+    # a passed deadline must give the trivially valid lower bound 0, never a figure from half a fill-in
+    import time
+    import networkx as nx
+    from timetabler.counting.bounds import chordal_supergraph_lower
+    g = nx.gnp_random_graph(30, 0.3, seed=4)
+    assert chordal_supergraph_lower(g, 12, deadline=time.monotonic() - 1) == 0
+    assert chordal_supergraph_lower(g, 30) == chordal_supergraph_lower(g, 30, deadline=time.monotonic() + 60) > 0

@@ -53,11 +53,17 @@ def chordal_subgraph_upper(graph: nx.Graph, k: int, order: Sequence | None = Non
     return value
 
 
-def chordal_supergraph_lower(graph: nx.Graph, k: int) -> int:
-    """``P(H, k)`` for the minimum-degree fill-in ``H ⊇ graph``: a lower bound on ``P(G, k)``."""
+def chordal_supergraph_lower(graph: nx.Graph, k: int, deadline: float | None = None) -> int:
+    """``P(H, k)`` for the minimum-degree fill-in ``H ⊇ graph``: a lower bound on ``P(G, k)``.
+
+    The fill-in can grow dense on a large group; when ``deadline`` (``time.monotonic``) passes
+    first the bound is given up and 0 returned (always a valid lower bound).
+    """
     adj = {v: set(graph[v]) for v in graph}
     value = 1
     while adj:
+        if deadline is not None and time.monotonic() > deadline:
+            return 0
         v = min(adj, key=lambda x: (len(adj[x]), str(x)))
         nbrs = adj.pop(v)
         value *= max(k - len(nbrs), 0)
@@ -83,8 +89,8 @@ def colouring_lower(graph: nx.Graph, k: int, colour_count: int | None = None) ->
     return falling_factorial(k, c) if c <= k else 0
 
 
-def lower_bound(graph: nx.Graph, k: int, colour_count: int | None = None) -> int:
-    return max(chordal_supergraph_lower(graph, k), colouring_lower(graph, k, colour_count))
+def lower_bound(graph: nx.Graph, k: int, colour_count: int | None = None, deadline: float | None = None) -> int:
+    return max(chordal_supergraph_lower(graph, k, deadline), colouring_lower(graph, k, colour_count))
 
 
 def _smallest_last(graph: nx.Graph) -> list:

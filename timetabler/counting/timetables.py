@@ -439,7 +439,7 @@ def _estimate_component(comp: ComponentCount, sub: nx.Graph, ks: list[int], stop
         uppers[k] = min(upper, tighter) if tighter is not None else upper
         lowers[k] = degeneracy_lower(sub, k, allowed)
         if not allowed:
-            lowers[k] = max(lowers[k], lower_bound(sub, k, max(dsatur.values()) + 1))
+            lowers[k] = max(lowers[k], lower_bound(sub, k, max(dsatur.values()) + 1, deadline=bounds_stop))
             if max(dsatur.values()) < k:
                 lowers[k] = max(lowers[k], agreeing_family_lower(sub, k, dsatur, deadline=bounds_stop))
     possible = [k for k in possible if uppers[k] > 0]
@@ -471,7 +471,7 @@ def _estimate_component(comp: ComponentCount, sub: nx.Graph, ks: list[int], stop
         if lowers[k] == uppers[k]:  # the bounds meet (a chordal group): exact, and so is the ratio when they meet at K − 1
             prev = None
             if not comp.constrained and k - 1 >= len(clique):
-                below = lower_bound(sub, k - 1, max(dsatur.values()) + 1)
+                below = lower_bound(sub, k - 1, max(dsatur.values()) + 1, deadline=stop)
                 prev = below if below and below == chordal_subgraph_upper(sub, k - 1) else None
             comp.values[k] = lowers[k]
             if prev:
