@@ -17,14 +17,18 @@ from scipy import sparse
 from .model import Problem
 
 
-def incidence_matrix(problem: Problem) -> tuple[sparse.csr_matrix, list[str], list[str]]:
-    """The attendee × event 0/1 matrix, with the attendee and event orders used."""
+def incidence_matrix(problem: Problem, required_only: bool = False) -> tuple[sparse.csr_matrix, list[str], list[str]]:
+    """The attendee × event 0/1 matrix, with the attendee and event orders used.
+
+    With ``required_only`` the optional enrolments (Attendance column) are left out.
+    """
     attendees = problem.attendees
     events = problem.event_codes
     a_index = {a: i for i, a in enumerate(attendees)}
     e_index = {e: j for j, e in enumerate(events)}
-    rows = np.fromiter((a_index[a] for a, _ in problem.enrolments), dtype=np.int64, count=len(problem.enrolments))
-    cols = np.fromiter((e_index[e] for _, e in problem.enrolments), dtype=np.int64, count=len(problem.enrolments))
+    pairs = problem.required_enrolments() if required_only else problem.enrolments
+    rows = np.fromiter((a_index[a] for a, _ in pairs), dtype=np.int64, count=len(pairs))
+    cols = np.fromiter((e_index[e] for _, e in pairs), dtype=np.int64, count=len(pairs))
     data = np.ones(len(rows), dtype=np.int64)
     matrix = sparse.csr_matrix((data, (rows, cols)), shape=(len(attendees), len(events)))
     return matrix, attendees, events
@@ -34,7 +38,8 @@ def conflict_graph(problem: Problem) -> nx.Graph:
     """The conflict graph of a problem.
 
     Nodes are event codes (every event, enrolled or not) with attribute ``size`` (number
-    of attendees); edges carry ``shared``, the number of attendees the two events share.
+    of attendees, optional ones included: they need seats too); edges carry ``shared``, the
+    number of required attendees the two events share. Optional attendees make no clash.
 
     Examples
     --------
@@ -44,9 +49,11 @@ def conflict_graph(problem: Problem) -> nx.Graph:
     [('M1', 'M2', 1)]
     """
     matrix, _, events = incidence_matrix(problem)
+    sizes = np.asarray(matrix.sum(axis=0)).ravel() if matrix.shape[0] else np.zeros(len(events), dtype=np.int64)
+    if problem.optional:
+        matrix, _, _ = incidence_matrix(problem, required_only=True)
     co = (matrix.T @ matrix).tocoo()
     graph = nx.Graph()
-    sizes = np.asarray(matrix.sum(axis=0)).ravel() if matrix.shape[0] else np.zeros(len(events), dtype=np.int64)
     for j, code in enumerate(events):
         graph.add_node(code, size=int(sizes[j]))
     mask = co.row < co.col

@@ -20,6 +20,15 @@ slot
     they are given as the order in time: consecutive numbers are consecutive slots.
 rule
     A hard relation between events given by the registrar (see :class:`RuleKind`).
+attendance
+    Whether an attendee must be at an event (``required``, the default: never booked twice,
+    never in a slot they cannot make) or is welcome but not needed (``optional``: a soft
+    goal). Only required enrolments make clashes (:meth:`Problem.required_enrolments`).
+person
+    What the Attendees sheet says of one attendee (:class:`Attendee`): the slots they cannot
+    make, extra time, a room of their own. :mod:`timetabler.availability` turns it, with the
+    events' lengths and quorums, into the slots each event can start in and the slots each
+    attendee then takes.
 """
 
 from __future__ import annotations
@@ -67,6 +76,33 @@ class Event:
     group: str | None = None
     preferred_slots: tuple[str, ...] = ()
     preferred_rooms: tuple[str, ...] = ()
+    quorum: int | None = None  # at least this many attendees free in its slot (Events sheet's Quorum column)
+
+
+class Attendance(str, enum.Enum):
+    """The enrolments' Attendance column."""
+
+    REQUIRED = "required"
+    OPTIONAL = "optional"
+
+
+@dataclass
+class Attendee:
+    """One row of the Attendees sheet: what the timetable must know of a person.
+
+    ``unavailable`` holds references as the registrar wrote them: a slot label, a slot number
+    as text, or a date in ISO form (``2027-01-11``) meaning every slot of that day; intake
+    turns date cells into ISO text. :func:`timetabler.availability.unavailable_slots` resolves
+    them against the slots of a run. ``extra_time_percent`` lengthens each of the person's
+    events by that percentage (for them alone); ``own_room_type`` seats them apart, alone in
+    a room of that type.
+    """
+
+    name: str
+    unavailable: tuple[str, ...] = ()
+    extra_time_percent: int = 0
+    own_room_type: str | None = None
+    where: Location | None = field(default=None, compare=False, repr=False)
 
 
 @dataclass
@@ -148,7 +184,9 @@ class Weights:
     ``proximity`` scales the Carter proximity cost (Carter, Laporte & Lee 1996), which is
     off by default. ``preferred_room`` (an event with preferred rooms seated in none of
     them) and ``penalised_room`` (each room marked Avoid that an event uses) default to 1,
-    like their slot counterparts: also common practice with no source.
+    like their slot counterparts: also common practice with no source. ``optional_missed`` is
+    per optional attendee who cannot come (unavailable in the slot, or booked in another event
+    at the same time); 3, below a back-to-back, is common practice with no source.
     """
 
     back_to_back: int = 10
@@ -162,6 +200,7 @@ class Weights:
     moved: int = 20
     preferred_room: int = 1
     penalised_room: int = 1
+    optional_missed: int = 3
 
 
 #: What each soft goal (a :class:`Weights` field) is called wherever a person reads or writes it: the
@@ -180,6 +219,7 @@ GOAL_NAMES: dict[str, str] = {
     "moved": "moved",
     "preferred_room": "preferred room",
     "penalised_room": "avoided room",
+    "optional_missed": "optional attendee missed",
 }
 
 
@@ -187,7 +227,10 @@ GOAL_NAMES: dict[str, str] = {
 class Problem:
     """A whole timetabling instance as read from the registrar's files.
 
-    ``enrolments`` holds distinct (attendee, event) pairs. ``events`` has an entry for
+    ``enrolments`` holds distinct (attendee, event) pairs, required and optional alike;
+    ``optional`` is the subset marked ``optional`` in the Attendance column (the others are
+    required), and ``people`` the Attendees sheet by name (attendees without a row there
+    have no details). ``events`` has an entry for
     every event code that appears in the enrolments or in the events sheet. ``slots`` is
     empty when the registrar gave no slots sheet; then engines work with K generic slots
     (:func:`generic_slots`).
@@ -201,11 +244,24 @@ class Problem:
     weights: Weights = field(default_factory=Weights)
     source: str = ""
     max_per_day: int | None = None
+    people: dict[str, Attendee] = field(default_factory=dict)
+    optional: set[tuple[str, str]] = field(default_factory=set)
 
     def __post_init__(self) -> None:
         for _, code in self.enrolments:
             if code not in self.events:
                 self.events[code] = Event(code)
+
+    def required_enrolments(self) -> list[tuple[str, str]]:
+        """The enrolments that make clashes: all but the optional ones, in their order."""
+        if not self.optional:
+            return self.enrolments
+        return [pair for pair in self.enrolments if pair not in self.optional]
+
+    @property
+    def has_people(self) -> bool:
+        """True when an Attendees sheet, an optional attendance or a quorum is in play."""
+        return bool(self.people or self.optional or any(e.quorum for e in self.events.values()))
 
     @property
     def attendees(self) -> list[str]:

@@ -312,6 +312,9 @@ GOAL_WORDS: dict[str, str] = {
     "avoided room": "penalised_room",
     "avoided rooms": "penalised_room",
     "penalised room": "penalised_room",
+    "optional attendee missed": "optional_missed",
+    "optional attendees missed": "optional_missed",
+    "optional missed": "optional_missed",
 }
 #: The Weights sheet row that sets a hard limit rather than a weight.
 MOST_PER_DAY = ("most events per day", "max per day", "maximum per day", "most per day")
@@ -331,6 +334,7 @@ GOAL_HELP: dict[str, str] = {
     "moved": "an event moved from the previous timetable (repair mode)",
     "preferred_room": "an event with preferred rooms seated in none of them",
     "penalised_room": "each room marked Avoid (an avoided room) that an event is seated in",
+    "optional_missed": "an optional attendee who cannot come: unavailable then, or booked elsewhere at the same time",
 }
 
 YES_WORDS = ("yes", "y", "true", "1", "x", "avoid")
