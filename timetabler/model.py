@@ -354,11 +354,14 @@ def days_of(slots: Sequence[Slot]) -> list[int]:
     return list(range(1, len(slots) + 1))
 
 
-def event_times(event: Event | None, slot: Slot) -> tuple[_dt.datetime | None, _dt.datetime | None]:
+def event_times(event: Event | None, slot: Slot, extra_time_percent: int = 0) -> tuple[_dt.datetime | None, _dt.datetime | None]:
     """When ``event`` starts and ends if it sits in ``slot``: the one definition every export uses.
 
     The event starts with the slot and ends ``event.duration_minutes`` later when it has a
-    duration, else when the slot ends (its start plus ``length_minutes``). Without a date the
+    duration (an event longer than its slot runs on into the next ones: this is its true end),
+    else when the slot ends (its start plus ``length_minutes``). With ``extra_time_percent``
+    ``p`` (an attendee's extra time) the length is ``ceil(D × (100 + p) / 100)`` minutes, as
+    :mod:`timetabler.availability` defines a sitting. Without a date the
     times fall on 1 January 2000 (only their time of day is meant). The end is None when
     neither the event's duration nor the slot's length is known, and both are None when the
     slot has no start time: no time is invented.
@@ -371,6 +374,8 @@ def event_times(event: Event | None, slot: Slot) -> tuple[_dt.datetime | None, _
     '12:00'
     >>> event_times(Event("LAW103"), Slot("Mon AM", start=dt.time(9)))[1] is None
     True
+    >>> event_times(Event("LAW101", duration_minutes=120), slot, extra_time_percent=25)[1].strftime("%H:%M")
+    '11:30'
     """
     if slot.start is None:
         return None, None
@@ -378,6 +383,8 @@ def event_times(event: Event | None, slot: Slot) -> tuple[_dt.datetime | None, _
     minutes = event.duration_minutes if event is not None and event.duration_minutes else slot.length_minutes
     if not minutes:
         return start, None
+    if extra_time_percent > 0:
+        minutes = -(-minutes * (100 + extra_time_percent) // 100)  # ceil, in whole minutes
     return start, start + _dt.timedelta(minutes=minutes)
 
 

@@ -20,7 +20,7 @@ from ..errors import Finding, InputError
 from ..model import Problem
 from .safe_write import check_target, write_safely
 from .tables import (
-    TEXT, PublishedTable, comparison_table, counts_table, events_table, groups_table, has_timetable, load_table, moves_table, personal_table, what_if_table,
+    TEXT, PublishedTable, comparison_table, counts_table, events_table, groups_table, has_timetable, load_table, moves_table, people_table, personal_table, what_if_table,
     rooms_table, run_figures, seats_table, validations_for, value_text,
 )
 
@@ -67,8 +67,8 @@ def write_csv_folder(folder: str | Path, *, problem: Problem, runs: Sequence[Any
     runs = sorted(runs, key=lambda r: int(r.slots))
     validations = validations_for(problem, runs, validations)
     tables: list[tuple[str, PublishedTable]] = []
+    figures = {int(r.slots): run_figures(problem, r) for r in runs}
     if runs:
-        figures = {int(r.slots): run_figures(problem, r) for r in runs}
         tables.append(("comparison", comparison_table(problem, runs, counts, validations, figures, fewest)))
     if counts is not None and getattr(counts, "counts", None):
         tables.append(("counts", counts_table(counts)))
@@ -78,13 +78,16 @@ def write_csv_folder(folder: str | Path, *, problem: Problem, runs: Sequence[Any
     with_timetable = [r for r in runs if has_timetable(r)]
     for run in with_timetable:
         suffix = f"-{int(run.slots)}-slots" if len(with_timetable) > 1 else ""
-        tables.append(("events" + suffix, events_table(problem, run)))
-        tables.append(("personal-timetables" + suffix, personal_table(problem, run)))
-        tables.append(("seats" + suffix, seats_table(problem, run)))
-        rooms = rooms_table(problem, run)
+        people = figures[int(run.slots)].people
+        tables.append(("events" + suffix, events_table(problem, run, people)))
+        tables.append(("personal-timetables" + suffix, personal_table(problem, run, people=people)))
+        if problem.has_people and people is not None:
+            tables.append(("people" + suffix, people_table(problem, run, people=people)))
+        tables.append(("seats" + suffix, seats_table(problem, run, people)))
+        rooms = rooms_table(problem, run, people)
         if rooms is not None:
             tables.append(("rooms" + suffix, rooms))
-        tables.append(("attendee-load" + suffix, load_table(problem, run)))
+        tables.append(("attendee-load" + suffix, load_table(problem, run, loads=figures[int(run.slots)].loads)))
         moves = moves_table(problem, run)
         if moves is not None:
             tables.append(("moves" + suffix, moves))

@@ -9,7 +9,8 @@ with a start time gives timed entries, a slot with only a date gives an all-day 
 (:func:`timetabler.model.event_times`: the slot's start plus the event's duration, else the
 slot's length); when neither is known no end is invented: the files are refused with a
 message naming the slot, since an entry with a start time and no end would be an instant
-(RFC 5545 §3.6.1). Times are "floating" local times (RFC 5545 §3.3.5) unless a time zone
+(RFC 5545 §3.6.1). In an attendee's own calendar an event ends at their own end: with their
+extra time (Attendees sheet) by the same definition. Times are "floating" local times (RFC 5545 §3.3.5) unless a time zone
 name (IANA, e.g. ``Europe/London``) is given.
 
 Each entry's SEQUENCE (its revision number, RFC 5545 §3.8.7.4) is the number of minutes
@@ -49,10 +50,10 @@ def _uid(source: str, k: int, code: str) -> str:
     return f"{digest}@timetabler.invalid"
 
 
-def _times(event: Event, slot: Slot, tz: ZoneInfo | None) -> tuple[Any, Any]:
+def _times(event: Event, slot: Slot, tz: ZoneInfo | None, extra_time_percent: int = 0) -> tuple[Any, Any]:
     if slot.start is None:
         return slot.date, slot.date + dt.timedelta(days=1)
-    start, end = event_times(event, slot)
+    start, end = event_times(event, slot, extra_time_percent)
     if end is None:  # check_dated refuses this before anything is written
         raise ValueError(f"no end time for {event.code} in {slot.label}")
     if tz is not None:
@@ -69,11 +70,14 @@ def _calendar(name: str) -> Calendar:
     return cal
 
 
-def _entry(problem: Problem, run: Any, code: str, tz: ZoneInfo | None, stamp: dt.datetime) -> CalEvent:
+def _entry(problem: Problem, run: Any, code: str, tz: ZoneInfo | None, stamp: dt.datetime,
+           extra_time_percent: int = 0, optional: bool = False) -> CalEvent:
+    """The VEVENT of ``code``; with ``extra_time_percent`` (one attendee's calendar) it ends at
+    that attendee's own end, and ``optional`` says in the description that they may come."""
     k = int(run.slots)
     slot = run.slot_list[run.assignment[code] - 1]
     event = problem.events[code]
-    start, end = _times(event, slot, tz)
+    start, end = _times(event, slot, tz, extra_time_percent)
     entry = CalEvent()
     entry.add("uid", _uid(problem.source, k, code))
     entry.add("dtstamp", stamp)
@@ -84,7 +88,12 @@ def _entry(problem: Problem, run: Any, code: str, tz: ZoneInfo | None, stamp: dt
     rooms = (getattr(run, "rooms", None) or {}).get(code) or []
     if rooms:
         entry.add("location", ", ".join(str(r) for r, _ in rooms))
-    entry.add("description", f"Slot {slot.label}")
+    notes = [f"Slot {slot.label}"]
+    if extra_time_percent > 0 and slot.start is not None:
+        notes.append(f"with {extra_time_percent} % extra time")
+    if optional:
+        notes.append("optional for you")
+    entry.add("description", "; ".join(notes))
     return entry
 
 
@@ -191,7 +200,16 @@ def write_calendars(folder: str | Path, *, problem: Problem, run: Any, show: Cal
             while stem.casefold() in used:
                 stem, i = f"{base}-{i}", i + 1
             used.add(stem.casefold())
-            body = b"".join(blobs[c] for c in sorted((c for c in codes if c in blobs), key=rank.__getitem__))
+            person = problem.people.get(attendee)
+            extra = person.extra_time_percent if person is not None else 0
+            parts = []
+            for c in sorted((c for c in codes if c in blobs), key=rank.__getitem__):
+                optional = (attendee, c) in problem.optional
+                if extra > 0 or optional:  # their own end (extra time) or their attendance: an entry of their own
+                    parts.append(_entry(problem, run, c, tz, stamp, extra, optional).to_ical())
+                else:
+                    parts.append(blobs[c])
+            body = b"".join(parts)
             jobs.append((check_target(people / f"{stem}.ics", inputs=[problem.source]),
                          head + body + closing))
         for path, data in jobs:

@@ -26,6 +26,7 @@ An attendee has "two in a day" when some day holds two or more of their events
 
 from __future__ import annotations
 
+import dataclasses
 import datetime as dt
 import math
 from collections import Counter, defaultdict
@@ -99,6 +100,131 @@ def has_timetable(run: Any) -> bool:
     return bool(getattr(run, "assignment", None)) and getattr(run, "status", "") in ("optimal", "feasible")
 
 
+# --------------------------------------------------------------------------- people in a timetable
+
+
+@dataclass
+class Sitting:
+    """One attendee at one event of a timetable: the slots they take there and their own times.
+
+    ``taken`` is None when their extra time does not fit the slots; ``missed`` says, for an
+    optional attendee, why they cannot come ("" when they can).
+    """
+
+    event: str
+    start: int
+    taken: tuple[int, ...] | None
+    optional: bool
+    begins: dt.datetime | None
+    ends: dt.datetime | None
+    missed: str = ""
+    not_honoured: str = ""  # a required attendee in a slot they cannot make (an invalid timetable)
+
+
+@dataclass
+class TimetablePeople:
+    """What a timetable means for the people in it (from :mod:`timetabler.availability`'s
+    definitions, recomputed here from the input and the assignment alone).
+
+    ``taken[e]``: the slots event ``e`` takes (every slot of a long event). ``sittings[a]``:
+    attendee ``a``'s events in time order. ``unavailable[a]``: the slots ``a`` cannot make.
+    """
+
+    slots: list[Slot]
+    taken: dict[str, tuple[int, ...]]
+    sittings: dict[str, list[Sitting]]
+    unavailable: dict[str, frozenset[int]]
+
+    def slot_label(self, number: int) -> str:
+        return self.slots[number - 1].label if 1 <= number <= len(self.slots) else f"slot {number}"
+
+
+def _pinned_availability(problem: Problem, slots: Sequence[Slot], assignment: Mapping[str, int]):
+    """:class:`~timetabler.availability.Availability` worked out only at each event's assigned start.
+
+    Every placed event is fixed to its slot (by its label when labels are unique, else by its
+    number) and freed of its barred slots, so that the spans and sittings are those of the
+    definitions at that start, and the work is one start per enrolment, not K.
+    """
+    from ..availability import Availability
+    from ..model import Event
+
+    labels = [s.label.strip().casefold() for s in slots]
+    unique = len(set(labels)) == len(labels)
+    events: dict[str, Event] = {}
+    for code, event in problem.events.items():
+        n = assignment.get(code)
+        if isinstance(n, int) and 1 <= n <= len(slots):
+            ref = slots[n - 1].label if unique else str(n)
+            events[code] = dataclasses.replace(event, fixed_slot=ref, barred_slots=(), quorum=None)
+        else:
+            events[code] = event
+    pinned = dataclasses.replace(problem, events=events, enrolments=list(problem.enrolments))
+    return Availability.of(pinned, slots)
+
+
+def people_matter(problem: Problem, slots: Sequence[Slot]) -> bool:
+    """True when some attendee or event can take other slots than its start alone: an Attendees
+    sheet (extra time, unavailable slots), optional attendance, or an event longer than a slot."""
+    if problem.people or problem.optional:
+        return True
+    lengths = [s.length_minutes for s in slots if s.length_minutes]
+    shortest = min(lengths, default=None)
+    return shortest is not None and any(e.duration_minutes and e.duration_minutes > shortest
+                                        for e in problem.events.values())
+
+
+def timetable_people(problem: Problem, run: Any) -> TimetablePeople:
+    """The slots every event and attendee take in ``run``'s timetable, and who misses what.
+
+    An optional attendee misses an event when they cannot make a slot it takes for them, when
+    their extra time does not fit, or when another of their events (required or optional)
+    takes an overlapping slot for them (the issue's definitions; see DEVELOPERS.md).
+    """
+    slots = _run_slots(run)
+    assignment = {c: n for c, n in (getattr(run, "assignment", {}) or {}).items()
+                  if isinstance(n, int) and 1 <= n <= len(slots)}
+    avail = _pinned_availability(problem, slots, assignment) if people_matter(problem, slots) else None
+    taken = {c: (avail.slots_taken(c, n) if avail is not None else (n,)) for c, n in assignment.items()}
+    unavailable = dict(avail.unavailable) if avail is not None else {}
+    sittings: dict[str, list[Sitting]] = {}
+    for attendee, code in problem.enrolments:
+        n = assignment.get(code)
+        if n is None:
+            continue
+        own = avail.slots_taken(code, n, attendee) if avail is not None else (n,)
+        person = problem.people.get(attendee)
+        extra = person.extra_time_percent if person is not None else 0  # their end, even when it does not fit
+        begins, ends = event_times(problem.events.get(code), slots[n - 1], extra)
+        sittings.setdefault(attendee, []).append(
+            Sitting(code, n, own, (attendee, code) in problem.optional, begins, ends))
+    labels = [s.label for s in slots]
+    for attendee, mine in sittings.items():
+        mine.sort(key=lambda x: (x.start, x.event))
+        away = unavailable.get(attendee, frozenset())
+        for sitting in mine:
+            problems = []
+            if sitting.taken is None:
+                problems.append("their extra time does not fit the slots")
+            else:
+                cannot = sorted(away.intersection(sitting.taken))
+                if cannot:
+                    problems.append("cannot make " + ", ".join(labels[t - 1] for t in cannot))
+                if sitting.optional:
+                    here = set(sitting.taken)
+                    for other in mine:
+                        if other is sitting:
+                            continue
+                        overlap = sorted(here.intersection(other.taken or (other.start,)))
+                        if overlap:
+                            problems.append(f"booked in {other.event} at {labels[overlap[0] - 1]}")
+            if sitting.optional:
+                sitting.missed = "; ".join(problems)
+            else:
+                sitting.not_honoured = "; ".join(problems)
+    return TimetablePeople(slots, taken, sittings, unavailable)
+
+
 # --------------------------------------------------------------------------- attendee load
 
 
@@ -123,19 +249,42 @@ class AttendeeLoad:
 CARTER_WEIGHTS = {1: 16, 2: 8, 3: 4, 4: 2, 5: 1}
 
 
-def attendee_loads(problem: Problem, slots: Sequence[Slot], assignment: Mapping[str, int]) -> list[AttendeeLoad]:
-    """Per-attendee figures of a timetable, recomputed from the enrolments (see module docs)."""
+def attendee_loads(problem: Problem, slots: Sequence[Slot], assignment: Mapping[str, int],
+                   people: "TimetablePeople | None" = None) -> list[AttendeeLoad]:
+    """Per-attendee figures of a timetable, recomputed from the enrolments (see module docs).
+
+    Only required enrolments count (an optional attendee's events make no clash). With
+    ``people`` (:func:`timetable_people`) each event counts over every slot it takes for the
+    attendee (a long event, their extra time): two events overlap in a slot for a clash, and
+    the gap between the nearest slots of two events decides back-to-back, same day, overnight
+    and proximity (an event taking slots 2-3 is back-to-back with one in slot 4).
+    """
     places = slot_places(slots)
+    k = len(places)
+    blocks_of: dict[str, list[tuple[int, ...]]] = {}
+    if people is not None:
+        for attendee, mine in people.sittings.items():
+            blocks_of[attendee] = [x.taken or (x.start,) for x in mine if not x.optional]
+    else:
+        for attendee, code in problem.required_enrolments():
+            n = assignment.get(code)
+            blocks = blocks_of.setdefault(attendee, [])
+            if isinstance(n, int) and 1 <= n <= k:
+                blocks.append((n,))
+    required = Counter(a for a, _ in problem.required_enrolments())
     out = []
-    for attendee, codes in sorted(problem.events_by_attendee().items()):
-        numbers = sorted(assignment[c] for c in codes if c in assignment and 1 <= assignment[c] <= len(places))
-        per_day = Counter(places[n - 1].day for n in numbers)
+    for attendee in sorted(problem.events_by_attendee()):
+        blocks = sorted(blocks_of.get(attendee, []))
+        per_day = Counter(places[b[0] - 1].day for b in blocks)
         clashes = b2b = same_day = overnight = proximity = 0
-        for i, s in enumerate(numbers):
-            for t in numbers[i + 1:]:
-                gap = t - s
-                if gap == 0:
+        for i, first in enumerate(blocks):
+            for second in blocks[i + 1:]:
+                if first[-1] >= second[0] and set(first) & set(second):
                     clashes += 1
+                    continue
+                s, t = (first[-1], second[0]) if first[-1] < second[0] else (second[-1], first[0])
+                gap = t - s
+                if gap <= 0:
                     continue
                 same = places[s - 1].day == places[t - 1].day
                 if same and gap == 1:
@@ -145,7 +294,7 @@ def attendee_loads(problem: Problem, slots: Sequence[Slot], assignment: Mapping[
                 elif gap == 1:
                     overnight += 1
                 proximity += CARTER_WEIGHTS.get(gap, 0)
-        out.append(AttendeeLoad(attendee, len(codes), max(per_day.values(), default=0), clashes, b2b, same_day,
+        out.append(AttendeeLoad(attendee, required[attendee], max(per_day.values(), default=0), clashes, b2b, same_day,
                                 overnight, proximity))
     return out
 
@@ -166,6 +315,7 @@ class RunFigures:
     peak_seats: int | None = None
     peak_slot: str | None = None
     loads: list[AttendeeLoad] = field(default_factory=list)
+    people: "TimetablePeople | None" = None  # when people_matter: the slots each event and attendee take
 
 
 def run_figures(problem: Problem, run: Any) -> RunFigures:
@@ -175,7 +325,9 @@ def run_figures(problem: Problem, run: Any) -> RunFigures:
     if not has_timetable(run) or not slots:
         return figures
     assignment = run.assignment
-    loads = attendee_loads(problem, slots, assignment)
+    people = timetable_people(problem, run) if people_matter(problem, slots) else None
+    figures.people = people
+    loads = attendee_loads(problem, slots, assignment, people)
     figures.loads = loads
     figures.attendees_back_to_back = sum(1 for a in loads if a.back_to_back)
     figures.attendees_two_in_a_day = sum(1 for a in loads if a.busiest_day >= 2)
@@ -184,7 +336,7 @@ def run_figures(problem: Problem, run: Any) -> RunFigures:
     figures.same_day = sum(a.same_day for a in loads)
     figures.overnight = sum(a.overnight for a in loads)
     figures.proximity = sum(a.proximity for a in loads)
-    seats = seats_by_slot(problem, slots, assignment)
+    seats = seats_by_slot(problem, slots, assignment, people.taken if people is not None else None)
     if seats:
         peak = max(range(len(seats)), key=lambda i: (seats[i], -i))
         figures.peak_seats = seats[peak]
@@ -192,12 +344,15 @@ def run_figures(problem: Problem, run: Any) -> RunFigures:
     return figures
 
 
-def seats_by_slot(problem: Problem, slots: Sequence[Slot], assignment: Mapping[str, int]) -> list[int]:
+def seats_by_slot(problem: Problem, slots: Sequence[Slot], assignment: Mapping[str, int],
+                  taken: Mapping[str, tuple[int, ...]] | None = None) -> list[int]:
+    """Seats each slot needs: every attendee of every event in it (with ``taken``, in every slot it takes)."""
     sizes = problem.event_sizes()
     seats = [0] * len(slots)
     for code, n in assignment.items():
-        if 1 <= n <= len(slots):
-            seats[n - 1] += sizes.get(code, 0)
+        for t in (taken or {}).get(code, (n,)):
+            if isinstance(t, int) and 1 <= t <= len(slots):
+                seats[t - 1] += sizes.get(code, 0)
     return seats
 
 
@@ -220,10 +375,16 @@ def _room_text(run: Any, code: str) -> tuple[str, int | None]:
     return ", ".join(str(name) for name, _ in rooms), sum(int(seats) for _, seats in rooms)
 
 
-def events_table(problem: Problem, run: Any) -> PublishedTable:
+def _taken_words(slots: Sequence[Slot], taken: tuple[int, ...]) -> str:
+    return "; ".join(slots[t - 1].label for t in taken if 1 <= t <= len(slots))
+
+
+def events_table(problem: Problem, run: Any, people: TimetablePeople | None = None) -> PublishedTable:
     """One row per event: its slot, date, start, end, rooms, seats and size.
 
-    The end is the event's own (start plus its duration), not the slot's, when it has a duration.
+    The end is the event's own (start plus its duration), not the slot's, when it has a duration:
+    an event longer than its slot ends in a later slot, and when some event does, a column
+    "Slots taken" lists every slot it takes (``people``: :func:`timetable_people`).
 
     When some event names preferred rooms, two more columns: those rooms, and whether the
     event has seats in one of them (blank when it has no preference or no rooms).
@@ -232,13 +393,17 @@ def events_table(problem: Problem, run: Any) -> PublishedTable:
     places = slot_places(slots)
     sizes = problem.event_sizes()
     preferences = any(e.preferred_rooms for e in problem.events.values())
+    if people is None and people_matter(problem, slots) and has_timetable(run):
+        people = timetable_people(problem, run)
+    spans = people is not None and any(len(t) > 1 for t in people.taken.values())
     table = PublishedTable(
         "Events",
         [
             Column("Event"), Column("Title"), Column("Slot", INT), Column("Slot label"), Column("Day", INT),
             Column("Session", INT), Column("Date", DATE), Column("Start", TIME), Column("End", TIME),
             Column("Rooms"), Column("Seats", INT), Column("Size", INT),
-        ] + ([Column("Preferred rooms"), Column("In a preferred room", FLAG)] if preferences else []),
+        ] + ([Column("Preferred rooms"), Column("In a preferred room", FLAG)] if preferences else [])
+        + ([Column("Slots taken", note="every slot a long event takes")] if spans else []),
         title="Every event and its slot",
     )
     assignment = getattr(run, "assignment", {}) or {}
@@ -256,21 +421,41 @@ def events_table(problem: Problem, run: Any) -> PublishedTable:
             wanted = {name.strip().casefold() for name in event.preferred_rooms}
             given = {str(name).strip().casefold() for name, _ in (getattr(run, "rooms", None) or {}).get(code) or []}
             row += ["; ".join(event.preferred_rooms), bool(wanted & given) if wanted and given else None]
+        if spans:
+            row.append(_taken_words(slots, people.taken.get(code, ())))
         table.rows.append(row)
     return table
 
 
-def personal_table(problem: Problem, run: Any, show: Callable[[str], str] = str) -> PublishedTable:
-    """One row per attendee and event: personal timetables, sorted by attendee then slot."""
+def personal_table(problem: Problem, run: Any, show: Callable[[str], str] = str,
+                   people: TimetablePeople | None = None) -> PublishedTable:
+    """One row per attendee and event: personal timetables, sorted by attendee then slot.
+
+    The end is the attendee's own: with their extra time (Attendees sheet), and a long event's
+    true end. With optional attendance, a column says whether each row is required or optional
+    and another why an optional attendee cannot come.
+    """
     slots = _run_slots(run)
     places = slot_places(slots)
     assignment = getattr(run, "assignment", {}) or {}
+    if people is None and people_matter(problem, slots) and has_timetable(run):
+        people = timetable_people(problem, run)
+    own_end: dict[tuple[str, str], Any] = {}
+    missed: dict[tuple[str, str], str] = {}
+    if people is not None:
+        for attendee, mine in people.sittings.items():
+            for x in mine:
+                if x.ends is not None:
+                    own_end[(attendee, x.event)] = x.ends.time()
+                if x.missed:
+                    missed[(attendee, x.event)] = x.missed
+    optional = bool(problem.optional)
     table = PublishedTable(
         "Personal",
         [
             Column("Attendee"), Column("Event"), Column("Title"), Column("Slot", INT), Column("Slot label"),
             Column("Day", INT), Column("Date", DATE), Column("Start", TIME), Column("End", TIME), Column("Rooms"),
-        ],
+        ] + ([Column("Attendance"), Column("Cannot come")] if optional else []),
         title="Personal timetables: one row per attendee and event",
     )
     rows = []
@@ -278,12 +463,106 @@ def personal_table(problem: Problem, run: Any, show: Callable[[str], str] = str)
         n = assignment.get(code)
         place = places[n - 1] if n and 1 <= n <= len(places) else None
         rooms, _ = _room_text(run, code)
-        rows.append([
+        end = own_end.get((attendee, code)) or event_end(problem, code, place.slot if place else None)
+        row = [
             show(attendee), code, problem.events[code].title or "", n, place.slot.label if place else "",
             place.day if place else None, place.slot.date if place else None, place.slot.start if place else None,
-            event_end(problem, code, place.slot if place else None), rooms,
-        ])
+            end, rooms,
+        ]
+        if optional:
+            row += ["optional" if (attendee, code) in problem.optional else "required", missed.get((attendee, code), "")]
+        rows.append(row)
     rows.sort(key=lambda r: (r[0], r[3] if r[3] is not None else 10**9, r[1]))
+    table.rows = rows
+    return table
+
+
+def sitting_words(people: TimetablePeople, sitting: Sitting) -> str:
+    """An attendee's event as they live it: ``BOARD Mon 01 Mar 09:00–11:30`` (their own end), or
+    by slot labels when the slots have no times (``BOARD Slot 3 to Slot 4`` for a long event)."""
+    taken = sitting.taken or (sitting.start,)
+    if sitting.begins is not None:
+        when = (f"{sitting.begins:%a %d %b} " if people.slots[sitting.start - 1].date else "") + sitting.begins.strftime("%H:%M")
+        if sitting.ends is not None:
+            when += "–" + sitting.ends.strftime("%H:%M")
+    else:
+        when = people.slot_label(taken[0]) + (f" to {people.slot_label(taken[-1])}" if len(taken) > 1 else "")
+    marks = [m for m in ("optional" if sitting.optional else "", "missed" if sitting.missed else "") if m]
+    return f"{sitting.event} {when}" + (f" ({', '.join(marks)})" if marks else "")
+
+
+def own_room_placements(run: Any, people: TimetablePeople | None = None) -> list[tuple[str, str, str, tuple[int, ...]]]:
+    """The attendees seated apart in ``run`` (Own room): (attendee, event, room, slots held).
+
+    Read from the run's ``own_rooms`` (a mapping ``(attendee, event) -> room`` or a list of
+    ``{"attendee", "event", "room"}``), when the scheduler gives them; each room is held for
+    every slot of the attendee's sitting (``people``), else for the event's start slot.
+    """
+    given = getattr(run, "own_rooms", None) or {}
+    items: list[tuple[str, str, str]] = []
+    if isinstance(given, Mapping):
+        for key, room in given.items():
+            if isinstance(key, tuple) and len(key) == 2:
+                items.append((str(key[0]), str(key[1]), str(room[0] if isinstance(room, (tuple, list)) else room)))
+    else:
+        for item in given:
+            if isinstance(item, Mapping):
+                items.append((str(item.get("attendee")), str(item.get("event")), str(item.get("room"))))
+    assignment = getattr(run, "assignment", {}) or {}
+    out = []
+    for attendee, code, room in sorted(items):
+        held: tuple[int, ...] = ()
+        if people is not None:
+            held = next(((x.taken or (x.start,)) for x in people.sittings.get(attendee, []) if x.event == code), ())
+        if not held and isinstance(assignment.get(code), int):
+            held = (assignment[code],)
+        out.append((attendee, code, room, held))
+    return out
+
+
+def people_table(problem: Problem, run: Any, show: Callable[[str], str] = str,
+                 people: TimetablePeople | None = None) -> PublishedTable:
+    """One row per attendee: their events with their own times, the slots they cannot make and
+    whether the timetable keeps them free there, and the optional events they miss and why.
+
+    One row per attendee (not per enrolment) keeps it a list a person can read on a whole
+    university; the events of each attendee, one by one, are in the Personal timetables.
+    """
+    if people is None:
+        people = timetable_people(problem, run)
+    table = PublishedTable(
+        "People",
+        [
+            Column("Attendee"), Column("Required events", INT), Column("Optional events", INT),
+            Column("Extra time (%)", INT), Column("Own room"),
+            Column("Their timetable", note="each event with their own times: a long event's whole span, their extra time"),
+            Column("Cannot make", note="the Attendees sheet's unavailable slots, as written"),
+            Column("Slots they cannot make", INT, note="of this timetable's slots"),
+            Column("Unavailability honoured", FLAG, note="no: a required event of theirs takes a slot they cannot make"),
+            Column("Not honoured"),
+            Column("Optional events missed", INT), Column("Why missed"),
+        ],
+        title="People: each attendee's timetable, availability and optional events",
+    )
+    apart: dict[str, list[str]] = defaultdict(list)
+    for attendee, code, room, _ in own_room_placements(run, people):
+        apart[attendee].append(f"{room} for {code}")
+    rows = []
+    for attendee, mine in people.sittings.items():
+        person = problem.people.get(attendee)
+        away = people.unavailable.get(attendee, frozenset())
+        broken = [f"{x.event}: {x.not_honoured}" for x in mine if x.not_honoured]
+        missed = [f"{x.event}: {x.missed}" for x in mine if x.missed]
+        rows.append([
+            show(attendee), sum(1 for x in mine if not x.optional), sum(1 for x in mine if x.optional),
+            person.extra_time_percent if person is not None and person.extra_time_percent else None,
+            ", ".join(x for x in ((person.own_room_type or "") if person is not None else "", "; ".join(apart.get(attendee, [])))
+                      if x),
+            "; ".join(sitting_words(people, x) for x in mine),
+            "; ".join(person.unavailable) if person is not None else "", len(away),
+            not broken, "; ".join(broken), len(missed), "; ".join(missed),
+        ])
+    rows.sort(key=lambda r: r[0])
     table.rows = rows
     return table
 
@@ -292,7 +571,8 @@ def load_table(problem: Problem, run: Any, show: Callable[[str], str] = str, loa
     """One row per attendee: events, busiest day, clashes, back-to-back, two in a day, overnight."""
     slots = _run_slots(run)
     if loads is None:
-        loads = attendee_loads(problem, slots, getattr(run, "assignment", {}) or {})
+        people = timetable_people(problem, run) if people_matter(problem, slots) and has_timetable(run) else None
+        loads = attendee_loads(problem, slots, getattr(run, "assignment", {}) or {}, people)
     table = PublishedTable(
         "Load",
         [
@@ -309,12 +589,16 @@ def load_table(problem: Problem, run: Any, show: Callable[[str], str] = str, loa
     return table
 
 
-def seats_table(problem: Problem, run: Any) -> PublishedTable:
-    """One row per slot: events, seats needed, the slot's seat limit and room seats, free seats."""
+def seats_table(problem: Problem, run: Any, people: TimetablePeople | None = None) -> PublishedTable:
+    """One row per slot: events, seats needed, the slot's seat limit and room seats, free seats
+    (a long event counts in every slot it takes)."""
     slots = _run_slots(run)
     assignment = getattr(run, "assignment", {}) or {}
-    seats = seats_by_slot(problem, slots, assignment)
-    counts = Counter(assignment.values())
+    if people is None and people_matter(problem, slots) and has_timetable(run):
+        people = timetable_people(problem, run)
+    taken = people.taken if people is not None else {c: (n,) for c, n in assignment.items()}
+    seats = seats_by_slot(problem, slots, assignment, taken)
+    counts = Counter(t for held in taken.values() for t in held)
     room_seats = sum(r.capacity for r in problem.rooms) if problem.rooms else None
     table = PublishedTable(
         "Seats",
@@ -346,17 +630,27 @@ def _room_seats_in(problem: Problem, slots: Sequence[Slot], number: int) -> int 
     return sum(r.capacity for r in problem.rooms if _room_available(problem, r, slots, number))
 
 
-def rooms_table(problem: Problem, run: Any) -> PublishedTable | None:
-    """Room occupancy by slot (only when the problem has rooms): every room in every slot."""
+def rooms_table(problem: Problem, run: Any, people: TimetablePeople | None = None) -> PublishedTable | None:
+    """Room occupancy by slot (only when the problem has rooms): every room in every slot.
+
+    A long event holds its rooms in every slot it takes; an attendee seated apart (Own room)
+    holds their room for every slot of their sitting, listed as ``EVENT (NAME alone)``.
+    """
     if not problem.rooms:
         return None
     slots = _run_slots(run)
     assignment = getattr(run, "assignment", {}) or {}
+    if people is None and people_matter(problem, slots) and has_timetable(run):
+        people = timetable_people(problem, run)
     used: dict[tuple[int, str], list[tuple[str, int]]] = defaultdict(list)
     for code, placed in (getattr(run, "rooms", None) or {}).items():
         n = assignment.get(code)
         for name, seats in placed:
-            used[(n, str(name))].append((code, int(seats)))
+            for t in (people.taken.get(code, (n,)) if people is not None else (n,)):
+                used[(t, str(name))].append((code, int(seats)))
+    for attendee, code, name, held in own_room_placements(run, people):
+        for t in held:
+            used[(t, str(name))].append((f"{code} ({attendee} alone)", 1))
     avoided = any(getattr(r, "penalised", False) for r in problem.rooms)
     single = any(not getattr(r, "shared", True) for r in problem.rooms)
     table = PublishedTable(
@@ -440,24 +734,33 @@ class GridDay:
     events: list[list[str]]
 
 
-def grid_rows(problem: Problem, run: Any) -> tuple[list[str], list[GridDay]]:
+def grid_rows(problem: Problem, run: Any, people: TimetablePeople | None = None) -> tuple[list[str], list[GridDay]]:
     """The timetable as a grid: session headers, and per day the slot headings and events of each session.
 
     Events are listed one per line under their session, as ``CODE`` or ``CODE Title``, followed by
     ``(until HH:MM)`` when the event ends before (or without) the end the heading shows for its slot.
+    An event longer than its slot is listed again in every later slot it takes, ``(continued)``,
+    with ``until HH:MM`` when it ends before that slot does.
     """
     slots = _run_slots(run)
     places = slot_places(slots)
     assignment = getattr(run, "assignment", {}) or {}
+    if people is None and people_matter(problem, slots) and has_timetable(run):
+        people = timetable_people(problem, run)
     by_slot: dict[int, list[str]] = defaultdict(list)
     for code, n in assignment.items():
         title = problem.events[code].title if code in problem.events else None
         text = f"{code} {title}" if title else code
         slot = slots[n - 1] if isinstance(n, int) and 1 <= n <= len(slots) else None
         end = event_end(problem, code, slot)
+        first = text
         if end is not None and end != slot.end:
-            text += f" (until {end.strftime('%H:%M')})"
-        by_slot[n].append(text)
+            first += f" (until {end.strftime('%H:%M')})"
+        by_slot[n].append(first)
+        for t in (people.taken.get(code, ()) if people is not None else ())[1:]:
+            later = slots[t - 1]
+            tail = f", until {end.strftime('%H:%M')}" if end is not None and end != later.end else ""
+            by_slot[t].append(f"{text} (continued{tail})")
     sessions = max((p.session for p in places), default=0)
     headers = [f"Session {i}" for i in range(1, sessions + 1)]
     days: dict[int, list[SlotPlace]] = defaultdict(list)

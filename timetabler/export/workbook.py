@@ -24,7 +24,12 @@ Grid
 Events
     One row per event: slot, day, session, date, start, end, rooms, seats, size.
 Personal timetables
-    One row per attendee and event (sortable, filterable: personal timetables).
+    One row per attendee and event (sortable, filterable: personal timetables); each row ends
+    at the attendee's own end (their extra time, a long event's true end).
+People
+    When the input says anything of people (an Attendees sheet, optional attendance, a
+    quorum): one row per attendee with their timetable and own times, the slots they cannot
+    make and whether the timetable keeps them free, the optional events they miss and why.
 Seats / Rooms
     Seats needed in each slot against the seat limit; room occupancy by slot (when rooms are given).
 Moves
@@ -75,7 +80,7 @@ from .tables import (
     Column,
     BIGINT, DATE, FLAG, FLOAT, INT, TIME, PublishedTable, RunFigures, comparison_table, counts_table, events_table,
     groups_table, validations_for, what_if_table,
-    grid_rows, has_timetable, load_table, moves_table, personal_table, rooms_table, run_figures, seats_table, value_text,
+    grid_rows, has_timetable, load_table, moves_table, people_table, personal_table, rooms_table, run_figures, seats_table, value_text,
     verdict_words,
 )
 
@@ -149,11 +154,14 @@ def write_workbook(
         with_timetable = [r for r in runs if has_timetable(r)]
         for run in with_timetable:
             suffix = f" ({int(run.slots)} slots)" if len(with_timetable) > 1 else ""
-            _grid_sheet(book, "Grid" + suffix, problem, run)
-            book.table_sheet("Events" + suffix, events_table(problem, run), highlight=_events_highlight)
-            book.table_sheet("Personal timetables" + suffix, personal_table(problem, run))
-            book.table_sheet("Seats" + suffix, seats_table(problem, run), highlight=_free_seats_highlight)
-            rooms = rooms_table(problem, run)
+            people = figures[int(run.slots)].people
+            _grid_sheet(book, "Grid" + suffix, problem, run, people)
+            book.table_sheet("Events" + suffix, events_table(problem, run, people), highlight=_events_highlight)
+            book.table_sheet("Personal timetables" + suffix, personal_table(problem, run, people=people))
+            if problem.has_people and people is not None:
+                book.table_sheet("People" + suffix, people_table(problem, run, people=people), highlight=_people_highlight)
+            book.table_sheet("Seats" + suffix, seats_table(problem, run, people), highlight=_free_seats_highlight)
+            rooms = rooms_table(problem, run, people)
             if rooms is not None:
                 book.table_sheet("Rooms" + suffix, rooms, highlight=_free_seats_highlight)
             book.table_sheet(
@@ -419,6 +427,14 @@ def _free_seats_highlight(ws, table: PublishedTable, last_row: int) -> None:
                                       FormulaRule(formula=[f'AND(${v}2="yes",${u}2>0)'], fill=AMBER, font=AMBER_FONT))
 
 
+def _people_highlight(ws, table: PublishedTable, last_row: int) -> None:
+    ws.conditional_formatting.add(
+        _range(table, "Unavailability honoured", last_row), CellIsRule(operator="equal", formula=['"no"'], fill=RED, font=RED_FONT))
+    ws.conditional_formatting.add(
+        _range(table, "Optional events missed", last_row), CellIsRule(operator="greaterThan", formula=["0"], fill=AMBER,
+                                                                       font=AMBER_FONT))
+
+
 def _estimate_highlight(ws, table: PublishedTable, last_row: int) -> None:
     _highlight_rows(ws, table, last_row, f'${_col(table, "Exact")}2="no"', AMBER, AMBER_FONT)
 
@@ -602,10 +618,10 @@ def _counts_sheet(book: _Book, counts: Any) -> None:
     ws.add_chart(chart, f"{get_column_letter(len(table.columns) + 2)}2")
 
 
-def _grid_sheet(book: _Book, name: str, problem: Problem, run: Any) -> None:
+def _grid_sheet(book: _Book, name: str, problem: Problem, run: Any, people: Any = None) -> None:
     """One block per day: a shaded row with the day, date and each session's slot and times, then
     the events of each session one per row beneath it (no wrapped cells, so it prints as it shows)."""
-    headers, days = grid_rows(problem, run)
+    headers, days = grid_rows(problem, run, people)
     ws = book.sheet(name)
     ws.freeze_panes = "C2"
     ws.print_title_rows = "1:1"
