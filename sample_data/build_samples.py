@@ -1,4 +1,5 @@
-"""Rebuild the sample workbooks of Harrowgate Vale College (a fictional college).
+"""Rebuild the sample workbooks of Harrowgate Vale College (a fictional college) and the
+committee round of the Quillmere Growers' Federation (a fictional federation).
 
 Run from the repository root::
 
@@ -19,6 +20,13 @@ and student numbers. The generator is seeded, so the files come out the same eac
     A whole college's end-of-term session: hundreds of exams, thousands of students,
     rooms with capacities and types, dated slots over two weeks, and a few rules and
     fixed or barred slots. The deeper features (rooms, seats, rules) are exercised on it.
+
+``committee_round.xlsx``
+    The Quillmere Growers' Federation's spring committee round: 40 committees, 150 members
+    with invented names, a week of hourly slots (Monday to Friday, 09:00 to 17:00), 2-hour
+    boards, quorums on four boards, optional advisers, and an Attendees sheet of the slots and
+    days members cannot make. Five days are enough by construction (a planted timetable
+    that every unavailability avoids); whether four will do is the question the sample asks.
 """
 
 from __future__ import annotations
@@ -158,6 +166,117 @@ def build_term(rng: random.Random) -> dict[str, pd.DataFrame]:
     return {"Enrolments": enrolments, "Exams": events, "Slots": slots, "Rooms": rooms, "Rules": rules}
 
 
+# --- committee round ---------------------------------------------------------------------
+# The Quillmere Growers' Federation (a fictional federation of market gardens and orchards)
+# holds its spring committee round in one week of hourly slots. Names are made of invented
+# syllables; the areas and committee kinds are invented too.
+ROUND_AREAS = ["Orchards", "Seedbank", "Markets", "Waterways", "Soils", "Apiaries", "Tools", "Schools", "Ledger", "Festival"]
+ROUND_KINDS = [("Board", 120), ("Panel", 60), ("Working group", 60), ("Review", 60)]
+SYLLABLES = ["ka", "lo", "mi", "ren", "tua", "vel", "dor", "sa", "ni", "bex", "ul", "ara", "fen", "qui", "to", "zel", "mar",
+             "eth", "wyn", "pol", "ri", "ces", "dun", "ova"]
+ROUND_MONDAY = dt.date(2027, 5, 10)  # a Monday
+
+
+def _invented_name(rng: random.Random, used: set[str]) -> str:
+    while True:
+        given = (rng.choice(SYLLABLES) + rng.choice(SYLLABLES)).capitalize()
+        family = (rng.choice(SYLLABLES) + rng.choice(SYLLABLES) + rng.choice(["by", "ton", "well", "more", "ick", ""])).capitalize()
+        name = f"{given} {family}"
+        if name not in used:
+            used.add(name)
+            return name
+
+
+def build_committee_round(rng: random.Random) -> dict[str, pd.DataFrame]:
+    """40 committees, 150 members, a week of hourly slots (8 a day), some 2-hour boards, quorums,
+    optional advisers and members' unavailability. A five-day timetable is planted first
+    (each committee given a start in the week) and every unavailability avoids it, so five days
+    are always enough; four days leave 32 slots and lose the Friday, when some members are free."""
+    slots = []
+    for day in range(5):
+        date = ROUND_MONDAY + dt.timedelta(days=day)
+        for hour in range(9, 17):
+            slots.append((f"{date:%a %d %b} {hour:02d}:00", date, dt.time(hour), 60))
+    per_day = 8
+    committees = []
+    for area in ROUND_AREAS:
+        for kind, minutes in ROUND_KINDS:
+            code = f"{area[:3].upper()}-{kind.split()[0][:3].upper()}"
+            committees.append((code, f"{area} {kind.lower()}", minutes, area))
+    used: set[str] = set()
+    members = [_invented_name(rng, used) for _ in range(150)]
+    home = {m: rng.sample(ROUND_AREAS, 2) for m in members}
+    seats: dict[str, list[str]] = {c[0]: [] for c in committees}
+    for m in members:
+        mine = [c for c in committees if c[3] in home[m]]
+        for c in rng.sample(mine, rng.randint(2, 4)):
+            seats[c[0]].append(m)
+        if rng.random() < 0.3:  # one committee outside their areas
+            other = rng.choice([c for c in committees if c[3] not in home[m]])
+            seats[other[0]].append(m)
+    for code, _, _, area in committees:  # every committee at least five members
+        pool = [m for m in members if area in home[m] and m not in seats[code]]
+        while len(seats[code]) < 5 and pool:
+            seats[code].append(pool.pop(rng.randrange(len(pool))))
+    # Plant a five-day timetable: greedy, each committee at the first start (in a shuffled order of
+    # the week) where none of its members is busy in a slot it takes, on one day.
+    busy: dict[str, set[int]] = {m: set() for m in members}
+    planted: dict[str, tuple[int, ...]] = {}
+    starts = list(range(1, len(slots) + 1))
+    length = {c[0]: c[2] // 60 for c in committees}
+    for code, _, _, _ in sorted(committees, key=lambda c: (-len(seats[c[0]]) * c[2], c[0])):
+        rng.shuffle(starts)
+        for s in starts:
+            taken = tuple(range(s, s + length[code]))
+            if (taken[-1] - 1) // per_day != (s - 1) // per_day:
+                continue
+            if all(not busy[m] & set(taken) for m in seats[code]):
+                planted[code] = taken
+                for m in seats[code]:
+                    busy[m] |= set(taken)
+                break
+        else:  # pragma: no cover - the data are made so that this does not happen
+            raise RuntimeError(f"no planted slot for {code}")
+    optional: set[tuple[str, str]] = set()
+    for code, members_of in seats.items():
+        if len(members_of) >= 8:
+            for m in rng.sample(members_of, 2):  # two advisers, welcome but not needed
+                optional.add((m, code))
+    # Availability: a third of the members cannot make a whole day (never a day of theirs in the
+    # planted timetable), some cannot make a few hours.
+    attendees = []
+    label = [s[0] for s in slots]
+    for m in members:
+        mine_days = {(t - 1) // per_day for code, taken in planted.items() if m in seats[code] and (m, code) not in optional
+                     for t in taken}
+        away: list[str] = []
+        if rng.random() < 0.35:
+            free_days = [d for d in range(5) if d not in mine_days]
+            if free_days:
+                away.append((ROUND_MONDAY + dt.timedelta(days=rng.choice(free_days))).isoformat())
+        if rng.random() < 0.3:
+            free = [t for t in range(1, len(slots) + 1) if t not in busy[m]]
+            away += [label[t - 1] for t in sorted(rng.sample(free, min(3, len(free))))]
+        if away:
+            attendees.append((m, "; ".join(away), None, ""))
+    # Quorums on the boards: two thirds of the members, free in the planted timetable by construction.
+    events = []
+    for code, title, minutes, _ in committees:
+        quorum = -(-2 * len(seats[code]) // 3) if code.endswith("-BOA") and code[:3] in ("ORC", "LED", "MAR", "WAT") else None
+        events.append((code, title, minutes, quorum))
+    events_frame = pd.DataFrame(events, columns=["Committee", "Title", "Duration (minutes)", "Quorum"])
+    events_frame["Quorum"] = events_frame["Quorum"].astype("Int64")
+    enrolments = [(m, code, "optional" if (m, code) in optional else "required")
+                  for code, ms in seats.items() for m in ms]
+    rng.shuffle(enrolments)
+    return {
+        "Enrolments": pd.DataFrame(enrolments, columns=["Member", "Committee", "Attendance"]),
+        "Events": events_frame,
+        "Slots": pd.DataFrame(slots, columns=["Slot", "Date", "Start", "Length (minutes)"]),
+        "Attendees": pd.DataFrame(attendees, columns=["Attendee", "Unavailable slots", "Extra time", "Own room"]),
+    }
+
+
 def write(path: Path, sheets: dict[str, pd.DataFrame]) -> None:
     with pd.ExcelWriter(path, engine="openpyxl") as writer:
         for name, frame in sheets.items():
@@ -172,6 +291,7 @@ def main() -> None:
     week[["Student", "Exam"]].to_csv(HERE / "exam_week.csv", index=False)
     print(f"wrote {(HERE / 'exam_week.csv').relative_to(HERE.parent)}")
     write(HERE / "term_exams.xlsx", build_term(rng))
+    write(HERE / "committee_round.xlsx", build_committee_round(random.Random(20270510)))
 
 
 if __name__ == "__main__":

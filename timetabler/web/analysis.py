@@ -238,6 +238,7 @@ WEIGHT_LABELS = {
     "moved": "Event moved from the earlier timetable (repair)",
     "preferred_room": "Event outside its preferred rooms",
     "penalised_room": "Event in a room marked Avoid",
+    "optional_missed": "Optional attendee who cannot come",
 }
 
 
@@ -263,13 +264,67 @@ def weights_from_form(form: dict[str, str], base: Weights) -> Weights:
     return dataclasses.replace(base, **values)
 
 
+def people_figures(problem: Problem) -> list[tuple[str, int]]:
+    """What the upload says of people (empty when nothing): the Attendees sheet, optional
+    attendance, quorums and events longer than a slot."""
+    if not problem.has_people and not any(e.duration_minutes for e in problem.events.values()):
+        return []
+    people = list(problem.people.values())
+    shortest = min((s.length_minutes for s in problem.slots if s.length_minutes), default=None)
+    rows = [
+        ("Attendees in the Attendees sheet", len(people)),
+        ("Attendees with slots they cannot make", sum(1 for p in people if p.unavailable)),
+        ("Attendees with extra time", sum(1 for p in people if p.extra_time_percent)),
+        ("Attendees seated in a room of their own", sum(1 for p in people if p.own_room_type)),
+        ("Optional enrolments", len(problem.optional)),
+        ("Events with a quorum", sum(1 for e in problem.events.values() if e.quorum)),
+        ("Events longer than a slot", sum(1 for e in problem.events.values()
+                                          if shortest and e.duration_minutes and e.duration_minutes > shortest)),
+    ]
+    return rows if any(n for _, n in rows) else []
+
+
+#: How many attendees the timetable page lists (the workbook's People sheet has them all).
+PEOPLE_SHOWN = 100
+
+
+def people_rows(problem: Problem, run: Any) -> dict | None:
+    """The People sheet's content for the page: its figures, and the attendees with something to
+    say (a slot they cannot make, extra time, an optional event), those who miss something first."""
+    from ..export.tables import people_matter, people_table, timetable_people
+
+    if not problem.has_people or not getattr(run, "assignment", None) or not people_matter(problem, run.slot_list):
+        return None
+    found = timetable_people(problem, run)
+    table = people_table(problem, run, people=found)
+    rows = [dict(zip(table.headers, r)) for r in table.rows]
+    worth = [r for r in rows if r["Cannot make"] or r["Extra time (%)"] or r["Optional events"] or r["Own room"]]
+    worth.sort(key=lambda r: (r["Unavailability honoured"], -r["Optional events missed"], r["Attendee"]))
+    return {
+        "attendees": len(rows),
+        "with_details": len(worth),
+        "not_honoured": sum(1 for r in rows if not r["Unavailability honoured"]),
+        "missed": sum(r["Optional events missed"] for r in rows),
+        "optional": sum(r["Optional events"] for r in rows),
+        "rows": worth[:PEOPLE_SHOWN],
+        "more": max(0, len(worth) - PEOPLE_SHOWN),
+    }
+
+
 def grid(problem: Problem, run: Any) -> dict:
     """The timetable as a grid: one row per day, one column per session of the day."""
     slots: list[Slot] = list(getattr(run, "slot_list", []) or [])
     days = days_of(slots) if slots else []
+    from ..export.tables import people_matter, timetable_people
+
+    taken = timetable_people(problem, run).taken if slots and people_matter(problem, slots) else {}
     by_slot: dict[int, list[str]] = {i: [] for i in range(1, len(slots) + 1)}
+    later: dict[int, set[str]] = {}
     for code, n in sorted((getattr(run, "assignment", {}) or {}).items(), key=lambda kv: str(kv[0])):
         by_slot.setdefault(n, []).append(code)
+        for t in taken.get(code, (n,))[1:]:  # a long event shows in every slot it takes
+            by_slot.setdefault(t, []).append(code)
+            later.setdefault(t, set()).add(code)
     sizes = problem.event_sizes()
     rows: dict[int, list[dict]] = {}
 
@@ -285,7 +340,8 @@ def grid(problem: Problem, run: Any) -> dict:
                 "label": slot.label,
                 "when": _when(slot),
                 "events": [{"code": c, "size": sizes.get(c, 0), "title": problem.events[c].title if c in problem.events else None,
-                            "until": until(c, slot)} for c in by_slot.get(i, [])],
+                            "until": until(c, slots[run.assignment[c] - 1]),
+                            "continued": c in later.get(i, ())} for c in by_slot.get(i, [])],
                 "seats": sum(sizes.get(c, 0) for c in by_slot.get(i, [])),
             }
         )
