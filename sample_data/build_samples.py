@@ -24,9 +24,10 @@ and student numbers. The generator is seeded, so the files come out the same eac
 ``committee_round.xlsx``
     The Quillmere Growers' Federation's spring committee round: 40 committees, 150 members
     with invented names, a week of hourly slots (Monday to Friday, 09:00 to 17:00), 2-hour
-    boards, quorums on four boards, optional advisers, and an Attendees sheet of the slots and
-    days members cannot make. Five days are enough by construction (a planted timetable
-    that every unavailability avoids); whether four will do is the question the sample asks.
+    boards, quorums on four boards, optional advisers, an Attendees sheet of the slots and
+    days members cannot make, and at most two meetings a day for any member. Five days are
+    enough by construction (a planted timetable that every unavailability avoids, two a day
+    at most); whether four will do is the question the sample asks.
 """
 
 from __future__ import annotations
@@ -173,14 +174,14 @@ def build_term(rng: random.Random) -> dict[str, pd.DataFrame]:
 ROUND_AREAS = ["Orchards", "Seedbank", "Markets", "Waterways", "Soils", "Apiaries", "Tools", "Schools", "Ledger", "Festival"]
 ROUND_KINDS = [("Board", 120), ("Panel", 60), ("Working group", 60), ("Review", 60)]
 SYLLABLES = ["ka", "lo", "mi", "ren", "tua", "vel", "dor", "sa", "ni", "bex", "ul", "ara", "fen", "qui", "to", "zel", "mar",
-             "eth", "wyn", "pol", "ri", "ces", "dun", "ova"]
+             "eth", "wyn", "pol", "ri", "cai", "dun", "ova"]
 ROUND_MONDAY = dt.date(2027, 5, 10)  # a Monday
 
 
 def _invented_name(rng: random.Random, used: set[str]) -> str:
     while True:
         given = (rng.choice(SYLLABLES) + rng.choice(SYLLABLES)).capitalize()
-        family = (rng.choice(SYLLABLES) + rng.choice(SYLLABLES) + rng.choice(["by", "ton", "well", "more", "ick", ""])).capitalize()
+        family = (rng.choice(SYLLABLES) + rng.choice(SYLLABLES) + rng.choice(["by", "ton", "well", "more", "wick", ""])).capitalize()
         name = f"{given} {family}"
         if name not in used:
             used.add(name)
@@ -219,8 +220,10 @@ def build_committee_round(rng: random.Random) -> dict[str, pd.DataFrame]:
         while len(seats[code]) < 5 and pool:
             seats[code].append(pool.pop(rng.randrange(len(pool))))
     # Plant a five-day timetable: greedy, each committee at the first start (in a shuffled order of
-    # the week) where none of its members is busy in a slot it takes, on one day.
+    # the week) where none of its members is busy in a slot it takes, on one day, and none has
+    # two meetings that day already.
     busy: dict[str, set[int]] = {m: set() for m in members}
+    that_day = {m: [0] * 5 for m in members}  # planted meetings of each member on each day
     planted: dict[str, tuple[int, ...]] = {}
     starts = list(range(1, len(slots) + 1))
     length = {c[0]: c[2] // 60 for c in committees}
@@ -230,10 +233,12 @@ def build_committee_round(rng: random.Random) -> dict[str, pd.DataFrame]:
             taken = tuple(range(s, s + length[code]))
             if (taken[-1] - 1) // per_day != (s - 1) // per_day:
                 continue
-            if all(not busy[m] & set(taken) for m in seats[code]):
+            day = (s - 1) // per_day
+            if all(not busy[m] & set(taken) and that_day[m][day] < 2 for m in seats[code]):
                 planted[code] = taken
                 for m in seats[code]:
                     busy[m] |= set(taken)
+                    that_day[m][day] += 1
                 break
         else:  # pragma: no cover - the data are made so that this does not happen
             raise RuntimeError(f"no planted slot for {code}")
@@ -242,7 +247,7 @@ def build_committee_round(rng: random.Random) -> dict[str, pd.DataFrame]:
         if len(members_of) >= 8:
             for m in rng.sample(members_of, 2):  # two advisers, welcome but not needed
                 optional.add((m, code))
-    # Availability: a third of the members cannot make a whole day (never a day of theirs in the
+    # Availability: a fifth of the members cannot make a whole day (never a day of theirs in the
     # planted timetable), some cannot make a few hours.
     attendees = []
     label = [s[0] for s in slots]
@@ -250,7 +255,7 @@ def build_committee_round(rng: random.Random) -> dict[str, pd.DataFrame]:
         mine_days = {(t - 1) // per_day for code, taken in planted.items() if m in seats[code] and (m, code) not in optional
                      for t in taken}
         away: list[str] = []
-        if rng.random() < 0.35:
+        if rng.random() < 0.2:
             free_days = [d for d in range(5) if d not in mine_days]
             if free_days:
                 away.append((ROUND_MONDAY + dt.timedelta(days=rng.choice(free_days))).isoformat())
@@ -274,6 +279,8 @@ def build_committee_round(rng: random.Random) -> dict[str, pd.DataFrame]:
         "Events": events_frame,
         "Slots": pd.DataFrame(slots, columns=["Slot", "Date", "Start", "Length (minutes)"]),
         "Attendees": pd.DataFrame(attendees, columns=["Attendee", "Unavailable slots", "Extra time", "Own room"]),
+        # the federation's own rule: no member sits in more than two meetings a day
+        "Weights": pd.DataFrame([("most events per day", 2)], columns=["Goal", "Weight"]),
     }
 
 
