@@ -46,6 +46,7 @@ from typing import Hashable
 import networkx as nx
 from ortools.sat.python import cp_model
 
+from ..availability import Availability, unavailable_slots
 from ..model import Problem, RuleKind, Slot, days_of
 from .cliques import clique_cover
 
@@ -233,7 +234,49 @@ def physical_domains(problem: Problem, slots: list[Slot], codes, sizes: dict[str
             ok.add(s)
         allowed[code] = ok
         why[code] = reasons
+    if problem.has_people:
+        _people_domains(problem, slots, codes, allowed, why)
     return Domains(allowed, why)
+
+
+def _people_domains(problem: Problem, slots: list[Slot], codes, allowed: dict[str, set[int]],
+                    why: dict[str, dict[int, str]]) -> None:
+    """Take out of each event's slots those a required attendee cannot make, and those where too few
+    attendees can come for its quorum (:class:`timetabler.availability.Availability`), naming them."""
+    found = Availability.of(problem, slots)
+    for code in codes:
+        blocked = found.blocked.get(code, {})
+        short = found.quorum_short.get(code, {})
+        quorum = problem.events[code].quorum
+        for s in sorted(allowed[code]):
+            label = slots[s - 1].label
+            if s in blocked:
+                names = blocked[s]
+                who = ", ".join(names[:3]) + (f" and {len(names) - 3} more" if len(names) > 3 else "")
+                why[code][s] = f"{who} cannot make {label}"
+                allowed[code].discard(s)
+            elif s in short:
+                why[code][s] = f"it needs {quorum} attendees free and only {short[s]} can make {label}"
+                allowed[code].discard(s)
+
+
+def optional_missed_by_slot(problem: Problem, slots: list[Slot], codes) -> dict[str, dict[int, int]]:
+    """For each event, the slots (1-based) its optional attendees cannot make, with how many cannot.
+
+    This is the part of the ``optional_missed`` goal that depends on one event's slot alone; an
+    optional attendee booked in another event at the same time is counted by the validator only.
+    """
+    if not problem.optional or not problem.people:
+        return {}
+    away = unavailable_slots(problem, slots)
+    out: dict[str, dict[int, int]] = {}
+    wanted = set(codes)
+    for attendee, code in problem.optional:
+        if code in wanted and attendee in away:
+            per = out.setdefault(code, {})
+            for s in away[attendee]:
+                per[s] = per.get(s, 0) + 1
+    return out
 
 
 def _type_key(room_type: str | None) -> str | None:
@@ -276,6 +319,8 @@ def slots_interchangeable(problem: Problem, slots: list[Slot], codes) -> bool:
         if (ev.fixed_slot and str(ev.fixed_slot).strip()) or ev.barred_slots:
             return False
     if any(room.unavailable_slots for room in problem.rooms):
+        return False
+    if problem.has_people:  # the people's unavailable slots tell the slots apart
         return False
     days = days_of(slots)
     one_day_each = len(set(days)) == len(days)
@@ -529,6 +574,11 @@ def _add_objective(tm: TimetableModel, problem, slots, sub, day, t, d, previous,
             if slot.penalised:
                 for c in tm.codes:
                     terms.setdefault("penalised_slot", []).append((w.penalised_slot, x[c][s].index, ("in", c, s + 1)))
+    if w.optional_missed > 0:
+        for c, per in optional_missed_by_slot(problem, slots, tm.codes).items():
+            for s, count in sorted(per.items()):
+                terms.setdefault("optional_missed", []).append(
+                    (w.optional_missed * count, x[c][s - 1].index, ("in", c, s)))
     if previous and w.moved > 0:
         for c in tm.codes:
             p = previous.get(c)

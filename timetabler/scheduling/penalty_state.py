@@ -39,7 +39,7 @@ import numpy as np
 
 from ..model import Problem, RuleKind, Slot, days_of
 from .arrangement import pair_cost
-from .cpsat_model import Domains, _attendee_event_sets, _room_capacity_by_slot, _type_key
+from .cpsat_model import Domains, _attendee_event_sets, _room_capacity_by_slot, _type_key, optional_missed_by_slot
 
 #: A limit so high it never binds (slot seats not given).
 UNLIMITED = np.iinfo(np.int64).max // 4
@@ -184,6 +184,10 @@ def build_state(
         for s, slot in enumerate(slots):
             if slot.penalised:
                 event_cost[:, s] += w.penalised_slot
+    if w.optional_missed:
+        for c, per in optional_missed_by_slot(problem, slots, codes).items():
+            for s, count in per.items():
+                event_cost[index[c], s - 1] += w.optional_missed * count
 
     # slots each event may take
     allowed = np.zeros((n, k), dtype=np.bool_)

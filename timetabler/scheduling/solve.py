@@ -398,6 +398,8 @@ def _objective_order_free(problem: Problem, slots: list[Slot], previous: dict) -
         return False
     if w.preferred_slot and any(e.preferred_slots for e in problem.events.values()):
         return False
+    if w.optional_missed and problem.optional and problem.people:
+        return False
     return True
 
 
