@@ -8,6 +8,7 @@ are the numbers of shared attendees, its diagonal the event sizes. This costs
 
 from __future__ import annotations
 
+import time
 from dataclasses import dataclass
 
 import networkx as nx
@@ -62,12 +63,13 @@ def conflict_graph(problem: Problem) -> nx.Graph:
     return graph
 
 
-def largest_clique(graph: nx.Graph, budget_nodes: int = 400) -> list:
+def largest_clique(graph: nx.Graph, budget_nodes: int = 400, deadline: float | None = None) -> list:
     """A large set of mutually clashing events: a lower bound on the number of slots.
 
     Exact (``networkx.max_weight_clique`` with unit weights) on components of at most
-    ``budget_nodes`` events; a greedy clique by degree on larger ones. The result is always
-    a true clique, so its size is always a valid lower bound.
+    ``budget_nodes`` events; a greedy clique by degree on larger ones (fewer starts once
+    ``deadline``, a ``time.monotonic()`` value, has passed). The result is always a true
+    clique, so its size is always a valid lower bound.
     """
     best: list = []
     for comp in nx.connected_components(graph):
@@ -77,21 +79,24 @@ def largest_clique(graph: nx.Graph, budget_nodes: int = 400) -> list:
         if len(comp) <= budget_nodes:
             clique, _ = nx.max_weight_clique(sub, weight=None)
         else:
-            clique = _greedy_clique(sub)
+            clique = _greedy_clique(sub, deadline)
         if len(clique) > len(best):
             best = list(clique)
     return sorted(best, key=str)
 
 
-def _greedy_clique(graph: nx.Graph) -> list:
+def _greedy_clique(graph: nx.Graph, deadline: float | None = None) -> list:
     best: list = []
+    adj = {v: set(graph[v]) for v in graph}
     for start in sorted(graph, key=graph.degree, reverse=True)[:50]:
+        if best and deadline is not None and time.monotonic() > deadline:
+            break
         clique = [start]
-        candidates = set(graph[start])
+        candidates = set(adj[start])
         while candidates:
-            v = max(candidates, key=lambda u: len(candidates & set(graph[u])))
+            v = max(candidates, key=lambda u: (len(candidates & adj[u]), str(u)))
             clique.append(v)
-            candidates &= set(graph[v])
+            candidates &= adj[v]
         if len(clique) > len(best):
             best = clique
     return best

@@ -30,6 +30,7 @@ from typing import Sequence
 
 import networkx as nx
 
+from ..dsatur import dsatur
 from .polynomial import falling_factorial
 
 
@@ -79,8 +80,7 @@ def dsatur_colour_count(graph: nx.Graph) -> int:
     """Colours used by a DSATUR colouring (Brélaz 1979): an upper bound on the fewest slots."""
     if graph.number_of_nodes() == 0:
         return 0
-    colours = nx.greedy_color(graph, strategy="saturation_largest_first")
-    return max(colours.values()) + 1
+    return max(dsatur(graph).values())
 
 
 def colouring_lower(graph: nx.Graph, k: int, colour_count: int | None = None) -> int:

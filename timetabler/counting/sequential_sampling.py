@@ -56,6 +56,8 @@ from typing import Hashable, Mapping, Sequence
 import networkx as nx
 import numpy as np
 
+from ..dsatur import dsatur_order as _dsatur_order
+
 REPLICATES = 8
 _PILOT_PARTICLES = 32
 _MIN_PARTICLES = 128
@@ -263,8 +265,8 @@ def _mask(slots, words: int) -> np.ndarray:
 
 
 def dsatur_order(graph: nx.Graph) -> list:
-    """The order in which DSATUR (Brélaz 1979; networkx's implementation) colours the graph."""
-    return list(nx.greedy_color(graph, strategy="saturation_largest_first"))
+    """The order in which DSATUR (Brélaz 1979; :mod:`timetabler.dsatur`) colours the graph."""
+    return _dsatur_order(graph)[0]
 
 
 def sample_chain(
@@ -278,6 +280,7 @@ def sample_chain(
     particles: int | None = None,
     seed: int = 20261202,
     keep_colourings: int = 4,
+    order: Sequence | None = None,
 ) -> ChainEstimate:
     """Estimate ``ln P(G, k)`` for ``k = k_first … k_last`` within about ``seconds``.
 
@@ -285,7 +288,8 @@ def sample_chain(
     takes as many particles as the remaining time allows (``particles`` fixes the number
     and skips the pilot). ``allowed`` maps an event to the 0-based slots it may use at
     ``k_first`` (fixed and barred slots); ratios to later ``k`` are then not computed
-    (``k_last`` must equal ``k_first``).
+    (``k_last`` must equal ``k_first``). ``order`` is the order of placing the events
+    (DSATUR's when not given; pass it when it is already known, it costs time on a large group).
 
     Examples
     --------
@@ -299,7 +303,7 @@ def sample_chain(
         raise ValueError("with fixed or barred slots each number of slots is estimated on its own")
     started = time.monotonic()
     stop = started + seconds
-    order = dsatur_order(graph)
+    order = list(order) if order is not None else dsatur_order(graph)
 
     def run(size: int, round_: int) -> ChainEstimate:
         return _run_chain(graph, order, k_first, k_last, allowed, replicates, size, seed + 7919 * round_, keep_colourings)

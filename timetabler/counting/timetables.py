@@ -34,7 +34,8 @@ from .bounds import (
     degeneracy_lower,
     lower_bound,
 )
-from .sequential_sampling import Moments, dsatur_order, sample_chain
+from ..dsatur import dsatur_order
+from .sequential_sampling import Moments, sample_chain
 from .budget import Budget, BudgetExceeded
 from .frontier import colourings, frontier_order
 from .polynomial import ChromaticPolynomial
@@ -418,18 +419,17 @@ def _estimate_components(pending: list[ComponentCount], graph: nx.Graph, ks: lis
 def _estimate_component(comp: ComponentCount, sub: nx.Graph, ks: list[int], stop: float, fixed: dict,
                         barred: dict) -> None:
     started = time.monotonic()
-    clique = largest_clique(sub, budget_nodes=120)
+    bounds_stop = started + 0.15 * (stop - started)
+    clique = largest_clique(sub, budget_nodes=120, deadline=started + 0.03 * (stop - started))
     possible = [k for k in ks if k >= len(clique)]
     allowed_at = {}
     for k in possible:
         allowed_at[k] = {v: allowed_slots(v, k, fixed, barred) for v in sub} if comp.constrained else {}
         allowed_at[k] = {v: {c for c in a} for v, a in allowed_at[k].items() if a is not None}
     possible = [k for k in possible if all(allowed_at[k].values()) or not allowed_at[k]]
-    bounds_stop = started + 0.15 * (stop - started)
-    order = dsatur_order(sub)
+    order, dsatur = dsatur_order(sub)  # once: the order of every bound and chain, and a timetable
     uppers: dict[int, int] = {}
     lowers: dict[int, int] = {}
-    dsatur = nx.greedy_color(sub, strategy="saturation_largest_first")
     for k in possible:
         allowed = allowed_at[k] or None
         upper = chordal_subgraph_upper(sub, k) if not allowed else _list_upper(sub, k, allowed)
@@ -455,12 +455,12 @@ def _estimate_component(comp: ComponentCount, sub: nx.Graph, ks: list[int], stop
             if hi > lo:
                 # the fewest slots of the run are the hardest: the chain closing slots down to it may
                 # meet dead ends, so it is also sampled on its own, placing the events at lo slots
-                chain = sample_chain(sub, lo, hi, seconds=0.65 * share)
-                alone = sample_chain(sub, lo, lo, seconds=max(share - (time.monotonic() - (stop - left)), 0.1))
+                chain = sample_chain(sub, lo, hi, seconds=0.65 * share, order=order)
+                alone = sample_chain(sub, lo, lo, seconds=max(share - (time.monotonic() - (stop - left)), 0.1), order=order)
                 direct[lo] = alone.count_moments(lo)
                 chain.colourings.setdefault(lo, []).extend(alone.colourings.get(lo, []))
             else:
-                chain = sample_chain(sub, lo, hi, seconds=share, allowed=allowed)
+                chain = sample_chain(sub, lo, hi, seconds=share, allowed=allowed, order=order)
             for k in chain.ks:
                 chains[k] = chain
     counts = []
