@@ -40,7 +40,10 @@ import networkx as nx
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
-TORONTO = Path(os.environ.get("TIMETABLER_TORONTO", ROOT.parent / "shared" / "benchmarks" / "toronto"))
+# beside the checkout, or beside the folder of worktrees when run from a worktree
+TORONTO = Path(os.environ.get("TIMETABLER_TORONTO", next(
+    (p for p in (ROOT.parent / "shared" / "benchmarks" / "toronto", ROOT.parent.parent / "shared" / "benchmarks" / "toronto")
+     if p.is_dir()), ROOT.parent / "shared" / "benchmarks" / "toronto")))
 
 
 # --------------------------------------------------------------------------- validation
