@@ -92,3 +92,42 @@ def test_the_reason_names_the_person_who_cannot_come():
     assert run.status == "infeasible"
     text = " ".join([run.reason or ""] + [str(r) for r in run.reasons])
     assert "ben" in text and "BOARD" in text
+
+
+def brute_long(problem, slots, span_of):
+    """Every assignment of starts whose taken slots never overlap for a shared attendee (this file's own
+    reading of spans: ``span_of[c][s]`` the slots, None when the event cannot start there)."""
+    codes = sorted(problem.events)
+    by_event = problem.attendees_by_event()
+    found = []
+    for combo in itertools.product(range(1, len(slots) + 1), repeat=len(codes)):
+        at = dict(zip(codes, combo))
+        if any(span_of[c][at[c]] is None for c in codes):
+            continue
+        ok = all(not (set(span_of[a][at[a]]) & set(span_of[b][at[b]]))
+                 for a, b in itertools.combinations(codes, 2) if set(by_event[a]) & set(by_event[b]))
+        if ok:
+            found.append(at)
+    return found
+
+
+@pytest.mark.parametrize("seed", range(8))
+def test_two_hour_meetings_hold_two_touching_slots(seed):
+    rng = random.Random(100 + seed)
+    # Monday 9-12 (three touching hours), a gap, 14-15; Tuesday 9-10
+    slots = [Slot(f"Mon {h}", date=DAY, start=dt.time(h), length_minutes=60) for h in (9, 10, 11, 14)]
+    slots += [Slot(f"Tue {h}", date=DAY + dt.timedelta(days=1), start=dt.time(h), length_minutes=60) for h in (9, 10)]
+    codes = [f"M{i}" for i in range(4)]
+    events = {c: Event(c, duration_minutes=rng.choice([60, 120])) for c in codes}
+    enrolments = sorted({(p, c) for p in "abcde" for c in codes if rng.random() < 0.4})
+    problem = Problem(enrolments, events=events)
+    # by hand: a 2-hour meeting may start Mon 9, Mon 10 (touching next hour) and Tue 9
+    two = {1: (1, 2), 2: (2, 3), 3: None, 4: None, 5: (5, 6), 6: None}
+    span_of = {c: (two if events[c].duration_minutes == 120 else {s: (s,) for s in range(1, 7)}) for c in codes}
+    truth = brute_long(problem, slots, span_of)
+    run = solve(problem, slots, SolveOptions(time_limit=10))
+    if not truth:
+        assert run.status == "infeasible"
+        return
+    assert run.status in ("optimal", "feasible")
+    assert run.assignment in truth

@@ -207,6 +207,7 @@ def physical_domains(problem: Problem, slots: list[Slot], codes, sizes: dict[str
     allowed: dict[str, set[int]] = {}
     why: dict[str, dict[int, str]] = {}
     room_caps = _room_capacity_by_slot(problem, slots)
+    long_starts = Availability.of(problem, slots).spans if needs_availability(problem, slots) else {}
     for code in codes:
         ev = problem.events[code]
         ok: set[int] = set()
@@ -214,7 +215,7 @@ def physical_domains(problem: Problem, slots: list[Slot], codes, sizes: dict[str
         for s in range(1, k + 1):
             slot = slots[s - 1]
             if ev.duration_minutes is not None and slot.length_minutes is not None \
-                    and ev.duration_minutes > slot.length_minutes:
+                    and ev.duration_minutes > slot.length_minutes and s not in long_starts.get(code, {}):
                 reasons[s] = f"it lasts {ev.duration_minutes} minutes and slot {s} only {slot.length_minutes}"
                 continue
             if slot.seat_capacity is not None and sizes[code] > slot.seat_capacity:
@@ -237,6 +238,24 @@ def physical_domains(problem: Problem, slots: list[Slot], codes, sizes: dict[str
     if problem.has_people:
         _people_domains(problem, slots, codes, allowed, why)
     return Domains(allowed, why)
+
+
+def needs_availability(problem: Problem, slots: list[Slot]) -> bool:
+    """Whether the people's rules or an event longer than a slot are in play (else every event takes one
+    slot and nobody's availability matters: the model is built as it always was)."""
+    if problem.has_people:
+        return True
+    shortest = min((s.length_minutes for s in slots if s.length_minutes), default=None)
+    return shortest is not None and any(e.duration_minutes and e.duration_minutes > shortest
+                                        for e in problem.events.values())
+
+
+def _required_events_by_attendee(problem: Problem, codes) -> dict[str, list[str]]:
+    out: dict[str, list[str]] = {}
+    for attendee, code in problem.required_enrolments():
+        if code in codes:
+            out.setdefault(attendee, []).append(code)
+    return out
 
 
 def _people_domains(problem: Problem, slots: list[Slot], codes, allowed: dict[str, set[int]],
@@ -320,7 +339,7 @@ def slots_interchangeable(problem: Problem, slots: list[Slot], codes) -> bool:
             return False
     if any(room.unavailable_slots for room in problem.rooms):
         return False
-    if problem.has_people:  # the people's unavailable slots tell the slots apart
+    if needs_availability(problem, slots):  # people's unavailable slots and long events tell slots apart
         return False
     days = days_of(slots)
     one_day_each = len(set(days)) == len(days)
@@ -369,6 +388,18 @@ def build_model(
     day = days_of(slots)
     x = {c: [m.new_bool_var(f"x[{c}][{s}]") for s in range(1, k + 1)] for c in codes}
     tm = TimetableModel(model=m, codes=list(codes), k=k, x=x, day=list(day), pairs=sub.number_of_edges())
+    # occ[c][s]: event c holds slot s (its start, or a later slot of a long event's span); the clash, seat,
+    # room and "alone" limits read occ, the goals and the other rules read the start x
+    found = Availability.of(problem, slots) if needs_availability(problem, slots) else None
+    occ = {c: x[c] for c in codes}
+    spans = found.spans if found is not None else {}
+    for c in codes:
+        if c in spans:
+            held = [m.new_bool_var(f"occ[{c}][{s}]") for s in range(1, k + 1)]
+            for t_ in range(1, k + 1):
+                covering = [x[c][s - 1] for s in range(1, k + 1) if t_ in spans[c].get(s, (s,))]
+                m.add(held[t_ - 1] == sum(covering))
+            occ[c] = held
 
     def rule_literal(text: str, kind: str):
         if not explain:
@@ -410,10 +441,24 @@ def build_model(
         # a clique of exactly K events fills every slot once (pigeonhole): exactly-one is valid and stronger
         tight = len(clique) == k
         for s in range(k):
-            if tight:
+            if tight and not spans:
                 m.add_exactly_one(x[c][s] for c in clique)
             else:
-                m.add_at_most_one(x[c][s] for c in clique)
+                m.add_at_most_one(occ[c][s] for c in clique)
+    if found is not None and found.sittings:
+        # an attendee whose extra time takes the slot after the event's own: none of their other events there
+        mine = _required_events_by_attendee(problem, code_set)
+        for (attendee, c), own in found.sittings.items():
+            if c not in code_set:
+                continue
+            for start, taken in own.items():
+                if taken is None:
+                    continue
+                extra = set(taken) - set(found.slots_taken(c, start))
+                for other in mine.get(attendee, ()):
+                    if other != c:
+                        for t_ in extra:
+                            m.add(x[c][start - 1] + occ[other][t_ - 1] <= 1)
 
     # fixed and barred slots
     for c in codes:
@@ -460,8 +505,10 @@ def build_model(
         if len(evs) != len(rule.events):
             continue  # rule belongs to another block, or names unknown events (intake reports those)
         lit = rule_literal(rule.describe(), rule.kind.value)
-        if rule.kind is RuleKind.BEFORE:
-            enforce(m.add(t(evs[0]) + 1 <= t(evs[1])), lit)
+        if rule.kind is RuleKind.BEFORE:  # a long event ends (its last slot) before the other starts
+            last = {s: max(taken) for s, taken in spans.get(evs[0], {}).items()}
+            end = sum(last.get(s + 1, s + 1) * x[evs[0]][s] for s in range(k)) if last else t(evs[0])
+            enforce(m.add(end + 1 <= t(evs[1])), lit)
         elif rule.kind is RuleKind.SAME_SLOT:
             for other in evs[1:]:
                 for s in range(k):
@@ -474,15 +521,15 @@ def build_model(
             others = [c for c in codes if c != e]
             for s in range(k):
                 if others:
-                    cond = [x[e][s]] + ([lit] if lit is not None else [])
-                    m.add(sum(x[c][s] for c in others) == 0).only_enforce_if(cond)
+                    cond = [occ[e][s]] + ([lit] if lit is not None else [])
+                    m.add(sum(occ[c][s] for c in others) == 0).only_enforce_if(cond)
 
     # seats per slot
     for s in range(k):
         cap = slots[s].seat_capacity
         if cap is None:
             continue
-        load = [(sizes[c], x[c][s]) for c in codes if sizes[c] > 0]
+        load = [(sizes[c], occ[c][s]) for c in codes if sizes[c] > 0]
         if sum(n for n, _ in load) <= cap:
             continue
         lit = rule_literal(f"slot {s + 1} ({slots[s].label}) seats at most {cap}", "seats")
@@ -501,7 +548,7 @@ def build_model(
                 if sum(sizes[c] for c in members) > sum(cap for cap, _ in room_caps):
                     total = sum(cap for cap, _ in room_caps)
                     lit = rule_literal(f"the {word} free in slot {s + 1} seat {total}", "rooms")
-                    enforce(m.add(sum(sizes[c] * x[c][s] for c in members) <= total), lit)
+                    enforce(m.add(sum(sizes[c] * occ[c][s] for c in members) <= total), lit)
                 if not room_splitting:
                     # Hall's condition: the events needing at least `need` seats cannot outnumber the places
                     # for them, a room of `cap` seats holding one such event, or cap // need when shared
@@ -515,11 +562,11 @@ def build_model(
                         if len(big) > fits:
                             lit = rule_literal(f"slot {s + 1} has places for {fits} events with {need} seats or more "
                                                f"in its {word}", "rooms")
-                            enforce(m.add(sum(x[c][s] for c in big) <= fits), lit)
+                            enforce(m.add(sum(occ[c][s] for c in big) <= fits), lit)
                 elif not any(shared for _, shared in room_caps) and len(members) > len(room_caps):
                     # split events still take a room each, and no room takes two
                     lit = rule_literal(f"slot {s + 1} has {len(room_caps)} {word} free, one event per room", "rooms")
-                    enforce(m.add(sum(x[c][s] for c in members) <= len(room_caps)), lit)
+                    enforce(m.add(sum(occ[c][s] for c in members) <= len(room_caps)), lit)
     for s, group in nogoods or ():
         if all(c in code_set for c in group):
             m.add(sum(x[c][s - 1] for c in group) <= len(group) - 1)

@@ -39,8 +39,10 @@ from ortools.sat.python import cp_model
 from ..conflicts import conflict_graph
 from ..model import Problem, Slot, days_of, generic_slots, time_order
 from .cliques import clique_cover, largest_clique_found
+from ..availability import Availability
 from .cpsat_model import (BuildStopped, TimetableModel, _room_capacity_by_slot, build_model, large_event_codes,
-                          model_memory_mb, pair_plan, physical_domains, slots_interchangeable)
+                          model_memory_mb, needs_availability, pair_plan, physical_domains,
+                          slots_interchangeable)
 from .arrangement import arrange
 from .dsatur import dsatur
 from .infeasibility import prechecks, room_count_witness
@@ -461,7 +463,11 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
             run.first_feasible_seconds = time.perf_counter() - start
         return True
 
-    if dsatur_complete:
+    # long events and extra time that takes the next slot are not colourings: CP-SAT alone handles them
+    one_slot_each = not needs_availability(problem, slots) or Availability.of(problem, slots).one_slot_each
+    if not one_slot_each:
+        say("events that take more than one slot: CP-SAT alone (no DSATUR start, no local search)")
+    if dsatur_complete and one_slot_each:
         # DSATUR honours clashes and each event's allowed slots; the independent check covers the other rules
         say("checking the DSATUR timetable")
         if keep_fallback(hint):
@@ -506,7 +512,7 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
         # prove optimality, and its bound tends to move only at the proof, so a short local search first gives
         # it a good hint, CP-SAT then has most of the time without stopping on a stall, and the local search
         # the rest. Large: CP-SAT first for a share of the time, stopping when it stalls; then the local search.
-        local = k > 1 and not order_free
+        local = k > 1 and not order_free and one_slot_each
         small = sub.number_of_edges() <= PROOF_PAIRS
 
         def polish(assignment: dict[str, int], bound: float | None, share: float = 1.0) -> SolveRun | None:
