@@ -176,3 +176,22 @@ def test_no_people_sheet_without_people(tmp_path):
     run = BruteRun(2, hourly_slots()[:2], "feasible", {"X": 1, "Y": 2})
     wb = load_workbook(write_workbook(tmp_path / "out.xlsx", problem=problem, runs=[run]))
     assert "People" not in wb.sheetnames
+
+
+def test_pseudonyms_reach_the_people_sheet_and_keep_their_details(tmp_path):
+    from timetabler.export.pseudonyms import Pseudonyms, pseudonymise
+
+    problem = guild(str(tmp_path / "round.xlsx"))
+    shown, runs, _ = pseudonymise(problem, [timetable()], Pseudonyms(b"k" * 32))
+    path = write_workbook(tmp_path / "out.xlsx", problem=shown, runs=runs)
+    wb = load_workbook(path)
+    text = " ".join(str(v) for ws in wb.worksheets for row in ws.iter_rows(values_only=True) for v in row if v)
+    for real in ("Ama Volde", "Bex Tarrin", "Cael Umber", "Dorn Essel"):
+        assert real not in text
+    by = {r["Attendee"]: r for r in rows_of(wb["People"])[1]}
+    bex = Pseudonyms(b"k" * 32)("Bex Tarrin")
+    assert by[bex]["Extra time (%)"] == 25 and "Snug for BOARD" in by[bex]["Own room"]
+    dorn = Pseudonyms(b"k" * 32)("Dorn Essel")
+    assert by[dorn]["Why missed"] == "FINANCE: cannot make Tue 11:00"
+    snug = [r["Events"] for r in rows_of(wb["Rooms"])[1] if r["Room"] == "Snug" and r["Events"]]
+    assert snug == ["BOARD (one attendee apart)"] * 3

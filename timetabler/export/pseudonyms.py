@@ -103,8 +103,12 @@ def pseudonymise(problem: Problem, runs: Sequence[Any], pseudonyms: Pseudonyms, 
     text the solver wrote (reasons, warnings), which may name an attendee as a witness.
     """
     mapping = pseudonyms.mapping(problem.attendees)
+    # the Attendees sheet and the optional attendances are keyed by attendee too (issue 13)
+    people = {mapping.get(name, name): dataclasses.replace(person, name=mapping.get(name, name))
+              for name, person in problem.people.items() if name in mapping}
     new_problem = dataclasses.replace(problem, enrolments=[(mapping[a], e) for a, e in problem.enrolments],
-                                      events=dict(problem.events))
+                                      events=dict(problem.events), people=people,
+                                      optional={(mapping[a], e) for a, e in problem.optional})
     replace = _text_replacer(mapping)
     new_runs = []
     for run in runs:
@@ -114,6 +118,9 @@ def pseudonymise(problem: Problem, runs: Sequence[Any], pseudonyms: Pseudonyms, 
                 setattr(clone, attr, replace(getattr(clone, attr)))
         if isinstance(getattr(clone, "reasons", None), list):
             clone.reasons = [replace(r) if isinstance(r, str) else r for r in clone.reasons]
+        own = getattr(clone, "own_rooms", None)
+        if isinstance(own, dict) and own:  # attendees seated apart: (attendee, event) -> room
+            clone.own_rooms = {((mapping.get(k[0], k[0]), k[1]) if isinstance(k, tuple) else k): v for k, v in own.items()}
         new_runs.append(clone)
     new_reading = reading
     if reading is not None:

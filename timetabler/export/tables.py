@@ -634,7 +634,8 @@ def rooms_table(problem: Problem, run: Any, people: TimetablePeople | None = Non
     """Room occupancy by slot (only when the problem has rooms): every room in every slot.
 
     A long event holds its rooms in every slot it takes; an attendee seated apart (Own room)
-    holds their room for every slot of their sitting, listed as ``EVENT (NAME alone)``.
+    holds their room for every slot of their sitting, listed as ``EVENT (one attendee apart)``
+    (the People sheet says who).
     """
     if not problem.rooms:
         return None
@@ -648,9 +649,9 @@ def rooms_table(problem: Problem, run: Any, people: TimetablePeople | None = Non
         for name, seats in placed:
             for t in (people.taken.get(code, (n,)) if people is not None else (n,)):
                 used[(t, str(name))].append((code, int(seats)))
-    for attendee, code, name, held in own_room_placements(run, people):
-        for t in held:
-            used[(t, str(name))].append((f"{code} ({attendee} alone)", 1))
+    for _attendee, code, name, held in own_room_placements(run, people):
+        for t in held:  # no name here: the room plan goes to the rooms staff
+            used[(t, str(name))].append((f"{code} (one attendee apart)", 1))
     avoided = any(getattr(r, "penalised", False) for r in problem.rooms)
     single = any(not getattr(r, "shared", True) for r in problem.rooms)
     table = PublishedTable(
