@@ -111,3 +111,13 @@ def test_solve_page_shows_who_is_kept_free_and_who_misses(client):
 
 def test_solve_page_shows_a_two_hour_meeting_in_both_its_slots(client):
     _people_on_the_page(client, 120)
+
+
+def test_reasons_of_an_infeasible_count_are_listed_in_full(client):
+    # Ama sits on BOARD and FINANCE and cannot make 09:00; with one slot (09:00) nothing fits.
+    token = upload_ok(client, "round.xlsx", committee_workbook(60))
+    client.get(f"/files/{token}")
+    base = start(client, token, {"slots": "1", "time_limit": "5"})
+    assert finished(client, base)["state"] == "finished"
+    page = client.get(f"{base}/timetable").text
+    assert 'id="reasons"' in page and "1 slot: no timetable." in plain(page)
