@@ -31,7 +31,35 @@ Soft-goal counts (``Validation.soft``), all per attendee and pair of that attend
 ``preferred_room``
     seated events with preferred rooms that have no seats in any of them;
 ``penalised_room``
-    (event, room) pairs in which the room is marked Avoid.
+    (event, room) pairs in which the room is marked Avoid;
+``optional_missed``
+    (optional attendee, event) pairs where the attendee cannot make a slot the event takes for
+    them, or is booked (required or optional) in another event taking an overlapping slot for them.
+
+The order goals (back-to-back, overnight, same day, proximity) and double bookings count
+required enrolments only (optional ones make no clash); a long event counts from the slots it
+takes: two events of an attendee are ``gap`` slots apart from the last slot of the earlier to
+the first slot of the later (an event taking slots 2-3 is back-to-back with one in slot 4), on
+the same day when those two slots are. The event's own slots count here, not an attendee's
+extra time.
+
+People (the Attendees sheet, optional attendance, quorums, long events) are read here again
+from the Problem and the slots' times, with none of :mod:`timetabler.availability`'s code, by
+the definitions written there: references to slots (a label in any case, an ISO date meaning
+every slot of that date, a slot number), an event's span (its slot and the touching slots of
+the same day after it until its duration is covered), an attendee's sitting with extra time
+(``ceil(D × (100 + p) / 100)`` minutes from the start, every slot of the day it overlaps, ending
+by the end of the event's last slot or of the next slot that day). The checks:
+
+* every required attendee can make every slot their sitting takes, and the sitting fits;
+* no required attendee is in two events whose slots (for them) overlap;
+* a long event takes touching slots of one day, and its rooms are held in every one of them;
+* a quorum ``q``: at least ``q`` of the event's attendees are free, that is can make every slot
+  it takes for them and (for an optional attendee) are booked in no other event at an
+  overlapping slot; a required attendee who can make it is free, as they must attend;
+* own rooms (when the timetable gives them): the attendee sits alone in a room of their
+  ``Own room`` type, held for every slot of their sitting, and the event's other rooms seat
+  them no more.
 
 Room names are compared without regard to case, as the rooms sheet is read.
 
@@ -48,6 +76,7 @@ Rooms: a room holds several events in one slot when their attendees fit in its s
 
 from __future__ import annotations
 
+import datetime as _dt
 import math
 from collections import defaultdict
 from dataclasses import dataclass, field
@@ -82,6 +111,7 @@ def validate(
     previous: Mapping[str, int] | None = None,
     room_sharing: bool = True,
     room_splitting: bool = False,
+    own_rooms: Mapping[tuple[str, str], str] | Sequence[Mapping] | None = None,
 ) -> Validation:
     """Check ``assignment`` (event code -> slot 1..K) against ``problem`` and recount soft goals.
 
@@ -98,6 +128,10 @@ def validate(
     room_sharing, room_splitting
         Whether several events may share a room (within its seats; rooms with
         ``shared=False`` never) and whether an event may be spread over several rooms.
+    own_rooms
+        The rooms of attendees seated apart: ``(attendee, event) -> room name``, or a list of
+        ``{"attendee", "event", "room"}``. Checked when given (each such attendee alone in a
+        room of their type for their whole sitting; the event's ``rooms`` then seat one fewer).
 
     Examples
     --------
@@ -135,24 +169,41 @@ def validate(
         if code not in problem.events:
             violations.append(f"{code} is in the timetable but not in the enrolments or events")
 
+    # the slots each placed event takes (its span), read from the slots' own times
+    timing = _Timing(slots, rank, day)
+    taken: dict[str, tuple[int, ...]] = {}
+    for code, s in placed.items():
+        span, why = timing.span(problem.events[code].duration_minutes, s)
+        if span is None:
+            violations.append(f"{code} lasts {problem.events[code].duration_minutes} minutes but {why}")
+            span = (s,)
+        taken[code] = span
+
     # attendees: no one booked twice; the per-day cap; soft counts
     by_attendee: dict[str, list[str]] = defaultdict(list)
     for attendee, code in problem.enrolments:
         by_attendee[attendee].append(code)
+    optional = problem.optional
     soft = {name: 0 for name in (
         "back_to_back", "overnight", "same_day", "proximity", "large_late",
-        "preferred_slot", "penalised_slot", "room_split", "moved", "preferred_room", "penalised_room")}
+        "preferred_slot", "penalised_slot", "room_split", "moved", "preferred_room", "penalised_room",
+        "optional_missed")}
     load: dict[str, dict[str, int]] = {}
     for attendee in sorted(by_attendee):
-        mine = sorted((rank[placed[c] - 1], placed[c], c) for c in by_attendee[attendee] if c in placed)
-        per_slot: dict[int, list[str]] = defaultdict(list)
+        mine_all = [c for c in by_attendee[attendee] if c in placed]
+        mine = sorted((rank[taken[c][0] - 1], rank[taken[c][-1] - 1], c) for c in mine_all
+                      if (attendee, c) not in optional)
         per_day: dict[int, int] = defaultdict(int)
-        for _, s, c in mine:
-            per_slot[s].append(c)
-            per_day[day[s - 1]] += 1
-        for s, codes in sorted(per_slot.items()):
-            if len(codes) > 1:
-                violations.append(f"{attendee} is booked twice in {label(s)}: {' and '.join(sorted(codes))}")
+        for c in mine_all:
+            per_day[day[placed[c] - 1]] += 1
+        if not problem.people and not optional:
+            per_slot: dict[int, list[str]] = defaultdict(list)
+            for _, _, c in mine:
+                for t in taken[c]:
+                    per_slot[t].append(c)
+            for s, codes in sorted(per_slot.items()):
+                if len(codes) > 1:
+                    violations.append(f"{attendee} is booked twice in {label(s)}: {' and '.join(sorted(codes))}")
         if problem.max_per_day is not None:
             for d, n in sorted(per_day.items()):
                 if n > problem.max_per_day:
@@ -160,11 +211,11 @@ def validate(
                         f"{attendee} has {n} events on day {d}, more than the limit of {problem.max_per_day}")
         for i in range(len(mine)):
             for j in range(i + 1, len(mine)):
-                (rs, s, _), (rt, t, _) = mine[i], mine[j]
-                gap = rt - rs  # slots apart in time, not in numbering
-                if s == t:
-                    continue
-                if day[s - 1] == day[t - 1]:
+                (first_i, last_i, c_i), (first_j, last_j, c_j) = mine[i], mine[j]
+                if first_j <= last_i:
+                    continue  # the two overlap: a double booking, reported above
+                gap = first_j - last_i  # slots apart in time, not in numbering
+                if timing.day_at_rank[last_i] == timing.day_at_rank[first_j]:
                     if gap == 1:
                         soft["back_to_back"] += 1
                     else:
@@ -172,7 +223,9 @@ def validate(
                 elif gap == 1:
                     soft["overnight"] += 1
                 soft["proximity"] += CARTER_WEIGHTS.get(gap, 0)
-        load[attendee] = {"events": len(mine), "most_in_one_day": max(per_day.values(), default=0)}
+        load[attendee] = {"events": len(mine_all), "most_in_one_day": max(per_day.values(), default=0)}
+    if problem.people or optional or any(e.quorum for e in problem.events.values()):
+        _check_people(problem, slots, placed, taken, timing, by_attendee, label, violations, soft)
 
     # events: fixed and barred slots, length, preferred and penalised slots
     sizes: dict[str, int] = {code: 0 for code in problem.events}
@@ -191,10 +244,6 @@ def validate(
         for ref in event.barred_slots:
             if problem.slot_number(ref, slots) == s:
                 violations.append(f"{code} is placed in {label(s)}, which is barred for it")
-        length = slots[s - 1].length_minutes
-        if event.duration_minutes is not None and length is not None and event.duration_minutes > length:
-            violations.append(
-                f"{code} lasts {event.duration_minutes} minutes but {label(s)} is {length} minutes long")
         if event.preferred_slots:
             wanted = {problem.slot_number(r, slots) for r in event.preferred_slots}
             if s not in wanted:
@@ -213,7 +262,8 @@ def validate(
     # seats per slot
     seats_in: dict[int, int] = defaultdict(int)
     for code, s in placed.items():
-        seats_in[s] += sizes[code]
+        for t in taken[code]:
+            seats_in[t] += sizes[code]
     for s in range(1, k + 1):
         cap = slots[s - 1].seat_capacity
         if cap is not None and seats_in[s] > cap:
@@ -221,7 +271,8 @@ def validate(
 
     _check_rules(problem, slots, placed, rank, day, label, violations)
     if problem.rooms:
-        _check_rooms(problem, slots, placed, sizes, rooms, room_sharing, room_splitting, label, violations, soft)
+        _check_rooms(problem, slots, placed, sizes, rooms, room_sharing, room_splitting, label, violations, soft,
+                     taken, _own_room_list(own_rooms), timing)
 
     if previous:
         soft["moved"] = sum(1 for code, s in placed.items() if code in previous and previous[code] != s)
@@ -233,6 +284,7 @@ def validate(
         + w.preferred_slot * soft["preferred_slot"] + w.penalised_slot * soft["penalised_slot"]
         + w.room_split * soft["room_split"] + w.moved * soft["moved"]
         + w.preferred_room * soft["preferred_room"] + w.penalised_room * soft["penalised_room"]
+        + w.optional_missed * soft["optional_missed"]
     )
     return Validation(ok=not violations, violations=violations, soft=soft, attendee_load=load, penalty=penalty)
 
@@ -270,6 +322,195 @@ def _timeline(slots: Sequence[Slot]) -> tuple[list[int], list[int]]:
     return rank, [day_number[dk] for dk in day_key]
 
 
+class _Timing:
+    """The slots' own times, for spans and sittings: each slot's (start, end) as datetimes (None without
+    a start time and a length), the slot that follows each in time, and days by rank."""
+
+    def __init__(self, slots: Sequence[Slot], rank: list[int], day: list[int]):
+        self.slots = slots
+        self.day = day
+        self.at_rank = [0] * len(slots)  # 1-based slot number at each place in time
+        for i, r in enumerate(rank):
+            self.at_rank[r] = i + 1
+        self.rank = rank
+        self.day_at_rank = [day[n - 1] for n in self.at_rank]
+        self.clock: list[tuple[_dt.datetime, _dt.datetime] | None] = []
+        for sl in slots:
+            if sl.start is None or not sl.length_minutes:
+                self.clock.append(None)
+            else:
+                begin = _dt.datetime.combine(sl.date or _dt.date(2000, 1, 1), sl.start)
+                self.clock.append((begin, begin + _dt.timedelta(minutes=sl.length_minutes)))
+
+    def following(self, s: int) -> int | None:
+        """The slot right after ``s`` in time on the same day, or None."""
+        r = self.rank[s - 1] + 1
+        if r >= len(self.at_rank):
+            return None
+        t = self.at_rank[r]
+        return t if self.day[t - 1] == self.day[s - 1] else None
+
+    def span(self, minutes: int | None, s: int) -> tuple[tuple[int, ...] | None, str]:
+        """The slots an event of ``minutes`` started in ``s`` takes; None (and why) when they do not cover it."""
+        length = self.slots[s - 1].length_minutes
+        if not minutes:
+            return (s,), ""
+        if self.clock[s - 1] is None:
+            if length is not None and minutes > length:
+                return None, f"slot {s} ({self.slots[s - 1].label}) is {length} minutes long"
+            return (s,), ""
+        begin, end = self.clock[s - 1]
+        goal = begin + _dt.timedelta(minutes=minutes)
+        out = [s]
+        while end < goal:
+            t = self.following(out[-1])
+            if t is None or self.clock[t - 1] is None or self.clock[t - 1][0] != end:
+                covered = int((end - begin).total_seconds() // 60)
+                return None, (f"from slot {s} ({self.slots[s - 1].label}) the touching slots of that day last "
+                              f"only {covered} minutes")
+            out.append(t)
+            end = self.clock[t - 1][1]
+        return tuple(out), ""
+
+    def sitting(self, minutes: int | None, span: tuple[int, ...], percent: int
+                ) -> tuple[tuple[int, ...] | None, _dt.datetime | None, _dt.datetime | None]:
+        """The slots an attendee with ``percent`` extra time takes at an event taking ``span``, with the time
+        their sitting ends and the latest it may end (None for the slots: it does not fit)."""
+        if percent <= 0 or any(self.clock[t - 1] is None for t in span):
+            return span, None, None
+        length = minutes or sum(self.slots[t - 1].length_minutes or 0 for t in span)
+        begin = self.clock[span[0] - 1][0]
+        finish = begin + _dt.timedelta(minutes=math.ceil(length * (100 + percent) / 100))
+        latest = self.clock[span[-1] - 1][1]
+        after = self.following(span[-1])
+        if after is not None and self.clock[after - 1] is not None:
+            latest = max(latest, self.clock[after - 1][1])
+        if finish > latest:
+            return None, finish, latest
+        if after is not None and self.clock[after - 1] is not None and self.clock[after - 1][0] < finish:
+            return span + (after,), finish, latest
+        return span, finish, latest
+
+
+def _slot_refs(slots: Sequence[Slot]):
+    """A function from one reference (Attendees sheet) to the slot numbers it names: a label in any case,
+    an ISO date (every slot of that date, a midnight time allowed), or a whole number 1..K."""
+    labels: dict[str, int] = {}
+    for i, sl in enumerate(slots, start=1):
+        labels.setdefault(sl.label.strip().casefold(), i)
+
+    def names(ref: str) -> set[int]:
+        text = str(ref).strip()
+        if text.casefold() in labels:
+            return {labels[text.casefold()]}
+        head, rest = text[:10], text[10:].strip(" T")
+        if rest in ("", "00:00", "00:00:00"):
+            try:
+                when = _dt.date.fromisoformat(head)
+            except ValueError:
+                when = None
+            if when is not None:
+                found = {i for i, sl in enumerate(slots, start=1) if sl.date == when}
+                if found:
+                    return found
+        try:
+            number = float(text)
+        except ValueError:
+            return set()
+        return {int(number)} if number.is_integer() and 1 <= number <= len(slots) else set()
+
+    return names
+
+
+def _clock_text(when: _dt.datetime | None) -> str:
+    return when.strftime("%H:%M") if when is not None else "?"
+
+
+def _check_people(problem, slots, placed, taken, timing, by_attendee, label, violations, soft) -> None:
+    """Availability, extra time, double bookings over every slot taken, optional attendance and quorums."""
+    names = _slot_refs(slots)
+    away: dict[str, set[int]] = {}
+    for name, person in problem.people.items():
+        found: set[int] = set()
+        for ref in person.unavailable:
+            found |= names(ref)
+        away[name] = found
+    optional = problem.optional
+    # the slots each attendee takes at each of their events, and whether they can make them
+    sits: dict[tuple[str, str], tuple[int, ...] | None] = {}
+    cannot: dict[tuple[str, str], str] = {}  # why the attendee cannot make the event where it is
+    for attendee, codes in by_attendee.items():
+        person = problem.people.get(attendee)
+        percent = person.extra_time_percent if person is not None else 0
+        for code in codes:
+            if code not in placed:
+                continue
+            span = taken[code]
+            mine, finish, latest = timing.sitting(problem.events[code].duration_minutes, span, percent)
+            sits[(attendee, code)] = mine
+            if mine is None:
+                cannot[(attendee, code)] = (f"with {percent} % extra time their sitting would end at "
+                                            f"{_clock_text(finish)}, after {_clock_text(latest)}")
+                continue
+            barred = sorted(away.get(attendee, set()).intersection(mine))
+            if barred:
+                cannot[(attendee, code)] = "they cannot make " + ", ".join(label(t) for t in barred)
+    for (attendee, code), why in sorted(cannot.items()):
+        if (attendee, code) not in optional:
+            violations.append(f"{attendee} must attend {code} in {label(placed[code])} but {why}")
+    # double bookings of required attendees, over every slot they take
+    busy: dict[str, dict[int, list[str]]] = defaultdict(lambda: defaultdict(list))
+    for (attendee, code), mine in sits.items():
+        for t in mine or taken[code]:
+            busy[attendee][t].append(code)
+    for attendee in sorted(busy):
+        for t, codes in sorted(busy[attendee].items()):
+            hard = sorted(c for c in codes if (attendee, c) not in optional)
+            if len(hard) > 1:
+                violations.append(f"{attendee} is booked twice in {label(t)}: {' and '.join(hard)}")
+
+    def elsewhere(attendee: str, code: str) -> list[str]:
+        mine = sits.get((attendee, code)) or taken[code]
+        return sorted({c for t in mine for c in busy[attendee].get(t, ()) if c != code})
+
+    for attendee, code in sorted(optional):
+        if code in placed and ((attendee, code) in cannot or elsewhere(attendee, code)):
+            soft["optional_missed"] += 1
+    attendees_of: dict[str, list[str]] = defaultdict(list)
+    for attendee, code in problem.enrolments:
+        attendees_of[code].append(attendee)
+    for code, event in sorted(problem.events.items()):
+        if not event.quorum or code not in placed:
+            continue
+        free, away_from = [], []
+        for attendee in attendees_of[code]:
+            if (attendee, code) in cannot:
+                away_from.append(f"{attendee} ({cannot[(attendee, code)]})")
+            elif (attendee, code) in optional and elsewhere(attendee, code):
+                away_from.append(f"{attendee} (booked in {', '.join(elsewhere(attendee, code))})")
+            else:
+                free.append(attendee)
+        if len(free) < event.quorum:
+            shown = "; ".join(sorted(away_from)[:8]) + ("; ..." if len(away_from) > 8 else "")
+            violations.append(f"{code} needs {event.quorum} of its attendees free in {label(placed[code])} but only "
+                              f"{len(free)} are; not free: {shown}")
+
+
+def _own_room_list(own_rooms) -> list[tuple[str, str, str]] | None:
+    """(attendee, event, room) of every placement apart, from either form ``validate`` accepts (None: not given)."""
+    if own_rooms is None:
+        return None
+    out: list[tuple[str, str, str]] = []
+    if isinstance(own_rooms, Mapping):
+        for key, room in own_rooms.items():
+            attendee, code = key
+            out.append((str(attendee), str(code), str(room[0] if isinstance(room, (tuple, list)) else room)))
+    else:
+        for item in own_rooms:
+            out.append((str(item["attendee"]), str(item["event"]), str(item["room"])))
+    return sorted(out)
+
+
 def _check_rules(problem, slots, placed, rank, day, label, violations) -> None:
     for rule in problem.rules:
         missing = [c for c in rule.events if c not in problem.events]
@@ -297,12 +538,49 @@ def _check_rules(problem, slots, placed, rank, day, label, violations) -> None:
                 violations.append(f"rule broken: {rule.describe()} ({label(s)} also holds {', '.join(others[:5])})")
 
 
-def _check_rooms(problem, slots, placed, sizes, rooms, sharing, splitting, label, violations, soft) -> None:
+def _check_rooms(problem, slots, placed, sizes, rooms, sharing, splitting, label, violations, soft,
+                 taken, apart, timing) -> None:
     if rooms is None:
         violations.append("the problem has rooms but the timetable gives none")
         return
     by_name = {r.name: r for r in problem.rooms}
     use: dict[tuple[str, int], list[tuple[str, int]]] = defaultdict(list)
+    alone: dict[str, int] = defaultdict(int)  # event -> attendees seated apart from it
+    solo: dict[tuple[str, int], list[str]] = defaultdict(list)  # (room, slot) -> the attendees alone in it
+    if apart is not None:
+        folded = {r.name.strip().casefold(): r for r in problem.rooms}
+        given_apart = {(a, c) for a, c, _ in apart}
+        enrolled = set(problem.enrolments)
+        for attendee, code in sorted(enrolled):
+            person = problem.people.get(attendee)
+            if code in placed and person is not None and person.own_room_type and (attendee, code) not in given_apart:
+                violations.append(f"{attendee} should sit {code} alone in a room of type '{person.own_room_type}' "
+                                  "but has no room of their own")
+        for attendee, code, name in apart:
+            person = problem.people.get(attendee)
+            if code not in placed:
+                continue
+            if (attendee, code) not in enrolled:
+                violations.append(f"{attendee} has a room of their own for {code} but is not enrolled on it")
+                continue
+            room = folded.get(name.strip().casefold())
+            if room is None:
+                violations.append(f"{attendee} sits {code} alone in '{name}', which is not a room")
+                continue
+            want = person.own_room_type if person is not None else None
+            if not want:
+                violations.append(f"{attendee} sits {code} alone in {room.name} but asked for no room of their own")
+            elif (room.room_type or "").casefold() != want.casefold():
+                violations.append(f"{attendee} needs a room of type '{want}' for {code} but {room.name} is "
+                                  f"'{room.room_type}'")
+            percent = person.extra_time_percent if person is not None else 0
+            held, _, _ = timing.sitting(problem.events[code].duration_minutes, taken[code], percent)
+            for t in held or taken[code]:
+                solo[(room.name, t)].append(f"{attendee} ({code})")
+                if any(problem.slot_number(ref, slots) == t for ref in room.unavailable_slots):
+                    violations.append(f"{attendee} sits {code} alone in {room.name} in {label(t)}, when "
+                                      f"{room.name} is not available")
+            alone[code] += 1
     for code, s in placed.items():
         given = list(rooms.get(code, []))
         if sizes[code] == 0 and not given:
@@ -316,14 +594,19 @@ def _check_rooms(problem, slots, placed, sizes, rooms, sharing, splitting, label
             if seats <= 0:
                 violations.append(f"{code} has {seats} seats in {name}")
             seated += seats
-            use[(name, s)].append((code, seats))
+            for t in taken[code]:
+                use[(name, t)].append((code, seats))
             want_type = problem.events[code].room_type
             if want_type and (room.room_type or "").casefold() != want_type.casefold():
                 violations.append(f"{code} needs a room of type '{want_type}' but {name} is '{room.room_type}'")
-            if any(problem.slot_number(ref, slots) == s for ref in room.unavailable_slots):
-                violations.append(f"{code} is in {name} in {label(s)}, when {name} is not available")
-        if seated != sizes[code]:
-            violations.append(f"{code} has {sizes[code]} attendees but {seated} seats in rooms")
+            for t in taken[code]:
+                if any(problem.slot_number(ref, slots) == t for ref in room.unavailable_slots):
+                    violations.append(f"{code} is in {name} in {label(t)}, when {name} is not available")
+        if seated != sizes[code] - alone[code]:
+            apart_words = f" ({alone[code]} more sit apart)" if alone[code] else ""
+            violations.append(f"{code} has {sizes[code] - alone[code]} attendees to seat{apart_words} but {seated} "
+                              "seats in rooms" if alone[code] else
+                              f"{code} has {sizes[code]} attendees but {seated} seats in rooms")
         if given:
             in_rooms = [by_name[name] for name, _ in given if name in by_name]
             preferred = [ref.strip().casefold() for ref in problem.events[code].preferred_rooms]
@@ -334,6 +617,11 @@ def _check_rooms(problem, slots, placed, sizes, rooms, sharing, splitting, label
             if not splitting:
                 violations.append(f"{code} is split over {len(given)} rooms, and splitting is not allowed")
             soft["room_split"] += len(given) - 1
+    for (name, s), people in sorted(solo.items()):
+        others = sorted({c for c, _ in use.get((name, s), [])})
+        if len(people) > 1 or others:
+            violations.append(f"{people[0].split(' (')[0]} should sit alone in {name} in {label(s)} but it also holds "
+                              + ", ".join(sorted(people[1:]) + others))
     for (name, s), holders in sorted(use.items()):
         room = by_name[name]
         total = sum(n for _, n in holders)
