@@ -9,7 +9,13 @@ The pre-checks need no search and name concrete evidence:
   rooms free then), or whose fixed slot is not a slot or is barred;
 * two events fixed to the same slot that share an attendee;
 * (no splitting) more events needing a room of some size than there are places for them over
-  all slots: one per (room, slot) for a room not shared, ``capacity // size`` for a shared one.
+  all slots: one per (room, slot) for a room not shared, ``capacity // size`` for a shared one;
+* with people (:func:`people_witnesses`, from :class:`~timetabler.availability.Availability`):
+  an event with no start left, naming who cannot make which slots, the slots fixed or barred,
+  too short for its length or short of its quorum; an attendee whose required events need more
+  slots than are left for them (Hall's condition, found by a maximum matching of the events to
+  the slots, Hopcroft–Karp, and the König set of events reachable from an unmatched one by
+  alternating paths: they are more than the slots they can take);
 
 When these find nothing and CP-SAT proves the slot count infeasible, the model is built
 again with one enforcement literal per user rule, each taken as an assumption; CP-SAT's
@@ -21,11 +27,13 @@ constraint sets in linear programs", ORSA J. Computing 3 (1991) 157-168).
 
 from __future__ import annotations
 
+import datetime as _dt
 from dataclasses import dataclass, field
 
 import networkx as nx
 
-from ..model import Problem, Slot
+from ..availability import Availability
+from ..model import Problem, Slot, days_of
 
 
 @dataclass
@@ -73,6 +81,11 @@ def prechecks(problem: Problem, slots: list[Slot], graph: nx.Graph, clique: list
             "clique", f"{len(clique)} events pairwise share attendees, so they need {len(clique)} different slots "
             f"but there are only {k}: {', '.join(clique)} (one shared attendee per pair: {shown})",
             events=list(clique)))
+    # people, long events and quorums (one reason per event that no slot is left for; else Hall witnesses)
+    if needs_availability(problem, slots):
+        named = people_witnesses(problem, slots, Availability.of(problem, slots), allowed, why_not)
+        out.extend(named)
+        allowed = {c: v for c, v in allowed.items() if v or not any(c in w.events for w in named)}
     # events that fit nowhere
     for code in sorted(allowed):
         if not allowed[code]:
@@ -100,6 +113,222 @@ def prechecks(problem: Problem, slots: list[Slot], graph: nx.Graph, clique: list
                     out.append(Witness("fixed", f"{a} and {b} are both fixed to slot {s} ({slots[s - 1].label}) "
                                                 f"but share attendees, for example {who}",
                                        events=[a, b], attendees=[who] if who else []))
+    return out
+
+
+#: How many slots a reason lists before "...".
+SHOWN_SLOTS = 8
+
+
+def _slot_words(slots: list[Slot], numbers) -> str:
+    numbers = sorted(numbers)
+    shown = ", ".join(f"{s} ({slots[s - 1].label})" for s in numbers[:SHOWN_SLOTS])
+    more = f" and {len(numbers) - SHOWN_SLOTS} more" if len(numbers) > SHOWN_SLOTS else ""
+    return ("slot " if len(numbers) == 1 else "slots ") + shown + more
+
+
+def _names(people: list[str], most: int = 6) -> str:
+    people = sorted(people)
+    return ", ".join(people[:most]) + (f" and {len(people) - most} more" if len(people) > most else "")
+
+
+def needs_availability(problem: Problem, slots: list[Slot]) -> bool:
+    """True when people's rules or events longer than a slot bear on these slots."""
+    if problem.has_people:
+        return True
+    longest = max((s.length_minutes or 0 for s in slots), default=0)
+    return any(e.duration_minutes and longest and e.duration_minutes > longest for e in problem.events.values()) \
+        or any(e.duration_minutes and any(s.length_minutes and e.duration_minutes > s.length_minutes for s in slots)
+               for e in problem.events.values())
+
+
+def people_witnesses(problem: Problem, slots: list[Slot], found: Availability,
+                     allowed: dict[str, set[int]] | None = None,
+                     why_not: dict[str, dict[int, str]] | None = None) -> list[Witness]:
+    """Reasons that name people, from the slots left to each event (``found``, with ``allowed``, the
+    slots each event fits by its seats and rooms, when given):
+
+    * an event with no slot left: "PERSON cannot make any slot left for EVENT" when one required
+      attendee bars every slot the other causes leave, else each slot with its cause;
+    * an event short of its quorum in every slot it could otherwise take;
+    * an event too long for every run of touching slots of one day;
+    * an attendee whose required events are more than the slots left for them (a Hall witness).
+    """
+    k = len(slots)
+    out: list[Witness] = []
+    def left(code: str) -> set[int]:
+        return set(found.starts.get(code, ())) & (allowed[code] if allowed is not None and code in allowed else
+                                                   set(range(1, k + 1)))
+    events = problem.events
+    resolve_fixed = {}
+    for code, event in events.items():
+        if event.fixed_slot is not None and str(event.fixed_slot).strip():
+            resolve_fixed[code] = problem.slot_number(event.fixed_slot, slots)
+    for code in sorted(events):
+        if left(code):
+            continue
+        event = events[code]
+        blocked = found.blocked.get(code, {})
+        short = found.quorum_short.get(code, {})
+        fixed = resolve_fixed.get(code, "none")
+        barred = {problem.slot_number(r, slots) for r in event.barred_slots} - {None}
+        by_cause: dict[str, set[int]] = {}
+        person_slots: dict[str, set[int]] = {}
+        physical: dict[int, str] = {}
+        for s in range(1, k + 1):
+            if fixed != "none" and fixed != s:
+                by_cause.setdefault("fixed", set()).add(s)
+            elif s in barred:
+                by_cause.setdefault("barred", set()).add(s)
+            elif s in blocked:
+                for who in blocked[s]:
+                    person_slots.setdefault(who, set()).add(s)
+                by_cause.setdefault("people", set()).add(s)
+            elif s in short:
+                by_cause.setdefault("quorum", set()).add(s)
+            elif allowed is not None and code in allowed and s not in allowed[code] \
+                    and s in found.starts.get(code, ()):
+                by_cause.setdefault("seats", set()).add(s)
+                physical.setdefault(s, (why_not or {}).get(code, {}).get(s, ""))
+            else:
+                by_cause.setdefault("length", set()).add(s)
+        others = []
+        if by_cause.get("fixed"):
+            others.append(f"{_slot_words(slots, by_cause['fixed'])} by its fixed slot")
+        if by_cause.get("barred"):
+            others.append(f"{_slot_words(slots, by_cause['barred'])} barred for it")
+        if by_cause.get("length"):
+            others.append(f"{_slot_words(slots, by_cause['length'])} too short for its "
+                          f"{event.duration_minutes or '?'} minutes (touching slots of one day)")
+        if by_cause.get("seats"):
+            sample = next((t for t in physical.values() if t), "no seats or rooms for it")
+            others.append(f"{_slot_words(slots, by_cause['seats'])} where it does not fit ({sample})")
+        if by_cause.get("quorum"):
+            worst = max(short[s] for s in by_cause["quorum"])
+            others.append(f"{_slot_words(slots, by_cause['quorum'])} where at most {worst} of its attendees can "
+                          f"come, short of its quorum of {event.quorum}")
+        people_bar = by_cause.get("people", set())
+        whole = [who for who, mine in person_slots.items() if mine == people_bar]
+        rest = ("; the other slots are out: " + "; ".join(others)) if others else ""
+        if people_bar and whole:
+            who = sorted(whole)[0]
+            also = f" (nor can {_names([w for w in whole if w != who])})" if len(whole) > 1 else ""
+            out.append(Witness("person", f"{who} cannot make any slot left for {code}{also}: "
+                                         f"{_slot_words(slots, people_bar)}{rest}",
+                               events=[code], attendees=sorted(whole)))
+        elif people_bar:
+            per = "; ".join(f"{_names(blocked[s], 3)} cannot make {_slot_words(slots, [s])}"
+                            for s in sorted(people_bar)[:SHOWN_SLOTS])
+            out.append(Witness("person", f"no slot is left for {code}: {per}{rest}", events=[code],
+                               attendees=sorted(person_slots)))
+        elif by_cause.get("quorum"):
+            worst = max(short[s] for s in by_cause["quorum"])
+            best = [s for s in by_cause["quorum"] if short[s] == worst]
+            besides = [o for o in others if "quorum" not in o]
+            out.append(Witness("quorum", f"{code} needs {event.quorum} of its attendees free; at most {worst} can "
+                                         f"make any one slot ({_slot_words(slots, best)})"
+                               + ("; the other slots are out: " + "; ".join(besides) if besides else ""),
+                               events=[code]))
+        elif by_cause.get("length"):
+            minutes, first = _longest_run(slots, by_cause["length"])
+            besides = [o for o in others if "too short" not in o]
+            longest = (f" (the longest left for it: {minutes} minutes from {_slot_words(slots, [first])})"
+                       if first is not None else "")
+            out.append(Witness("length", f"{code} lasts {event.duration_minutes} minutes and no run of touching "
+                                         f"slots of one day is that long{longest}"
+                               + ("; the other slots are out: " + "; ".join(besides) if besides else ""),
+                               events=[code]))
+        elif others:
+            out.append(Witness("fit", f"no slot is left for {code}: " + "; ".join(others), events=[code]))
+    if out:
+        return out
+    out.extend(hall_witnesses(problem, slots, {c: left(c) for c in events}, found.unavailable))
+    return out
+
+
+def _longest_run(slots: list[Slot], starts) -> tuple[int, int | None]:
+    """The most minutes of touching slots of one day from any of ``starts``, and where that run starts."""
+    days = days_of(slots)
+    best, where = 0, None
+    for s in sorted(starts):
+        first = slots[s - 1]
+        if first.start is None or not first.length_minutes:
+            continue
+        minutes, t = first.length_minutes, s
+        end = _dt.datetime.combine(_dt.date(2000, 1, 1), first.start) + _dt.timedelta(minutes=first.length_minutes)
+        while t < len(slots) and days[t] == days[t - 1] and slots[t].start is not None and slots[t].length_minutes \
+                and _dt.datetime.combine(_dt.date(2000, 1, 1), slots[t].start) == end:
+            minutes += slots[t].length_minutes
+            end += _dt.timedelta(minutes=slots[t].length_minutes)
+            t += 1
+        if minutes > best:
+            best, where = minutes, s
+    return best, where
+
+
+def hall_witnesses(problem: Problem, slots: list[Slot], starts: dict[str, set[int]],
+                   unavailable: dict[str, frozenset[int]] | None = None, most: int = 3) -> list[Witness]:
+    """Attendees whose required events need more distinct start slots than are left for them.
+
+    Two events of one required attendee never start in the same slot, so an attendee's events
+    must be matched to distinct starts. A maximum matching (Hopcroft–Karp, networkx) that leaves
+    an event unmatched gives, by König's theorem, the set ``S`` of events reachable from the
+    unmatched ones along alternating paths: every slot they could start in is matched to another
+    event of ``S``, so ``S`` has more events than slots. Attendees with the same events are
+    checked once; an attendee whose every event has as many starts as they have events cannot
+    fail and is skipped. At most ``most`` witnesses are returned.
+    """
+    by_attendee: dict[str, set[str]] = {}
+    for a, c in problem.required_enrolments():
+        by_attendee.setdefault(a, set()).add(c)
+    seen: set[frozenset[str]] = set()
+    out: list[Witness] = []
+    for person in sorted(by_attendee):
+        mine = frozenset(by_attendee[person])
+        if len(mine) < 2 or mine in seen:
+            continue
+        seen.add(mine)
+        if all(len(starts.get(c, ())) >= len(mine) for c in mine):
+            continue
+        graph = nx.Graph()
+        left_nodes = [("e", c) for c in sorted(mine)]
+        graph.add_nodes_from(left_nodes)
+        for c in mine:
+            for s in starts.get(c, ()):
+                graph.add_edge(("e", c), ("s", s))
+        matching = nx.bipartite.hopcroft_karp_matching(graph, top_nodes=left_nodes)
+        free = [n for n in left_nodes if n not in matching]
+        if not free:
+            continue
+        reach, frontier = set(free), list(free)
+        while frontier:
+            node = frontier.pop()
+            for slot in graph.neighbors(node):
+                if slot in reach:
+                    continue
+                reach.add(slot)
+                partner = matching.get(slot)
+                if partner is not None and partner not in reach:
+                    reach.add(partner)
+                    frontier.append(partner)
+        group = sorted(c for kind, c in reach if kind == "e")
+        numbers = sorted(s for kind, s in reach if kind == "s")
+        sharing = [a for a, evs in by_attendee.items() if set(group) <= evs]
+        also = f" (as do {_names([a for a in sharing if a != person], 4)})" if len(sharing) > 1 else ""
+        slot_text = _slot_words(slots, numbers) if numbers else "none"
+        away = (unavailable or {}).get(person, frozenset())
+        missing = set(range(1, len(slots) + 1)) - set(numbers)
+        if missing and missing <= away:  # the slots they lack are exactly theirs to miss
+            words = (f"these {len(group)} events share {person}{also}: {', '.join(group)}, and {person} can make "
+                     f"only {len(numbers)} of their slots ({slot_text})")
+        else:
+            words = (f"these {len(group)} events share {person}{also}: {', '.join(group)}, and only {len(numbers)} "
+                     f"slots are left for them ({slot_text}"
+                     + (f"; {person} cannot make {_slot_words(slots, missing & away)}" if missing & away else "")
+                     + ")")
+        out.append(Witness("hall", words, events=group, attendees=[person]))
+        if len(out) >= most:
+            break
     return out
 
 
