@@ -238,9 +238,8 @@ def people_witnesses(problem: Problem, slots: list[Slot], found: Availability,
                                          f"slots of one day is that long{longest}"
                                + ("; the other slots are out: " + "; ".join(besides) if besides else ""),
                                events=[code]))
-        elif others:
-            out.append(Witness("fit", f"no slot is left for {code}: " + "; ".join(others), events=[code]))
-    if out:
+        # fixed, barred and seats alone: the pre-checks' own reasons say it
+    if out or not problem.has_people:  # without people the clique and rule reasons say it better
         return out
     out.extend(hall_witnesses(problem, slots, {c: left(c) for c in events}, found.unavailable))
     return out
@@ -322,8 +321,9 @@ def hall_witnesses(problem: Problem, slots: list[Slot], starts: dict[str, set[in
             words = (f"these {len(group)} events share {person}{also}: {', '.join(group)}, and {person} can make "
                      f"only {len(numbers)} of their slots ({slot_text})")
         else:
-            words = (f"these {len(group)} events share {person}{also}: {', '.join(group)}, and only {len(numbers)} "
-                     f"slots are left for them ({slot_text}"
+            left_words = "1 slot is" if len(numbers) == 1 else f"{len(numbers)} slots are"
+            words = (f"these {len(group)} events share {person}{also}: {', '.join(group)}, and only {left_words} "
+                     f"left for them ({slot_text}"
                      + (f"; {person} cannot make {_slot_words(slots, missing & away)}" if missing & away else "")
                      + ")")
         out.append(Witness("hall", words, events=group, attendees=[person]))
