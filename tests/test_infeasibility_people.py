@@ -2,8 +2,7 @@
 
 The brute force (``_any_timetable``) is the test's own: it tries every assignment of start slots
 and checks each required attendee's availability and clashes with its own reading of the slots
-(one slot per event here, so no spans are needed). Invented people of the Quillmere Growers'
-Federation.
+(one slot per event here, so no spans are needed). Invented people of a guild of clockmakers.
 """
 
 from __future__ import annotations

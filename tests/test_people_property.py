@@ -13,7 +13,7 @@ an optional attendee who cannot make it or is booked elsewhere then is one ``opt
 2. Every timetable ``solve`` returns honours every required attendee (by the brute force), and
    every "infeasible" is confirmed by trying all timetables.
 
-Invented people of the Quillmere Growers' Federation.
+Invented people of a guild of clockmakers.
 """
 
 from __future__ import annotations

@@ -2,7 +2,7 @@
 
 Every expected verdict below is worked out by hand from the contract's definitions (the module
 docstring of timetabler/availability.py), not taken from the tool; the slots are an invented
-Quillmere Growers' Federation meeting week.
+meeting week of an invented guild of clockmakers.
 """
 
 from __future__ import annotations
@@ -154,3 +154,8 @@ def test_own_rooms_alone_of_the_right_type_for_the_whole_sitting():
     assert any("LAW1 has 1 attendees to seat" in t for t in
                validate(p, SLOTS, {"LAW1": 1, "LAW2": 3}, {"LAW1": [("Hall", 2)], "LAW2": [("Hall", 1)]},
                         own_rooms={("ida", "LAW1"): "Snug"}).violations)
+
+
+def test_a_quorum_alone_still_reports_each_double_booking_once():
+    p = Problem([("ida", "A"), ("ida", "B"), ("jon", "A")], events={"A": Event("A", quorum=1)})
+    assert validate(p, SLOTS, {"A": 1, "B": 1}).violations == ["ida is booked twice in slot 1 (Mon 9:00): A and B"]

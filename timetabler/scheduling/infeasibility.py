@@ -136,10 +136,9 @@ def needs_availability(problem: Problem, slots: list[Slot]) -> bool:
     """True when people's rules or events longer than a slot bear on these slots."""
     if problem.has_people:
         return True
-    longest = max((s.length_minutes or 0 for s in slots), default=0)
-    return any(e.duration_minutes and longest and e.duration_minutes > longest for e in problem.events.values()) \
-        or any(e.duration_minutes and any(s.length_minutes and e.duration_minutes > s.length_minutes for s in slots)
-               for e in problem.events.values())
+    shortest = min((s.length_minutes for s in slots if s.length_minutes), default=None)
+    return shortest is not None and any(e.duration_minutes and e.duration_minutes > shortest
+                                        for e in problem.events.values())
 
 
 def people_witnesses(problem: Problem, slots: list[Slot], found: Availability,

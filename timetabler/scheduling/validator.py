@@ -184,6 +184,7 @@ def validate(
     for attendee, code in problem.enrolments:
         by_attendee[attendee].append(code)
     optional = problem.optional
+    people_in_play = bool(problem.people or optional or any(e.quorum for e in problem.events.values()))
     soft = {name: 0 for name in (
         "back_to_back", "overnight", "same_day", "proximity", "large_late",
         "preferred_slot", "penalised_slot", "room_split", "moved", "preferred_room", "penalised_room",
@@ -196,7 +197,7 @@ def validate(
         per_day: dict[int, int] = defaultdict(int)
         for c in mine_all:
             per_day[day[placed[c] - 1]] += 1
-        if not problem.people and not optional:
+        if not people_in_play:  # else _check_people does it, over each attendee's own slots
             per_slot: dict[int, list[str]] = defaultdict(list)
             for _, _, c in mine:
                 for t in taken[c]:
@@ -224,7 +225,7 @@ def validate(
                     soft["overnight"] += 1
                 soft["proximity"] += CARTER_WEIGHTS.get(gap, 0)
         load[attendee] = {"events": len(mine_all), "most_in_one_day": max(per_day.values(), default=0)}
-    if problem.people or optional or any(e.quorum for e in problem.events.values()):
+    if people_in_play:
         _check_people(problem, slots, placed, taken, timing, by_attendee, label, violations, soft)
 
     # events: fixed and barred slots, length, preferred and penalised slots
