@@ -125,3 +125,13 @@ def test_a_long_event_that_fits_no_run_of_touching_slots():
     assert solve(p, SLOTS, QUICK).reason == (
         "BOARD lasts 200 minutes and no run of touching slots of one day is that long (the longest left for it: "
         "180 minutes from slot 1 (Mon 9:00))")
+
+
+def test_optional_enrolments_count_towards_no_attendees_load():
+    # ida has three events in two slots, one of them optional: a timetable exists (found by hand: M0, M1 apart)
+    p = Problem([("ida", "M0"), ("ida", "M1"), ("ida", "M2")], optional={("ida", "M2")})
+    slots = SLOTS[:2]
+    assert _any_timetable(p, slots)
+    assert solve(p, slots, QUICK).status in ("optimal", "feasible")
+    from timetabler.scheduling.solve import fewest_slots
+    assert fewest_slots(p, options=QUICK).lower == 2

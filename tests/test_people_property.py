@@ -41,7 +41,9 @@ def grid(days: int, hours: int) -> list[Slot]:
 
 
 @st.composite
-def problems(draw):
+def problems(draw, long_events: bool = True, extra_time: bool = True, busy_quorum: bool = True):
+    """Random problems; the switches leave out what the solver on main may not honour yet (2-hour
+    events, extra time, a quorum counting optional attendees who may be busy elsewhere)."""
     days, hours = draw(st.integers(1, 2)), draw(st.integers(2, 3))
     k = days * hours
     n_events = draw(st.integers(1, 4))
@@ -49,7 +51,7 @@ def problems(draw):
     codes = [f"M{i}" for i in range(n_events)]
     events = {}
     for c in codes:
-        events[c] = Event(c, duration_minutes=draw(st.sampled_from([60, 60, 120])))
+        events[c] = Event(c, duration_minutes=draw(st.sampled_from([60, 60, 120] if long_events else [60])))
     enrol, optional = [], set()
     for c in codes:
         members = draw(st.lists(st.sampled_from(names), min_size=1, max_size=len(names), unique=True))
@@ -58,12 +60,14 @@ def problems(draw):
             if draw(st.booleans()) and draw(st.booleans()):
                 optional.add((a, c))
     for c in codes:
+        if not busy_quorum and any(cc == c for _, cc in optional):
+            continue
         if draw(st.integers(0, 4)) == 0:
             events[c].quorum = draw(st.integers(1, sum(1 for _, cc in enrol if cc == c)))
     people = {}
     for a in names:
         away = draw(st.lists(st.integers(1, k), max_size=2, unique=True))
-        extra = draw(st.sampled_from([0, 0, 0, 25, 50]))
+        extra = draw(st.sampled_from([0, 0, 0, 25, 50] if extra_time else [0]))
         if away or extra:
             people[a] = Attendee(a, unavailable=tuple(str(s) for s in away), extra_time_percent=extra)
     problem = Problem(enrol, events=events, people=people, optional=optional, weights=ZERO)
@@ -138,11 +142,7 @@ def test_the_validator_agrees_with_the_brute_force(case, data):
         assert verdict.soft["optional_missed"] == missed
 
 
-@pytest.mark.skip(reason="waits for people-solve (issue 13): main's solve does not yet honour availability, "
-                         "long events, extra time or quorums")
-@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
-@given(problems())
-def test_every_timetable_solve_returns_honours_every_required_attendee(case):
+def _solve_and_confirm(case) -> None:
     problem, days, hours = case
     slots = grid(days, hours)
     run = solve(problem, slots, SolveOptions(time_limit=2, workers=1))
@@ -156,3 +156,17 @@ def test_every_timetable_solve_returns_honours_every_required_attendee(case):
         assert not any_ok, run.reasons
     if any_ok:
         assert run.status in ("optimal", "feasible"), run.reasons
+
+
+@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(problems(long_events=False, extra_time=False, busy_quorum=False))
+def test_every_timetable_solve_returns_honours_availability_and_quorums(case):
+    _solve_and_confirm(case)
+
+
+@pytest.mark.skip(reason="waits for people-solve (issue 13): main's solve does not yet take 2-hour events over "
+                         "touching slots, extra-time sittings or optional attendees busy elsewhere in a quorum")
+@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(problems())
+def test_every_timetable_solve_returns_honours_every_required_attendee(case):
+    _solve_and_confirm(case)

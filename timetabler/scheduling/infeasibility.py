@@ -56,12 +56,13 @@ def prechecks(problem: Problem, slots: list[Slot], graph: nx.Graph, clique: list
     """Reasons found without search why ``slots`` cannot hold a timetable (empty if none found)."""
     k = len(slots)
     out: list[Witness] = []
+    required = problem.required_enrolments()  # optional attendees make no clash and need no slot of their own
     attendees_of: dict[str, set[str]] = {}
-    for a, c in problem.enrolments:
+    for a, c in required:
         attendees_of.setdefault(c, set()).add(a)
     # busiest attendee
     load: dict[str, list[str]] = {}
-    for a, c in problem.enrolments:
+    for a, c in required:
         load.setdefault(a, []).append(c)
     if load:
         busiest = min(load, key=lambda a: (-len(load[a]), a))

@@ -1060,7 +1060,7 @@ def fewest_slots(
     if len(clique) > lower:
         lower, reason, witness = len(clique), f"{len(clique)} events pairwise share attendees", [str(c) for c in clique]
     load: dict[str, int] = {}
-    for a, _ in problem.enrolments:
+    for a, _ in problem.required_enrolments():  # optional enrolments need no slot of their own
         load[a] = load.get(a, 0) + 1
     if load:
         who = min(load, key=lambda a: (-load[a], a))
