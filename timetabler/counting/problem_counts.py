@@ -13,6 +13,7 @@ from typing import Callable, Sequence
 
 import networkx as nx
 
+from ..availability import Availability
 from ..model import Problem, Slot, generic_slots
 from .sequential_sampling import Moments
 from .timetables import CountReport, count_timetables, set_intervals
@@ -56,6 +57,10 @@ def count_problem(
     2
     """
     ks = sorted(set(int(k) for k in ks))
+    if problem.has_people or problem.slots:
+        slots_for = slots_for or default_slots_for(problem)
+        if problem.has_people or any(Availability.of(problem, list(slots_for(k))).spans for k in ks):
+            return _count_with_availability(problem, ks, graph, slots_for, budget_seconds, progress)
     pinned = pinned_events(problem)
     if not pinned:
         return count_timetables(graph, ks, budget_seconds=budget_seconds, progress=progress), []
@@ -86,6 +91,52 @@ def count_problem(
     merged = reports[0]
     merged.counts = [c for r in reports for c in r.counts]
     for other in reports[1:]:  # per-component counts for every K
+        for mine, theirs in zip(merged.components, other.components):
+            mine.counts.extend(theirs.counts)
+    merged.seconds = sum(r.seconds for r in reports)
+    _ratios_between_runs(merged.counts)
+    return merged, notes
+
+
+def _count_with_availability(problem: Problem, ks, graph, slots_for, budget_seconds, progress):
+    """Counts where each event may start only where every required attendee can come.
+
+    The allowed starts of :class:`~timetabler.availability.Availability` (fixed and barred
+    slots included) are the lists of a list-colouring count, passed on as barred slots.
+    When every event takes one slot for everyone and no quorum can be broken by optional
+    attendees busy elsewhere, that count is the number of timetables. Otherwise (long
+    events, extra time running into the next slot, such a quorum) every timetable is still
+    such a list-colouring, so the count is only an upper bound: reported not exact, with
+    that upper bound and 0 as the proven lower bound, and a note.
+    """
+    notes: list[str] = []
+    reports = []
+    quorum_open = any(e.quorum for e in problem.events.values()) and bool(problem.optional)
+    for k in ks:
+        found = Availability.of(problem, list(slots_for(k)))
+        barred = {e: set(range(1, k + 1)) - set(found.starts.get(e, range(1, k + 1))) for e in graph}
+        barred = {e: b for e, b in barred.items() if b}
+        report = count_timetables(graph, [k], budget_seconds=budget_seconds / len(ks), barred=barred,
+                                  progress=progress)
+        report.constrained = True
+        report.availability = True
+        if not found.one_slot_each or quorum_open:
+            report.availability_bound = True
+            for c in report.counts:
+                if c.exact and not c.timetables:
+                    continue  # no list-colouring, so no timetable: 0 stays exact
+                c.upper = c.timetables if c.exact else c.upper
+                c.exact, c.lower, c.timetables, c.log10 = False, 0, None, None
+                c.moments = c.ratio_moments = None  # the estimate was of the list-colourings
+                c.estimate_log10 = c.estimate_relative_error = c.estimate_interval_log10 = None
+                c.ratio_interval_log10, c.ratio_to_previous, c.groupings = None, None, None
+            notes.append(f"With {k} slots some events take more than one slot (long events, extra time) or a "
+                         f"quorum depends on optional attendees: the figure counts starts where every required "
+                         f"attendee can come, an upper bound on the timetables, not an exact count.")
+        reports.append(report)
+    merged = reports[0]
+    merged.counts = [c for r in reports for c in r.counts]
+    for other in reports[1:]:
         for mine, theirs in zip(merged.components, other.components):
             mine.counts.extend(theirs.counts)
     merged.seconds = sum(r.seconds for r in reports)

@@ -48,6 +48,8 @@ MEANING = (
     "so that no attendee has two events in one slot"
 )
 MEANING_CONSTRAINED = MEANING + ", with every fixed event in its slot and no event in a slot barred to it"
+MEANING_AVAILABILITY = MEANING_CONSTRAINED + (
+    ", and every event only in a slot all its required attendees can make (optional attendees make no clash)")
 SENSITIVITY_MAX_EVENTS = 16  # components up to this size get the what-if figures
 
 
@@ -145,6 +147,8 @@ class CountReport:
     riskiest_absent_clashes: list[dict] = field(default_factory=list)
     most_freeing_clashes: list[dict] = field(default_factory=list)
     seconds: float = 0.0
+    availability: bool = False  # events only where their required attendees can come
+    availability_bound: bool = False  # long events or extra time: the figures are upper bounds
 
     @property
     def exact(self) -> bool:
@@ -153,7 +157,9 @@ class CountReport:
     def to_json(self) -> dict:
         return {
             "counts": [c.to_json() for c in self.counts],
-            "meaning": MEANING_CONSTRAINED if self.constrained else MEANING,
+            "meaning": (MEANING_AVAILABILITY + ("; where events take more than one slot this counts their starts, "
+                                                "an upper bound" if self.availability_bound else "")
+                        if self.availability else MEANING_CONSTRAINED if self.constrained else MEANING),
             "events": self.events,
             "clashes": self.clashes,
             "isolated_events": self.isolated_events,
