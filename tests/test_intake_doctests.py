@@ -7,7 +7,7 @@ import importlib
 
 import pytest
 
-MODULES = ["reading", "normalising", "vocabulary"]
+MODULES = ["reading", "normalising", "vocabulary", "people", "validation"]
 
 
 @pytest.mark.parametrize("name", MODULES)

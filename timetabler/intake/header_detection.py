@@ -12,8 +12,9 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 from .file_types import RawSheet
-from .normalising import identifier, is_blank, looks_like_total, yes_no
+from .normalising import identifier, is_blank, looks_like_total, optional_mark, yes_no
 from .vocabulary import (
+    ATTENDANCE,
     ATTENDEE,
     ENROLMENT_TITLE,
     EVENT,
@@ -48,6 +49,7 @@ class Layout:
     other: int | None = None
     shared: int | None = None
     title: int | None = None  # long layout: a column giving each event's title
+    attendance: int | None = None  # the Attendance column (required / optional), any layout with attendees
 
     def column_label(self, index: int) -> str:
         """``B (Exam)``: the column letter a spreadsheet shows, and its header."""
@@ -97,6 +99,9 @@ def detect_layout(
         if found is not None:
             if found.kind == LONG and len(found.events) == 1:
                 found.title = best_match(ENROLMENT_TITLE, headers, exclude={found.attendee, *found.events})
+            if found.kind != CLASH_LIST:
+                taken = {found.attendee, *found.events, found.title} - {None}
+                found.attendance = best_match(ATTENDANCE, headers, exclude=taken)
             return found
     if layout in ("auto", WIDE) and not event_columns:
         return _tick_grid(sheet, attendee_column)
@@ -122,21 +127,24 @@ def _tick_grid(sheet: RawSheet, attendee_column: str | None) -> Layout | None:
             continue
         below = [row for row in sheet.rows[r : r + GRID_SAMPLE_ROWS]
                  if not (att < len(row) and looks_like_total(row[att]))]
+        attendance = best_match(ATTENDANCE, headers, exclude={att})
         columns = []
         for i, h in enumerate(headers):
-            if i == att or not h:
+            if i in (att, attendance) or not h:
                 continue
             marks = [tick(row[i]) for row in below if i < len(row) and not is_blank(row[i])]
             if any(marks) and sum(1 for m in marks if m is None) <= max(1, 0.1 * len(marks)):
                 columns.append(i)
         if columns:
-            return Layout(WIDE, r, headers, attendee=att, events=columns, grid=True)
+            return Layout(WIDE, r, headers, attendee=att, events=columns, grid=True, attendance=attendance)
     return None
 
 
 def tick(value: object) -> bool | None:
-    """True for a tick (x, 1, yes, ✓ ...), False for no/0/blank, None for anything else."""
-    if isinstance(value, str) and value.strip() in ("\u2713", "\u2714", "\u2611", "\u2022", "*"):
+    """True for a tick (x, 1, yes, ✓ ...) or a word enrolling as optional (``optional``: see
+    :func:`~.normalising.optional_mark`), False for no/0/blank, None for anything else."""
+    if isinstance(value, str) and (value.strip() in ("\u2713", "\u2714", "\u2611", "\u2022", "*")
+                                   or optional_mark(value)):
         return True
     return yes_no(value)
 

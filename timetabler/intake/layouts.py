@@ -28,8 +28,17 @@ from ..model import Location
 from .file_types import RawSheet
 from .findings import FindingList
 from .header_detection import CLASH_LIST, Layout, tick
-from .normalising import identifier, is_blank, looks_like_total, looks_scientific, split_list, whole_number
-from .vocabulary import key
+from .normalising import (
+    attendance_value,
+    identifier,
+    is_blank,
+    looks_like_total,
+    looks_scientific,
+    optional_mark,
+    split_list,
+    whole_number,
+)
+from .vocabulary import ATTENDANCE_WORDS, key
 
 SYNTHETIC_PREFIX = "shared:"
 
@@ -53,6 +62,8 @@ class RawEnrolments:
     separator_first: tuple[int, str] | None = None  # (row, cell) of the first of them
     #: (event code, title) -> the first row giving that title, from a title column beside the event column
     titles: dict[tuple[str, str], int] = field(default_factory=dict)
+    #: indexes into ``pairs`` of the enrolments marked optional (Attendance column, or an ``optional`` grid cell)
+    optional: set[int] = field(default_factory=set)
 
 
 def read_enrolments(sheet: RawSheet, layout: Layout, file: str, findings: FindingList, max_pairs: int) -> RawEnrolments:
@@ -121,11 +132,24 @@ def _attendee_rows(sheet: RawSheet, layout: Layout, file: str, findings: Finding
                           suggestion="Delete summary rows from the enrolment sheet.")
             continue
         events: list[str] = []
+        optional_here: set[str] = set()
+        if layout.attendance is not None:
+            raw_attendance = _cell(row, layout.attendance)
+            attendance = attendance_value(raw_attendance)
+            if attendance is None:
+                findings.error("The attendance is not one timetabler knows.",
+                               _where(file, sheet, r, layout, layout.attendance), found=identifier(raw_attendance),
+                               expected=_ATTENDANCE_EXPECTED)
+            row_optional = attendance == "optional"
+        else:
+            row_optional = False
         if layout.grid:
             for i, c in zip(layout.events, cells):
                 mark = tick(c)
                 if mark:
                     events.append(layout.headers[i])
+                    if optional_mark(c):
+                        optional_here.add(layout.headers[i])
                 elif mark is None:
                     findings.warn("This cell should hold a tick (x, 1, yes) or be blank; it was read as not enrolled.",
                                   _where(file, sheet, r, layout, i), found=identifier(c))
@@ -164,6 +188,8 @@ def _attendee_rows(sheet: RawSheet, layout: Layout, file: str, findings: Finding
         if not who:
             continue  # other columns filled, the two that matter blank
         for e in events:
+            if row_optional or e in optional_here:
+                out.optional.add(len(out.pairs))
             out.pairs.append((who, e, r))
     if joined:
         _joined_warning(joined, out, sheet, layout, file, findings)
@@ -174,6 +200,10 @@ def _attendee_rows(sheet: RawSheet, layout: Layout, file: str, findings: Finding
                       Location(file, sheet.name, row, None), found=", ".join(t for t, _ in scientific),
                       suggestion="Format the id column as text in the spreadsheet, then export the file again.")
     return out
+
+
+_ATTENDANCE_EXPECTED = ("required (or blank) or optional; also "
+                        + ", ".join(sorted(w for w in ATTENDANCE_WORDS if w not in ("required", "optional"))))
 
 
 def _joined_warning(joined: list[tuple[int, str]], out: RawEnrolments, sheet: RawSheet, layout: Layout,

@@ -18,7 +18,7 @@ import re
 import pandas as pd
 
 from ..errors import visible
-from .vocabulary import NO_WORDS, TOTAL_WORDS, YES_WORDS, key
+from .vocabulary import ATTENDANCE_WORDS, NO_WORDS, TOTAL_WORDS, YES_WORDS, key
 
 _FLOAT_INTEGER = re.compile(r"^[+-]?\d+\.0+$")
 _SCIENTIFIC = re.compile(r"^\d(\.\d+)?E\+\d+$", re.IGNORECASE)
@@ -220,3 +220,23 @@ def looks_like_total(value: object) -> bool:
 def fold(code: str, case_sensitive: bool) -> str:
     """The key under which two spellings of a code are the same code."""
     return code if case_sensitive else code.casefold()
+
+
+def attendance_value(value: object) -> str | None:
+    """An Attendance cell as ``required`` or ``optional`` (blank: required); None for any other word.
+
+    >>> attendance_value(" Optional "), attendance_value(None), attendance_value("REQ"), attendance_value("maybe")
+    ('optional', 'required', 'required', None)
+    """
+    if is_blank(value):
+        return "required"
+    return ATTENDANCE_WORDS.get(key(identifier(value)))
+
+
+def optional_mark(value: object) -> bool:
+    """True for a tick-grid cell that enrols the attendee as optional (``optional``, ``opt``, ``invited``...):
+    the words of :data:`ATTENDANCE_WORDS` meaning optional, longer than one letter (``o`` may be a tick)."""
+    if not isinstance(value, str):
+        return False
+    k = key(value)
+    return len(k) > 1 and ATTENDANCE_WORDS.get(k) == "optional"

@@ -36,9 +36,10 @@ from .header_detection import CLASH_LIST, LAYOUTS, LONG, WIDE, Layout, column_le
 from .layouts import read_enrolments
 from .limits import Limits
 from .normalising import fold
+from .people import attach_attendance, attach_people, check_quorums, sheet_looks_like_attendees
 from .sheets import read_extras
 from .validation import attach_event_details, attach_titles, cross_check, figure_warnings, leading_zero_variants
-from .vocabulary import is_note_sheet, key, sheet_role
+from .vocabulary import ATTENDEES, is_note_sheet, key, sheet_role
 
 LAYOUT_CHOICES = ("auto",) + LAYOUTS
 
@@ -201,6 +202,9 @@ def read_problem(path: str | Path, options: ReadOptions | None = None) -> Readin
     if options.read_other_sheets:
         for s in book.sheets:
             role = sheet_role(str(s.name)) if s is not sheet and s.name is not None else None
+            if (role is None and s is not sheet and s.name is not None and not is_note_sheet(s.name)
+                    and s.name not in also_fit and sheet_looks_like_attendees(s.rows)):
+                role = ATTENDEES  # named otherwise, but headed Attendee / Extra time / Own room / Unavailable slots
             if role is None:
                 continue
             if role in other:
@@ -214,7 +218,7 @@ def read_problem(path: str | Path, options: ReadOptions | None = None) -> Readin
             continue
         findings.warn(f"The sheet '{s.name}' was not read: its name does not say what it holds.",
                       Location(name, s.name),
-                      expected="Enrolments, or an optional sheet named Events, Slots, Rooms, Rules or Weights",
+                      expected="Enrolments, or an optional sheet named Events, Slots, Rooms, Rules, Weights or Attendees",
                       suggestion="Rename it if it holds details timetabler should use.")
     extras = read_extras(other, name, findings)
     event_where = attach_event_details(problem, extras.events, lambda c: canonical(event_names, c))
@@ -229,6 +233,14 @@ def read_problem(path: str | Path, options: ReadOptions | None = None) -> Readin
     problem.rules = extras.rules
     problem.weights = extras.weights
     problem.max_per_day = extras.max_per_day
+    if raw.optional:
+        where_attendance = layout.column_label(layout.attendance) if layout.attendance is not None else None
+        marked = [(canonical(attendee_names, a, False), canonical(event_names, e, False), r, i in raw.optional)
+                  for i, (a, e, r) in enumerate(raw.pairs)]
+        attach_attendance(problem, marked, findings, lambda r: Location(name, sheet.name, r, where_attendance))
+    if extras.people:
+        attach_people(problem, extras.people, lambda a: attendee_names.get(fold(a, cs)), findings,
+                      "Rooms" in extras.tables)
 
     enrolment_where = Location(name, sheet.name)
     if not problem.enrolments:
@@ -236,6 +248,9 @@ def read_problem(path: str | Path, options: ReadOptions | None = None) -> Readin
                       Location(name, sheet.name, layout.header_row),
                       suggestion="Add one row per attendee and event under the headers.")
     cross_check(problem, extras, findings, event_where)
+    events_table = extras.tables.get("Events")
+    check_quorums(problem, findings, lambda code: events_table.where(event_where[code].row, "Quorum")
+                  if events_table is not None and code in event_where else None)
     zeros = [] if raw.synthetic else leading_zero_variants(list(attendee_names.values()))
     zeros += leading_zero_variants(list(event_names.values()))
     figure_warnings(problem, findings, enrolment_where, raw.synthetic, event_where, zeros, case_merges)

@@ -1,4 +1,4 @@
-"""The optional sheets of an input workbook: events, slots, rooms, rules and weights.
+"""The optional sheets of an input workbook: events, slots, rooms, rules, weights and attendees.
 
 Each reader finds its header row (the first of the top rows holding the sheet's key
 column and at least one other known column), reads every row into model objects, and
@@ -13,10 +13,11 @@ import datetime as _dt
 import re
 from dataclasses import dataclass, field
 
-from ..model import Event, Location, Room, Rule, RuleKind, Slot, Weights, time_order
+from ..model import Attendee, Event, Location, Room, Rule, RuleKind, Slot, Weights, time_order
 from .file_types import RawSheet
 from .findings import FindingList
 from .header_detection import SCAN_ROWS, column_letter
+from .people import read_attendees, strict_name
 from .normalising import (
     date_value,
     duration_minutes,
@@ -29,6 +30,8 @@ from .normalising import (
     yes_no,
 )
 from .vocabulary import (
+    ATTENDEES,
+    ATTENDEES_COLUMNS,
     EVENTS_COLUMNS,
     GOAL_LABELS,
     GOAL_WORDS,
@@ -73,8 +76,10 @@ class Table:
         return Location(self.file, self.sheet.name, row, label)
 
 
-def find_table(sheet: RawSheet, file: str, columns: tuple[Column, ...], findings: FindingList) -> Table | None:
-    """Locate the header row of an optional sheet; record an error when it has none."""
+def find_table(sheet: RawSheet, file: str, columns: tuple[Column, ...], findings: FindingList,
+               strict: bool = True) -> Table | None:
+    """Locate the header row of an optional sheet; record an error when it has none (a warning
+    that the sheet was not read when not ``strict``)."""
     for r, row in enumerate(sheet.rows[:SCAN_ROWS], start=1):
         headers = [identifier(c) for c in row]
         index: dict[str, int] = {}
@@ -99,6 +104,14 @@ def find_table(sheet: RawSheet, file: str, columns: tuple[Column, ...], findings
             return Table(sheet, file, r, index, headers)
     if not sheet.rows:
         return None  # an empty optional sheet is no sheet
+    if not strict:
+        findings.warn(f"The sheet '{sheet.name}' was not read: its name suggests {columns[0].name.lower()} details, "
+                      f"but it has no header row with a '{columns[0].name}' column and one of "
+                      + ", ".join(f"'{c.name}'" for c in columns[1:]) + ".", Location(file, sheet.name),
+                      found=", ".join(h for h in (identifier(c) for c in sheet.rows[0]) if h) or "an empty first row",
+                      suggestion="Rename the sheet 'Attendees' and use the headers of 'timetabler template' "
+                      "if it should be read.")
+        return None
     findings.error(
         f"The sheet '{sheet.name}' has no header row with a '{columns[0].name}' column.",
         Location(file, sheet.name),
@@ -121,6 +134,7 @@ class Extras:
     max_per_day: int | None = None
     tables: dict[str, Table] = field(default_factory=dict)
     sheets_read: dict[str, str] = field(default_factory=dict)  # role -> sheet name
+    people: list[tuple[Attendee, Location]] = field(default_factory=list)  # Attendees sheet, names as typed
 
 
 def _total_row(cells: list[object]) -> bool:
@@ -162,8 +176,21 @@ def read_events(table: Table, findings: FindingList, extras: Extras) -> None:
             group=identifier(table.get(cells, "Group")) or None,
             preferred_slots=tuple(split_list(table.get(cells, "Preferred slots"))),
             preferred_rooms=tuple(split_list(table.get(cells, "Preferred rooms"))),
+            quorum=_quorum(table, cells, r, findings),
         )
         extras.events.append((event, table.where(r)))
+
+
+def _quorum(table: Table, cells: list[object], r: int, findings: FindingList) -> int | None:
+    raw = table.get(cells, "Quorum")
+    if is_blank(raw):
+        return None
+    quorum = whole_number(raw)
+    if quorum is None or quorum < 1:
+        findings.error("The quorum is not a whole number of attendees.", table.where(r, "Quorum"),
+                       found=identifier(raw), expected="a whole number, 1 or more (or blank for no quorum)")
+        return None
+    return quorum
 
 
 _AMBIGUOUS_DATE = re.compile(r"^\s*(\d{1,2})[/.-](\d{1,2})[/.-]\d{2,4}\s*$")
@@ -432,6 +459,7 @@ READERS = {
     "Rooms": (ROOMS_COLUMNS, read_rooms),
     "Rules": (RULES_COLUMNS, read_rules),
     "Weights": (WEIGHTS_COLUMNS, read_weights),
+    ATTENDEES: (ATTENDEES_COLUMNS, read_attendees),  # last: it checks its slots and room types against those read
 }
 
 
@@ -442,7 +470,8 @@ def read_extras(sheets: dict[str, RawSheet], file: str, findings: FindingList) -
         sheet = sheets.get(role)
         if sheet is None:
             continue
-        table = find_table(sheet, file, columns, findings)
+        strict = role != ATTENDEES or strict_name(str(sheet.name))
+        table = find_table(sheet, file, columns, findings, strict=strict)
         if table is None:
             continue
         extras.tables[role] = table

@@ -28,6 +28,7 @@ Warnings (the run goes on; they are shown and kept in the output):
 
 from __future__ import annotations
 
+import datetime as dt
 import re
 import statistics
 
@@ -89,6 +90,7 @@ def cross_check(problem: Problem, extras: Extras, findings: FindingList, event_w
                                       found=", ".join(sorted(shared)[:3]) + (", ..." if len(shared) > 3 else ""),
                                       suggestion="Check the rule, or the enrolments of these attendees.")
     lengths = [s.length_minutes for s in slots if s.length_minutes]
+    longest = longest_run_minutes(slots)
     room_types = {(r.room_type or "").casefold() for r in problem.rooms}
     for code, event in problem.events.items():
         for column, refs in (("Fixed slot", (event.fixed_slot,) if event.fixed_slot else ()),
@@ -103,10 +105,18 @@ def cross_check(problem: Problem, extras: Extras, findings: FindingList, event_w
             if fixed is not None and fixed in barred:
                 findings.error(f"The event {code} is fixed to a slot it is also barred from.",
                                where_event(code, "Barred slots"), found=event.fixed_slot)
-        if event.duration_minutes and lengths and event.duration_minutes > max(lengths):
-            findings.error(f"The event {code} is longer than every slot.", where_event(code, "Duration"),
-                           found=f"{event.duration_minutes} minutes", expected=f"at most {max(lengths)} minutes (the longest slot)",
-                           suggestion="Lengthen a slot in the slots sheet, or check the duration.")
+        if event.duration_minutes and lengths and event.duration_minutes > max(longest, max(lengths)):
+            if longest > max(lengths):
+                findings.error(f"The event {code} is longer than every run of touching slots of one day.",
+                               where_event(code, "Duration"), found=f"{event.duration_minutes} minutes",
+                               expected=f"at most {longest} minutes (the longest run of slots, each starting as the "
+                                        "one before ends)",
+                               suggestion="Check the duration, or the start times and lengths of the slots.")
+            else:
+                findings.error(f"The event {code} is longer than every slot.", where_event(code, "Duration"),
+                               found=f"{event.duration_minutes} minutes",
+                               expected=f"at most {max(lengths)} minutes (the longest slot)",
+                               suggestion="Lengthen a slot in the slots sheet, or check the duration.")
         if event.room_type and problem.rooms and event.room_type.casefold() not in room_types:
             kinds = ", ".join(sorted({r.room_type for r in problem.rooms if r.room_type})) or "none"
             findings.error(f"The event {code} needs a room type that no room has.", where_event(code, "Room type"),
@@ -129,6 +139,36 @@ def cross_check(problem: Problem, extras: Extras, findings: FindingList, event_w
         missing = next(w for s, w in extras.slots if s.date is None)
         findings.warn("Some slots have a date and some do not; days are then counted one per slot.", missing,
                       suggestion="Give every slot a date, or none.")
+
+
+def longest_run_minutes(slots: list[Slot]) -> int:
+    """The longest time covered by consecutive slots of one day each starting as the one before ends (the
+    longest event that can take several slots: the span of :mod:`timetabler.availability`); 0 without times.
+
+    >>> import datetime as dt
+    >>> day = dt.date(2027, 3, 1)
+    >>> longest_run_minutes([Slot("a", date=day, start=dt.time(9), length_minutes=60),
+    ...                      Slot("b", date=day, start=dt.time(10), length_minutes=60),
+    ...                      Slot("c", date=day, start=dt.time(14), length_minutes=90)])
+    120
+    """
+    best = 0
+    run_start = run_end = None
+    previous: Slot | None = None
+    for slot in slots:
+        if slot.start is None or not slot.length_minutes:
+            run_start = run_end = previous = None
+            continue
+        begin = dt.datetime.combine(slot.date or dt.date(2000, 1, 1), slot.start)
+        end = begin + dt.timedelta(minutes=slot.length_minutes)
+        same_day = previous is not None and (previous.date, previous.day) == (slot.date, slot.day)
+        if run_end is not None and same_day and begin == run_end:
+            run_end = end
+        else:
+            run_start, run_end = begin, end
+        previous = slot
+        best = max(best, int((run_end - run_start).total_seconds() // 60))
+    return best
 
 
 def room_names_in(cell: object, known: set[str]) -> list[str] | None:

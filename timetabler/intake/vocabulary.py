@@ -21,6 +21,10 @@ Enrolments    Attendee            who attends (also: Student, Candidate, Member,
               Title               optional: the event's title (also: Exam title, Module name
                                   beside a Module code column, ...); the Events sheet's
                                   title, where it gives one, is kept
+              Attendance          optional: ``required`` (the default; blank too) or
+                                  ``optional`` (welcome, not needed: makes no clash, a
+                                  soft goal); also ``req``/``opt``, ``compulsory``,
+                                  ``if possible``, ``invited``
 Events        Event               the event's code, as in Enrolments (sheet also named Exams,
                                   Meetings, Papers, Modules)
               Title               a longer name, for the timetable
@@ -32,6 +36,8 @@ Events        Event               the event's code, as in Enrolments (sheet also
               Preferred slots     slots it should take if possible (a soft goal)
               Preferred rooms     rooms it should be seated in if possible, separated by
                                   ``;`` or ``,`` (a soft goal; names from the Rooms sheet)
+              Quorum              at least this many of its attendees free in its slot
+                                  (hard; a whole number, at most its attendees)
 Slots         Slot                the slot's name, e.g. ``Mon 11 Jan AM`` (sheet also: Sessions)
               Date                a date (a date cell, ``2027-01-11`` or ``11/01/2027``, day first)
               Start               a time of day (a time cell or ``09:00``)
@@ -57,6 +63,14 @@ Rules         Rule                one of: ``before``, ``same slot``, ``different
                                   ``alone`` takes no other events)
 Weights       Goal                one of the soft goals below, or ``most events per day``
               Weight              a whole number (0 switches the goal off)
+Attendees     Attendee            the attendee, as in Enrolments (sheet also named People,
+                                  Availability, Candidates, Members, or ending in such a
+                                  word: ``Exam candidates``)
+              Unavailable slots   slots they cannot make: slot names, numbers, or dates
+                                  (every slot of that day), separated by ``;`` or ``,``
+              Extra time          a percentage (``25`` or ``25%``, 0 to 200) added to the
+                                  length of each of their events, for them alone
+              Own room            a room type: they sit alone in a room of that type
 ============  ==================  ===============================================================
 
 Two other enrolment layouts are read from the first sheet that fits:
@@ -70,7 +84,10 @@ Two other enrolment layouts are read from the first sheet that fits:
 
 Soft goals (Weights sheet, column Goal): ``back-to-back``, ``overnight``, ``same day``,
 ``proximity``, ``large late``, ``preferred slot``, ``avoided slot``, ``room split``,
-``moved``, ``preferred room``, ``avoided room``.
+``moved``, ``preferred room``, ``avoided room``, ``optional attendee missed``.
+
+A CSV or TSV file holds one sheet, the enrolments (with their Attendance column); the
+other sheets, Attendees among them, need a workbook (.xlsx, .ods).
 """
 
 from __future__ import annotations
@@ -88,16 +105,33 @@ SLOTS = "Slots"
 ROOMS = "Rooms"
 RULES = "Rules"
 WEIGHTS = "Weights"
+ATTENDEES = "Attendees"
 INSTRUCTIONS = "Instructions"
 
 #: Other names a registrar may give the optional sheets (normalised form, see :func:`key`).
 SHEET_NAMES: dict[str, tuple[str, ...]] = {
-    EVENTS: ("events", "exams", "examinations", "meetings", "papers", "modules", "courses", "event list"),
+    EVENTS: ("events", "exams", "examinations", "meetings", "papers", "modules", "courses", "event list",
+             "committees", "committee list", "committees list"),
     SLOTS: ("slots", "sessions", "periods", "timeslots"),
     ROOMS: ("rooms", "venues", "halls"),
     RULES: ("rules", "constraints", "conditions"),
     WEIGHTS: ("weights", "goals", "soft goals", "priorities"),
+    ATTENDEES: ("attendees", "attendee list", "attendee details", "people", "persons", "availability",
+                "unavailability", "arrangements", "special arrangements", "access arrangements",
+                "candidates", "members", "students", "participants"),
 }
+
+#: Names that say a sheet is the Attendees sheet and nothing else: one of them without the
+#: sheet's columns is an error; other attendee-like names (Students, Members) may name a roster
+#: the registrar keeps for other reasons, which is then left unread with a warning.
+ATTENDEES_SHEET_NAMES = ("attendees", "attendee list", "attendee details", "people", "persons", "availability",
+                         "unavailability", "arrangements", "special arrangements", "access arrangements")
+
+#: Words of a sheet name that make it the Attendees sheet when they end the name (``Exam candidates``,
+#: ``Committee members``), before the words of the other sheets are tried (``Room availability`` stays Rooms:
+#: availability alone is not among them).
+_ATTENDEES_WORDS = ("attendee", "attendees", "people", "person", "persons", "candidate", "candidates", "member",
+                    "members", "student", "students", "participant", "participants")
 
 #: Sheets that never hold data (cover pages, notes, instructions).
 NOTE_SHEETS = ("instructions", "notes", "readme", "read me", "cover", "about", "help", "contents")
@@ -124,13 +158,17 @@ def sheet_role(name: str) -> str | None:
 
     >>> sheet_role("Exams"), sheet_role("Exam details"), sheet_role("Entries")
     ('Events', 'Events', None)
+    >>> sheet_role("Exam candidates"), sheet_role("Student exams"), sheet_role("Room availability")
+    ('Attendees', 'Events', 'Rooms')
     """
     k = key(name)
     for role, names in SHEET_NAMES.items():
         if k in names:
             return role
     words = k.split()
-    for role, names in SHEET_NAMES.items():
+    if words and words[-1] in _ATTENDEES_WORDS:
+        return ATTENDEES
+    for role, names in SHEET_NAMES.items():  # Attendees last: "Student exams" holds exams
         if any(w in names or w + "s" in names for w in words):
             return role
     return None
@@ -227,6 +265,9 @@ EVENTS_COLUMNS = (
     Column("Preferred slots", ("preferred", "preferred slot", "prefer", "wished slots"), "slots it should take if possible"),
     Column("Preferred rooms", ("preferred room", "prefer room", "prefer rooms", "wished rooms", "wished room"),
            "rooms it should be seated in if possible"),
+    Column("Quorum", ("quorum", "minimum attendance", "min attendance", "minimum attendees", "min attendees",
+                      "at least"),
+           "at least this many of its attendees must be free in its slot (a whole number, 1 or more)"),
 )
 
 SLOTS_COLUMNS = (
@@ -269,6 +310,37 @@ WEIGHTS_COLUMNS = (
     Column("Goal", ("soft goal", "name", "penalty", "item", "setting"), "a soft goal"),
     Column("Weight", ("value", "points", "penalty weight", "cost"), "a whole number; 0 switches it off"),
 )
+
+#: The Attendees sheet: one row per attendee with something the timetable must know of them.
+ATTENDEES_COLUMNS = (
+    Column("Attendee", ATTENDEE.also, "the attendee, exactly as in the Enrolments sheet"),
+    Column("Unavailable slots", ("unavailable", "not available", "unavailability", "cannot make", "cannot attend",
+                                 "unavailable dates", "unavailable days", "away", "absent", "away on"),
+           "slots (names or numbers) or dates (every slot of that day) they cannot make, separated by ;"),
+    Column("Extra time", ("extra time percent", "extra time percentage", "extra", "additional time",
+                          "time allowance", "extra time allowance"),
+           "a percentage of each event's length, e.g. 25 (or 25%)"),
+    Column("Own room", ("own room type", "separate room", "room of their own", "room alone", "sits apart",
+                        "separate room type"),
+           "a room type (as in the Rooms sheet): they sit alone in a room of that type"),
+)
+
+#: Extra time above this percentage is taken for a typing slip (common practice grants 25 %, some
+#: arrangements 50 % or 100 %: double time; no source sets a ceiling, 200 % is our own sane limit).
+MAX_EXTRA_TIME_PERCENT = 200
+
+#: The enrolments' optional Attendance column and the words it accepts (normalised, see :func:`key`).
+ATTENDANCE = Column(
+    "Attendance",
+    ("attendance", "attendance type", "attending as", "required or optional", "presence"),
+    "required (the default, also blank) or optional: an optional attendee is welcome but not needed",
+)
+ATTENDANCE_WORDS: dict[str, str] = {
+    "required": "required", "req": "required", "r": "required", "compulsory": "required",
+    "mandatory": "required", "must": "required", "must attend": "required", "essential": "required",
+    "optional": "optional", "opt": "optional", "o": "optional", "if possible": "optional",
+    "invited": "optional", "welcome": "optional", "may attend": "optional",
+}
 
 #: Rule kinds as written in the Rules sheet (normalised), mapped to RuleKind values.
 RULE_WORDS: dict[str, str] = {
