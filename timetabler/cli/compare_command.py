@@ -21,7 +21,7 @@ from .common import (SHARE_ROOMS_HELP, console, err_console, input_options, prin
                      styled)
 from ..export.publishing import count_for_runs
 from .output_options import check_outputs, output_options, try_publish
-from .slot_counts import SlotCountsOption, parse_slot_counts
+from .slot_counts import SlotCountsOption, choose_slot_counts, days_option, parse_slot_counts
 from .solve_options import (apply_goal_options, keep_option, max_per_day_option, print_repair, repeatable_option,
                             resolve_kept,
                             time_limit_option, weight_option)
@@ -32,7 +32,8 @@ from .store_options import earlier_timetable, open_store, store_options
 @click.argument("file", type=click.Path(dir_okay=False))
 @input_options
 @click.option("--slots", "slot_counts", cls=SlotCountsOption, metavar="K [K ...]", callback=parse_slot_counts,
-              required=True, help="The numbers of slots to put side by side, e.g. --slots 5 6 or --slots 8-12.")
+              help="The numbers of slots to put side by side, e.g. --slots 5 6 or --slots 8-12 (or --days).")
+@days_option("Put side by side")
 @click.option("--sessions-per-day", type=click.IntRange(1, 12), default=2, show_default=True,
               help="Without a slots sheet: how many slots make a day (for back-to-back and two-in-a-day figures).")
 @time_limit_option(20.0, "Time for each number of slots, and again for the fewest-slots search, counted from the "
@@ -50,7 +51,7 @@ from .store_options import earlier_timetable, open_store, store_options
 @store_options
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document instead of a table.")
 @output_options
-def command(file, sheet, attendee_column, event_column, slot_counts, sessions_per_day, time_limit, count_time, workers,
+def command(file, sheet, attendee_column, event_column, slot_counts, day_counts, sessions_per_day, time_limit, count_time, workers,
             seed, repeatable, share_rooms, split_rooms, weights, max_per_day, keep, store_at, retention_days, as_json,
             outputs, **_ignored):
     """Put several numbers of slots for FILE side by side, to decide how many to book.
@@ -69,11 +70,15 @@ def command(file, sheet, attendee_column, event_column, slot_counts, sessions_pe
       timetabler compare enrolments.xlsx --slots 8-12 --out choices.xlsx --plot counts.png
     """
     started = time.perf_counter()
+    if not slot_counts and not day_counts:
+        raise click.UsageError("Say which numbers of slots to put side by side: --slots 5 6 (or a range, --slots "
+                               "8-12), or days of the slots sheet: --days 4 5.")
     reading = read_input(file, sheet, attendee_column, event_column)
     require_enrolments(reading)
     show_warnings(reading, as_json)
     problem = reading.problem
     apply_goal_options(problem, weights, max_per_day)
+    slot_counts, days_of_count = choose_slot_counts(problem, slot_counts, day_counts)
     ks = sorted(slot_counts)
     if problem.slots and max(ks) > len(problem.slots):
         raise InputError(Finding(
@@ -122,6 +127,8 @@ def command(file, sheet, attendee_column, event_column, slot_counts, sessions_pe
     table = comparison_table(problem, runs, counts, validations, figures, fewest)
     if as_json:
         doc: dict[str, Any] = {"file": file, "slots": ks, "comparison": rows_as_json(table)}
+        if days_of_count:
+            doc["days"] = [days_of_count[k] for k in ks]
         doc["fewest"] = {k: v for k, v in fewest.to_json().items() if k != "timetable"}
         doc["counts"] = counts.to_json() if counts is not None and hasattr(counts, "to_json") else None
         if count_note:
@@ -129,7 +136,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, sessions_pe
         doc["written"] = [str(p) for p in written]
         print_json(doc)
     else:
-        _print_side_by_side(table, counts, fewest, count_note)
+        _print_side_by_side(table, counts, fewest, count_note, days_of_count)
         for run in runs:
             print_repair(run)
     if write_error is not None:  # the results are shown above; the failed output is bad input (exit 2)
@@ -149,11 +156,13 @@ SHOWN = [
 ]
 
 
-def _print_side_by_side(table, counts, fewest, count_note: str | None) -> None:
+def _print_side_by_side(table, counts, fewest, count_note: str | None,
+                        days_of_count: dict[int, int] | None = None) -> None:
     out = Table(title="Slot counts side by side", title_justify="left", show_lines=False)
     out.add_column("", style="bold", no_wrap=True)
     for row in table.rows:
-        out.add_column(f"{row[0]} slots", justify="left", overflow="fold", min_width=12, max_width=44)
+        days = (days_of_count or {}).get(row[0])
+        out.add_column(f"{row[0]} slots" if days is None else f"{days} {'day' if days == 1 else 'days'}, {row[0]} slots", justify="left", overflow="fold", min_width=12, max_width=44)
     index = {h: i for i, h in enumerate(table.headers)}
     for header, label in SHOWN:
         cells = []

@@ -13,7 +13,7 @@ from ..counting.polynomial import ChromaticPolynomial, edgeless_power, poly_mul
 from ..errors import Finding, InputError
 from ..export.tables import interval_words, ratio_words
 from .common import console, err_console, input_options, print_json, read_input, show_warnings, styled
-from .slot_counts import SlotCountsOption, parse_slot_counts
+from .slot_counts import SlotCountsOption, choose_slot_counts, days_option, parse_slot_counts
 from .solve_options import time_limit_option
 
 
@@ -23,13 +23,14 @@ from .solve_options import time_limit_option
 @click.option("--slots", "slot_counts", cls=SlotCountsOption, metavar="K [K ...]", callback=parse_slot_counts,
               help="The numbers of slots to count for, e.g. --slots 5 6 or --slots 5-8 "
                    "(default: the number of slots in the slots sheet).")
+@days_option("Count for")
 @time_limit_option(20.0, "Time for exact counting. A group of events that takes longer is given bounds and an "
                          "estimate, marked not exact.", minimum=0.1)
 @click.option("--polynomial", "show_polynomial", is_flag=True,
               help="Also print the counting polynomial P(k) and the number of ways to split the events into "
                    "j clash-free groups, for every j.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document instead of tables.")
-def command(file: str, sheet, attendee_column, event_column, slot_counts, time_limit: float,
+def command(file: str, sheet, attendee_column, event_column, slot_counts, day_counts, time_limit: float,
             show_polynomial: bool, as_json: bool) -> None:
     """Count the clash-free timetables of FILE for each number of slots.
 
@@ -60,6 +61,7 @@ def command(file: str, sheet, attendee_column, event_column, slot_counts, time_l
     reading = read_input(file, sheet, attendee_column, event_column)
     show_warnings(reading, as_json)
     problem = reading.problem
+    slot_counts, days_of_count = choose_slot_counts(problem, slot_counts, day_counts)
     ks = sorted(slot_counts) if slot_counts else ([len(problem.slots)] if problem.slots else [])
     if not ks:
         raise InputError(Finding(
@@ -84,6 +86,10 @@ def command(file: str, sheet, attendee_column, event_column, slot_counts, time_l
         doc = report.to_json()
         doc["file"] = file
         doc["slots"] = ks
+        if days_of_count:
+            doc["days"] = [days_of_count[k] for k in ks]
+            for entry in doc.get("counts", []):
+                entry["days"] = days_of_count.get(entry.get("slots"))
         if notes:
             doc["notes"] = notes
         if show_polynomial:
@@ -98,7 +104,7 @@ def command(file: str, sheet, attendee_column, event_column, slot_counts, time_l
             status.update(styled(f"Counting clash-free timetables… group {done} of {total} done ({message})"))
 
         report = work(progress)
-    _print_report(file, report, notes)
+    _print_report(file, report, notes, days_of_count)
     if show_polynomial:
         _print_polynomial(report, graph)
 
@@ -137,12 +143,14 @@ def _log_text(log10: float | None) -> str:
     return f"{mantissa:.2f} × 10^{exponent}" if exponent >= 6 else f"{10 ** log10:,.0f}"
 
 
-def _print_report(file: str, report, notes: list[str]) -> None:
+def _print_report(file: str, report, notes: list[str], days_of_count: dict[int, int] | None = None) -> None:
     groups = len(report.components)
     console.print(styled((file, "bold"), f": {report.events} events, {report.clashes} clashing pairs, "
                   f"{groups} {'group' if groups == 1 else 'groups'} of events linked by clashes, "
                   f"{report.isolated_events} {'event' if report.isolated_events == 1 else 'events'} with no clash"))
     table = Table(title="Clash-free timetables", title_justify="left")
+    if days_of_count:
+        table.add_column("Days", justify="right")
     table.add_column("Slots", justify="right")
     table.add_column("Timetables", justify="right")
     table.add_column("Exact", justify="center")
@@ -159,7 +167,8 @@ def _print_report(file: str, report, notes: list[str]) -> None:
             ratio = ratio_words(c)
         else:
             ratio = f"{c.ratio_to_previous:,.2f}" if c.ratio_to_previous is not None else "—"
-        table.add_row(str(c.slots), shown, "yes" if c.exact else "no", ratio, readable_count(c.groupings)
+        days = [str(days_of_count.get(c.slots, ""))] if days_of_count else []
+        table.add_row(*days, str(c.slots), shown, "yes" if c.exact else "no", ratio, readable_count(c.groupings)
                       if c.groupings is not None else "—")
     console.print(table)
     for c in report.counts:

@@ -10,6 +10,8 @@ from __future__ import annotations
 
 import click
 
+from ..plan import day_choices, days_by_slot_count
+
 
 class SlotCountsOption(click.Option):
     """An option that takes every following whole number (or range like 5-8)."""
@@ -40,17 +42,45 @@ def looks_like_count(token: str) -> bool:
 
 def parse_slot_counts(ctx, param, value) -> tuple[int, ...]:
     """Click callback: '5 6', '5,6', '5-8' -> (5, 6, ...); a clear message for anything else."""
+    return parse_counts(value, "slots")
+
+
+def parse_day_counts(ctx, param, value) -> tuple[int, ...]:
+    """Click callback of ``--days``: '4 5', '4-5' -> (4, 5)."""
+    return parse_counts(value, "days")
+
+
+def parse_counts(value, noun: str) -> tuple[int, ...]:
+    """'5 6', '5,6', '5-8' -> distinct whole numbers of ``noun`` (slots, days) in the order given."""
     if value is None:
         return ()
     counts: list[int] = []
     for token in str(value).replace(",", " ").split():
         if not looks_like_count(token):
-            raise click.BadParameter(f"'{token}' is not a number of slots (give whole numbers like 6, or a range like 5-8)")
+            raise click.BadParameter(f"'{token}' is not a number of {noun} (give whole numbers like 6, or a range like 5-8)")
         parts = [int(p) for p in token.replace("..", "-").split("-")]
         lo, hi = parts[0], parts[-1]
         if lo > hi:
             raise click.BadParameter(f"the range '{token}' runs backwards")
         counts.extend(range(lo, hi + 1))
     if any(k < 1 for k in counts):
-        raise click.BadParameter("the number of slots must be at least 1")
+        raise click.BadParameter(f"the number of {noun} must be at least 1")
     return tuple(dict.fromkeys(counts))
+
+
+def days_option(verb: str):
+    """``--days N [N ...]``: the first N days of the Slots sheet, instead of ``--slots K``."""
+    return click.option(
+        "--days", "day_counts", cls=SlotCountsOption, metavar="N [N ...]", callback=parse_day_counts,
+        help=f"{verb} the slots of the first N days of the slots sheet (in time order; days from its dates or day "
+             "numbers), instead of --slots, e.g. --days 4 5 for four days or five.")
+
+
+def choose_slot_counts(problem, slot_counts, day_counts):
+    """The slot counts asked for (``--slots`` or ``--days``, not both) and ``{K: days}`` for ``--days``."""
+    if slot_counts and day_counts:
+        raise click.UsageError("Give --slots or --days, not both.")
+    if not day_counts:
+        return tuple(slot_counts), {}
+    choices = day_choices(problem, day_counts)
+    return tuple(c.slots for c in choices), days_by_slot_count(choices)

@@ -17,7 +17,7 @@ from .command_clock import CommandClock
 from .common import (SHARE_ROOMS_HELP, console, err_console, input_options, print_json, read_input, require_enrolments,
                      show_warnings, styled)
 from .output_options import check_outputs, output_options, try_publish
-from .slot_counts import SlotCountsOption, parse_slot_counts
+from .slot_counts import SlotCountsOption, choose_slot_counts, days_option, parse_slot_counts
 from .solve_options import (apply_goal_options, keep_option, max_per_day_option, parse_weights, print_repair,
                             repeatable_option,
                             resolve_kept,
@@ -33,6 +33,7 @@ _parse_weights = parse_weights  # the one --weight parser, under its former name
 @click.option("--slots", "slot_counts", cls=SlotCountsOption, metavar="K [K ...]", callback=parse_slot_counts,
               help="Numbers of slots to try, e.g. --slots 10 11 12 or --slots 10-12. With a slots sheet, K uses its "
                    "first K slots (default: all of them).")
+@days_option("Solve with")
 @click.option("--fewest", is_flag=True,
               help="Find the fewest slots that hold a timetable meeting every rule, say whether that is proven, "
                    "and give that timetable.")
@@ -60,7 +61,7 @@ _parse_weights = parse_weights  # the one --weight parser, under its former name
 @store_options
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON document instead of tables.")
 @output_options
-def command(file, sheet, attendee_column, event_column, slot_counts, fewest, sessions_per_day, time_limit, workers,
+def command(file, sheet, attendee_column, event_column, slot_counts, day_counts, fewest, sessions_per_day, time_limit, workers,
             seed, repeatable, weights, max_per_day, share_rooms, split_rooms, keep, publish_label, no_record, store_at,
             retention_days, as_json, outputs, **_ignored):
     """Give every event in FILE a slot so that nobody is booked twice, and report how good it is.
@@ -97,6 +98,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, fewest, ses
     show_warnings(reading, as_json)
     problem = reading.problem
     apply_goal_options(problem, weights, max_per_day)
+    slot_counts, days_of_count = choose_slot_counts(problem, slot_counts, day_counts)
     if not slot_counts and not fewest and not problem.slots:
         raise click.UsageError("Say how many slots to use (--slots 12, or several: --slots 10-14), or ask for the "
                                "fewest (--fewest). The file has no slots sheet to take them from.")
@@ -157,13 +159,13 @@ def command(file, sheet, attendee_column, event_column, slot_counts, fewest, ses
     if not no_record:
         record_solve(store, problem, runs, settings, publish_label=publish_label, kept_from=kept_from, quiet=as_json)
     if as_json:
-        doc = {"file": file, "runs": [r.to_json() for r in runs]}
+        doc = {"file": file, "runs": [_run_json(r, days_of_count) for r in runs]}
         if fewest_result is not None:
             doc["fewest"] = {k: v for k, v in fewest_result.to_json().items() if k != "timetable"}
         doc["written"] = [str(p) for p in written]
         print_json(doc)
     else:
-        _print_runs(problem, runs, fewest_result)
+        _print_runs(problem, runs, fewest_result, days_of_count)
     if write_error is not None:  # the results are shown above; the failed output is bad input (exit 2)
         raise write_error
 
@@ -212,7 +214,16 @@ class _progress_display:
             self.progress.update(task, completed=self.progress.tasks[task].total)
 
 
-def _print_runs(problem, runs, fewest_result) -> None:
+def _run_json(run, days_of_count: dict[int, int]) -> dict:
+    """A run's JSON; with --days it also says how many days its slots make (null for a count
+    the fewest-slots search added that ends inside a day)."""
+    doc = run.to_json()
+    if days_of_count:
+        doc["days"] = days_of_count.get(run.slots)
+    return doc
+
+
+def _print_runs(problem, runs, fewest_result, days_of_count: dict[int, int] | None = None) -> None:
     if fewest_result is not None:
         f = fewest_result
         if f.upper is None:
@@ -224,13 +235,16 @@ def _print_runs(problem, runs, fewest_result) -> None:
             console.print(styled("Fewest slots: between ", (str(f.lower), "bold"), f" ({f.lower_reason}) and ",
                                  (str(f.upper), "bold"), " (a timetable was found); not proven within the time limit."))
     table = Table(title="Timetables", title_justify="left")
+    if days_of_count:
+        table.add_column("Days", justify="right")
     for name, right in (("Slots", True), ("Result", False), ("Penalty", True), ("Lower bound", True),
                         ("Back to back", True), ("Moved", True), ("Check", False), ("Seconds", True)):
         table.add_column(name, justify="right" if right else "left", no_wrap=name in ("Result", "Check"))
     for r in runs:
         v = r.validation
         soft = v.soft if v else {}
-        table.add_row(str(r.slots), r.status, _num(r.penalty), _num(None if r.bound is None else round(r.bound)),
+        days = [_num(days_of_count.get(r.slots))] if days_of_count else []
+        table.add_row(*days, str(r.slots), r.status, _num(r.penalty), _num(None if r.bound is None else round(r.bound)),
                       _num(soft.get("back_to_back")),
                       str(len(r.moves)) if r.moves or r.status in ("optimal", "feasible") else "",
                       ("passed" if v.ok else f"FAILED ({len(v.violations)})") if v else "",

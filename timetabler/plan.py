@@ -1,0 +1,93 @@
+"""The application layer: what a command or the web page asks for, checked once.
+
+A *plan* is what to run on one problem: the numbers of slots (given as counts, or as a
+number of days of the Slots sheet), the goal weights, the time limit and the earlier
+timetable to repair. The command line and the web page parse their input into a plan; the
+checks here are the only ones, so both refuse the same things with the same words.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+from .errors import Finding, InputError
+from .model import Location, Problem, Slot
+
+
+@dataclass(frozen=True)
+class DayChoice:
+    """The first ``days`` days of the Slots sheet: its first ``slots`` slots in time order."""
+
+    days: int
+    slots: int
+
+
+def slots_sheet_days(slots: Sequence[Slot]) -> list[object] | None:
+    """The day of each slot (its date, else its day number), or None when the slots do not all
+    say which day they fall on (then a slot is no day's: the sheet has no days to count)."""
+    if slots and all(s.date is not None for s in slots):
+        return [s.date for s in slots]
+    if slots and all(s.day is not None for s in slots):
+        return [s.day for s in slots]
+    return None
+
+
+def day_choices(problem: Problem, days: Sequence[int], option: str = "--days") -> list[DayChoice]:
+    """The slot count of the first N days of the Slots sheet, for each N in ``days`` (in order).
+
+    The slots are in time order (intake sorts them), so the first N days are a run of slots
+    from the first. Raises :class:`InputError` (located at the file or its Slots sheet) when
+    there is no Slots sheet, when its slots do not all carry a date or a day number, or when
+    it holds fewer days than asked.
+
+    >>> import datetime as dt
+    >>> d = dt.date(2027, 1, 11)
+    >>> week = [Slot(f"{n} {h}", date=d + dt.timedelta(days=n), start=dt.time(h)) for n in range(5)
+    ...         for h in (9, 14)]
+    >>> day_choices(Problem([], slots=week), [4, 5])
+    [DayChoice(days=4, slots=8), DayChoice(days=5, slots=10)]
+    """
+    file = problem.source or "the input file"
+    if not problem.slots:
+        raise InputError(Finding(
+            f"{option} counts the days of the Slots sheet, and this file has no Slots sheet.",
+            where=Location(file),
+            suggestion="Add a Slots sheet with a Date (or Day) column, or say how many slots to use with --slots K."))
+    where = _sheet_of(problem.slots, file)
+    of_slot = slots_sheet_days(problem.slots)
+    if of_slot is None:
+        raise InputError(Finding(
+            f"{option} counts the days of the Slots sheet, but its slots do not all say which day they fall on.",
+            where=where, expected="a date (or a day number in a Day column) on every slot",
+            suggestion="Fill in the Date or Day column of every slot, or use --slots K."))
+    ends: list[int] = []  # ends[n - 1]: how many slots the first n days hold
+    for i, day in enumerate(of_slot):
+        if i and day != of_slot[i - 1]:
+            ends.append(i)
+    ends.append(len(of_slot))
+    wanted = [int(n) for n in days]
+    if max(wanted) > len(ends):
+        first, last = _day_words(problem.slots[0]), _day_words(problem.slots[-1])
+        span = f" ({first} to {last})" if first and last and first != last else ""
+        raise InputError(Finding(
+            f"{option} asks for {max(wanted)} days but the Slots sheet's {len(of_slot)} slots fall on only "
+            f"{len(ends)} {'day' if len(ends) == 1 else 'days'}{span}.",
+            where=where, suggestion="Add the missing days to the Slots sheet, or ask for fewer."))
+    return [DayChoice(n, ends[n - 1]) for n in wanted]
+
+
+def days_by_slot_count(choices: Sequence[DayChoice]) -> dict[int, int]:
+    """``{slot count: days}`` of the day choices (distinct day counts have distinct slot counts)."""
+    return {c.slots: c.days for c in choices}
+
+
+def _sheet_of(slots: Sequence[Slot], file: str) -> Location:
+    w = next((s.where for s in slots if s.where is not None), None)
+    return Location(w.file, w.sheet) if w is not None else Location(file, "Slots")
+
+
+def _day_words(slot: Slot) -> str:
+    if slot.date is not None:
+        return slot.date.strftime("%a %d %b %Y")
+    return f"day {slot.day}" if slot.day is not None else ""
