@@ -423,7 +423,9 @@ def build_model(
         if not banned:
             continue
         reasons = domains.why_not[c]
-        lit = rule_literal(f"{c} cannot go in slot(s) {_ranges(banned)}: {reasons[banned[0]]}", "physical")
+        causes = list(dict.fromkeys(reasons[s] for s in banned if s in reasons))
+        cause = "; ".join(causes[:3]) + (f"; and {len(causes) - 3} more reasons" if len(causes) > 3 else "")
+        lit = rule_literal(f"{c} cannot go in slot(s) {_ranges(banned)}: {cause}", "physical")
         for s in banned:
             enforce(m.add(x[c][s - 1] == 0), lit)
 
