@@ -8,7 +8,8 @@ overwritten). Every method that writes is one transaction (``BEGIN IMMEDIATE`` .
 What one solve records:
 
 * the **input**, normalised (its events with their details, the enrolments, the slots with
-  labels and dates, the rooms, the rules, the weights) — never the raw file; the same input
+  labels and dates, the rooms, the rules, the weights, the Attendees sheet and the optional
+  enrolments) — never the raw file; the same input
   read again is stored once and only its ``last_used_at`` moves;
 * one **run** per number of slots: the settings, the status, the penalty, the slots it used,
   the assignment with rooms, the moves from the timetable it repaired, and the validator's
@@ -41,7 +42,7 @@ from pathlib import Path
 from typing import Any, Sequence
 
 from ..errors import Finding, InputError
-from ..model import Event, Problem, Room, Rule, RuleKind, Slot, Weights
+from ..model import Attendee, Event, Problem, Room, Rule, RuleKind, Slot, Weights
 from .schema import NewerStoreError, prepare
 
 BUSY_TIMEOUT_MS = 30_000
@@ -452,6 +453,10 @@ class Store:
                           weights=weights, source=source)
         if "max_per_day" in extra:
             problem.max_per_day = extra["max_per_day"]
+        for data in extra.get("people") or []:
+            person = Attendee(**_fields_from(Attendee, data))
+            problem.people[person.name] = person
+        problem.optional = {(a, e) for a, e in extra.get("optional") or []}
         return problem
 
     def integrity(self) -> str:
@@ -540,8 +545,13 @@ def check_label(label: str) -> str:
 
 def normalised_input(problem: Problem) -> dict:
     """The parts of ``problem`` the store keeps, as plain values (also hashed into the input's fingerprint)."""
-    known = {"enrolments", "events", "slots", "rooms", "rules", "weights", "source"}
+    known = {"enrolments", "events", "slots", "rooms", "rules", "weights", "source", "people", "optional"}
     extra = {f.name: _plain(getattr(problem, f.name)) for f in dataclasses.fields(problem) if f.name not in known}
+    if problem.people:  # the Attendees sheet, without the rows it was read from (as for slots)
+        extra["people"] = [{k: v for k, v in _plain(problem.people[name]).items() if k != "where"}
+                           for name in sorted(problem.people)]
+    if problem.optional:  # sorted: a set's order would change the fingerprint from run to run
+        extra["optional"] = sorted([a, e] for a, e in problem.optional)
     return {
         "source_name": Path(problem.source).name if problem.source else "",
         "events": [_plain(problem.events[c]) for c in sorted(problem.events)],

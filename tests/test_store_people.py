@@ -1,0 +1,58 @@
+"""The store keeps what the people's rules need: Attendees rows, optional attendance, quorums.
+
+A stored input read back must schedule exactly as the file did: an attendee's unavailable
+slots, extra time and own room, the optional enrolments and the events' quorums all come
+back, and the input's fingerprint does not depend on the order a set happens to hold.
+"""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+from pathlib import Path
+
+from timetabler.model import Attendee, Event, Problem, generic_slots
+from timetabler.scheduling import SolveRun
+from timetabler.scheduling.validator import validate
+from timetabler.store import Store
+from timetabler.store.records import normalised_input
+
+
+def _round() -> Problem:
+    # Fernhollow Allotment Society (invented): two committees and a board
+    enrolments = [("Ivo Brandt", "GARDENS"), ("Ivo Brandt", "BOARD"), ("Mira Kell", "GARDENS"),
+                  ("Mira Kell", "TOOLS"), ("Ossian Pell", "TOOLS"), ("Ossian Pell", "BOARD")]
+    events = {"GARDENS": Event("GARDENS"), "TOOLS": Event("TOOLS", quorum=2), "BOARD": Event("BOARD")}
+    problem = Problem(enrolments, events=events, slots=generic_slots(3), source="round.xlsx")
+    problem.people = {"Ivo Brandt": Attendee("Ivo Brandt", unavailable=("1",), extra_time_percent=25),
+                      "Mira Kell": Attendee("Mira Kell", own_room_type="small")}
+    problem.optional = {("Ossian Pell", "BOARD"), ("Mira Kell", "GARDENS")}
+    return problem
+
+
+def test_people_optional_and_quorum_come_back_from_the_store(tmp_path):
+    problem = _round()
+    run = SolveRun(slots=3, slot_list=generic_slots(3), status="optimal", assignment={"GARDENS": 2, "TOOLS": 3, "BOARD": 3})
+    with Store(tmp_path / "store.sqlite3") as store:
+        store.record_solve(problem, [run], {"seed": 0}, publish=(3, "round 1"))
+        back = store.problem(store.inputs()[0].id)
+    assert back.people == problem.people
+    assert back.optional == problem.optional
+    assert back.events["TOOLS"].quorum == 2
+    # the stored problem judges a timetable as the original does: Ivo cannot make slot 1
+    for assignment in ({"GARDENS": 1, "TOOLS": 2, "BOARD": 3}, {"GARDENS": 2, "TOOLS": 1, "BOARD": 3}):
+        ours, theirs = validate(problem, generic_slots(3), assignment), validate(back, generic_slots(3), assignment)
+        assert ours.violations == theirs.violations
+        assert ours.soft == theirs.soft
+    assert not validate(back, generic_slots(3), {"GARDENS": 1, "TOOLS": 2, "BOARD": 3}).ok
+
+
+def test_the_fingerprint_does_not_depend_on_hash_order():
+    # the optional enrolments are a set: two interpreters with different hash seeds must store one input
+    code = (f"import json, sys; sys.path.insert(0, {str(Path(__file__).parent)!r}); from test_store_people import _round; "
+            "from timetabler.store.records import normalised_input; "
+            "print(json.dumps(normalised_input(_round()), sort_keys=True))")
+    outs = {subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True,
+                           env={"PYTHONHASHSEED": seed, "PATH": ""}).stdout for seed in ("1", "2", "3")}
+    assert len(outs) == 1
+    assert normalised_input(_round())["problem"]["optional"] == [["Mira Kell", "GARDENS"], ["Ossian Pell", "BOARD"]]
