@@ -10,7 +10,7 @@ from __future__ import annotations
 import datetime as dt
 import itertools
 
-from timetabler.model import Attendee, Event, Problem, Slot
+from timetabler.model import Attendee, Event, Problem, Slot, generic_slots
 from timetabler.scheduling.solve import SolveOptions, solve
 from timetabler.scheduling.infeasibility import hall_witnesses
 
@@ -67,8 +67,20 @@ def test_several_people_each_barring_some_slots():
                         "jon": Attendee("jon", unavailable=("2027-03-02",))})
     assert not _any_timetable(p, SLOTS)
     reason = solve(p, SLOTS, QUICK).reason
-    assert reason.startswith("no slot is left for BOARD: ida cannot make slot 1 (Mon 9:00);")
-    assert "jon cannot make slot 5 (Tue 10:00)" in reason
+    # one phrase per person, with all the slots they rule out (not one phrase per slot naming them again)
+    assert reason == ("no slot is left for BOARD: ida cannot make slots 1 (Mon 9:00), 2 (Mon 10:00), 3 (Mon 11:00); "
+                      "jon cannot make slots 4 (Tue 9:00), 5 (Tue 10:00)")
+
+
+def test_many_people_barring_slots_are_named_fewest_first_and_the_rest_counted():
+    # eight members each away for one of eight slots: four are named, the other slots are "others"
+    slots = generic_slots(8)
+    members = [f"m{i}" for i in range(1, 9)]
+    p = Problem([(m, "BOARD") for m in members],
+                people={m: Attendee(m, unavailable=(str(i),)) for i, m in enumerate(members, start=1)})
+    reason = solve(p, slots, QUICK).reason
+    assert reason.startswith("no slot is left for BOARD: m1 cannot make slot 1 (Slot 1); m2 cannot make slot 2")
+    assert reason.count("cannot make") == 5 and "others cannot make slots 5 (Slot 5), 6 (Slot 6), 7 (Slot 7), 8 (Slot 8)" in reason
 
 
 def test_more_events_than_the_slots_a_person_can_make_is_a_hall_witness():

@@ -133,6 +133,27 @@ def _names(people: list[str], most: int = 6) -> str:
     return ", ".join(people[:most]) + (f" and {len(people) - most} more" if len(people) > most else "")
 
 
+SHOWN_PEOPLE = 4
+
+
+def _who_blocks(person_slots: dict[str, set[int]], bar: set[int], slots: list[Slot]) -> str:
+    """The people who rule out the slots ``bar``, one phrase per person with all their slots.
+
+    The people are chosen greedily, each time the one ruling out most of the slots not yet
+    named (ties by name), so a short list covers the slots; the rest is counted.
+    """
+    left, parts = set(bar), []
+    while left and len(parts) < SHOWN_PEOPLE:
+        who = min(person_slots, key=lambda w: (-len(person_slots[w] & left), w))
+        if not person_slots[who] & left:
+            break
+        parts.append(f"{who} cannot make {_slot_words(slots, person_slots[who] & bar)}")
+        left -= person_slots[who]
+    if left:
+        parts.append(f"others cannot make {_slot_words(slots, left)}")
+    return "; ".join(parts)
+
+
 def needs_availability(problem: Problem, slots: list[Slot]) -> bool:
     """True when people's rules or events longer than a slot bear on these slots."""
     if problem.has_people:
@@ -217,10 +238,8 @@ def people_witnesses(problem: Problem, slots: list[Slot], found: Availability,
                                          f"{_slot_words(slots, people_bar)}{rest}",
                                events=[code], attendees=sorted(whole)))
         elif people_bar:
-            per = "; ".join(f"{_names(blocked[s], 3)} cannot make {_slot_words(slots, [s])}"
-                            for s in sorted(people_bar)[:SHOWN_SLOTS])
-            out.append(Witness("person", f"no slot is left for {code}: {per}{rest}", events=[code],
-                               attendees=sorted(person_slots)))
+            out.append(Witness("person", f"no slot is left for {code}: {_who_blocks(person_slots, people_bar, slots)}"
+                                         f"{rest}", events=[code], attendees=sorted(person_slots)))
         elif by_cause.get("quorum"):
             worst = max(short[s] for s in by_cause["quorum"])
             best = [s for s in by_cause["quorum"] if short[s] == worst]
