@@ -127,7 +127,7 @@ def test_template_reads_back_without_error(tmp_path: Path, capsys, example: bool
     assert run_guarded(cli, args) == 0
     reading = read_problem(path)
     assert reading.sheet == "Enrolments"
-    assert set(reading.other_sheets) == {"Events", "Slots", "Rooms", "Rules", "Weights"}
+    assert set(reading.other_sheets) == {"Events", "Slots", "Rooms", "Rules", "Weights", "Attendees"}
     assert not [w for w in reading.warnings if "not one timetabler knows" in w.message]
     if example:
         assert reading.warnings == []
@@ -138,7 +138,11 @@ def test_template_reads_back_without_error(tmp_path: Path, capsys, example: bool
         assert all(a.startswith("HV-S") for a in p.attendees)
         # the Shared column: the lab holds one event at a time, the halls are shared
         assert [(r.name, r.shared) for r in p.rooms] == [("Orchard Hall", True), ("Beacon Lab", False),
-                                                         ("Cloister Room", True)]
+                                                         ("Cloister Room", True), ("Linden Room", False)]
+        # the Attendees sheet: extra time for one candidate, a slot they cannot make and a room of their own for another
+        assert p.people["HV-S0002"].extra_time_percent == 25
+        assert p.people["HV-S0003"].unavailable == ("Tue 4 May PM",) and p.people["HV-S0003"].own_room_type == "Quiet"
+        assert p.optional == set()  # the Attendance column is there, blank: everyone required
     else:
         assert reading.problem.enrolments == []
         assert [w.message for w in reading.warnings] == ["No enrolments were found below the header row."]

@@ -20,12 +20,16 @@ from pathlib import Path
 from ..errors import Finding, InputError
 from ..model import Location, Weights
 from .vocabulary import (
+    ATTENDANCE,
+    ATTENDEES,
+    ATTENDEES_COLUMNS,
     ENROLMENTS,
     EVENTS,
     EVENTS_COLUMNS,
     GOAL_HELP,
     GOAL_LABELS,
     INSTRUCTIONS,
+    MAX_EXTRA_TIME_PERCENT,
     MOST_PER_DAY,
     ROOMS,
     ROOMS_COLUMNS,
@@ -44,6 +48,7 @@ RULE_CHOICES = ("before", "same slot", "different days", "alone")
 ENROLMENT_COLUMNS = (
     Column("Attendee", help="who attends: a student number or a member's name; one row per attendee and event"),
     Column("Event", help="the code of the exam or meeting, the same code as in the Events sheet"),
+    ATTENDANCE,
 )
 
 SHEETS: dict[str, tuple[Column, ...]] = {
@@ -53,6 +58,7 @@ SHEETS: dict[str, tuple[Column, ...]] = {
     ROOMS: ROOMS_COLUMNS,
     RULES: RULES_COLUMNS,
     WEIGHTS: WEIGHTS_COLUMNS,
+    ATTENDEES: ATTENDEES_COLUMNS,
 }
 
 PURPOSE = {
@@ -62,6 +68,8 @@ PURPOSE = {
     ROOMS: "Optional. One row per room, with its seats. Without it, rooms are not planned.",
     RULES: "Optional. One row per rule between events. Rules must hold in every timetable.",
     WEIGHTS: "Optional. How much each soft goal matters; the defaults are filled in. 0 switches a goal off.",
+    ATTENDEES: ("Optional. One row per attendee the timetable must know more of: the slots or days they cannot "
+                "make, extra time, a room of their own. Attendees without a row can make every slot."),
 }
 
 TEXT_COLUMNS = {
@@ -70,6 +78,7 @@ TEXT_COLUMNS = {
     SLOTS: ("Slot",),
     ROOMS: ("Room", "Unavailable slots"),
     RULES: ("First event", "Other events"),
+    ATTENDEES: ("Attendee", "Unavailable slots"),
 }
 
 EXAMPLE = {
@@ -90,8 +99,9 @@ EXAMPLE = {
         ("Tue 4 May PM", dt.date(2027, 5, 4), dt.time(14, 0), 180, 120, None, "yes"),
     ],
     ROOMS: [("Orchard Hall", 100, "Hall", None, "no", "yes"), ("Beacon Lab", 20, "Lab", "Tue 4 May PM", "no", "no"),
-            ("Cloister Room", 40, "Hall", None, "yes", "yes")],
+            ("Cloister Room", 40, "Hall", None, "yes", "yes"), ("Linden Room", 4, "Quiet", None, "no", "no")],
     RULES: [("before", "MAT101", "PHY110"), ("different days", "PHY110", "CHM120")],
+    ATTENDEES: [("HV-S0002", None, 25, None), ("HV-S0003", "Tue 4 May PM", None, "Quiet")],
 }
 
 
@@ -208,6 +218,13 @@ def build_template(example: bool = False):
             check("Capacity", whole(1, 100_000, "Seats in the room"))
             check("Avoid", DataValidation(type="list", formula1='"yes,no"', allow_blank=True, error="Choose yes or no."))
             check("Shared", DataValidation(type="list", formula1='"yes,no"', allow_blank=True, error="Choose yes or no."))
+        elif sheet_name == ATTENDEES:
+            check("Extra time", whole(0, MAX_EXTRA_TIME_PERCENT, "Extra time in percent"))
+            check("Own room", DataValidation(type="list", formula1=f"={ROOMS}!$C$2:$C$200", errorStyle="warning",
+                                             error="Use a room type from the Rooms sheet."))
+        elif sheet_name == ENROLMENTS:
+            check("Attendance", DataValidation(type="list", formula1='"required,optional"', allow_blank=True,
+                                               error="Choose required or optional (blank means required)."))
         elif sheet_name == RULES:
             check("Rule", DataValidation(type="list", formula1='"' + ",".join(RULE_CHOICES) + '"',
                                          error="Choose a rule from the list."))
