@@ -56,3 +56,32 @@ def test_the_fingerprint_does_not_depend_on_hash_order():
                            env={"PYTHONHASHSEED": seed, "PATH": ""}).stdout for seed in ("1", "2", "3")}
     assert len(outs) == 1
     assert normalised_input(_round())["problem"]["optional"] == [["Mira Kell", "GARDENS"], ["Ossian Pell", "BOARD"]]
+
+
+def test_change_calendars_give_an_attendee_with_extra_time_their_own_end(tmp_path):
+    import datetime as dt
+
+    from timetabler.export.change_calendars import write_change_calendars
+    from timetabler.model import Slot
+    from timetabler.store.changes import changes_between
+
+    slots = [Slot("Mon AM", date=dt.date(2027, 6, 7), start=dt.time(9), length_minutes=180),
+             Slot("Mon PM", date=dt.date(2027, 6, 7), start=dt.time(14), length_minutes=180)]
+    enrolments = [("Ivo Brandt", "SOIL"), ("Mira Kell", "SOIL")]
+    problem = Problem(enrolments, events={"SOIL": Event("SOIL", duration_minutes=120)}, slots=slots, source="exams.xlsx")
+    problem.people = {"Ivo Brandt": Attendee("Ivo Brandt", extra_time_percent=50)}
+    with Store(tmp_path / "store.sqlite3") as store:
+        for label, where in (("v1", 1), ("v2", 2)):
+            run = SolveRun(slots=2, slot_list=slots, status="optimal", assignment={"SOIL": where})
+            store.record_solve(problem, [run], {"seed": 0}, publish=(2, label))
+        before, after = store.published_version("v1"), store.published_version("v2")
+    assert after.extra_time == {"Ivo Brandt": 50}
+    written = write_change_calendars(tmp_path / "cal", before=before, after=after,
+                                     changes=changes_between(before, after))
+    ends = {}
+    for path in written:
+        text = path.read_text()
+        confirmed = text.split("STATUS:CONFIRMED")[0].rsplit("BEGIN:VEVENT", 1)[1]
+        ends[path.stem] = [line for line in confirmed.splitlines() if line.startswith("DTEND")][0]
+    # 120 minutes from 14:00; with 50 % extra time 180 minutes (RFC 5545 DTEND, floating local time)
+    assert ends == {"Ivo_Brandt": "DTEND:20270607T170000", "Mira_Kell": "DTEND:20270607T160000"}

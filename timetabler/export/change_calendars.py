@@ -57,9 +57,10 @@ def write_change_calendars(folder: str | Path, *, before: Any, after: Any, chang
     source, k = before.source_name, before.slot_count  # the UIDs the earlier calendars used
     titles = {**(before.titles or {}), **(after.titles or {})}
 
-    def entry(code: str, slot: Any, rooms: Any, cancelled: bool, version: Any) -> CalEvent:
+    def entry(code: str, slot: Any, rooms: Any, cancelled: bool, version: Any, attendee: str) -> CalEvent:
         minutes = (getattr(version, "durations", None) or {}).get(code)
-        start, end = _times(Event(code, duration_minutes=minutes), slot, tz)
+        extra = (getattr(version, "extra_time", None) or {}).get(attendee, 0)  # their own end, as in their calendar
+        start, end = _times(Event(code, duration_minutes=minutes), slot, tz, extra)
         item = CalEvent()
         item.add("uid", _uid(source, k, code))
         item.add("dtstamp", stamp)
@@ -70,7 +71,8 @@ def write_change_calendars(folder: str | Path, *, before: Any, after: Any, chang
         item.add("summary", (f"{code} {title}" if title else code) + (" (cancelled)" if cancelled else ""))
         if rooms:
             item.add("location", ", ".join(str(r) for r, _ in rooms))
-        item.add("description", f"Slot {slot.label}" + (" — no longer in your timetable" if cancelled else ""))
+        item.add("description", f"Slot {slot.label}" + (f"; with {extra} % extra time" if extra > 0 and slot.start
+                                                         else "") + (" — no longer in your timetable" if cancelled else ""))
         item.add("status", "CANCELLED" if cancelled else "CONFIRMED")
         return item
 
@@ -87,11 +89,11 @@ def write_change_calendars(folder: str | Path, *, before: Any, after: Any, chang
         codes = sorted(set(mine_after.get(person.attendee, ())), key=lambda c: (after.assignment[c], c))
         for code in codes:
             n = after.assignment[code]
-            cal.add_component(entry(code, after.slots[n - 1], after.rooms.get(code), False, after))
+            cal.add_component(entry(code, after.slots[n - 1], after.rooms.get(code), False, after, person.attendee))
         for code, was, now_at in person.events:
             if now_at is None and code in before.assignment:
                 n = before.assignment[code]
-                cal.add_component(entry(code, before.slots[n - 1], before.rooms.get(code), True, before))
+                cal.add_component(entry(code, before.slots[n - 1], before.rooms.get(code), True, before, person.attendee))
         if tz is not None:
             cal.add_missing_timezones()
         stem = base = safe_file_stem(show(person.attendee))

@@ -173,6 +173,7 @@ class PublishedVersion:
     status: str
     penalty: int | None
     durations: dict[str, int | None] = dataclasses.field(default_factory=dict)  # event -> minutes, for end times
+    extra_time: dict[str, int] = dataclasses.field(default_factory=dict)  # attendee -> percent (Attendees sheet)
 
     @property
     def slot_count(self) -> int:
@@ -422,10 +423,13 @@ class Store:
                 "SELECT code, title, details_json FROM input_events WHERE input_id = ?", (input_id,)):
             titles[code] = title
             durations[code] = json.loads(details).get("duration_minutes")
+        (problem_json,) = conn.execute("SELECT problem_json FROM inputs WHERE id = ?", (input_id,)).fetchone()
+        extra_time = {str(p["name"]): int(p["extra_time_percent"])
+                      for p in json.loads(problem_json or "{}").get("people") or [] if p.get("extra_time_percent")}
         return PublishedVersion(label=row[0], published_at=_moment(published_at), run_id=run_id, input_id=input_id,
                                 source_name=source_name, slots=[slot_from_dict(s) for s in json.loads(slots_json)],
                                 assignment=assignment, rooms=rooms, enrolments=enrolments, titles=titles,
-                                status=status, penalty=penalty, durations=durations)
+                                status=status, penalty=penalty, durations=durations, extra_time=extra_time)
 
     def problem(self, input_id: int) -> Problem:
         """The stored input as a :class:`Problem` again (events, enrolments, slots, rooms, rules, weights)."""
