@@ -120,6 +120,7 @@ class Availability:
     when their extra time makes that differ from the event's own slots (None: their sitting
     does not fit). ``unavailable[a]``: the slots ``a`` cannot make. ``blocked[e][s]``: the
     required attendees who cannot make start ``s`` of ``e`` (for reasons that name people).
+    ``free[e][s]``: for an event with a quorum, how many of its attendees can make start ``s``.
     """
 
     k: int
@@ -129,6 +130,7 @@ class Availability:
     unavailable: dict[str, frozenset[int]] = field(default_factory=dict)
     blocked: dict[str, dict[int, list[str]]] = field(default_factory=dict)
     quorum_short: dict[str, dict[int, int]] = field(default_factory=dict)
+    free: dict[str, dict[int, int]] = field(default_factory=dict)  # quorum events: start -> attendees who can make it
 
     @property
     def one_slot_each(self) -> bool:
@@ -204,6 +206,7 @@ class Availability:
         sittings: dict[tuple[str, str], dict[int, tuple[int, ...] | None]] = {}
         blocked: dict[str, dict[int, list[str]]] = {}
         quorum_short: dict[str, dict[int, int]] = {}
+        free: dict[str, dict[int, int]] = {}
         for code, event in problem.events.items():
             allowed = set(range(1, k + 1))
             if event.fixed_slot is not None and str(event.fixed_slot).strip():
@@ -246,5 +249,7 @@ class Availability:
                     quorum_short.setdefault(code, {})[s] = free_count[s]
                     allowed.discard(s)
             starts[code] = frozenset(allowed)
+            if event.quorum:
+                free[code] = {s: free_count[s] for s in allowed}
         return cls(k=k, starts=starts, spans=spans, sittings=sittings, unavailable=unavailable,
-                   blocked=blocked, quorum_short=quorum_short)
+                   blocked=blocked, quorum_short=quorum_short, free=free)

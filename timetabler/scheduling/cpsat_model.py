@@ -110,6 +110,9 @@ class TimetableModel:
     day: list[int] = field(default_factory=list)
     pairs: int = 0  # clashing pairs in the model
     clock: object = None  # the build's deadline check
+    # optional attendee (a, e) -> [busy var, what it means]: a is also booked in another event during their sitting at e
+    optional_busy: dict = field(default_factory=dict)
+    found: Availability | None = None  # the people's rules over these slots, when they are in play
 
     def hint(self, assignment: dict[str, int]) -> None:
         """Hint a full solution: ``x`` from ``assignment`` and every derived variable computed from it,
@@ -142,6 +145,10 @@ class TimetableModel:
             return int(a[args[0]] != args[1])
         if kind == "miss":
             return int(a[args[0]] not in args[1])
+        if kind == "busy":
+            return int(_booked_elsewhere(args[0], args[1], args[2], a))
+        if kind == "optmiss":
+            return int(a[args[0]] in args[3] or _booked_elsewhere(args[0], args[1], args[2], a))
         e, f = args[0], args[1]
         gap = abs(a[e] - a[f])
         same = day[a[e] - 1] == day[a[f] - 1]
@@ -279,23 +286,107 @@ def _people_domains(problem: Problem, slots: list[Slot], codes, allowed: dict[st
                 allowed[code].discard(s)
 
 
-def optional_missed_by_slot(problem: Problem, slots: list[Slot], codes) -> dict[str, dict[int, int]]:
-    """For each event, the slots (1-based) its optional attendees cannot make, with how many cannot.
+def optional_missed_by_slot(problem: Problem, slots: list[Slot], codes,
+                            leave_out: set[tuple[str, str]] = frozenset()) -> dict[str, dict[int, int]]:
+    """For each event, the starts (1-based) at which some of its optional attendees cannot come, with how
+    many cannot: they cannot make a slot of their sitting (every slot a long event takes, extra time
+    included), or their sitting does not fit the day.
 
-    This is the part of the ``optional_missed`` goal that depends on one event's slot alone; an
-    optional attendee booked in another event at the same time is counted by the validator only.
+    This is the part of the ``optional_missed`` goal that depends on one event's start alone. An optional
+    attendee booked in another event at the same time is counted by :func:`_add_optional_busy`'s literal
+    (the pairs in ``leave_out`` are counted there whole) and by the validator.
     """
-    if not problem.optional or not problem.people:
+    if not problem.optional:
         return {}
-    away = unavailable_slots(problem, slots)
+    found = Availability.of(problem, slots)
     out: dict[str, dict[int, int]] = {}
     wanted = set(codes)
     for attendee, code in problem.optional:
-        if code in wanted and attendee in away:
+        if code not in wanted or (attendee, code) in leave_out:
+            continue
+        for s in _cannot_starts(problem, slots, attendee, code, found):
             per = out.setdefault(code, {})
-            for s in away[attendee]:
-                per[s] = per.get(s, 0) + 1
+            per[s] = per.get(s, 0) + 1
     return out
+
+
+def _cannot_starts(problem: Problem, slots: list[Slot], attendee: str, code: str,
+                   found: Availability | None = None) -> frozenset[int]:
+    """The starts of ``code`` at which ``attendee`` cannot come (a slot of their sitting they cannot make,
+    or a sitting that does not fit)."""
+    found = found or Availability.of(problem, slots)
+    away = found.unavailable.get(attendee, frozenset())
+    out = set()
+    for s in found.starts.get(code, ()):
+        mine = found.slots_taken(code, s, attendee)
+        if mine is None or away.intersection(mine):
+            out.add(s)
+    return frozenset(out)
+
+
+def _booked_elsewhere(code: str, others: tuple[str, ...], held: dict, a: dict[str, int]) -> bool:
+    """Whether one attendee's sitting at ``code`` meets their sitting at one of ``others`` in timetable ``a``
+    (``held[(event, start)]``: the slots they hold at that event started there)."""
+    if code not in a:
+        return False
+    mine = held[(code, a[code])]
+    return any(c in a and held[(c, a[c])] & mine for c in others)
+
+
+def _add_optional_busy(tm: "TimetableModel", problem: Problem, found: Availability, code_set: set[str],
+                       objective: bool, domains: "Domains", rule_literal) -> None:
+    """Optional attendees booked elsewhere: the part of quorums and of ``optional_missed`` that depends on
+    two events' slots.
+
+    For an optional attendee ``a`` of event ``e`` who has other events, ``busy[a, e]`` is forced to 1
+    when a slot of their sitting at ``e`` is also a slot of their sitting at another of their events
+    that they can come to (the validator's definition: an optional attendee is not free when booked
+    elsewhere then; an optional attendance they cannot come to books nobody). It is
+    only bounded from below: CP-SAT leaves it 0 where it may, since it only costs (the goal, the quorum).
+    A quorum ``q`` of ``e`` started in ``s`` then reads: of the optional attendees who can make ``s``,
+    at most ``free[e][s] - q`` may be busy.
+    """
+    m, x, k = tm.model, tm.x, tm.k
+    events_of: dict[str, list[str]] = {}
+    for a, c in problem.enrolments:
+        if c in code_set:
+            events_of.setdefault(a, []).append(c)
+    goal = objective and problem.weights.optional_missed > 0
+    for a, e in sorted(problem.optional):
+        if e not in code_set or len(events_of.get(a, ())) < 2 or not (goal or problem.events[e].quorum):
+            continue
+        # the slots they hold at each of their events and starts; none where, optional, they cannot come
+        held = {}
+        for c in events_of[a]:
+            cannot = _cannot_starts(problem, [], a, c, found) if (a, c) in problem.optional else frozenset()
+            for s in range(1, k + 1):
+                held[(c, s)] = frozenset() if s in cannot else frozenset(found.slots_taken(c, s, a)
+                                                                         or found.slots_taken(c, s))
+        busy = m.new_bool_var(f"busy[{a},{e}]")
+        others = tuple(c for c in events_of[a] if c != e)
+        for c in others:
+            for t in range(1, k + 1):
+                mine = [x[e][s - 1] for s in sorted(domains.allowed[e]) if t in held[(e, s)]]
+                theirs = [x[c][s - 1] for s in sorted(domains.allowed[c]) if t in held[(c, s)]]
+                if mine and theirs:
+                    m.add(busy >= sum(mine) + sum(theirs) - 1)
+        meaning = (e, others, held)
+        tm.derived.append((busy.index, "busy", *meaning))
+        tm.optional_busy[(a, e)] = (busy, meaning)
+    for e in sorted(code_set):
+        quorum = problem.events[e].quorum
+        mine = [(a, v) for (a, c), (v, _) in tm.optional_busy.items() if c == e]
+        if not quorum or not mine:
+            continue
+        lit = rule_literal(f"{e} needs {quorum} of its attendees free (an optional attendee booked in another "
+                           "event then is not free)", "quorum")
+        cannot = {a: _cannot_starts(problem, [], a, e, found) for a, _ in mine}
+        for s in sorted(domains.allowed[e]):
+            can = [v for a, v in mine if s not in cannot[a]]
+            slack = found.free.get(e, {}).get(s, 0) - quorum
+            if len(can) > slack:
+                m.add(sum(can) <= max(slack, 0)).only_enforce_if([x[e][s - 1]] + ([lit] if lit is not None else []))
+
 
 
 def _type_key(room_type: str | None) -> str | None:
@@ -390,7 +481,7 @@ def build_model(
     tm = TimetableModel(model=m, codes=list(codes), k=k, x=x, day=list(day), pairs=sub.number_of_edges())
     # occ[c][s]: event c holds slot s (its start, or a later slot of a long event's span); the clash, seat,
     # room and "alone" limits read occ, the goals and the other rules read the start x
-    found = Availability.of(problem, slots) if needs_availability(problem, slots) else None
+    found = tm.found = Availability.of(problem, slots) if needs_availability(problem, slots) else None
     occ = {c: x[c] for c in codes}
     spans = found.spans if found is not None else {}
     for c in codes:
@@ -461,6 +552,9 @@ def build_model(
                     if other != c:
                         for t_ in extra:
                             m.add(x[c][start - 1] + occ[other][t_ - 1] <= 1)
+
+    if found is not None and problem.optional:
+        _add_optional_busy(tm, problem, found, code_set, objective, domains, rule_literal)
 
     # fixed and barred slots
     for c in codes:
@@ -624,10 +718,20 @@ def _add_objective(tm: TimetableModel, problem, slots, sub, day, t, d, previous,
                 for c in tm.codes:
                     terms.setdefault("penalised_slot", []).append((w.penalised_slot, x[c][s].index, ("in", c, s + 1)))
     if w.optional_missed > 0:
-        for c, per in optional_missed_by_slot(problem, slots, tm.codes).items():
+        dynamic = set(tm.optional_busy)  # pairs also missed when booked elsewhere: one literal each, below
+        for c, per in optional_missed_by_slot(problem, slots, tm.codes, leave_out=dynamic).items():
             for s, count in sorted(per.items()):
                 terms.setdefault("optional_missed", []).append(
                     (w.optional_missed * count, x[c][s - 1].index, ("in", c, s)))
+        for (a, c), (busy, meaning) in sorted(tm.optional_busy.items()):
+            cannot = _cannot_starts(problem, slots, a, c, tm.found)
+            miss = m.new_bool_var(f"optional_missed[{a},{c}]")
+            m.add(miss >= busy)
+            if cannot:
+                m.add(miss >= sum(x[c][s - 1] for s in sorted(cannot)))
+            tm.derived.append((miss.index, "optmiss", *meaning, cannot))
+            terms.setdefault("optional_missed", []).append(
+                (w.optional_missed, miss.index, ("optmiss", *meaning, cannot)))
     if previous and w.moved > 0:
         for c in tm.codes:
             p = previous.get(c)

@@ -234,6 +234,17 @@ def _parameters(solver: cp_model.CpSolver, options: SolveOptions, seconds: float
         p.max_time_in_seconds = max(0.05, seconds)
 
 
+def _optional_links(problem: Problem) -> list[list[str]]:
+    """The events of each attendee who is optional somewhere and has more than one event: whether they are
+    free at one depends on the slots of the others (a quorum, the ``optional_missed`` goal)."""
+    if not problem.optional:
+        return []
+    events_of: dict[str, list[str]] = {}
+    for a, c in problem.enrolments:
+        events_of.setdefault(a, []).append(c)
+    return [sorted(events_of[a]) for a in sorted({a for a, _ in problem.optional}) if len(events_of[a]) > 1]
+
+
 def _blocks(problem: Problem, graph: nx.Graph, slots: list[Slot], options: SolveOptions) -> list[list[str]]:
     """Groups of events that can be solved apart (the whole problem when anything links them)."""
     codes = sorted(graph.nodes)
@@ -242,6 +253,9 @@ def _blocks(problem: Problem, graph: nx.Graph, slots: list[Slot], options: Solve
     if not options.split_components or coupled:
         return [codes]
     joined = nx.Graph(graph)
+    for events in _optional_links(problem):  # an optional attendee's events: booked elsewhere is seen in one block
+        for a, b in zip(events, events[1:]):
+            joined.add_edge(a, b)
     for rule in problem.rules:
         evs = [c for c in rule.events if c in joined]
         for a, b in zip(evs, evs[1:]):
@@ -400,7 +414,7 @@ def _objective_order_free(problem: Problem, slots: list[Slot], previous: dict) -
         return False
     if w.preferred_slot and any(e.preferred_slots for e in problem.events.values()):
         return False
-    if w.optional_missed and problem.optional and problem.people:
+    if w.optional_missed and problem.optional:  # unavailable, or booked in another event at the time
         return False
     return True
 
@@ -467,6 +481,11 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
     one_slot_each = not needs_availability(problem, slots) or Availability.of(problem, slots).one_slot_each
     if not one_slot_each:
         say("events that take more than one slot: CP-SAT alone (no DSATUR start, no local search)")
+    elif _optional_links(problem):
+        # an optional attendee booked elsewhere counts against a quorum and the goal: the local search's
+        # per-event costs do not see it, so CP-SAT alone (the DSATUR start is still checked by the validator)
+        one_slot_each = False
+        say("optional attendees with several events: CP-SAT alone (no DSATUR start, no local search)")
     if dsatur_complete and one_slot_each:
         # DSATUR honours clashes and each event's allowed slots; the independent check covers the other rules
         say("checking the DSATUR timetable")

@@ -462,6 +462,8 @@ def _check_people(problem, slots, placed, taken, timing, by_attendee, label, vio
     # double bookings of required attendees, over every slot they take
     busy: dict[str, dict[int, list[str]]] = defaultdict(lambda: defaultdict(list))
     for (attendee, code), mine in sits.items():
+        if (attendee, code) in cannot and (attendee, code) in optional:
+            continue  # an optional attendance they cannot come to does not book them
         for t in mine or taken[code]:
             busy[attendee][t].append(code)
     for attendee in sorted(busy):
