@@ -96,7 +96,7 @@ def dimacs(args) -> None:
         secs = time.perf_counter() - t0
         ok = "-"
         if res.run and res.run.assignment:
-            v = validate(problem, generic_slots(res.upper or 0, 1), res.run.assignment)
+            v = validate(problem, generic_slots(res.upper or 0, 1), res.run.assignment, own_rooms=res.run.own_rooms)
             ok = "yes" if v.ok else "NO"
         found = res.upper if res.upper is not None else "-"
         reached += res.upper is not None and res.upper <= int(chi)
@@ -154,7 +154,7 @@ def large(args) -> None:
     events: list[tuple[float, dict]] = []
     opts = SolveOptions(time_limit=args.time_limit, workers=args.workers, seed=args.seed)
     run = solve(problem, slots, opts, graph=graph, progress=lambda e: events.append((time.perf_counter(), e)))
-    v = validate(problem, slots, run.assignment, run.rooms) if run.assignment else None
+    v = validate(problem, slots, run.assignment, run.rooms, own_rooms=run.own_rooms) if run.assignment else None
     peak_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
     print(f"{'slots':>6}{'status':>10}{'first(s)':>10}{'penalty':>10}{'bound':>12}{'gap':>8}{'wall(s)':>9}"
           f"{'valid':>7}{'peak MB':>9}{'load':>6}")

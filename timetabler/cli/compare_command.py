@@ -112,6 +112,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, day_counts,
             run = solve(problem, slots, clock.options(options, i), previous=previous, graph=graph)
             if run.assignment:
                 run.validation = validate(problem, slots, run.assignment, run.rooms or None, previous=previous,
+                                          own_rooms=run.own_rooms,
                                           room_sharing=share_rooms, room_splitting=split_rooms)
             runs.append(run)
     with _step(not as_json, "counting clash-free timetables"):

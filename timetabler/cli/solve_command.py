@@ -147,7 +147,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, day_counts,
             show.finish(task)
             if run.assignment:
                 run.validation = validate(problem, slots, run.assignment, run.rooms or None, previous=previous,
-                                          room_sharing=share_rooms, room_splitting=split_rooms)
+                                          room_sharing=share_rooms, room_splitting=split_rooms, own_rooms=run.own_rooms)
             runs.append(run)
     settings = {"time limit (s)": time_limit, "workers": workers, "seed": seed,
                 "sessions per day": None if problem.slots else sessions_per_day,

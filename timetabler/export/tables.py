@@ -947,7 +947,8 @@ def validate_run(problem: Problem, run: Any) -> Any:
         from ..scheduling import validate
     except ImportError:
         return None
-    return validate(problem, list(run.slot_list), dict(run.assignment), getattr(run, "rooms", None) or None)
+    return validate(problem, list(run.slot_list), dict(run.assignment), getattr(run, "rooms", None) or None,
+                    own_rooms=getattr(run, "own_rooms", None))
 
 
 def validations_for(problem: Problem, runs: Sequence[Any], given: Mapping[int, Any] | None = None) -> dict[int, Any]:

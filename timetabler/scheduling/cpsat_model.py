@@ -49,6 +49,7 @@ from ortools.sat.python import cp_model
 from ..availability import Availability, unavailable_slots
 from ..model import Problem, RuleKind, Slot, days_of
 from .cliques import clique_cover
+from .rooms import seated_apart, seats_in_rooms
 
 #: Carter, Laporte & Lee (1996) proximity weights for gaps of 1..5 slots.
 PROXIMITY_WEIGHTS = (16, 8, 4, 2, 1)
@@ -214,7 +215,10 @@ def physical_domains(problem: Problem, slots: list[Slot], codes, sizes: dict[str
     allowed: dict[str, set[int]] = {}
     why: dict[str, dict[int, str]] = {}
     room_caps = _room_capacity_by_slot(problem, slots)
-    long_starts = Availability.of(problem, slots).spans if needs_availability(problem, slots) else {}
+    found = Availability.of(problem, slots) if needs_availability(problem, slots) else None
+    long_starts = found.spans if found is not None else {}
+    apart = seated_apart(problem)
+    in_rooms = seats_in_rooms(sizes, apart)  # attendees seated apart take no seat in the event's rooms
     for code in codes:
         ev = problem.events[code]
         ok: set[int] = set()
@@ -228,16 +232,23 @@ def physical_domains(problem: Problem, slots: list[Slot], codes, sizes: dict[str
             if slot.seat_capacity is not None and sizes[code] > slot.seat_capacity:
                 reasons[s] = f"it has {sizes[code]} attendees and slot {s} only {slot.seat_capacity} seats"
                 continue
-            if problem.rooms and sizes[code] > 0:
+            if problem.rooms and in_rooms[code] > 0:
                 caps = [cap for cap, _ in room_caps[s].get(_type_key(ev.room_type), [])]
                 room_word = f"rooms of type '{ev.room_type}'" if ev.room_type else "rooms"
+                who = (f"{in_rooms[code]} attendees to seat ({sizes[code] - in_rooms[code]} more sit apart)"
+                       if in_rooms[code] < sizes[code] else f"{sizes[code]} attendees")
                 if room_splitting:
-                    if sizes[code] > sum(caps):
-                        reasons[s] = f"it has {sizes[code]} attendees and the {room_word} free in slot {s} seat {sum(caps)}"
+                    if in_rooms[code] > sum(caps):
+                        reasons[s] = f"it has {who} and the {room_word} free in slot {s} seat {sum(caps)}"
                         continue
-                elif sizes[code] > max(caps, default=0):
-                    reasons[s] = (f"it has {sizes[code]} attendees and the largest of the {room_word} free in "
+                elif in_rooms[code] > max(caps, default=0):
+                    reasons[s] = (f"it has {who} and the largest of the {room_word} free in "
                                   f"slot {s} seats {max(caps, default=0)}")
+                    continue
+            if code in apart:
+                short = _own_rooms_short(problem, slots, code, s, apart[code], found)
+                if short:
+                    reasons[s] = short
                     continue
             ok.add(s)
         allowed[code] = ok
@@ -245,6 +256,29 @@ def physical_domains(problem: Problem, slots: list[Slot], codes, sizes: dict[str
     if problem.has_people:
         _people_domains(problem, slots, codes, allowed, why)
     return Domains(allowed, why)
+
+
+def _own_rooms_short(problem: Problem, slots: list[Slot], code: str, s: int, apart: list[tuple[str, str]],
+                     found: Availability | None) -> str | None:
+    """Why ``code`` started in ``s`` leaves an attendee seated apart without a room of their type (None: it
+    does not): no such room free for their whole sitting, or fewer free in slot ``s`` than they are."""
+    away = {r.name: {t for ref in r.unavailable_slots if (t := problem.slot_number(ref, slots)) is not None}
+            for r in problem.rooms}
+    by_type: dict[str, list[str]] = {}
+    for attendee, kind in apart:
+        by_type.setdefault(kind.casefold(), []).append(attendee)
+        sitting = (found.slots_taken(code, s, attendee) or found.slots_taken(code, s)) if found is not None else (s,)
+        if not any((r.room_type or "").casefold() == kind.casefold() and r.capacity >= 1
+                   and not away[r.name].intersection(sitting) for r in problem.rooms):
+            held = f"slot {s}" if len(sitting) == 1 else f"slots {sitting[0]}-{sitting[-1]}"
+            return f"{attendee} sits it alone in a room of type '{kind}' and none is free in {held}"
+    for kind, names in by_type.items():
+        n = sum(1 for r in problem.rooms if (r.room_type or "").casefold() == kind and r.capacity >= 1
+                and s not in away[r.name])
+        if len(names) > n:
+            return (f"{len(names)} of its attendees sit it alone in rooms of type '{kind}' and only {n} such "
+                    f"room(s) are free in slot {s}")
+    return None
 
 
 def needs_availability(problem: Problem, slots: list[Slot]) -> bool:
@@ -459,7 +493,7 @@ def build_model(
     large: set[str] | None = None,
     room_splitting: bool = False,
     room_sharing: bool = True,
-    nogoods: list[tuple[int, list[str]]] | None = None,
+    nogoods: list[list[tuple[str, int]]] | None = None,
     cover: list[list[Hashable]] | None = None,
     stop_at: float | None = None,
 ) -> TimetableModel:
@@ -467,8 +501,9 @@ def build_model(
 
     ``symmetry`` is a clique whose events are fixed to slots 1, 2, ...; pass it only when
     :func:`slots_interchangeable` holds and the objective does not depend on slot order.
-    ``nogoods`` are (slot, events) pairs that must not all share that slot (rooms found
-    impossible to allocate). ``explain`` gives every user rule its own assumption literal.
+    ``nogoods`` are sets of (event, start slot) pairs that must not all hold at once (a group of
+    events found impossible to seat in the rooms, with every slot they take; the older form
+    (slot, [events]) means those events all starting in that slot). ``explain`` gives every user rule its own assumption literal.
     ``stop_at`` (a ``time.perf_counter()`` time): raise :class:`BuildStopped` as soon as the
     building pace shows it would not end by then (a large model takes tens of seconds).
     """
@@ -631,29 +666,54 @@ def build_model(
         lit = rule_literal(f"slot {s + 1} ({slots[s].label}) seats at most {cap}", "seats")
         enforce(m.add(sum(n * v for n, v in load) <= cap), lit)
 
-    # rooms: seats of the rooms of each type free in each slot
+    # rooms: seats of the rooms of each type free in each slot; attendees seated apart (Own room) sit in no
+    # room of their event's, each holds a room of their type alone for their sitting
     if problem.rooms:
         caps = _room_capacity_by_slot(problem, slots, shared_only=not room_sharing)
         types = sorted({_type_key(problem.events[c].room_type) for c in codes}, key=lambda v: (v is not None, v or ""))
+        apart = {c: v for c, v in seated_apart(problem).items() if c in code_set}
+        seated = seats_in_rooms({c: sizes[c] for c in codes}, apart)
+        holds = _own_room_holds(apart, found, x, k)
+        for kind, per_slot in sorted(holds.items()):
+            for s in range(k):
+                lits = per_slot.get(s + 1, [])
+                rooms_free = sum(1 for cap, _ in caps[s + 1].get(kind, []) if cap >= 1)
+                if len(lits) > rooms_free:
+                    lit = rule_literal(f"slot {s + 1} has {rooms_free} room(s) of type '{kind}' free for the attendees "
+                                       "who sit alone", "rooms")
+                    enforce(m.add(sum(lits) <= rooms_free), lit)
         for s in range(k):
             for ty in types:
-                members = [c for c in codes if sizes[c] > 0
+                members = [c for c in codes if seated[c] > 0
                            and (ty is None or _type_key(problem.events[c].room_type) == ty)]
                 room_caps = caps[s + 1].get(ty, [])
                 word = f"rooms of type '{ty}'" if ty else "rooms"
-                if sum(sizes[c] for c in members) > sum(cap for cap, _ in room_caps):
-                    total = sum(cap for cap, _ in room_caps)
+                # each attendee apart in these rooms takes a whole room: at least the smallest of its type
+                own = [(min((cap for cap, _ in caps[s + 1].get(kind, [])), default=0), per_slot[s + 1])
+                       for kind, per_slot in sorted(holds.items()) if (ty is None or kind == ty) and per_slot.get(s + 1)]
+                own_most = sum(least * len(lits) for least, lits in own)
+                total = sum(cap for cap, _ in room_caps)
+                if sum(seated[c] for c in members) + own_most > total:
                     lit = rule_literal(f"the {word} free in slot {s + 1} seat {total}", "rooms")
-                    enforce(m.add(sum(sizes[c] * occ[c][s] for c in members) <= total), lit)
+                    enforce(m.add(sum(seated[c] * occ[c][s] for c in members)
+                                  + sum(least * sum(lits) for least, lits in own) <= total), lit)
+                if own and not any(shared for _, shared in room_caps):
+                    # one room for each event and for each attendee apart
+                    count = sum(1 for cap, _ in room_caps if cap >= 1)
+                    if len(members) + sum(len(lits) for _, lits in own) > count:
+                        lit = rule_literal(f"slot {s + 1} has {count} {word} free, one event or one attendee "
+                                           "apart per room", "rooms")
+                        enforce(m.add(sum(occ[c][s] for c in members) + sum(sum(lits) for _, lits in own) <= count),
+                                lit)
                 if not room_splitting:
                     # Hall's condition: the events needing at least `need` seats cannot outnumber the places
                     # for them, a room of `cap` seats holding one such event, or cap // need when shared
                     # (exact without sharing for one room type, since the rooms an event fits are nested by size)
-                    needs = {cap + 1 for cap, _ in room_caps} | {min((sizes[c] for c in members), default=1)}
+                    needs = {cap + 1 for cap, _ in room_caps} | {min((seated[c] for c in members), default=1)}
                     if any(shared for _, shared in room_caps):
-                        needs |= {sizes[c] for c in members}
+                        needs |= {seated[c] for c in members}
                     for need in sorted(needs):
-                        big = [c for c in members if sizes[c] >= need]
+                        big = [c for c in members if seated[c] >= need]
                         fits = sum((cap // need if shared else 1) for cap, shared in room_caps if cap >= need)
                         if len(big) > fits:
                             lit = rule_literal(f"slot {s + 1} has places for {fits} events with {need} seats or more "
@@ -663,9 +723,11 @@ def build_model(
                     # split events still take a room each, and no room takes two
                     lit = rule_literal(f"slot {s + 1} has {len(room_caps)} {word} free, one event per room", "rooms")
                     enforce(m.add(sum(occ[c][s] for c in members) <= len(room_caps)), lit)
-    for s, group in nogoods or ():
-        if all(c in code_set for c in group):
-            m.add(sum(x[c][s - 1] for c in group) <= len(group) - 1)
+    for cut in nogoods or ():
+        if isinstance(cut, tuple) and len(cut) == 2 and isinstance(cut[0], int):  # (slot, events): one slot's group
+            cut = [(c, cut[0]) for c in cut[1]]
+        if cut and all(c in code_set for c, _ in cut):
+            m.add(sum(x[c][start - 1] for c, start in cut) <= len(cut) - 1)
 
     # the cap on events per attendee per day
     if problem.max_per_day is not None and k:
@@ -953,6 +1015,23 @@ def _add_pair_goals(tm: TimetableModel, sub, t, d, terms, weights, plan: PairPla
             tm.derived.append((v.index, "twoday", a, b))
             m.add_bool_or([~sday, near[1], v])
             terms.setdefault("same_day", []).append((c * weights.same_day, v.index, ("twoday", a, b)))
+
+
+def _own_room_holds(apart: dict[str, list[tuple[str, str]]], found: Availability | None, x, k: int
+                    ) -> dict[str, dict[int, list]]:
+    """Own room type (folded) -> slot -> one start literal ``x[c][start]`` per (attendee apart, event, start)
+    whose sitting holds that slot (extra time included): summed, the attendees apart holding rooms of that type
+    in that slot (each attendee's event has one start)."""
+    out: dict[str, dict[int, list]] = {}
+    for c, people in sorted(apart.items()):
+        for attendee, kind in people:
+            per = out.setdefault(kind.casefold(), {})
+            for start in range(1, k + 1):
+                sitting = ((found.slots_taken(c, start, attendee) or found.slots_taken(c, start))
+                           if found is not None else (start,))
+                for t_ in sitting:
+                    per.setdefault(t_, []).append(x[c][start - 1])
+    return out
 
 
 def _attendee_event_sets(problem: Problem, code_set: set[str]) -> list[tuple[str, ...]]:

@@ -15,6 +15,25 @@ returned to the caller, which forbids that exact group of events in that slot an
 again (a logic-based Benders cut: Hooker & Ottosson, "Logic-based Benders decomposition",
 Math. Programming 96 (2003) 33-60).
 
+Long events and attendees seated apart
+--------------------------------------
+A long event (one that takes several touching slots,
+:meth:`Availability.slots_taken <timetabler.availability.Availability.slots_taken>`) holds the
+same rooms, with the same seats, in every slot it takes, and those seats count against each
+room in each of those slots. An attendee with an own room (``Attendee.own_room_type``, the
+Attendees sheet's Own room column) sits each of their events alone in a room of that type for
+their whole sitting (with extra time it may run into the next slot), and the event's own
+rooms seat one fewer (:func:`seats_in_rooms`). Such slots are linked: the slots each event
+and each sitting apart hold are joined by union-find, and each group of linked slots is seated
+jointly, by a greedy that checks every slot an event holds (attendees apart first, each in
+the smallest free room of their type) and, when it fails or leaves a room-goal penalty, by a
+CP-SAT model of the whole group (:func:`_exact_group`: per room and slot, capacity, sharing
+and sitting alone; a room unavailable in any slot an event or sitting holds is not offered to
+it). A group that cannot be seated is returned as the exact (event, start) pairs that make it
+(``Seating.failed_groups``): no timetable holding all of them can be seated, whatever else it
+holds, since more events in those slots only make seating harder. A slot taken by single-slot
+events alone, with nobody apart, is seated as described above.
+
 Preferred and avoided rooms
 ---------------------------
 Two soft goals belong to seating alone, since the slot model does not choose rooms:
@@ -52,8 +71,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
+from networkx.utils import UnionFind
 from ortools.sat.python import cp_model
 
+from ..availability import Availability
 from ..model import Problem, Room, Slot
 
 
@@ -61,12 +82,20 @@ from ..model import Problem, Room, Slot
 class Seating:
     """Rooms of every seated event, the slots that could not be seated, and the room goals' counts.
 
+    ``rooms``: event -> [(room, seats)], the same rooms and seats in every slot the event takes;
+    ``own_rooms``: (attendee, event) -> the room that attendee sits the event in alone (held for
+    every slot of their sitting; the event's ``rooms`` seat them no more).
+    ``failed_groups``: each group of events that could not be seated together, as the exact
+    (event, start slot) pairs a timetable must not repeat all at once (the Benders cut);
+    ``failed_slots``: for messages, slot -> the events holding it in a group that failed.
     ``missed_preferred_rooms`` counts events with preferred rooms seated in none of them;
     ``avoided_rooms_used`` counts (event, room marked Avoid) pairs. Both are counts, not
     penalties: multiply by ``Weights.preferred_room`` and ``Weights.penalised_room``.
     """
 
     rooms: dict[str, list[tuple[str, int]]] = field(default_factory=dict)
+    own_rooms: dict[tuple[str, str], str] = field(default_factory=dict)
+    failed_groups: list[list[tuple[str, int]]] = field(default_factory=list)
     failed_slots: dict[int, list[str]] = field(default_factory=dict)  # slot -> events that could not be seated together
     missed_preferred_rooms: int = 0
     avoided_rooms_used: int = 0
@@ -74,50 +103,161 @@ class Seating:
     unsettled_slots: list[int] = field(default_factory=list)  # failed within the time, not proven unseatable
 
 
+def seated_apart(problem: Problem) -> dict[str, list[tuple[str, str]]]:
+    """Event -> [(attendee, own room type)] of its attendees who sit it alone (``Attendee.own_room_type``),
+    sorted by attendee; empty when the problem has no rooms (intake then warns that own rooms are ignored)."""
+    if not problem.rooms or not problem.people:
+        return {}
+    out: dict[str, list[tuple[str, str]]] = {}
+    for attendee, code in problem.enrolments:
+        person = problem.people.get(attendee)
+        if person is not None and person.own_room_type:
+            out.setdefault(code, []).append((attendee, str(person.own_room_type)))
+    return {code: sorted(set(pairs)) for code, pairs in out.items()}
+
+
+def seats_in_rooms(sizes: dict[str, int], apart: dict[str, list[tuple[str, str]]]) -> dict[str, int]:
+    """The seats each event needs in its own rooms: its attendees less those who sit apart."""
+    return {code: max(0, n - len(apart.get(code, ()))) for code, n in sizes.items()}
+
+
 def seat_events(problem: Problem, slots: list[Slot], assignment: dict[str, int], sizes: dict[str, int], *,
                 sharing: bool = True, splitting: bool = False, seconds_per_slot: float = 5.0,
-                seed: int = 0) -> Seating:
-    """Rooms for every event of ``assignment`` (event -> [(room, seats)])."""
+                seed: int = 0, availability: Availability | None = None) -> Seating:
+    """Rooms for every event of ``assignment`` (event -> [(room, seats)]) and for every attendee
+    who sits apart (``Seating.own_rooms``).
+
+    The slots are grouped by the events that link them (union-find over the slots each event
+    holds and the slots each attendee seated apart holds for their sitting). A group of one
+    slot with nobody seated apart is seated as it always was (:func:`_seat_slot`); a linked
+    group is seated jointly (:func:`_seat_group`): a greedy checking every slot each event
+    holds, then, when it fails or leaves a room-goal penalty, a CP-SAT model of the group.
+    ``availability`` (:meth:`Availability.of <timetabler.availability.Availability.of>` of
+    ``problem`` and ``slots``) saves working it out again.
+    """
     out = Seating()
-    by_slot: dict[int, list[str]] = {}
-    for code, s in assignment.items():
-        if sizes.get(code, 0) > 0:
-            by_slot.setdefault(s, []).append(code)
     goals = _RoomGoals(problem)
-    for s, codes in sorted(by_slot.items()):
-        free = [r for r in problem.rooms
-                if not any(problem.slot_number(ref, slots) == s for ref in r.unavailable_slots)]
-        codes = sorted(codes, key=lambda c: (-sizes[c], c))
-        got = _greedy(problem, codes, free, sizes, sharing, splitting, goals)
-        if got is None and goals.active:
-            got = _greedy(problem, codes, free, sizes, sharing, splitting, None)
-        proven = True
-        if got is None or goals.penalty(got):
-            # one event per room, whole: an assignment problem, solved exactly
-            whole = _assignment(problem, codes, free, sizes, goals)
-            if whole is not None and (got is None or goals.cost(whole) < goals.cost(got)):
-                got = whole
-            # Splitting alone adds room_split per extra room, so it cannot beat a whole seating
-            # costing room_split or less; sharing is free and always worth the search.
-            shares = sharing and any(r.shared for r in free)
-            settled = whole is not None and not shares and goals.cost(whole)[0] <= goals.split
-            if (shares or splitting) and not settled:  # CP-SAT may still do better by sharing or splitting
-                better, proven = _exact(problem, codes, free, sizes, sharing, splitting, seconds_per_slot, seed,
-                                        goals, hint=got)
-                if better is not None and (got is None or goals.cost(better) < goals.cost(got)):
-                    got = better
-        if got is None:
-            out.failed_slots[s] = codes
-            if not proven:
-                out.unsettled_slots.append(s)
-            continue
-        out.rooms.update(got)
-        missed, avoided = goals.counts(got)
-        out.missed_preferred_rooms += missed
-        out.avoided_rooms_used += avoided
-        if not proven and goals.penalty(got):
-            out.unproven_slots.append(s)
+    apart = seated_apart(problem)
+    found = availability
+    if found is None and _spans_or_sittings(problem, slots):
+        found = Availability.of(problem, slots)
+    need = seats_in_rooms({c: sizes.get(c, 0) for c in assignment}, apart)
+    held: dict[str, tuple[int, ...]] = {}  # event -> the slots its rooms are held in
+    own: list[tuple[str, str, str, tuple[int, ...]]] = []  # (attendee, event, room type, slots held)
+    for code, s in assignment.items():
+        span = found.slots_taken(code, s) if found is not None else (s,)
+        if need[code] > 0:
+            held[code] = tuple(span)
+        for attendee, kind in apart.get(code, ()):
+            sitting = found.slots_taken(code, s, attendee) if found is not None else None
+            own.append((attendee, code, kind, tuple(sitting or span)))
+    groups = UnionFind()
+    for span in held.values():
+        groups.union(*span)
+    for *_, sitting in own:
+        groups.union(*sitting)
+    members: dict[int, tuple[list[str], list]] = {}
+    for code, span in held.items():
+        members.setdefault(groups[span[0]], ([], []))[0].append(code)
+    for item in own:
+        members.setdefault(groups[item[3][0]], ([], []))[1].append(item)
+    unavailable = {r.name: {t for ref in r.unavailable_slots if (t := problem.slot_number(ref, slots)) is not None}
+                   for r in problem.rooms}
+    parts = sorted(members.values(), key=lambda m: min(t for c in m[0] for t in held[c]) if m[0]
+                   else min(t for item in m[1] for t in item[3]))
+    for codes, apart_here in parts:
+        slot_set = sorted({t for c in codes for t in held[c]} | {t for item in apart_here for t in item[3]})
+        if len(slot_set) == 1 and not apart_here:
+            _seat_slot(problem, slot_set[0], codes, need, sharing, splitting, seconds_per_slot, seed, goals,
+                       unavailable, out)
+        else:
+            _seat_group(problem, slot_set, codes, apart_here, held, need, assignment, sharing, splitting,
+                        seconds_per_slot, seed, goals, unavailable, out)
     return out
+
+
+def _spans_or_sittings(problem: Problem, slots: list[Slot]) -> bool:
+    """Whether an event may take more than one slot, or an attendee's sitting differ from the event's slots
+    (else every event holds its start slot alone and :class:`Availability` is not needed)."""
+    if problem.people and any(p.extra_time_percent > 0 for p in problem.people.values()):
+        return True
+    shortest = min((s.length_minutes for s in slots if s.length_minutes), default=None)
+    return shortest is not None and any(e.duration_minutes and e.duration_minutes > shortest
+                                        for e in problem.events.values())
+
+
+def _seat_slot(problem, s, codes, sizes, sharing, splitting, seconds_per_slot, seed, goals, unavailable,
+               out: Seating) -> None:
+    """One slot whose events take it alone, with nobody seated apart: the greedy, the assignment problem,
+    then the slot's CP-SAT model (the module's description)."""
+    free = [r for r in problem.rooms if s not in unavailable[r.name]]
+    codes = sorted(codes, key=lambda c: (-sizes[c], c))
+    got = _greedy(problem, codes, free, sizes, sharing, splitting, goals)
+    if got is None and goals.active:
+        got = _greedy(problem, codes, free, sizes, sharing, splitting, None)
+    proven = True
+    if got is None or goals.penalty(got):
+        # one event per room, whole: an assignment problem, solved exactly
+        whole = _assignment(problem, codes, free, sizes, goals)
+        if whole is not None and (got is None or goals.cost(whole) < goals.cost(got)):
+            got = whole
+        # Splitting alone adds room_split per extra room, so it cannot beat a whole seating
+        # costing room_split or less; sharing is free and always worth the search.
+        shares = sharing and any(r.shared for r in free)
+        settled = whole is not None and not shares and goals.cost(whole)[0] <= goals.split
+        if (shares or splitting) and not settled:  # CP-SAT may still do better by sharing or splitting
+            better, proven = _exact(problem, codes, free, sizes, sharing, splitting, seconds_per_slot, seed,
+                                    goals, hint=got)
+            if better is not None and (got is None or goals.cost(better) < goals.cost(got)):
+                got = better
+    if got is None:
+        out.failed_slots[s] = codes
+        out.failed_groups.append([(c, s) for c in codes])
+        if not proven:
+            out.unsettled_slots.append(s)
+        return
+    out.rooms.update(got)
+    missed, avoided = goals.counts(got)
+    out.missed_preferred_rooms += missed
+    out.avoided_rooms_used += avoided
+    if not proven and goals.penalty(got):
+        out.unproven_slots.append(s)
+
+
+def _seat_group(problem, slot_set, codes, apart_here, held, sizes, assignment, sharing, splitting,
+                seconds_per_slot, seed, goals, unavailable, out: Seating) -> None:
+    """Slots linked by long events or by attendees seated apart, seated jointly: each event holds the same
+    rooms (with the same seats) in every slot it takes, each attendee apart a room of their type alone for
+    their whole sitting. The greedy first; CP-SAT when it fails or leaves a room-goal penalty."""
+    codes = sorted(codes, key=lambda c: (-sizes[c], -len(held[c]), c))
+    apart_here = sorted(apart_here, key=lambda item: (-len(item[3]), item[0], item[1]))
+    got = _greedy_group(problem, codes, apart_here, held, sizes, sharing, splitting, goals, unavailable)
+    if got is None and goals.active:
+        got = _greedy_group(problem, codes, apart_here, held, sizes, sharing, splitting, None, unavailable)
+    proven = True
+    if got is None or goals.penalty(got[0]):
+        better, proven = _exact_group(problem, codes, apart_here, held, sizes, sharing, splitting,
+                                      seconds_per_slot, seed, goals, unavailable, hint=got)
+        if better is not None and (got is None or goals.cost(better[0]) < goals.cost(got[0])):
+            got = better
+    if got is None:
+        everyone = {c for c in codes} | {item[1] for item in apart_here}
+        for t in slot_set:
+            out.failed_slots[t] = sorted(c for c in everyone
+                                         if t in held.get(c, ()) or any(item[1] == c and t in item[3]
+                                                                        for item in apart_here))
+        out.failed_groups.append(sorted((c, assignment[c]) for c in everyone))
+        if not proven:
+            out.unsettled_slots.extend(slot_set)
+        return
+    rooms, own = got
+    out.rooms.update(rooms)
+    out.own_rooms.update(own)
+    missed, avoided = goals.counts(rooms)
+    out.missed_preferred_rooms += missed
+    out.avoided_rooms_used += avoided
+    if not proven and goals.penalty(rooms):
+        out.unproven_slots.extend(slot_set)
 
 
 class _RoomGoals:
@@ -311,3 +451,173 @@ def _exact(problem, codes, rooms, sizes, sharing, splitting, seconds, seed, goal
         if solver.BooleanValue(v):
             out.setdefault(c, []).append((name, solver.Value(seats[c, name]) if splitting else sizes[c]))
     return {c: sorted(v) for c, v in out.items()}, status == cp_model.OPTIMAL
+
+
+def _own_room_candidates(problem, kind: str, sitting: tuple[int, ...], unavailable) -> list[Room]:
+    """Rooms of type ``kind`` free in every slot of ``sitting``, for one attendee alone (rooms marked Avoid
+    last, then the smallest: a room for one person wastes least)."""
+    want = kind.casefold()
+    ok = [r for r in problem.rooms if (r.room_type or "").casefold() == want and r.capacity >= 1
+          and not unavailable[r.name].intersection(sitting)]
+    return sorted(ok, key=lambda r: (r.penalised, r.capacity, r.name))
+
+
+def _greedy_group(problem, codes, apart_here, held, sizes, sharing, splitting, goals: _RoomGoals | None,
+                  unavailable):
+    """Best-fit decreasing over linked slots: the attendees apart first (each the smallest free room of their
+    type, alone in every slot of their sitting), then the events, each in rooms free and with room in
+    every slot it holds. (rooms, own rooms) or None."""
+
+    def cost(code: str, room: Room) -> int:
+        return goals.room_cost(code, room.name) if goals is not None else 0
+
+    def shunned(room: Room) -> bool:
+        return goals is not None and bool(goals.avoided) and room.name.casefold() in goals.avoid
+
+    left: dict[tuple[str, int], int] = {}
+    used: set[tuple[str, int]] = set()
+    solo: set[tuple[str, int]] = set()
+    own: dict[tuple[str, str], str] = {}
+    for attendee, code, kind, sitting in apart_here:
+        room = next((r for r in _own_room_candidates(problem, kind, sitting, unavailable)
+                     if not any((r.name, t) in used for t in sitting)), None)
+        if room is None:
+            return None
+        for t in sitting:
+            used.add((room.name, t))
+            solo.add((room.name, t))
+        own[(attendee, code)] = room.name
+    result: dict[str, list[tuple[str, int]]] = {}
+    for code in codes:
+        span = held[code]
+        need = sizes[code]
+        ok = [r for r in problem.rooms if _fits_type(problem, code, r) and not unavailable[r.name].intersection(span)
+              and all((r.name, t) not in solo and ((r.name, t) not in used or (sharing and r.shared)) for t in span)]
+        room_left = {r.name: min(left.get((r.name, t), r.capacity) for t in span) for r in ok}
+        whole = sorted((r for r in ok if room_left[r.name] >= need), key=lambda r: (cost(code, r), room_left[r.name], r.name))
+        if whole:
+            chosen = [(whole[0].name, need)]
+        elif not splitting:
+            return None
+        else:
+            chosen = []
+            for r in sorted(ok, key=lambda r: (shunned(r), -room_left[r.name], r.name)):
+                if need <= 0:
+                    break
+                if room_left[r.name] <= 0:
+                    continue
+                take = min(need, room_left[r.name])
+                chosen.append((r.name, take))
+                need -= take
+            if need > 0:
+                return None
+        for name, take in chosen:
+            capacity = next(r.capacity for r in ok if r.name == name)
+            for t in span:
+                left[(name, t)] = left.get((name, t), capacity) - take
+                used.add((name, t))
+        result[code] = chosen
+    return result, own
+
+
+def _exact_group(problem, codes, apart_here, held, sizes, sharing, splitting, seconds, seed, goals: _RoomGoals,
+                 unavailable, hint=None):
+    """The linked group's CP-SAT seating ((rooms, own rooms) or None), and whether CP-SAT proved it best (or
+    proved that none exists).
+
+    Variables: ``use[c, r]`` (event ``c`` has seats in room ``r`` in every slot it holds; with splitting
+    ``seats[c, r]`` of them) and ``alone[i, r]`` (attendee apart ``i`` sits alone in ``r`` for their whole
+    sitting). Rooms unavailable in any slot an event or sitting holds are left out of its choice. Per room
+    and slot: the seats of the events holding it at most its capacity, at most one of them unless it may be
+    shared, and nothing else where an attendee sits alone. The objective is :func:`_exact`'s.
+    """
+    m = cp_model.CpModel()
+    use: dict[tuple[str, str], cp_model.IntVar] = {}
+    seats: dict[tuple[str, str], cp_model.LinearExprT] = {}
+    alone: dict[tuple[int, str], cp_model.IntVar] = {}
+    for c in codes:
+        for r in problem.rooms:
+            if not _fits_type(problem, c, r) or unavailable[r.name].intersection(held[c]):
+                continue
+            if not splitting and r.capacity < sizes[c]:
+                continue
+            use[c, r.name] = m.NewBoolVar(f"use[{c},{r.name}]")
+            if not splitting:
+                seats[c, r.name] = sizes[c] * use[c, r.name]
+                continue
+            seats[c, r.name] = m.NewIntVar(0, min(r.capacity, sizes[c]), f"seats[{c},{r.name}]")
+            m.Add(seats[c, r.name] <= min(r.capacity, sizes[c]) * use[c, r.name])
+            m.Add(seats[c, r.name] >= use[c, r.name])
+    for c in codes:
+        mine = [r.name for r in problem.rooms if (c, r.name) in use]
+        if not mine:
+            return None, True
+        if splitting:
+            m.Add(sum(seats[c, n] for n in mine) == sizes[c])
+        else:
+            m.AddExactlyOne(use[c, n] for n in mine)
+    for i, (attendee, code, kind, sitting) in enumerate(apart_here):
+        mine = _own_room_candidates(problem, kind, sitting, unavailable)
+        if not mine:
+            return None, True
+        for r in mine:
+            alone[i, r.name] = m.NewBoolVar(f"alone[{attendee},{code},{r.name}]")
+        m.AddExactlyOne(alone[i, r.name] for r in mine)
+    slot_set = sorted({t for c in codes for t in held[c]} | {t for item in apart_here for t in item[3]})
+    for r in problem.rooms:
+        for t in slot_set:
+            here = [c for c in codes if (c, r.name) in use and t in held[c]]
+            solo = [alone[i, r.name] for i, item in enumerate(apart_here) if (i, r.name) in alone and t in item[3]]
+            if solo:
+                m.AddAtMostOne(solo)
+                for lit in solo:
+                    for c in here:
+                        m.AddImplication(lit, use[c, r.name].Not())
+            if not here:
+                continue
+            if sum(min(r.capacity, sizes[c]) for c in here) > r.capacity:
+                m.Add(sum(seats[c, r.name] for c in here) <= r.capacity)
+            if not (sharing and r.shared) and len(here) > 1:
+                m.AddAtMostOne(use[c, r.name] for c in here)
+    weighted = []
+    if goals.split and splitting:
+        weighted += [goals.split * v for v in use.values()]
+    if goals.avoided:
+        weighted += [goals.avoided * v for (c, name), v in use.items() if name.casefold() in goals.avoid]
+    miss: dict[str, cp_model.IntVar] = {}
+    if goals.preferred:
+        for c in codes:
+            wanted = goals.wanted.get(c)
+            if not wanted:
+                continue
+            miss[c] = m.NewBoolVar(f"miss[{c}]")
+            m.AddBoolOr([miss[c]] + [use[c, r.name] for r in problem.rooms
+                                     if (c, r.name) in use and r.name.casefold() in wanted])
+            weighted.append(goals.preferred * miss[c])
+    scale = len(use) + 1  # the weighted goals first; fewer rooms only among equals
+    m.Minimize(scale * sum(weighted) + sum(use.values()))
+    if hint:
+        rooms_hint, own_hint = hint
+        given = {(c, name): n for c, parts in rooms_hint.items() for name, n in parts}
+        for key, v in use.items():
+            m.AddHint(v, key in given)
+            if splitting:
+                m.AddHint(seats[key], given.get(key, 0))
+        for c, v in miss.items():
+            m.AddHint(v, not any(name.casefold() in goals.wanted[c] for name, _ in rooms_hint.get(c, [])))
+        for (i, name), v in alone.items():
+            m.AddHint(v, own_hint.get((apart_here[i][0], apart_here[i][1])) == name)
+    solver = cp_model.CpSolver()
+    solver.parameters.catch_sigint_signal = False  # Ctrl-C and SIGTERM stay the caller's (see solve._parameters)
+    solver.parameters.max_time_in_seconds = seconds
+    solver.parameters.num_workers = 1
+    solver.parameters.random_seed = seed
+    status = solver.Solve(m)
+    if status not in (cp_model.OPTIMAL, cp_model.FEASIBLE):
+        return None, status == cp_model.INFEASIBLE
+    rooms: dict[str, list[tuple[str, int]]] = {}
+    for (c, name), v in use.items():
+        if solver.BooleanValue(v):
+            rooms.setdefault(c, []).append((name, solver.Value(seats[c, name]) if splitting else sizes[c]))
+    own = {(apart_here[i][0], apart_here[i][1]): name for (i, name), v in alone.items() if solver.BooleanValue(v)}
+    return ({c: sorted(v) for c, v in rooms.items()}, own), status == cp_model.OPTIMAL

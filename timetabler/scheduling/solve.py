@@ -16,8 +16,9 @@ The steps of :func:`solve`:
    large model CP-SAT first for a share of the time (stopping when it stalls), then the
    local search; on a small one a short local search, CP-SAT from its timetable with most
    of the time (to prove optimality), then the local search again;
-5. rooms seated slot by slot (:mod:`.rooms`); a slot that cannot be seated is forbidden
-   for that group of events and step 4 resumes;
+5. rooms seated slot by slot, slots linked by long events or by attendees seated apart
+   (Own room) together (:mod:`.rooms`); a group that cannot be seated is forbidden as its exact
+   set of (event, start slot) pairs and step 4 resumes;
 6. when CP-SAT proves infeasibility, the model is rebuilt with one assumption per user
    rule and the rules that cannot all hold are reported (:mod:`.infeasibility`).
 
@@ -48,7 +49,7 @@ from .dsatur import dsatur
 from .infeasibility import prechecks, room_count_witness
 from .kempe_search import improve
 from .penalty_state import build_state
-from .rooms import seat_events
+from .rooms import seat_events, seated_apart, seats_in_rooms
 from .tabucol import tabucol
 from .transversals import colour_by_transversals
 
@@ -113,6 +114,7 @@ class SolveRun:
     status: str  # optimal | feasible | infeasible | unknown
     assignment: dict[str, int] = field(default_factory=dict)
     rooms: dict[str, list[tuple[str, int]]] = field(default_factory=dict)
+    own_rooms: dict[tuple[str, str], str] = field(default_factory=dict)  # (attendee, event) -> room they sit alone in
     penalty: int | None = None
     bound: float | None = None
     proven: bool = False
@@ -147,6 +149,7 @@ class SolveRun:
             "penalty_breakdown": dict(self.penalty_breakdown),
             "slot_labels": [s.label for s in self.slot_list],
             "rooms": {c: [{"room": r, "seats": n} for r, n in v] for c, v in sorted(self.rooms.items())},
+            "own_rooms": [{"attendee": a, "event": c, "room": r} for (a, c), r in sorted(self.own_rooms.items())],
             "moves": list(self.moves),
             "first_feasible_seconds": (None if self.first_feasible_seconds is None
                                        else round(self.first_feasible_seconds, 3)),
@@ -344,7 +347,9 @@ def solve(
     clique = largest_clique_found(graph, cover)
     witnesses = prechecks(problem, slots, graph, clique, domains.allowed, domains.why_not)
     if not options.room_splitting:
-        seat_witness = room_count_witness(problem, slots, sizes, sharing=options.room_sharing)
+        # attendees seated apart take no seat in their events' rooms
+        seat_witness = room_count_witness(problem, slots, seats_in_rooms(sizes, seated_apart(problem)),
+                                          sharing=options.room_sharing)
         if seat_witness is not None:
             witnesses.append(seat_witness)
     if witnesses:
@@ -397,6 +402,7 @@ def _combine(run: SolveRun, results: list[SolveRun], n_blocks: int) -> None:
     for r in results:
         run.assignment.update(r.assignment)
         run.rooms.update(r.rooms)
+        run.own_rooms.update(r.own_rooms)
         for name, v in r.penalty_breakdown.items():
             run.penalty_breakdown[name] = run.penalty_breakdown.get(name, 0) + v
     run.penalty = sum(r.penalty or 0 for r in results)
@@ -455,21 +461,24 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
 
     dsatur_complete = len(hint) == len(block)
     feasible_hint: dict[str, int] | None = None
-    nogoods: list[tuple[int, list[str]]] = []
+    nogoods: list[list[tuple[str, int]]] = []  # groups of (event, start) that cannot be seated together
     unsettled: set[int] = set()  # slots whose seating failed on time, not proven impossible
     fallback: SolveRun | None = None  # the first clash-free (and seated) timetable, kept in case step 4 finds none
+    found = Availability.of(problem, slots) if needs_availability(problem, slots) else None  # spans and sittings
 
     def keep_fallback(assignment: dict[str, int]) -> bool:
         """Seat and check a timetable of this block; keep it as the fallback when every hard rule holds."""
         nonlocal fallback
         rooms: dict = {}
+        own: dict = {}
         if problem.rooms:
             seating = seat_events(problem, slots, assignment, sizes, sharing=options.room_sharing,
-                                  splitting=options.room_splitting, seed=options.seed, seconds_per_slot=1.0)
-            if seating.failed_slots:
+                                  splitting=options.room_splitting, seed=options.seed, seconds_per_slot=1.0,
+                                  availability=found)
+            if seating.failed_groups:
                 return False
-            rooms = seating.rooms
-        scored = _scored(problem, slots, assignment, rooms, previous, options, block_set)
+            rooms, own = seating.rooms, seating.own_rooms
+        scored = _scored(problem, slots, assignment, rooms, previous, options, block_set, own_rooms=own)
         if scored is None:
             return False
         fallback = scored
@@ -478,7 +487,7 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
         return True
 
     # long events and extra time that takes the next slot are not colourings: CP-SAT alone handles them
-    one_slot_each = not needs_availability(problem, slots) or Availability.of(problem, slots).one_slot_each
+    one_slot_each = found is None or found.one_slot_each
     if not one_slot_each:
         say("events that take more than one slot: CP-SAT alone (no DSATUR start, no local search)")
     elif _optional_links(problem):
@@ -641,8 +650,8 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
         say("seating events in rooms")
         seating = seat_events(problem, slots, assignment, sizes, sharing=options.room_sharing,
                               splitting=options.room_splitting, seed=options.seed,
-                              seconds_per_slot=min(5.0, max(0.5, left() / 10)))
-        if seating.failed_slots and solver_result is not None:
+                              seconds_per_slot=min(5.0, max(0.5, left() / 10)), availability=found)
+        if seating.failed_groups and solver_result is not None:
             # the local search keeps only the aggregate room limits: when its timetable cannot be seated,
             # CP-SAT's (which the room cuts so far shaped) is seated instead
             run.assignment, run.penalty, run.penalty_breakdown = solver_result
@@ -650,9 +659,10 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
             assignment = run.assignment
             seating = seat_events(problem, slots, assignment, sizes, sharing=options.room_sharing,
                                   splitting=options.room_splitting, seed=options.seed,
-                                  seconds_per_slot=min(5.0, max(0.5, left() / 10)))
-        if not seating.failed_slots:
+                                  seconds_per_slot=min(5.0, max(0.5, left() / 10)), availability=found)
+        if not seating.failed_groups:
             run.rooms = seating.rooms
+            run.own_rooms = seating.own_rooms
             splits = sum(len(v) - 1 for v in seating.rooms.values())
             for name, n in (("room_split", splits), ("preferred_room", seating.missed_preferred_rooms),
                             ("penalised_room", seating.avoided_rooms_used)):
@@ -663,7 +673,7 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
                     run.bound = None  # the bound covers the slot model only
                     run.status, run.proven = "feasible", False
             break
-        nogoods.extend(seating.failed_slots.items())
+        nogoods.extend(seating.failed_groups)  # each group's exact (event, start) pairs, forbidden together
         unsettled.update(seating.unsettled_slots)
         feasible_hint = None
         if left() <= 0 or round_ == 5:
@@ -790,10 +800,11 @@ def _align(hint: dict[str, int], clique: list[str], k: int) -> dict[str, int]:
 
 
 def _scored(problem, slots, assignment, rooms, previous, options, block: set[str],
-            rooms_later: bool = False) -> SolveRun | None:
+            rooms_later: bool = False, own_rooms: dict | None = None) -> SolveRun | None:
     """A timetable of one block found before the goals were optimised, with its penalty recounted
     by the independent validator (no bound); None when it breaks a hard rule. With ``rooms_later``
-    the rooms are left to be seated afterwards."""
+    the rooms are left to be seated afterwards; else ``own_rooms`` (attendees seated apart) are
+    checked with ``rooms``."""
     from dataclasses import replace
 
     from .validator import validate
@@ -802,13 +813,15 @@ def _scored(problem, slots, assignment, rooms, previous, options, block: set[str
     if rooms_later:
         part = replace(part, rooms=[])
     v = validate(part, slots, assignment, rooms or None, previous=previous or None,
-                 room_sharing=options.room_sharing, room_splitting=options.room_splitting)
+                 room_sharing=options.room_sharing, room_splitting=options.room_splitting,
+                 own_rooms=None if rooms_later else dict(own_rooms or {}))
     if not v.ok:
         return None
     w = problem.weights.__dict__
     breakdown = {name: w[name] * n for name, n in v.soft.items() if w.get(name) and n}
     return SolveRun(slots=len(slots), slot_list=list(slots), status="feasible", assignment=dict(assignment),
-                    rooms=dict(rooms), penalty=v.penalty, bound=None, proven=False, penalty_breakdown=breakdown)
+                    rooms=dict(rooms), own_rooms=dict(own_rooms or {}), penalty=v.penalty, bound=None, proven=False,
+                    penalty_breakdown=breakdown)
 
 
 def _restricted(problem: Problem, block: set[str]) -> Problem:
@@ -1193,8 +1206,9 @@ def fewest_slots(
         if run.status in ("optimal", "feasible"):
             used = max(run.assignment.values(), default=0) if not problem.slots else mid
             hi, best_run, result.upper_reason = max(used, lo), run, "CP-SAT"
-            if used < mid:
-                best_run = SolveRun(slots=hi, slot_list=slots_for(hi), status="feasible", assignment=run.assignment)
+            if used < mid:  # the same timetable, rooms and own rooms over the slots it uses
+                best_run = SolveRun(slots=hi, slot_list=slots_for(hi), status="feasible", assignment=run.assignment,
+                                    rooms=dict(run.rooms), own_rooms=dict(run.own_rooms))
         elif run.status == "infeasible":
             # fewer slots only make it harder: infeasible at mid proves the fewest is above mid
             lo = mid + 1

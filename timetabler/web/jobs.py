@@ -176,7 +176,7 @@ def _child_main() -> None:
                 run.validation = validate(
                     problem, slots, run.assignment, run.rooms or None, previous=previous,
                     room_sharing=bool(getattr(options, "room_sharing", True)),
-                    room_splitting=bool(getattr(options, "room_splitting", False)),
+                    room_splitting=bool(getattr(options, "room_splitting", False)), own_rooms=run.own_rooms,
                 )
             _send(out, ("run", k, run))
             if stop.is_set():

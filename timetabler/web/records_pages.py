@@ -227,7 +227,8 @@ async def publish(request: Request) -> Response:
 
         run = runs[0]
         if getattr(run, "validation", None) is None:
-            run.validation = validate(problem, run.slot_list, run.assignment, run.rooms or None)
+            run.validation = validate(problem, run.slot_list, run.assignment, run.rooms or None,
+                                      own_rooms=getattr(run, "own_rooms", None))
         problems = publication_problems(problem, run)
         if problems:
             raise InputError(f"The timetable for {run.slots} slots was not published: {problems}")
