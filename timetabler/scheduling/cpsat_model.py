@@ -23,7 +23,12 @@ Hard rules:
   each slot, the seats of the rooms of each type in each slot (and, without splitting, the
   places they have for events of each size: one per room not shared, ``capacity // size``
   per shared room), the cap on events per
-  attendee per day. In *explain* mode each of these carries its own enforcement literal,
+  attendee per day. Attendees with an own room (``Attendee.own_room_type``) take no seat in
+  their event's rooms; each holds a room of their type for every slot of their sitting, so per
+  slot and type they cannot outnumber the rooms free, each takes at least the seats of the
+  smallest such room from the type's (and all rooms') seats, and where no room may be shared
+  events and attendees apart together cannot outnumber the rooms. Seating
+  (:mod:`.rooms`) checks the rest and returns cuts. In *explain* mode each of these carries its own enforcement literal,
   which the solver takes as an assumption; the sufficient assumptions for infeasibility
   then name a set of rules that cannot all hold.
 
@@ -674,13 +679,21 @@ def build_model(
         apart = {c: v for c, v in seated_apart(problem).items() if c in code_set}
         seated = seats_in_rooms({c: sizes[c] for c in codes}, apart)
         holds = _own_room_holds(apart, found, x, k)
+        alone_by_kind: dict[str, list[str]] = {}
+        spelled: dict[str, str] = {}  # the type as the Attendees sheet first wrote it
+        for people in apart.values():
+            for attendee, kind in people:
+                alone_by_kind.setdefault(kind.casefold(), []).append(attendee)
+                spelled.setdefault(kind.casefold(), kind)
         for kind, per_slot in sorted(holds.items()):
+            names = sorted(set(alone_by_kind[kind]))
+            who = ", ".join(names[:3]) + (f" and {len(names) - 3} more" if len(names) > 3 else "")
             for s in range(k):
                 lits = per_slot.get(s + 1, [])
                 rooms_free = sum(1 for cap, _ in caps[s + 1].get(kind, []) if cap >= 1)
                 if len(lits) > rooms_free:
-                    lit = rule_literal(f"slot {s + 1} has {rooms_free} room(s) of type '{kind}' free for the attendees "
-                                       "who sit alone", "rooms")
+                    lit = rule_literal(f"slot {s + 1} has {rooms_free} room(s) of type '{spelled[kind]}' free, one for each "
+                                       f"attendee who sits alone in one ({who})", "rooms")
                     enforce(m.add(sum(lits) <= rooms_free), lit)
         for s in range(k):
             for ty in types:
