@@ -377,3 +377,63 @@ def test_the_command_seats_the_attendee_apart_and_the_workbook_says_where(run_co
     _, rows = rows_of(load_workbook(out)["People"])
     ines = next(r for r in rows if r["Attendee"] == "Ines Marrow")
     assert "Snug for ATLAS" in ines["Own room"] and "Snug for INKS" in ines["Own room"]
+
+
+# --- random small problems, against the brute force ---------------------------------------------
+
+
+def random_school(seed: int) -> tuple[Problem, list[Slot]]:
+    import random
+
+    rng = random.Random(seed)
+    slots = hours(*range(9, 9 + rng.randint(2, 4)))
+    codes = [f"C{i}" for i in range(rng.randint(2, 3))]
+    names = [f"st{i}" for i in range(rng.randint(3, 5))]
+    enrolments = sorted({(a, c) for a in names for c in codes if rng.random() < 0.45} | {(names[i % len(names)], c)
+                                                                                       for i, c in enumerate(codes)})
+    events = {c: Event(c, duration_minutes=rng.choice([60, 60, 120])) for c in codes}
+    people = {}
+    for a in rng.sample(names, rng.randint(1, 2)):
+        people[a] = Attendee(a, extra_time_percent=rng.choice([0, 0, 50]), own_room_type="quiet")
+    rooms = [Room("Compass Hall", rng.randint(2, 6), shared=rng.random() < 0.7), Room("Snug", 1, room_type="quiet")]
+    if rng.random() < 0.6:
+        closed = (slots[rng.randrange(len(slots))].label,) if rng.random() < 0.5 else ()
+        rooms.append(Room("Reading Nook", 2, room_type="quiet", unavailable_slots=closed))
+    return Problem(enrolments, events=events, rooms=rooms, people=people), slots
+
+
+def brute_timetables(problem: Problem, slots: list[Slot]) -> list[dict[str, int]]:
+    """Every timetable meeting the people's rules (the validator, rooms left out) that some seating holds
+    (this file's brute force)."""
+    from dataclasses import replace
+
+    codes = sorted(problem.events)
+    no_rooms = replace(problem, rooms=[])
+    found = []
+    for combo in itertools.product(range(1, len(slots) + 1), repeat=len(codes)):
+        at = dict(zip(codes, combo))
+        if not validate(no_rooms, slots, at).ok:
+            continue
+        if any(own_hours(problem, slots, c, s) is None for c, s in at.items()):
+            continue
+        if seatable_by_brute_force(problem, slots, at):
+            found.append(at)
+    return found
+
+
+@pytest.mark.parametrize("seed", [*range(12), 82, 133])  # 82 and 133 need a cut from seating
+def test_random_problems_with_own_rooms_and_long_events_match_the_brute_force(seed):
+    problem, slots = random_school(seed)
+    truth = brute_timetables(problem, slots)
+    run = solve(problem, slots, SolveOptions(time_limit=3, workers=1, seed=seed))
+    if run.status in ("optimal", "feasible"):
+        assert run.assignment in truth
+        v = validate(problem, slots, run.assignment, run.rooms, own_rooms=run.own_rooms)
+        assert v.ok, v.violations
+        assert_seated_by_hand(problem, slots, run.assignment, run.rooms, run.own_rooms)
+    else:
+        assert not run.assignment
+    if truth:
+        assert run.status in ("optimal", "feasible"), (run.status, run.reasons, truth[:3])
+    else:
+        assert run.status == "infeasible", run.status
