@@ -437,3 +437,21 @@ def test_random_problems_with_own_rooms_and_long_events_match_the_brute_force(se
         assert run.status in ("optimal", "feasible"), (run.status, run.reasons, truth[:3])
     else:
         assert run.status == "infeasible", run.status
+
+
+def test_an_attendee_apart_is_sent_to_their_own_room_in_their_calendar(tmp_path):
+    from timetabler.export.icalendar_files import write_calendars
+
+    slots = hours(9, 10, 11)
+    p = atlas_problem(quiet_rooms=2, second_apart=True)
+    run = solve(p, slots, OPT)
+    assert run.status in ("optimal", "feasible"), run.reasons
+    write_calendars(tmp_path / "cal", problem=p, run=run)
+
+    def locations(name: str) -> list[str]:  # the raw LOCATION lines (RFC 5545 §3.8.7.1), read here as text
+        text = (tmp_path / "cal" / "attendees" / f"{name.replace(' ', '_')}.ics").read_text()
+        return [line.split(":", 1)[1] for line in text.replace("\r\n ", "").splitlines() if line.startswith("LOCATION")]
+
+    assert locations("Ines Marrow") == [run.own_rooms[("Ines Marrow", "ATLAS")]]
+    assert locations("Olek Brand") == [run.own_rooms[("Olek Brand", "INKS")]]
+    assert locations("at00") == [", ".join(r for r, _ in run.rooms["ATLAS"])]  # the others: the event's rooms

@@ -35,6 +35,7 @@ from dataclasses import replace
 from ..model import Event, Location, Problem, Slot, event_times
 from .csv_folder import prepare_folder
 from .safe_write import check_target, write_safely
+from .tables import own_room_placements
 
 PRODID = "-//timetabler//exam and meeting timetables//EN"
 REVISION_EPOCH = dt.datetime(2026, 1, 1, tzinfo=dt.timezone.utc)
@@ -71,9 +72,10 @@ def _calendar(name: str) -> Calendar:
 
 
 def _entry(problem: Problem, run: Any, code: str, tz: ZoneInfo | None, stamp: dt.datetime,
-           extra_time_percent: int = 0, optional: bool = False) -> CalEvent:
+           extra_time_percent: int = 0, optional: bool = False, own_room: str | None = None) -> CalEvent:
     """The VEVENT of ``code``; with ``extra_time_percent`` (one attendee's calendar) it ends at
-    that attendee's own end, and ``optional`` says in the description that they may come."""
+    that attendee's own end, ``optional`` says in the description that they may come, and
+    ``own_room`` (an attendee seated apart, Own room) is their location instead of the event's rooms."""
     k = int(run.slots)
     slot = run.slot_list[run.assignment[code] - 1]
     event = problem.events[code]
@@ -86,7 +88,9 @@ def _entry(problem: Problem, run: Any, code: str, tz: ZoneInfo | None, stamp: dt
     entry.add("dtend", end)
     entry.add("summary", f"{code} {event.title}" if event.title else code)
     rooms = (getattr(run, "rooms", None) or {}).get(code) or []
-    if rooms:
+    if own_room:
+        entry.add("location", str(own_room))
+    elif rooms:
         entry.add("location", ", ".join(str(r) for r, _ in rooms))
     notes = [f"Slot {slot.label}"]
     if extra_time_percent > 0 and slot.start is not None:
@@ -193,6 +197,8 @@ def write_calendars(folder: str | Path, *, problem: Problem, run: Any, show: Cal
         head = head[: -len(closing)] + timezones
         used: set[str] = set()
         jobs = []
+        # attendees seated apart (run.own_rooms, keyed as the enrolments are) sit in their own room, not the event's
+        apart = {(a, c): room for a, c, room, _ in own_room_placements(run)}
         for attendee, codes in sorted(problem.events_by_attendee().items()):
             shown = show(attendee)
             stem = safe_file_stem(shown)
@@ -205,8 +211,9 @@ def write_calendars(folder: str | Path, *, problem: Problem, run: Any, show: Cal
             parts = []
             for c in sorted((c for c in codes if c in blobs), key=rank.__getitem__):
                 optional = (attendee, c) in problem.optional
-                if extra > 0 or optional:  # their own end (extra time) or their attendance: an entry of their own
-                    parts.append(_entry(problem, run, c, tz, stamp, extra, optional).to_ical())
+                own = apart.get((attendee, c))
+                if extra > 0 or optional or own:  # their own end, attendance or room: an entry of their own
+                    parts.append(_entry(problem, run, c, tz, stamp, extra, optional, own).to_ical())
                 else:
                     parts.append(blobs[c])
             body = b"".join(parts)
