@@ -455,3 +455,23 @@ def test_an_attendee_apart_is_sent_to_their_own_room_in_their_calendar(tmp_path)
     assert locations("Ines Marrow") == [run.own_rooms[("Ines Marrow", "ATLAS")]]
     assert locations("Olek Brand") == [run.own_rooms[("Olek Brand", "INKS")]]
     assert locations("at00") == [", ".join(r for r, _ in run.rooms["ATLAS"])]  # the others: the event's rooms
+
+
+def test_the_personal_timetables_give_an_attendee_apart_their_own_room(tmp_path):
+    from openpyxl import load_workbook
+
+    from export_cases import rows_of
+    from timetabler.export.workbook import write_workbook
+
+    slots = hours(9, 10, 11)
+    p = atlas_problem(extra=50, quiet_rooms=2, second_apart=True)
+    p.source = str(tmp_path / "school.xlsx")
+    run = solve(p, slots, OPT)
+    assert run.status in ("optimal", "feasible"), run.reasons
+    book = load_workbook(write_workbook(tmp_path / "out.xlsx", problem=p, runs=[run]), read_only=True)
+    sheet = next(name for name in book.sheetnames if name.startswith("Personal"))
+    _, rows = rows_of(book[sheet])
+    rooms = {(r["Attendee"], r["Event"]): r["Rooms"] for r in rows}
+    assert rooms[("Ines Marrow", "ATLAS")] == run.own_rooms[("Ines Marrow", "ATLAS")]
+    assert rooms[("Olek Brand", "INKS")] == run.own_rooms[("Olek Brand", "INKS")]
+    assert rooms[("at00", "ATLAS")] == ", ".join(r for r, _ in run.rooms["ATLAS"])

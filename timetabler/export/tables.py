@@ -432,7 +432,8 @@ def personal_table(problem: Problem, run: Any, show: Callable[[str], str] = str,
     """One row per attendee and event: personal timetables, sorted by attendee then slot.
 
     The end is the attendee's own: with their extra time (Attendees sheet), and a long event's
-    true end. With optional attendance, a column says whether each row is required or optional
+    true end; an attendee seated apart (Own room) is given their own room, not the event's.
+    With optional attendance, a column says whether each row is required or optional
     and another why an optional attendee cannot come.
     """
     slots = _run_slots(run)
@@ -450,6 +451,7 @@ def personal_table(problem: Problem, run: Any, show: Callable[[str], str] = str,
                 if x.missed:
                     missed[(attendee, x.event)] = x.missed
     optional = bool(problem.optional)
+    apart = {(a, c): room for a, c, room, _ in own_room_placements(run, people)}
     table = PublishedTable(
         "Personal",
         [
@@ -462,7 +464,7 @@ def personal_table(problem: Problem, run: Any, show: Callable[[str], str] = str,
     for attendee, code in problem.enrolments:
         n = assignment.get(code)
         place = places[n - 1] if n and 1 <= n <= len(places) else None
-        rooms, _ = _room_text(run, code)
+        rooms = apart.get((attendee, code)) or _room_text(run, code)[0]
         end = own_end.get((attendee, code)) or event_end(problem, code, place.slot if place else None)
         row = [
             show(attendee), code, problem.events[code].title or "", n, place.slot.label if place else "",
