@@ -692,8 +692,8 @@ def build_model(
                 lits = per_slot.get(s + 1, [])
                 rooms_free = sum(1 for cap, _ in caps[s + 1].get(kind, []) if cap >= 1)
                 if len(lits) > rooms_free:
-                    lit = rule_literal(f"slot {s + 1} has {rooms_free} room(s) of type '{spelled[kind]}' free, one for each "
-                                       f"attendee who sits alone in one ({who})", "rooms")
+                    lit = rule_literal(f"slot {s + 1} has {rooms_free} room(s) of type '{spelled[kind]}' free, one "
+                                       f"for each attendee who sits alone in one ({who})", "rooms")
                     enforce(m.add(sum(lits) <= rooms_free), lit)
         for s in range(k):
             for ty in types:
@@ -703,7 +703,8 @@ def build_model(
                 word = f"rooms of type '{ty}'" if ty else "rooms"
                 # each attendee apart in these rooms takes a whole room: at least the smallest of its type
                 own = [(min((cap for cap, _ in caps[s + 1].get(kind, [])), default=0), per_slot[s + 1])
-                       for kind, per_slot in sorted(holds.items()) if (ty is None or kind == ty) and per_slot.get(s + 1)]
+                       for kind, per_slot in sorted(holds.items())
+                       if (ty is None or kind == ty) and per_slot.get(s + 1)]
                 own_most = sum(least * len(lits) for least, lits in own)
                 total = sum(cap for cap, _ in room_caps)
                 if sum(seated[c] for c in members) + own_most > total:

@@ -494,7 +494,8 @@ def _greedy_group(problem, codes, apart_here, held, sizes, sharing, splitting, g
         ok = [r for r in problem.rooms if _fits_type(problem, code, r) and not unavailable[r.name].intersection(span)
               and all((r.name, t) not in solo and ((r.name, t) not in used or (sharing and r.shared)) for t in span)]
         room_left = {r.name: min(left.get((r.name, t), r.capacity) for t in span) for r in ok}
-        whole = sorted((r for r in ok if room_left[r.name] >= need), key=lambda r: (cost(code, r), room_left[r.name], r.name))
+        whole = sorted((r for r in ok if room_left[r.name] >= need),
+                       key=lambda r: (cost(code, r), room_left[r.name], r.name))
         if whole:
             chosen = [(whole[0].name, need)]
         elif not splitting:
