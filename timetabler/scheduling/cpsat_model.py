@@ -119,6 +119,7 @@ class TimetableModel:
     # optional attendee (a, e) -> [busy var, what it means]: a is also booked in another event during their sitting at e
     optional_busy: dict = field(default_factory=dict)
     found: Availability | None = None  # the people's rules over these slots, when they are in play
+    last: dict[str, dict[int, int]] = field(default_factory=dict)  # long event -> start -> its last slot
 
     def hint(self, assignment: dict[str, int]) -> None:
         """Hint a full solution: ``x`` from ``assignment`` and every derived variable computed from it,
@@ -155,8 +156,11 @@ class TimetableModel:
             return int(_booked_elsewhere(args[0], args[1], args[2], a))
         if kind == "optmiss":
             return int(a[args[0]] in args[3] or _booked_elsewhere(args[0], args[1], args[2], a))
+        if kind == "end":
+            return self.last.get(args[0], {}).get(a[args[0]], a[args[0]])
         e, f = args[0], args[1]
-        gap = abs(a[e] - a[f])
+        # slots from the last slot of the earlier event to the first of the later (long events take several)
+        gap = a[f] - self.last.get(e, {}).get(a[e], a[e]) if a[e] < a[f] else a[e] - self.last.get(f, {}).get(a[f], a[f])
         same = day[a[e] - 1] == day[a[f] - 1]
         if kind == "before":
             return int(a[e] < a[f])
@@ -623,6 +627,20 @@ def build_model(
             tm.derived.append((v.index, "t", c))
         return t_cache[c]
 
+    e_cache: dict[str, cp_model.IntVar] = {}
+    tm.last = {c: {s: span[-1] for s, span in own.items()} for c, own in spans.items()}
+
+    def end_of(c: str):
+        """The last slot ``c`` takes: its start, or a long event's last slot."""
+        if c not in tm.last:
+            return t(c)
+        if c not in e_cache:
+            v = m.new_int_var(1, max(k, 1), f"end[{c}]")
+            m.add(v == sum(tm.last[c].get(s + 1, s + 1) * x[c][s] for s in range(k)))
+            e_cache[c] = v
+            tm.derived.append((v.index, "end", c))
+        return e_cache[c]
+
     def d(c: str):
         if c not in d_cache:
             v = m.new_int_var(min(day, default=1), max(day, default=1), f"d[{c}]")
@@ -762,17 +780,17 @@ def build_model(
         tm.symmetry_clique = list(symmetry[:k])
 
     if objective:
-        _add_objective(tm, problem, slots, sub, day, t, d, previous or {}, large or set())
+        _add_objective(tm, problem, slots, sub, day, t, d, previous or {}, large or set(), end_of)
     return tm
 
 
-def _add_objective(tm: TimetableModel, problem, slots, sub, day, t, d, previous, large) -> None:
+def _add_objective(tm: TimetableModel, problem, slots, sub, day, t, d, previous, large, end=None) -> None:
     m, x, k = tm.model, tm.x, tm.k
     w = problem.weights
     terms: dict[str, list[tuple[int, int, tuple]]] = {}
     plan = pair_plan(w, slots)
     if plan.any:
-        _add_pair_goals(tm, sub, t, d, terms, w, plan)
+        _add_pair_goals(tm, sub, t, d, terms, w, plan, end or t)
     if w.large_late > 0:
         for c in tm.codes:
             if c in large:
@@ -928,7 +946,7 @@ def model_memory_mb(k: int, cover_literals: int, pairs: int, plan: PairPlan | No
     return 180 + slots_literals * (30 + 52 * workers) / 1e6 + pair_vars * (0.69 + 1.95 * workers) / 1e3
 
 
-def _add_pair_goals(tm: TimetableModel, sub, t, d, terms, weights, plan: PairPlan) -> None:
+def _add_pair_goals(tm: TimetableModel, sub, t, d, terms, weights, plan: PairPlan, end=None) -> None:
     """The goals that count pairs of clashing events: Booleans, and at most one small integer a pair.
 
     Per pair (``a``, ``b``, sharing ``c`` attendees, so weighing ``c`` in every goal):
@@ -962,12 +980,14 @@ def _add_pair_goals(tm: TimetableModel, sub, t, d, terms, weights, plan: PairPla
     def var(family: str, a, b):  # every family is named in the docstring; each literal only on small models
         return m.new_bool_var(f"{family}[{a},{b}]" if named else "")
 
+    end = end or t
     for a, b, shared in sub.edges(data="shared", default=1):
         tm.clock.step(PAIR_STEP)
         c = int(shared or 1)
         if always:
             tm.constant["proximity"] = tm.constant.get("proximity", 0) + c * always * weights.proximity
-        ta, tb = t(a), t(b)
+        # distances run from the last slot of the earlier event (a long event's end) to the later's start
+        ta, tb, ea, eb = t(a), t(b), end(a), end(b)
         before = var("before", a, b)
         tm.derived.append((before.index, "before", a, b))
         gap = None
@@ -976,11 +996,11 @@ def _add_pair_goals(tm: TimetableModel, sub, t, d, terms, weights, plan: PairPla
             # gap >= 1 forces the order it names); each class then costs one implication on gap
             gap = m.new_int_var(1, cap, f"gap[{a},{b}]" if named else "")
             tm.derived.append((gap.index, "gap", a, b, cap))
-            m.add(gap <= tb - ta).only_enforce_if(before)
-            m.add(gap <= ta - tb).only_enforce_if(~before)
+            m.add(gap <= tb - ea).only_enforce_if(before)
+            m.add(gap <= ta - eb).only_enforce_if(~before)
         else:
-            m.add(tb - ta >= 1).only_enforce_if(before)
-            m.add(ta - tb >= 1).only_enforce_if(~before)
+            m.add(tb - ea >= 1).only_enforce_if(before)
+            m.add(ta - eb >= 1).only_enforce_if(~before)
         near: dict[int, cp_model.IntVar] = {}
         for dist in classes:
             v = near[dist] = var(f"near{dist}", a, b)
@@ -988,11 +1008,11 @@ def _add_pair_goals(tm: TimetableModel, sub, t, d, terms, weights, plan: PairPla
             if gap is not None:
                 m.add(gap >= dist + 1).only_enforce_if(~v)
             else:
-                m.add(tb - ta >= dist + 1).only_enforce_if([~v, before])
-                m.add(ta - tb >= dist + 1).only_enforce_if([~v, ~before])
+                m.add(tb - ea >= dist + 1).only_enforce_if([~v, before])
+                m.add(ta - eb >= dist + 1).only_enforce_if([~v, ~before])
             if dist == 1 and exact_near1:
-                m.add(tb - ta <= 1).only_enforce_if([v, before])
-                m.add(ta - tb <= 1).only_enforce_if([v, ~before])
+                m.add(tb - ea <= 1).only_enforce_if([v, before])
+                m.add(ta - eb <= 1).only_enforce_if([v, ~before])
         for dist, step in steps:
             terms.setdefault("proximity", []).append((c * step * weights.proximity, near[dist].index,
                                                       ("near", a, b, dist)))
