@@ -120,13 +120,13 @@ def colour_by_transversals(
     if finished:
         return TransversalColouring(impossible=True, transversals=len(sets))
     model = cp_model.CpModel()
-    chosen = [model.NewBoolVar(f"transversal[{j}]") for j in range(len(sets))]
+    chosen = [model.new_bool_var(f"transversal[{j}]") for j in range(len(sets))]
     covering: dict[Hashable, list[cp_model.IntVar]] = {v: [] for v in graph}
     for literal, events in zip(chosen, sets):
         for v in events:
             covering[v].append(literal)
     for literals in covering.values():
-        model.AddExactlyOne(literals)
+        model.add_exactly_one(literals)
     solver = cp_model.CpSolver()
     solver.parameters.catch_sigint_signal = False  # Ctrl-C and SIGTERM stay the caller's (see solve._parameters)
     left = max(0.05, seconds - (time.perf_counter() - start))
@@ -134,12 +134,12 @@ def colour_by_transversals(
         configure(solver, left)
     else:
         solver.parameters.max_time_in_seconds = left
-    status = solver.Solve(model)
+    status = solver.solve(model)
     if status == cp_model.INFEASIBLE:
         return TransversalColouring(impossible=True, transversals=len(sets))
     if status not in (cp_model.OPTIMAL, cp_model.FEASIBLE):
         return TransversalColouring(transversals=len(sets))
-    taken = [events for literal, events in zip(chosen, sets) if solver.BooleanValue(literal)]
+    taken = [events for literal, events in zip(chosen, sets) if solver.boolean_value(literal)]
     return TransversalColouring({v: slot for slot, events in enumerate(taken, start=1) for v in events},
                                 transversals=len(sets))
 
