@@ -19,6 +19,7 @@ import pytest
 from store_builders import EVENTS, late_changes as _late_changes, rows as _rows, write_csv as _write_csv, write_xlsx as _write_xlsx
 
 from timetabler.store import Store
+from timetabler.store.schema import SCHEMA_VERSION
 
 def _stored(path: Path):
     with Store(path) as store:
@@ -197,7 +198,7 @@ def test_history_and_forget(run_command, small_csv, private_store):
     assert run_command("solve", small_csv, "--slots", "6", "--time-limit", "2", "--publish", "draft").status == 0
     assert run_command("solve", small_csv, "--slots", "7", "--time-limit", "2").status == 0
     doc = run_command("history", "--json").json()
-    assert doc["store"] == str(private_store) and doc["schema_version"] == 2
+    assert doc["store"] == str(private_store) and doc["schema_version"] == SCHEMA_VERSION == 3
     (stored,) = doc["inputs"]  # the same input read twice is stored once
     assert stored["attendees"] == len({a for a, _ in _rows()}) and stored["enrolments"] == len(set(_rows()))
     assert stored["runs"] == 2 and stored["published"] == ["draft"]

@@ -195,7 +195,7 @@ def test_a_store_of_the_previous_version_upgrades_itself_and_keeps_its_records(t
     path = tmp_path / "old.sqlite3"
     _version_1_store(path)
     with Store(path) as store:
-        assert store.version == SCHEMA_VERSION == 2
+        assert store.version == SCHEMA_VERSION == 3
         version = store.published_version("autumn draft")
         assert version.assignment == {"MA1": 1, "PH1": 2}
         assert [s.label for s in version.slots] == ["Mon AM", "Mon PM"]
@@ -209,7 +209,7 @@ def test_a_store_of_the_previous_version_upgrades_itself_and_keeps_its_records(t
         assert store.runs()[-1].kept_from == "label autumn draft"
         assert store.integrity() == "ok"
     conn = sqlite3.connect(path)
-    assert conn.execute("PRAGMA user_version").fetchone()[0] == 2
+    assert conn.execute("PRAGMA user_version").fetchone()[0] == 3
     columns = {row[1] for row in conn.execute("PRAGMA table_info(runs)")}
     assert "kept_from" in columns
     conn.close()

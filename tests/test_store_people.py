@@ -85,3 +85,56 @@ def test_change_calendars_give_an_attendee_with_extra_time_their_own_end(tmp_pat
         ends[path.stem] = [line for line in confirmed.splitlines() if line.startswith("DTEND")][0]
     # 120 minutes from 14:00; with 50 % extra time 180 minutes (RFC 5545 DTEND, floating local time)
     assert ends == {"Ivo_Brandt": "DTEND:20270607T170000", "Mira_Kell": "DTEND:20270607T160000"}
+
+
+def test_own_rooms_are_kept_and_sent_in_the_change_calendars(tmp_path):
+    import datetime as dt
+
+    from timetabler.export.change_calendars import write_change_calendars
+    from timetabler.model import Slot
+    from timetabler.store.changes import changes_between
+
+    slots = [Slot("Mon AM", date=dt.date(2027, 6, 7), start=dt.time(9), length_minutes=180),
+             Slot("Mon PM", date=dt.date(2027, 6, 7), start=dt.time(14), length_minutes=180)]
+    problem = Problem([("Ivo Brandt", "SOIL"), ("Mira Kell", "SOIL")], events={"SOIL": Event("SOIL")}, slots=slots,
+                      source="exams.xlsx")
+    problem.people = {"Mira Kell": Attendee("Mira Kell", own_room_type="Quiet")}
+    with Store(tmp_path / "store.sqlite3") as store:
+        for label, where in (("v1", 1), ("v2", 2)):
+            run = SolveRun(slots=2, slot_list=slots, status="optimal", assignment={"SOIL": where},
+                           rooms={"SOIL": [("Great Barn", 1)]}, own_rooms={("Mira Kell", "SOIL"): "Hayloft"})
+            store.record_solve(problem, [run], {"seed": 0}, publish=(2, label))
+        before, after = store.published_version("v1"), store.published_version("v2")
+    assert after.own_rooms == {("Mira Kell", "SOIL"): "Hayloft"}
+    written = write_change_calendars(tmp_path / "cal", before=before, after=after,
+                                     changes=changes_between(before, after))
+    where = {p.stem: [line for line in p.read_text().splitlines() if line.startswith("LOCATION")] for p in written}
+    assert where["Mira_Kell"] == ["LOCATION:Hayloft"]  # her own room, not the event's
+    assert where["Ivo_Brandt"] == ["LOCATION:Great Barn"]
+
+
+def test_a_store_of_version_2_upgrades_to_keep_own_rooms(tmp_path):
+    import sqlite3
+
+    from timetabler.store.schema import SCHEMA_VERSION
+
+    path = tmp_path / "v2.sqlite3"
+    problem = _round()
+    run = SolveRun(slots=3, slot_list=generic_slots(3), status="optimal", assignment={"GARDENS": 2, "TOOLS": 3, "BOARD": 3})
+    with Store(path) as store:
+        store.record_solve(problem, [run], {"seed": 0}, publish=(3, "round 1"))
+    # what a version-2 file holds: the same tables without run_own_rooms (version 3 added only that table)
+    conn = sqlite3.connect(path)
+    conn.execute("DROP TABLE run_own_rooms")
+    conn.execute("PRAGMA user_version = 2")
+    conn.commit()
+    conn.close()
+    with Store(path) as store:
+        assert store.version == SCHEMA_VERSION == 3
+        assert store.published_version("round 1").assignment == run.assignment
+        assert store.published_version("round 1").own_rooms == {}
+        again = SolveRun(slots=3, slot_list=generic_slots(3), status="optimal", assignment=run.assignment,
+                         own_rooms={("Mira Kell", "TOOLS"): "Snug"})
+        store.record_solve(problem, [again], {"seed": 1}, publish=(3, "round 2"))
+        assert store.published_version("round 2").own_rooms == {("Mira Kell", "TOOLS"): "Snug"}
+        assert store.integrity() == "ok"

@@ -69,7 +69,10 @@ def write_change_calendars(folder: str | Path, *, before: Any, after: Any, chang
         item.add("dtend", end)
         title = titles.get(code)
         item.add("summary", (f"{code} {title}" if title else code) + (" (cancelled)" if cancelled else ""))
-        if rooms:
+        own = (getattr(version, "own_rooms", None) or {}).get((attendee, code))
+        if own:  # seated apart: their own room, not the event's
+            item.add("location", str(own))
+        elif rooms:
             item.add("location", ", ".join(str(r) for r, _ in rooms))
         item.add("description", f"Slot {slot.label}" + (f"; with {extra} % extra time" if extra > 0 and slot.start
                                                          else "") + (" — no longer in your timetable" if cancelled else ""))

@@ -174,6 +174,7 @@ class PublishedVersion:
     penalty: int | None
     durations: dict[str, int | None] = dataclasses.field(default_factory=dict)  # event -> minutes, for end times
     extra_time: dict[str, int] = dataclasses.field(default_factory=dict)  # attendee -> percent (Attendees sheet)
+    own_rooms: dict[tuple[str, str], str] = dataclasses.field(default_factory=dict)  # (attendee, event) -> room
 
     @property
     def slot_count(self) -> int:
@@ -326,6 +327,9 @@ class Store:
         conn.executemany("INSERT INTO run_assignments (run_id, event, slot, rooms_json) VALUES (?, ?, ?, ?)",
                          [(run_id, code, int(slot), _json([[r, n] for r, n in rooms.get(code) or []]))
                           for code, slot in sorted(run.assignment.items())])
+        own = getattr(run, "own_rooms", None) or {}
+        conn.executemany("INSERT INTO run_own_rooms (run_id, attendee, event, room) VALUES (?, ?, ?, ?)",
+                         [(run_id, a, c, str(r)) for (a, c), r in sorted(own.items())])
         return run_id
 
     # deleting
@@ -426,10 +430,12 @@ class Store:
         (problem_json,) = conn.execute("SELECT problem_json FROM inputs WHERE id = ?", (input_id,)).fetchone()
         extra_time = {str(p["name"]): int(p["extra_time_percent"])
                       for p in json.loads(problem_json or "{}").get("people") or [] if p.get("extra_time_percent")}
+        own_rooms = {(a, c): r for a, c, r in conn.execute(
+            "SELECT attendee, event, room FROM run_own_rooms WHERE run_id = ? ORDER BY attendee, event", (run_id,))}
         return PublishedVersion(label=row[0], published_at=_moment(published_at), run_id=run_id, input_id=input_id,
                                 source_name=source_name, slots=[slot_from_dict(s) for s in json.loads(slots_json)],
                                 assignment=assignment, rooms=rooms, enrolments=enrolments, titles=titles,
-                                status=status, penalty=penalty, durations=durations, extra_time=extra_time)
+                                status=status, penalty=penalty, durations=durations, extra_time=extra_time, own_rooms=own_rooms)
 
     def problem(self, input_id: int) -> Problem:
         """The stored input as a :class:`Problem` again (events, enrolments, slots, rooms, rules, weights)."""

@@ -14,6 +14,9 @@ Versions
     ``inputs.last_used_at`` (when an input was last recorded again or published from: the
     retention period counts from it) and ``runs.kept_from`` (the earlier timetable a run
     repaired: a file name or a published label); an index of runs by input.
+3
+    ``run_own_rooms``: the room each attendee seated apart (an Own room) sits alone in, per
+    run, so published versions, change calendars and repairs give them their own room.
 
 To change the schema: add the statements of version N+1 to :data:`UPGRADES` under key N,
 make :data:`CURRENT_TABLES` the full schema of N+1, raise :data:`SCHEMA_VERSION`, and add a
@@ -24,7 +27,7 @@ from __future__ import annotations
 
 import sqlite3
 
-SCHEMA_VERSION = 2
+SCHEMA_VERSION = 3
 
 #: The whole current schema, for a new store.
 CURRENT_TABLES = """
@@ -96,6 +99,13 @@ CREATE TABLE run_assignments (
     rooms_json TEXT NOT NULL,
     PRIMARY KEY (run_id, event)
 ) WITHOUT ROWID;
+CREATE TABLE run_own_rooms (
+    run_id INTEGER NOT NULL REFERENCES runs(id) ON DELETE CASCADE,
+    attendee TEXT NOT NULL,
+    event TEXT NOT NULL,
+    room TEXT NOT NULL,                        -- the room the attendee sits alone in (Attendees sheet's Own room)
+    PRIMARY KEY (run_id, attendee, event)
+) WITHOUT ROWID;
 CREATE TABLE published (
     label TEXT PRIMARY KEY,
     run_id INTEGER NOT NULL REFERENCES runs(id) ON DELETE CASCADE,
@@ -112,6 +122,15 @@ ALTER TABLE inputs ADD COLUMN last_used_at TEXT;
 UPDATE inputs SET last_used_at = created_at;
 ALTER TABLE runs ADD COLUMN kept_from TEXT;
 CREATE INDEX runs_by_input ON runs(input_id);
+""",
+    2: """
+CREATE TABLE run_own_rooms (
+    run_id INTEGER NOT NULL REFERENCES runs(id) ON DELETE CASCADE,
+    attendee TEXT NOT NULL,
+    event TEXT NOT NULL,
+    room TEXT NOT NULL,                        -- the room the attendee sits alone in (Attendees sheet's Own room)
+    PRIMARY KEY (run_id, attendee, event)
+) WITHOUT ROWID;
 """,
 }
 
