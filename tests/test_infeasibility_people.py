@@ -147,3 +147,17 @@ def test_optional_enrolments_count_towards_no_attendees_load():
     assert solve(p, slots, QUICK).status in ("optimal", "feasible")
     from timetabler.scheduling.solve import fewest_slots
     assert fewest_slots(p, options=QUICK).lower == 2
+
+
+def test_extra_time_past_the_day_is_named_as_such_not_as_unavailability():
+    # one day of two touching hours; ida's 50 % extra time on a 60-minute board needs 90 minutes: from 9:00 it
+    # runs into 10:00 (allowed), from 10:00 past the day. The board is barred from 9:00.
+    day = dt.date(2027, 3, 1)
+    slots = [Slot(f"Mon {h}:00", date=day, start=dt.time(h), length_minutes=60) for h in (9, 10)]
+    p = Problem([("ida", "A"), ("jon", "A")], events={"A": Event("A", duration_minutes=60, barred_slots=("Mon 9:00",))},
+                people={"ida": Attendee("ida", extra_time_percent=50)})
+    run = solve(p, slots, QUICK)
+    assert run.status == "infeasible"
+    text = " ".join(run.reasons)
+    assert "cannot make" not in text  # ida is available all day
+    assert "50 % extra time" in text and "past the day's slots" in text

@@ -121,6 +121,8 @@ class Availability:
     does not fit). ``unavailable[a]``: the slots ``a`` cannot make. ``blocked[e][s]``: the
     required attendees who cannot make start ``s`` of ``e`` (for reasons that name people).
     ``free[e][s]``: for an event with a quorum, how many of its attendees can make start ``s``.
+    ``late[e][s]``: those of ``blocked[e][s]`` whose extra-time sitting would not fit (past the
+    day's slots), not unavailable.
     """
 
     k: int
@@ -131,6 +133,7 @@ class Availability:
     blocked: dict[str, dict[int, list[str]]] = field(default_factory=dict)
     quorum_short: dict[str, dict[int, int]] = field(default_factory=dict)
     free: dict[str, dict[int, int]] = field(default_factory=dict)  # quorum events: start -> attendees who can make it
+    late: dict[str, dict[int, list[str]]] = field(default_factory=dict)  # of blocked: extra time past the day
 
     @property
     def one_slot_each(self) -> bool:
@@ -207,6 +210,7 @@ class Availability:
         blocked: dict[str, dict[int, list[str]]] = {}
         quorum_short: dict[str, dict[int, int]] = {}
         free: dict[str, dict[int, int]] = {}
+        late: dict[str, dict[int, list[str]]] = {}
         for code, event in problem.events.items():
             allowed = set(range(1, k + 1))
             if event.fixed_slot is not None and str(event.fixed_slot).strip():
@@ -238,6 +242,8 @@ class Availability:
                     if sitting is None or away.intersection(sitting):
                         if required:
                             blocked.setdefault(code, {}).setdefault(s, []).append(attendee)
+                            if sitting is None:
+                                late.setdefault(code, {}).setdefault(s, []).append(attendee)
                     else:
                         free_count[s] += 1
                 if own:
@@ -252,4 +258,4 @@ class Availability:
             if event.quorum:
                 free[code] = {s: free_count[s] for s in allowed}
         return cls(k=k, starts=starts, spans=spans, sittings=sittings, unavailable=unavailable,
-                   blocked=blocked, quorum_short=quorum_short, free=free)
+                   blocked=blocked, quorum_short=quorum_short, free=free, late=late)

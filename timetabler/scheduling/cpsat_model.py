@@ -320,9 +320,18 @@ def _people_domains(problem: Problem, slots: list[Slot], codes, allowed: dict[st
         for s in sorted(allowed[code]):
             label = slots[s - 1].label
             if s in blocked:
-                names = blocked[s]
-                who = ", ".join(names[:3]) + (f" and {len(names) - 3} more" if len(names) > 3 else "")
-                why[code][s] = f"{who} cannot make {label}"
+                late = set(found.late.get(code, {}).get(s, ()))
+                parts = []
+                away = [n for n in blocked[s] if n not in late]
+                if away:
+                    who = ", ".join(away[:3]) + (f" and {len(away) - 3} more" if len(away) > 3 else "")
+                    parts.append(f"{who} cannot make {label}")
+                for name in sorted(late)[:3]:
+                    person = problem.people.get(name)
+                    percent = person.extra_time_percent if person is not None else 0
+                    parts.append(f"{name}'s sitting with {percent} % extra time would run past the day's slots "
+                                 f"from {label}")
+                why[code][s] = "; ".join(parts)
                 allowed[code].discard(s)
             elif s in short:
                 why[code][s] = f"it needs {quorum} attendees free and only {short[s]} can make {label}"

@@ -136,7 +136,13 @@ def _names(people: list[str], most: int = 6) -> str:
 SHOWN_PEOPLE = 4
 
 
-def _who_blocks(person_slots: dict[str, set[int]], bar: set[int], slots: list[Slot]) -> str:
+def _extra(problem: Problem, who: str) -> int:
+    person = problem.people.get(who)
+    return person.extra_time_percent if person is not None else 0
+
+
+def _who_blocks(person_slots: dict[str, set[int]], bar: set[int], slots: list[Slot],
+                late_slots: dict[str, set[int]] | None = None, problem: Problem | None = None) -> str:
     """The people who rule out the slots ``bar``, one phrase per person with all their slots.
 
     The people are chosen greedily, each time the one ruling out most of the slots not yet
@@ -147,7 +153,12 @@ def _who_blocks(person_slots: dict[str, set[int]], bar: set[int], slots: list[Sl
         who = min(person_slots, key=lambda w: (-len(person_slots[w] & left), w))
         if not person_slots[who] & left:
             break
-        parts.append(f"{who} cannot make {_slot_words(slots, person_slots[who] & bar)}")
+        mine = person_slots[who] & bar
+        if late_slots is not None and problem is not None and mine <= late_slots.get(who, set()):
+            parts.append(f"{who}'s sitting with {_extra(problem, who)} % extra time would run past the day's slots "
+                         f"from {_slot_words(slots, mine)}")
+        else:
+            parts.append(f"{who} cannot make {_slot_words(slots, mine)}")
         left -= person_slots[who]
     if left:
         parts.append(f"others cannot make {_slot_words(slots, left)}")
@@ -195,6 +206,10 @@ def people_witnesses(problem: Problem, slots: list[Slot], found: Availability,
         barred = {problem.slot_number(r, slots) for r in event.barred_slots} - {None}
         by_cause: dict[str, set[int]] = {}
         person_slots: dict[str, set[int]] = {}
+        late_slots: dict[str, set[int]] = {}  # of person_slots: extra time past the day's slots
+        for s, names in found.late.get(code, {}).items():
+            for who in names:
+                late_slots.setdefault(who, set()).add(s)
         physical: dict[int, str] = {}
         for s in range(1, k + 1):
             if fixed != "none" and fixed != s:
@@ -234,11 +249,15 @@ def people_witnesses(problem: Problem, slots: list[Slot], found: Availability,
         if people_bar and whole:
             who = sorted(whole)[0]
             also = f" (nor can {_names([w for w in whole if w != who])})" if len(whole) > 1 else ""
-            out.append(Witness("person", f"{who} cannot make any slot left for {code}{also}: "
-                                         f"{_slot_words(slots, people_bar)}{rest}",
-                               events=[code], attendees=sorted(whole)))
+            if people_bar <= late_slots.get(who, set()):  # extra time, not unavailability
+                text = (f"{who} cannot sit {code} in any slot left: with {_extra(problem, who)} % extra time "
+                        f"their sitting would run past the day's slots from {_slot_words(slots, people_bar)}{rest}")
+            else:
+                text = f"{who} cannot make any slot left for {code}{also}: {_slot_words(slots, people_bar)}{rest}"
+            out.append(Witness("person", text, events=[code], attendees=sorted(whole)))
         elif people_bar:
-            out.append(Witness("person", f"no slot is left for {code}: {_who_blocks(person_slots, people_bar, slots)}"
+            out.append(Witness("person", f"no slot is left for {code}: "
+                                         f"{_who_blocks(person_slots, people_bar, slots, late_slots, problem)}"
                                          f"{rest}", events=[code], attendees=sorted(person_slots)))
         elif by_cause.get("quorum"):
             worst = max(short[s] for s in by_cause["quorum"])
