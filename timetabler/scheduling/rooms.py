@@ -142,12 +142,16 @@ def seat_events(problem: Problem, slots: list[Slot], assignment: dict[str, int],
     if found is None and _spans_or_sittings(problem, slots):
         found = Availability.of(problem, slots)
     need = seats_in_rooms({c: sizes.get(c, 0) for c in assignment}, apart)
-    held: dict[str, tuple[int, ...]] = {}  # event -> the slots its rooms are held in
+    held: dict[str, tuple[int, ...]] = {}  # event -> the slots its rooms are held in (its span, then tails)
+    seats_at: dict[str, dict[int, int]] = {}  # event -> slot -> seats it holds there, where not need[event]
     own: list[tuple[str, str, str, tuple[int, ...]]] = []  # (attendee, event, room type, slots held)
     for code, s in assignment.items():
         span = found.slots_taken(code, s) if found is not None else (s,)
+        tails = _tails(problem, found, code, s, span, apart) if found is not None and found.sittings else {}
         if need[code] > 0:
-            held[code] = tuple(span)
+            held[code] = tuple(span) + tuple(sorted(tails))
+            if tails:
+                seats_at[code] = {**{t: need[code] for t in span}, **tails}
         for attendee, kind in apart.get(code, ()):
             sitting = found.slots_taken(code, s, attendee) if found is not None else None
             own.append((attendee, code, kind, tuple(sitting or span)))
@@ -172,7 +176,23 @@ def seat_events(problem: Problem, slots: list[Slot], assignment: dict[str, int],
                        unavailable, out)
         else:
             _seat_group(problem, slot_set, codes, apart_here, held, need, assignment, sharing, splitting,
-                        seconds_per_slot, seed, goals, unavailable, out)
+                        seconds_per_slot, seed, goals, unavailable, out, seats_at)
+    return out
+
+
+def _tails(problem: Problem, found: Availability, code: str, start: int, span, apart) -> dict[int, int]:
+    """Slot -> attendees of ``code`` (seated with it, not apart) whose extra-time sitting runs into that slot
+    past the event's own slots: each keeps their seat in the event's rooms there. (Our rule, as the
+    validator's: with the event split over several rooms, each of its rooms keeps those seats.)"""
+    alone = {a for a, _ in apart.get(code, ())}
+    out: dict[int, int] = {}
+    for (attendee, c), own in found.sittings.items():
+        if c != code or attendee in alone:
+            continue
+        sitting = own.get(start)
+        for t in sitting or ():
+            if t not in span:
+                out[t] = out.get(t, 0) + 1
     return out
 
 
@@ -225,19 +245,20 @@ def _seat_slot(problem, s, codes, sizes, sharing, splitting, seconds_per_slot, s
 
 
 def _seat_group(problem, slot_set, codes, apart_here, held, sizes, assignment, sharing, splitting,
-                seconds_per_slot, seed, goals, unavailable, out: Seating) -> None:
+                seconds_per_slot, seed, goals, unavailable, out: Seating, seats_at=None) -> None:
     """Slots linked by long events or by attendees seated apart, seated jointly: each event holds the same
     rooms (with the same seats) in every slot it takes, each attendee apart a room of their type alone for
     their whole sitting. The greedy first; CP-SAT when it fails or leaves a room-goal penalty."""
     codes = sorted(codes, key=lambda c: (-sizes[c], -len(held[c]), c))
     apart_here = sorted(apart_here, key=lambda item: (-len(item[3]), item[0], item[1]))
-    got = _greedy_group(problem, codes, apart_here, held, sizes, sharing, splitting, goals, unavailable)
+    seats_at = seats_at or {}
+    got = _greedy_group(problem, codes, apart_here, held, sizes, sharing, splitting, goals, unavailable, seats_at)
     if got is None and goals.active:
-        got = _greedy_group(problem, codes, apart_here, held, sizes, sharing, splitting, None, unavailable)
+        got = _greedy_group(problem, codes, apart_here, held, sizes, sharing, splitting, None, unavailable, seats_at)
     proven = True
     if got is None or goals.penalty(got[0]):
         better, proven = _exact_group(problem, codes, apart_here, held, sizes, sharing, splitting,
-                                      seconds_per_slot, seed, goals, unavailable, hint=got)
+                                      seconds_per_slot, seed, goals, unavailable, hint=got, seats_at=seats_at)
         if better is not None and (got is None or goals.cost(better[0]) < goals.cost(got[0])):
             got = better
     if got is None:
@@ -463,7 +484,7 @@ def _own_room_candidates(problem, kind: str, sitting: tuple[int, ...], unavailab
 
 
 def _greedy_group(problem, codes, apart_here, held, sizes, sharing, splitting, goals: _RoomGoals | None,
-                  unavailable):
+                  unavailable, seats_at=None):
     """Best-fit decreasing over linked slots: the attendees apart first (each the smallest free room of their
     type, alone in every slot of their sitting), then the events, each in rooms free and with room in
     every slot it holds. (rooms, own rooms) or None."""
@@ -488,12 +509,15 @@ def _greedy_group(problem, codes, apart_here, held, sizes, sharing, splitting, g
             solo.add((room.name, t))
         own[(attendee, code)] = room.name
     result: dict[str, list[tuple[str, int]]] = {}
+    seats_at = seats_at or {}
     for code in codes:
         span = held[code]
         need = sizes[code]
+        tail = {t: n for t, n in seats_at.get(code, {}).items() if n != need}  # extra-time seats past its slots
         ok = [r for r in problem.rooms if _fits_type(problem, code, r) and not unavailable[r.name].intersection(span)
-              and all((r.name, t) not in solo and ((r.name, t) not in used or (sharing and r.shared)) for t in span)]
-        room_left = {r.name: min(left.get((r.name, t), r.capacity) for t in span) for r in ok}
+              and all((r.name, t) not in solo and ((r.name, t) not in used or (sharing and r.shared)) for t in span)
+              and all(left.get((r.name, t), r.capacity) >= n for t, n in tail.items())]
+        room_left = {r.name: min(left.get((r.name, t), r.capacity) for t in span if t not in tail) for r in ok}
         whole = sorted((r for r in ok if room_left[r.name] >= need),
                        key=lambda r: (cost(code, r), room_left[r.name], r.name))
         if whole:
@@ -515,14 +539,14 @@ def _greedy_group(problem, codes, apart_here, held, sizes, sharing, splitting, g
         for name, take in chosen:
             capacity = next(r.capacity for r in ok if r.name == name)
             for t in span:
-                left[(name, t)] = left.get((name, t), capacity) - take
+                left[(name, t)] = left.get((name, t), capacity) - tail.get(t, take)
                 used.add((name, t))
         result[code] = chosen
     return result, own
 
 
 def _exact_group(problem, codes, apart_here, held, sizes, sharing, splitting, seconds, seed, goals: _RoomGoals,
-                 unavailable, hint=None):
+                 unavailable, hint=None, seats_at=None):
     """The linked group's CP-SAT seating ((rooms, own rooms) or None), and whether CP-SAT proved it best (or
     proved that none exists).
 
@@ -576,8 +600,12 @@ def _exact_group(problem, codes, apart_here, held, sizes, sharing, splitting, se
                         m.AddImplication(lit, use[c, r.name].Not())
             if not here:
                 continue
-            if sum(min(r.capacity, sizes[c]) for c in here) > r.capacity:
-                m.Add(sum(seats[c, r.name] for c in here) <= r.capacity)
+            def at(c, t=t, r=r):  # seats c holds in r in slot t: its own, or its extra-time tail's
+                n = (seats_at or {}).get(c, {}).get(t)
+                return seats[c, r.name] if n is None or n == sizes[c] else n * use[c, r.name]
+
+            if sum(min(r.capacity, (seats_at or {}).get(c, {}).get(t, sizes[c])) for c in here) > r.capacity:
+                m.Add(sum(at(c) for c in here) <= r.capacity)
             if not (sharing and r.shared) and len(here) > 1:
                 m.AddAtMostOne(use[c, r.name] for c in here)
     weighted = []

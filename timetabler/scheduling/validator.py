@@ -499,6 +499,10 @@ def _check_people(problem, slots, placed, taken, timing, by_attendee, label, vio
                               f"{len(free)} are; not free: {shown}")
 
 
+def _names_short(names: list[str]) -> str:
+    return ", ".join(names[:3]) + (f" and {len(names) - 3} more" if len(names) > 3 else "")
+
+
 def _own_room_list(own_rooms) -> list[tuple[str, str, str]] | None:
     """(attendee, event, room) of every placement apart, from either form ``validate`` accepts (None: not given)."""
     if own_rooms is None:
@@ -584,10 +588,27 @@ def _check_rooms(problem, slots, placed, sizes, rooms, sharing, splitting, label
                     violations.append(f"{attendee} sits {code} alone in {room.name} in {label(t)}, when "
                                       f"{room.name} is not available")
             alone[code] += 1
+    # extra time past an event's slots: the attendee keeps their seat in each of the event's rooms then
+    # (our rule; an attendee seated apart keeps their own room instead, checked above)
+    tails: dict[str, dict[int, list[str]]] = defaultdict(lambda: defaultdict(list))
+    placed_apart = {(a, c) for a, c, _ in apart} if apart is not None else {
+        (a, c) for a, c in problem.enrolments if (someone := problem.people.get(a)) is not None and someone.own_room_type}
+    for attendee, code in problem.enrolments:
+        person = problem.people.get(attendee)
+        if code not in placed or person is None or not person.extra_time_percent or (attendee, code) in placed_apart:
+            continue
+        held, _, _ = timing.sitting(problem.events[code].duration_minutes, taken[code], person.extra_time_percent)
+        for t in held or ():
+            if t not in taken[code]:
+                tails[code][t].append(attendee)
     for code, s in placed.items():
         given = list(rooms.get(code, []))
         if sizes[code] == 0 and not given:
             continue
+        for name, _ in given:
+            if name in by_name:
+                for t, who in tails.get(code, {}).items():
+                    use[(name, t)].append((code, len(who)))
         seated = 0
         for name, seats in given:
             room = by_name.get(name)
@@ -629,7 +650,10 @@ def _check_rooms(problem, slots, placed, sizes, rooms, sharing, splitting, label
         room = by_name[name]
         total = sum(n for _, n in holders)
         if total > room.capacity:
-            violations.append(f"{name} holds {total} attendees in {label(s)}, more than its {room.capacity} seats")
+            late = sorted(a for c, _ in holders for a in tails.get(c, {}).get(s, ()))
+            still = f" (with {_names_short(late)} still writing with extra time)" if late else ""
+            violations.append(f"{name} holds {total} attendees in {label(s)}, more than its {room.capacity} seats"
+                              + still)
         codes = sorted({c for c, _ in holders})
         if len(codes) > 1:
             if not sharing:
