@@ -27,7 +27,10 @@ Hard rules:
   their event's rooms; each holds a room of their type for every slot of their sitting, so per
   slot and type they cannot outnumber the rooms free, each takes at least the seats of the
   smallest such room from the type's (and all rooms') seats, and where no room may be shared
-  events and attendees apart together cannot outnumber the rooms. Seating
+  events and attendees apart together cannot outnumber the rooms. An attendee seated with their
+  event whose extra time runs into the next slot keeps a seat in one of the event's rooms then
+  (:mod:`.rooms`' rule): those seats count in that slot's seats of the rooms of the event's type
+  and, as one more event there, in its places and room counts (:func:`_tail_seats`). Seating
   (:mod:`.rooms`) checks the rest and returns cuts. In *explain* mode each of these carries its own enforcement literal,
   which the solver takes as an assumption; the sufficient assumptions for infeasibility
   then name a set of rules that cannot all hold.
@@ -706,6 +709,7 @@ def build_model(
         apart = {c: v for c, v in seated_apart(problem).items() if c in code_set}
         seated = seats_in_rooms({c: sizes[c] for c in codes}, apart)
         holds = _own_room_holds(apart, found, x, k)
+        late = _tail_seats(apart, found, x, code_set, seated)  # slot -> (event, seats, start literal)
         alone_by_kind: dict[str, list[str]] = {}
         spelled: dict[str, str] = {}  # the type as the Attendees sheet first wrote it
         for people in apart.values():
@@ -726,6 +730,9 @@ def build_model(
             for ty in types:
                 members = [c for c in codes if seated[c] > 0
                            and (ty is None or _type_key(problem.events[c].room_type) == ty)]
+                # extra-time seats held past an event's slots, each in one room of the event's type
+                tails = [(n, lit) for c, n, lit in late.get(s + 1, ())
+                         if ty is None or _type_key(problem.events[c].room_type) == ty]
                 room_caps = caps[s + 1].get(ty, [])
                 word = f"rooms of type '{ty}'" if ty else "rooms"
                 # each attendee apart in these rooms takes a whole room: at least the smallest of its type
@@ -734,36 +741,39 @@ def build_model(
                        if (ty is None or kind == ty) and per_slot.get(s + 1)]
                 own_most = sum(least * len(lits) for least, lits in own)
                 total = sum(cap for cap, _ in room_caps)
-                if sum(seated[c] for c in members) + own_most > total:
+                if sum(seated[c] for c in members) + own_most + sum(n for n, _ in tails) > total:
                     lit = rule_literal(f"the {word} free in slot {s + 1} seat {total}", "rooms")
                     enforce(m.add(sum(seated[c] * occ[c][s] for c in members)
-                                  + sum(least * sum(lits) for least, lits in own) <= total), lit)
-                if own and not any(shared for _, shared in room_caps):
-                    # one room for each event and for each attendee apart
+                                  + sum(least * sum(lits) for least, lits in own)
+                                  + sum(n * v for n, v in tails) <= total), lit)
+                if (own or tails) and not any(shared for _, shared in room_caps):
+                    # one room for each event, for each attendee apart and for each event's extra-time seats
                     count = sum(1 for cap, _ in room_caps if cap >= 1)
-                    if len(members) + sum(len(lits) for _, lits in own) > count:
+                    if len(members) + sum(len(lits) for _, lits in own) + len(tails) > count:
                         lit = rule_literal(f"slot {s + 1} has {count} {word} free, one event or one attendee "
                                            "apart per room", "rooms")
-                        enforce(m.add(sum(occ[c][s] for c in members) + sum(sum(lits) for _, lits in own) <= count),
-                                lit)
+                        enforce(m.add(sum(occ[c][s] for c in members) + sum(sum(lits) for _, lits in own)
+                                      + sum(v for _, v in tails) <= count), lit)
                 if not room_splitting:
                     # Hall's condition: the events needing at least `need` seats cannot outnumber the places
                     # for them, a room of `cap` seats holding one such event, or cap // need when shared
                     # (exact without sharing for one room type, since the rooms an event fits are nested by size)
-                    needs = {cap + 1 for cap, _ in room_caps} | {min((seated[c] for c in members), default=1)}
+                    # (an event's extra-time seats past its slots take a place of their own: its room then)
+                    items = [(seated[c], occ[c][s]) for c in members] + tails
+                    needs = {cap + 1 for cap, _ in room_caps} | {min((n for n, _ in items), default=1)}
                     if any(shared for _, shared in room_caps):
-                        needs |= {seated[c] for c in members}
+                        needs |= {n for n, _ in items}
                     for need in sorted(needs):
-                        big = [c for c in members if seated[c] >= need]
+                        big = [v for n, v in items if n >= need]
                         fits = sum((cap // need if shared else 1) for cap, shared in room_caps if cap >= need)
                         if len(big) > fits:
                             lit = rule_literal(f"slot {s + 1} has places for {fits} events with {need} seats or more "
                                                f"in its {word}", "rooms")
-                            enforce(m.add(sum(occ[c][s] for c in big) <= fits), lit)
-                elif not any(shared for _, shared in room_caps) and len(members) > len(room_caps):
-                    # split events still take a room each, and no room takes two
+                            enforce(m.add(sum(big) <= fits), lit)
+                elif not any(shared for _, shared in room_caps) and len(members) + len(tails) > len(room_caps):
+                    # split events still take a room each, and no room takes two (extra-time seats: one room)
                     lit = rule_literal(f"slot {s + 1} has {len(room_caps)} {word} free, one event per room", "rooms")
-                    enforce(m.add(sum(occ[c][s] for c in members) <= len(room_caps)), lit)
+                    enforce(m.add(sum(occ[c][s] for c in members) + sum(v for _, v in tails) <= len(room_caps)), lit)
     for cut in nogoods or ():
         if isinstance(cut, tuple) and len(cut) == 2 and isinstance(cut[0], int):  # (slot, events): one slot's group
             cut = [(c, cut[0]) for c in cut[1]]
@@ -1074,6 +1084,30 @@ def _own_room_holds(apart: dict[str, list[tuple[str, str]]], found: Availability
                            if found is not None else (start,))
                 for t_ in sitting:
                     per.setdefault(t_, []).append(x[c][start - 1])
+    return out
+
+
+def _tail_seats(apart: dict[str, list[tuple[str, str]]], found: Availability | None, x, code_set: set[str],
+                seated: dict[str, int]) -> dict[int, list[tuple[str, int, object]]]:
+    """Slot -> (event, seats, start literal ``x[c][start]``) for every event and start whose attendees seated
+    with it (not apart) have an extra-time sitting running into that slot past the event's own: the seats
+    they keep in the event's room then (one room, :func:`.rooms.tail_room`)."""
+    out: dict[int, list[tuple[str, int, object]]] = {}
+    if found is None or not found.sittings:
+        return out
+    counts: dict[tuple[str, int, int], int] = {}
+    for (attendee, c), own in found.sittings.items():
+        if c not in code_set or seated.get(c, 0) <= 0 or any(a == attendee for a, _ in apart.get(c, ())):
+            continue
+        for start, taken in own.items():
+            if taken is None:
+                continue
+            span = found.slots_taken(c, start) or (start,)
+            for t_ in taken:
+                if t_ not in span:
+                    counts[(c, start, t_)] = counts.get((c, start, t_), 0) + 1
+    for (c, start, t_), n in sorted(counts.items()):
+        out.setdefault(t_, []).append((c, n, x[c][start - 1]))
     return out
 
 

@@ -32,7 +32,19 @@ and sitting alone; a room unavailable in any slot an event or sitting holds is n
 it). A group that cannot be seated is returned as the exact (event, start) pairs that make it
 (``Seating.failed_groups``): no timetable holding all of them can be seated, whatever else it
 holds, since more events in those slots only make seating harder. A slot taken by single-slot
-events alone, with nobody apart, is seated as described above.
+events alone, with nobody apart and no extra time running into it, is seated as described above.
+
+Extra time into the next slot
+-----------------------------
+An attendee seated with their event (not apart) whose extra-time sitting runs past the event's
+own slots keeps one seat in the event's room in each such slot (:func:`_tails`): the event's only
+room or, when it is split, the room given the most of its seats (ties: the room first in the Rooms
+sheet). The rule is ours, and the validator's (:func:`.validator.validate`). Such slots are linked
+into the event's group like a long event's; in them the event holds just those seats in that one
+room (:func:`tail_room`), counts as present there for sharing (a room not shared holds nothing
+else then) and needs that room available. The slot model counts these seats in its per-type seat
+totals and room places (:mod:`.cpsat_model`); what those totals let through, the Benders cuts of
+failed groups settle.
 
 Preferred and avoided rooms
 ---------------------------
@@ -143,15 +155,17 @@ def seat_events(problem: Problem, slots: list[Slot], assignment: dict[str, int],
         found = Availability.of(problem, slots)
     need = seats_in_rooms({c: sizes.get(c, 0) for c in assignment}, apart)
     held: dict[str, tuple[int, ...]] = {}  # event -> the slots its rooms are held in (its span, then tails)
-    seats_at: dict[str, dict[int, int]] = {}  # event -> slot -> seats it holds there, where not need[event]
+    spans: dict[str, tuple[int, ...]] = {}  # event -> its own slots
+    tails: dict[str, dict[int, int]] = {}  # event -> slot past its own -> seats its extra-time attendees keep
     own: list[tuple[str, str, str, tuple[int, ...]]] = []  # (attendee, event, room type, slots held)
     for code, s in assignment.items():
-        span = found.slots_taken(code, s) if found is not None else (s,)
-        tails = _tails(problem, found, code, s, span, apart) if found is not None and found.sittings else {}
+        span = tuple(found.slots_taken(code, s) or (s,)) if found is not None else (s,)
+        tail = _tails(problem, found, code, s, span, apart) if found is not None and found.sittings else {}
         if need[code] > 0:
-            held[code] = tuple(span) + tuple(sorted(tails))
-            if tails:
-                seats_at[code] = {**{t: need[code] for t in span}, **tails}
+            held[code] = span + tuple(sorted(tail))
+            spans[code] = span
+            if tail:
+                tails[code] = tail
         for attendee, kind in apart.get(code, ()):
             sitting = found.slots_taken(code, s, attendee) if found is not None else None
             own.append((attendee, code, kind, tuple(sitting or span)))
@@ -176,14 +190,22 @@ def seat_events(problem: Problem, slots: list[Slot], assignment: dict[str, int],
                        unavailable, out)
         else:
             _seat_group(problem, slot_set, codes, apart_here, held, need, assignment, sharing, splitting,
-                        seconds_per_slot, seed, goals, unavailable, out, seats_at)
+                        seconds_per_slot, seed, goals, unavailable, out, spans, tails)
     return out
+
+
+def tail_room(problem: Problem, parts: list[tuple[str, int]]) -> str:
+    """The room of an event's ``parts`` [(room, seats)] in which its attendees still writing with extra time
+    keep their seats past its own slots: the one with the most seats, the first in the Rooms sheet on a tie
+    (our rule, as the validator's)."""
+    order = {r.name: i for i, r in enumerate(problem.rooms)}
+    return max(parts, key=lambda part: (part[1], -order.get(part[0], len(order))))[0]
 
 
 def _tails(problem: Problem, found: Availability, code: str, start: int, span, apart) -> dict[int, int]:
     """Slot -> attendees of ``code`` (seated with it, not apart) whose extra-time sitting runs into that slot
-    past the event's own slots: each keeps their seat in the event's rooms there. (Our rule, as the
-    validator's: with the event split over several rooms, each of its rooms keeps those seats.)"""
+    past the event's own slots: each keeps their seat in the event's room there (:func:`tail_room` when it
+    is split; our rule, as the validator's)."""
     alone = {a for a, _ in apart.get(code, ())}
     out: dict[int, int] = {}
     for (attendee, c), own in found.sittings.items():
@@ -245,20 +267,22 @@ def _seat_slot(problem, s, codes, sizes, sharing, splitting, seconds_per_slot, s
 
 
 def _seat_group(problem, slot_set, codes, apart_here, held, sizes, assignment, sharing, splitting,
-                seconds_per_slot, seed, goals, unavailable, out: Seating, seats_at=None) -> None:
-    """Slots linked by long events or by attendees seated apart, seated jointly: each event holds the same
-    rooms (with the same seats) in every slot it takes, each attendee apart a room of their type alone for
-    their whole sitting. The greedy first; CP-SAT when it fails or leaves a room-goal penalty."""
+                seconds_per_slot, seed, goals, unavailable, out: Seating, spans=None, tails=None) -> None:
+    """Slots linked by long events, attendees seated apart or extra time, seated jointly: each event holds the
+    same rooms (with the same seats) in every slot it takes and its extra-time seats in :func:`tail_room`
+    after them, each attendee apart a room of their type alone for their whole sitting. The greedy first;
+    CP-SAT when it fails or leaves a room-goal penalty."""
     codes = sorted(codes, key=lambda c: (-sizes[c], -len(held[c]), c))
     apart_here = sorted(apart_here, key=lambda item: (-len(item[3]), item[0], item[1]))
-    seats_at = seats_at or {}
-    got = _greedy_group(problem, codes, apart_here, held, sizes, sharing, splitting, goals, unavailable, seats_at)
+    spans = spans if spans is not None else held
+    tails = tails or {}
+    got = _greedy_group(problem, codes, apart_here, spans, sizes, sharing, splitting, goals, unavailable, tails)
     if got is None and goals.active:
-        got = _greedy_group(problem, codes, apart_here, held, sizes, sharing, splitting, None, unavailable, seats_at)
+        got = _greedy_group(problem, codes, apart_here, spans, sizes, sharing, splitting, None, unavailable, tails)
     proven = True
     if got is None or goals.penalty(got[0]):
-        better, proven = _exact_group(problem, codes, apart_here, held, sizes, sharing, splitting,
-                                      seconds_per_slot, seed, goals, unavailable, hint=got, seats_at=seats_at)
+        better, proven = _exact_group(problem, codes, apart_here, spans, sizes, sharing, splitting,
+                                      seconds_per_slot, seed, goals, unavailable, hint=got, tails=tails)
         if better is not None and (got is None or goals.cost(better[0]) < goals.cost(got[0])):
             got = better
     if got is None:
@@ -483,11 +507,12 @@ def _own_room_candidates(problem, kind: str, sitting: tuple[int, ...], unavailab
     return sorted(ok, key=lambda r: (r.penalised, r.capacity, r.name))
 
 
-def _greedy_group(problem, codes, apart_here, held, sizes, sharing, splitting, goals: _RoomGoals | None,
-                  unavailable, seats_at=None):
+def _greedy_group(problem, codes, apart_here, spans, sizes, sharing, splitting, goals: _RoomGoals | None,
+                  unavailable, tails=None):
     """Best-fit decreasing over linked slots: the attendees apart first (each the smallest free room of their
     type, alone in every slot of their sitting), then the events, each in rooms free and with room in
-    every slot it holds. (rooms, own rooms) or None."""
+    every slot of its span, and its extra-time seats (``tails``: event -> slot -> seats) in
+    :func:`tail_room` of its rooms after it. (rooms, own rooms) or None."""
 
     def cost(code: str, room: Room) -> int:
         return goals.room_cost(code, room.name) if goals is not None else 0
@@ -499,6 +524,15 @@ def _greedy_group(problem, codes, apart_here, held, sizes, sharing, splitting, g
     used: set[tuple[str, int]] = set()
     solo: set[tuple[str, int]] = set()
     own: dict[tuple[str, str], str] = {}
+    tails = tails or {}
+    by_name = {r.name: r for r in problem.rooms}
+
+    def free(r: Room, slots_seats) -> bool:
+        """Whether ``r`` can take the seats of ``slots_seats`` ((slot, seats) pairs) for one more event."""
+        return all(t not in unavailable[r.name] and (r.name, t) not in solo
+                   and ((r.name, t) not in used or (sharing and r.shared))
+                   and left.get((r.name, t), r.capacity) >= n for t, n in slots_seats)
+
     for attendee, code, kind, sitting in apart_here:
         room = next((r for r in _own_room_candidates(problem, kind, sitting, unavailable)
                      if not any((r.name, t) in used for t in sitting)), None)
@@ -509,16 +543,13 @@ def _greedy_group(problem, codes, apart_here, held, sizes, sharing, splitting, g
             solo.add((room.name, t))
         own[(attendee, code)] = room.name
     result: dict[str, list[tuple[str, int]]] = {}
-    seats_at = seats_at or {}
     for code in codes:
-        span = held[code]
+        span = spans[code]
         need = sizes[code]
-        tail = {t: n for t, n in seats_at.get(code, {}).items() if n != need}  # extra-time seats past its slots
-        ok = [r for r in problem.rooms if _fits_type(problem, code, r) and not unavailable[r.name].intersection(span)
-              and all((r.name, t) not in solo and ((r.name, t) not in used or (sharing and r.shared)) for t in span)
-              and all(left.get((r.name, t), r.capacity) >= n for t, n in tail.items())]
-        room_left = {r.name: min(left.get((r.name, t), r.capacity) for t in span if t not in tail) for r in ok}
-        whole = sorted((r for r in ok if room_left[r.name] >= need),
+        tail = sorted(tails.get(code, {}).items())  # extra-time seats past its slots, in one of its rooms
+        ok = [r for r in problem.rooms if _fits_type(problem, code, r) and free(r, [(t, 1) for t in span])]
+        room_left = {r.name: min(left.get((r.name, t), r.capacity) for t in span) for r in ok}
+        whole = sorted((r for r in ok if room_left[r.name] >= need and free(r, tail)),
                        key=lambda r: (cost(code, r), room_left[r.name], r.name))
         if whole:
             chosen = [(whole[0].name, need)]
@@ -526,7 +557,7 @@ def _greedy_group(problem, codes, apart_here, held, sizes, sharing, splitting, g
             return None
         else:
             chosen = []
-            for r in sorted(ok, key=lambda r: (shunned(r), -room_left[r.name], r.name)):
+            for r in sorted(ok, key=lambda r: (shunned(r), not free(r, tail), -room_left[r.name], r.name)):
                 if need <= 0:
                     break
                 if room_left[r.name] <= 0:
@@ -534,35 +565,48 @@ def _greedy_group(problem, codes, apart_here, held, sizes, sharing, splitting, g
                 take = min(need, room_left[r.name])
                 chosen.append((r.name, take))
                 need -= take
-            if need > 0:
+            if need > 0 or (tail and not free(by_name[tail_room(problem, chosen)], tail)):
                 return None
         for name, take in chosen:
-            capacity = next(r.capacity for r in ok if r.name == name)
             for t in span:
-                left[(name, t)] = left.get((name, t), capacity) - tail.get(t, take)
+                left[(name, t)] = left.get((name, t), by_name[name].capacity) - take
                 used.add((name, t))
+        if tail:
+            host = tail_room(problem, chosen)
+            for t, n in tail:
+                left[(host, t)] = left.get((host, t), by_name[host].capacity) - n
+                used.add((host, t))
         result[code] = chosen
     return result, own
 
 
-def _exact_group(problem, codes, apart_here, held, sizes, sharing, splitting, seconds, seed, goals: _RoomGoals,
-                 unavailable, hint=None, seats_at=None):
+def _exact_group(problem, codes, apart_here, spans, sizes, sharing, splitting, seconds, seed, goals: _RoomGoals,
+                 unavailable, hint=None, tails=None):
     """The linked group's CP-SAT seating ((rooms, own rooms) or None), and whether CP-SAT proved it best (or
     proved that none exists).
 
-    Variables: ``use[c, r]`` (event ``c`` has seats in room ``r`` in every slot it holds; with splitting
-    ``seats[c, r]`` of them) and ``alone[i, r]`` (attendee apart ``i`` sits alone in ``r`` for their whole
-    sitting). Rooms unavailable in any slot an event or sitting holds are left out of its choice. Per room
-    and slot: the seats of the events holding it at most its capacity, at most one of them unless it may be
-    shared, and nothing else where an attendee sits alone. The objective is :func:`_exact`'s.
+    Variables: ``use[c, r]`` (event ``c`` has seats in room ``r`` in every slot of its span ``spans[c]``;
+    with splitting ``seats[c, r]`` of them), ``host[c, r]`` (``r`` is :func:`tail_room` of ``c``, holding
+    the seats ``tails[c][t]`` of its attendees still writing in each slot ``t`` past its span: ``use``
+    itself without splitting; with splitting one of its rooms, with more seats than each room before it
+    in the Rooms sheet and at least as many as each after) and ``alone[i, r]`` (attendee apart ``i`` sits
+    alone in ``r`` for their whole sitting). Rooms unavailable in a slot an event, its extra-time seats or
+    a sitting apart hold there are left out of that choice. Per room and slot: the seats of the events
+    present (their own, or their extra-time seats) at most its capacity, at most one of them unless it
+    may be shared, and nothing else where an attendee sits alone. The objective is :func:`_exact`'s.
     """
     m = cp_model.CpModel()
+    tails = tails or {}
     use: dict[tuple[str, str], cp_model.IntVar] = {}
     seats: dict[tuple[str, str], cp_model.LinearExprT] = {}
+    host: dict[tuple[str, str], cp_model.IntVar] = {}
     alone: dict[tuple[int, str], cp_model.IntVar] = {}
+    order = {r.name: i for i, r in enumerate(problem.rooms)}
     for c in codes:
         for r in problem.rooms:
-            if not _fits_type(problem, c, r) or unavailable[r.name].intersection(held[c]):
+            if not _fits_type(problem, c, r) or unavailable[r.name].intersection(spans[c]):
+                continue
+            if not splitting and unavailable[r.name].intersection(tails.get(c, ())):
                 continue
             if not splitting and r.capacity < sizes[c]:
                 continue
@@ -581,6 +625,22 @@ def _exact_group(problem, codes, apart_here, held, sizes, sharing, splitting, se
             m.Add(sum(seats[c, n] for n in mine) == sizes[c])
         else:
             m.AddExactlyOne(use[c, n] for n in mine)
+        if not tails.get(c):
+            continue
+        if not splitting:
+            host.update({(c, n): use[c, n] for n in mine})
+            continue
+        hosts = [n for n in mine if not unavailable[n].intersection(tails[c])]
+        if not hosts:
+            return None, True
+        for n in hosts:
+            host[c, n] = m.NewBoolVar(f"host[{c},{n}]")
+            m.AddImplication(host[c, n], use[c, n])
+            for other in mine:
+                if other != n:  # the most seats; on a tie, the first room in the Rooms sheet
+                    ahead = 1 if order[other] < order[n] else 0
+                    m.Add(seats[c, n] >= seats[c, other] + ahead).OnlyEnforceIf(host[c, n])
+        m.AddExactlyOne(host[c, n] for n in hosts)
     for i, (attendee, code, kind, sitting) in enumerate(apart_here):
         mine = _own_room_candidates(problem, kind, sitting, unavailable)
         if not mine:
@@ -588,26 +648,27 @@ def _exact_group(problem, codes, apart_here, held, sizes, sharing, splitting, se
         for r in mine:
             alone[i, r.name] = m.NewBoolVar(f"alone[{attendee},{code},{r.name}]")
         m.AddExactlyOne(alone[i, r.name] for r in mine)
-    slot_set = sorted({t for c in codes for t in held[c]} | {t for item in apart_here for t in item[3]})
+    slot_set = sorted({t for c in codes for t in spans[c]} | {t for c in codes for t in tails.get(c, ())}
+                      | {t for item in apart_here for t in item[3]})
     for r in problem.rooms:
         for t in slot_set:
-            here = [c for c in codes if (c, r.name) in use and t in held[c]]
+            # (present, seats, most seats) of each event in r in slot t: in its span, or by extra-time seats
+            here = [(use[c, r.name], seats[c, r.name], min(r.capacity, sizes[c]))
+                    for c in codes if (c, r.name) in use and t in spans[c]]
+            here += [(host[c, r.name], tails[c][t] * host[c, r.name], tails[c][t])
+                     for c in codes if (c, r.name) in host and t in tails[c]]
             solo = [alone[i, r.name] for i, item in enumerate(apart_here) if (i, r.name) in alone and t in item[3]]
             if solo:
                 m.AddAtMostOne(solo)
                 for lit in solo:
-                    for c in here:
-                        m.AddImplication(lit, use[c, r.name].Not())
+                    for present, _, _ in here:
+                        m.AddImplication(lit, present.Not())
             if not here:
                 continue
-            def at(c, t=t, r=r):  # seats c holds in r in slot t: its own, or its extra-time tail's
-                n = (seats_at or {}).get(c, {}).get(t)
-                return seats[c, r.name] if n is None or n == sizes[c] else n * use[c, r.name]
-
-            if sum(min(r.capacity, (seats_at or {}).get(c, {}).get(t, sizes[c])) for c in here) > r.capacity:
-                m.Add(sum(at(c) for c in here) <= r.capacity)
+            if sum(most for _, _, most in here) > r.capacity:
+                m.Add(sum(n for _, n, _ in here) <= r.capacity)
             if not (sharing and r.shared) and len(here) > 1:
-                m.AddAtMostOne(use[c, r.name] for c in here)
+                m.AddAtMostOne(present for present, _, _ in here)
     weighted = []
     if goals.split and splitting:
         weighted += [goals.split * v for v in use.values()]

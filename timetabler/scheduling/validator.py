@@ -72,6 +72,13 @@ model takes consecutive numbers as consecutive slots) cannot pass.
 
 Rooms: a room holds several events in one slot when their attendees fit in its seats
 (whatever their lengths), unless sharing is switched off or the room is marked not shared.
+An attendee seated with their event (not apart in an own room) whose extra-time sitting runs
+into a slot past the event's own keeps one seat in the event's room in that slot: the event's
+only room or, when the event is split over several rooms, the room given the most of its seats
+(ties: the room first in the Rooms sheet). That rule is ours. Those seats count against the
+room's capacity, and the event counts as present in that room in that slot, so a room not
+shared (or every room, with sharing off) holds no other event then, and the room must be
+available then.
 """
 
 from __future__ import annotations
@@ -551,6 +558,8 @@ def _check_rooms(problem, slots, placed, sizes, rooms, sharing, splitting, label
         violations.append("the problem has rooms but the timetable gives none")
         return
     by_name = {r.name: r for r in problem.rooms}
+    order = {r.name: i for i, r in enumerate(problem.rooms)}  # the Rooms sheet's order (ties of the extra-time rule)
+    late_in: dict[tuple[str, int], list[str]] = defaultdict(list)  # (room, slot) -> attendees still writing there
     use: dict[tuple[str, int], list[tuple[str, int]]] = defaultdict(list)
     alone: dict[str, int] = defaultdict(int)  # event -> attendees seated apart from it
     solo: dict[tuple[str, int], list[str]] = defaultdict(list)  # (room, slot) -> the attendees alone in it
@@ -588,8 +597,9 @@ def _check_rooms(problem, slots, placed, sizes, rooms, sharing, splitting, label
                     violations.append(f"{attendee} sits {code} alone in {room.name} in {label(t)}, when "
                                       f"{room.name} is not available")
             alone[code] += 1
-    # extra time past an event's slots: the attendee keeps their seat in each of the event's rooms then
-    # (our rule; an attendee seated apart keeps their own room instead, checked above)
+    # extra time past an event's slots: the attendee keeps their seat in the event's room then, the room with
+    # the most of its seats when it is split (ties: the first in the Rooms sheet; our rule). An attendee
+    # seated apart keeps their own room instead, checked above.
     tails: dict[str, dict[int, list[str]]] = defaultdict(lambda: defaultdict(list))
     placed_apart = {(a, c) for a, c, _ in apart} if apart is not None else {
         (a, c) for a, c in problem.enrolments if (someone := problem.people.get(a)) is not None and someone.own_room_type}
@@ -605,10 +615,15 @@ def _check_rooms(problem, slots, placed, sizes, rooms, sharing, splitting, label
         given = list(rooms.get(code, []))
         if sizes[code] == 0 and not given:
             continue
-        for name, _ in given:
-            if name in by_name:
-                for t, who in tails.get(code, {}).items():
-                    use[(name, t)].append((code, len(who)))
+        known = [(name, seats) for name, seats in given if name in by_name]
+        if known and tails.get(code):
+            host = max(known, key=lambda part: (part[1], -order[part[0]]))[0]
+            for t, who in sorted(tails[code].items()):
+                use[(host, t)].append((code, len(who)))
+                late_in[(host, t)].extend(who)
+                if any(problem.slot_number(ref, slots) == t for ref in by_name[host].unavailable_slots):
+                    violations.append(f"{_names_short(sorted(who))} still writing {code} with extra time in {host} "
+                                      f"in {label(t)}, when {host} is not available")
         seated = 0
         for name, seats in given:
             room = by_name.get(name)
@@ -649,15 +664,16 @@ def _check_rooms(problem, slots, placed, sizes, rooms, sharing, splitting, label
     for (name, s), holders in sorted(use.items()):
         room = by_name[name]
         total = sum(n for _, n in holders)
+        late = sorted(late_in.get((name, s), ()))
+        still = f" (with {_names_short(late)} still writing with extra time)" if late else ""
         if total > room.capacity:
-            late = sorted(a for c, _ in holders for a in tails.get(c, {}).get(s, ()))
-            still = f" (with {_names_short(late)} still writing with extra time)" if late else ""
             violations.append(f"{name} holds {total} attendees in {label(s)}, more than its {room.capacity} seats"
                               + still)
         codes = sorted({c for c, _ in holders})
         if len(codes) > 1:
             if not sharing:
-                violations.append(f"{name} holds {', '.join(codes)} together in {label(s)}, and sharing is not allowed")
+                violations.append(f"{name} holds {', '.join(codes)} together in {label(s)}, and sharing is not allowed"
+                                  + still)
             elif not room.shared:
                 violations.append(f"{name} holds {', '.join(codes)} together in {label(s)}, but it is marked "
-                                  "as not shared")
+                                  "as not shared" + still)
