@@ -458,37 +458,8 @@ def _exact(problem, codes, rooms, sizes, sharing, splitting, seconds, seed, goal
         m.Add(sum(seats[c, r.name] for c in here) <= r.capacity)
         if not (sharing and r.shared):
             m.AddAtMostOne(use[c, r.name] for c in here)
-    weighted = []
-    if goals.split and splitting:
-        weighted += [goals.split * v for v in use.values()]
-    if goals.avoided:
-        weighted += [goals.avoided * v for (c, name), v in use.items() if name.casefold() in goals.avoid]
-    miss: dict[str, cp_model.IntVar] = {}
-    if goals.preferred:
-        for c in codes:
-            wanted = goals.wanted.get(c)
-            if not wanted:
-                continue
-            miss[c] = m.NewBoolVar(f"miss[{c}]")
-            m.AddBoolOr([miss[c]] + [use[c, r.name] for r in rooms
-                                     if (c, r.name) in use and r.name.casefold() in wanted])
-            weighted.append(goals.preferred * miss[c])
-    scale = len(use) + 1  # the weighted goals first; fewer rooms only among equals
-    m.Minimize(scale * sum(weighted) + sum(use.values()))
-    if hint:
-        given = {(c, name): n for c, parts in hint.items() for name, n in parts}
-        for key, v in use.items():
-            m.AddHint(v, key in given)
-            if splitting:
-                m.AddHint(seats[key], given.get(key, 0))
-        for c, v in miss.items():
-            m.AddHint(v, not any(name.casefold() in goals.wanted[c] for name, _ in hint.get(c, [])))
-    solver = cp_model.CpSolver()
-    solver.parameters.catch_sigint_signal = False  # Ctrl-C and SIGTERM stay the caller's (see solve._parameters)
-    solver.parameters.max_time_in_seconds = seconds
-    solver.parameters.num_workers = 1
-    solver.parameters.random_seed = seed
-    status = solver.Solve(m)
+    _minimise_room_goals(m, use, seats, codes, rooms, goals, splitting, hint)
+    solver, status = _solve_seating(m, seconds, seed)
     if status not in (cp_model.OPTIMAL, cp_model.FEASIBLE):
         return None, status == cp_model.INFEASIBLE
     out: dict[str, list[tuple[str, int]]] = {}
@@ -669,6 +640,29 @@ def _exact_group(problem, codes, apart_here, spans, sizes, sharing, splitting, s
                 m.Add(sum(n for _, n, _ in here) <= r.capacity)
             if not (sharing and r.shared) and len(here) > 1:
                 m.AddAtMostOne(present for present, _, _ in here)
+    rooms_hint, own_hint = hint if hint else (None, {})
+    _minimise_room_goals(m, use, seats, codes, problem.rooms, goals, splitting, rooms_hint)
+    if hint:
+        for (i, name), v in alone.items():
+            m.add_hint(v, own_hint.get((apart_here[i][0], apart_here[i][1])) == name)
+    solver, status = _solve_seating(m, seconds, seed)
+    if status not in (cp_model.OPTIMAL, cp_model.FEASIBLE):
+        return None, status == cp_model.INFEASIBLE
+    rooms: dict[str, list[tuple[str, int]]] = {}
+    for (c, name), v in use.items():
+        if solver.BooleanValue(v):
+            rooms.setdefault(c, []).append((name, solver.Value(seats[c, name]) if splitting else sizes[c]))
+    own = {(apart_here[i][0], apart_here[i][1]): name for (i, name), v in alone.items() if solver.BooleanValue(v)}
+    return ({c: sorted(v) for c, v in rooms.items()}, own), status == cp_model.OPTIMAL
+
+
+def _minimise_room_goals(m: cp_model.CpModel, use, seats, codes, rooms, goals: _RoomGoals, splitting: bool,
+                         hint: dict[str, list[tuple[str, int]]] | None) -> None:
+    """The seating models' objective, and a seating to start from (``hint``, event -> [(room, seats)]):
+
+        room_split * (rooms used) + penalised_room * avoided uses + preferred_room * misses,
+
+    scaled past the number of rooms used, which breaks ties (fewer rooms among equals)."""
     weighted = []
     if goals.split and splitting:
         weighted += [goals.split * v for v in use.values()]
@@ -680,34 +674,27 @@ def _exact_group(problem, codes, apart_here, spans, sizes, sharing, splitting, s
             wanted = goals.wanted.get(c)
             if not wanted:
                 continue
-            miss[c] = m.NewBoolVar(f"miss[{c}]")
-            m.AddBoolOr([miss[c]] + [use[c, r.name] for r in problem.rooms
-                                     if (c, r.name) in use and r.name.casefold() in wanted])
+            miss[c] = m.new_bool_var(f"miss[{c}]")
+            m.add_bool_or([miss[c]] + [use[c, r.name] for r in rooms
+                                       if (c, r.name) in use and r.name.casefold() in wanted])
             weighted.append(goals.preferred * miss[c])
     scale = len(use) + 1  # the weighted goals first; fewer rooms only among equals
-    m.Minimize(scale * sum(weighted) + sum(use.values()))
+    m.minimize(scale * sum(weighted) + sum(use.values()))
     if hint:
-        rooms_hint, own_hint = hint
-        given = {(c, name): n for c, parts in rooms_hint.items() for name, n in parts}
+        given = {(c, name): n for c, parts in hint.items() for name, n in parts}
         for key, v in use.items():
-            m.AddHint(v, key in given)
+            m.add_hint(v, key in given)
             if splitting:
-                m.AddHint(seats[key], given.get(key, 0))
+                m.add_hint(seats[key], given.get(key, 0))
         for c, v in miss.items():
-            m.AddHint(v, not any(name.casefold() in goals.wanted[c] for name, _ in rooms_hint.get(c, [])))
-        for (i, name), v in alone.items():
-            m.AddHint(v, own_hint.get((apart_here[i][0], apart_here[i][1])) == name)
+            m.add_hint(v, not any(name.casefold() in goals.wanted[c] for name, _ in hint.get(c, [])))
+
+
+def _solve_seating(m: cp_model.CpModel, seconds: float, seed: int) -> tuple[cp_model.CpSolver, int]:
+    """One worker, within ``seconds``; Ctrl-C and SIGTERM stay the caller's (see solve._parameters)."""
     solver = cp_model.CpSolver()
-    solver.parameters.catch_sigint_signal = False  # Ctrl-C and SIGTERM stay the caller's (see solve._parameters)
+    solver.parameters.catch_sigint_signal = False
     solver.parameters.max_time_in_seconds = seconds
     solver.parameters.num_workers = 1
     solver.parameters.random_seed = seed
-    status = solver.Solve(m)
-    if status not in (cp_model.OPTIMAL, cp_model.FEASIBLE):
-        return None, status == cp_model.INFEASIBLE
-    rooms: dict[str, list[tuple[str, int]]] = {}
-    for (c, name), v in use.items():
-        if solver.BooleanValue(v):
-            rooms.setdefault(c, []).append((name, solver.Value(seats[c, name]) if splitting else sizes[c]))
-    own = {(apart_here[i][0], apart_here[i][1]): name for (i, name), v in alone.items() if solver.BooleanValue(v)}
-    return ({c: sorted(v) for c, v in rooms.items()}, own), status == cp_model.OPTIMAL
+    return solver, solver.solve(m)

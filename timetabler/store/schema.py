@@ -29,6 +29,17 @@ import sqlite3
 
 SCHEMA_VERSION = 3
 
+#: Version 3's table, in the whole schema and in the upgrade from version 2.
+RUN_OWN_ROOMS = """
+CREATE TABLE run_own_rooms (
+    run_id INTEGER NOT NULL REFERENCES runs(id) ON DELETE CASCADE,
+    attendee TEXT NOT NULL,
+    event TEXT NOT NULL,
+    room TEXT NOT NULL,                        -- the room the attendee sits alone in (Attendees sheet's Own room)
+    PRIMARY KEY (run_id, attendee, event)
+) WITHOUT ROWID;
+"""
+
 #: The whole current schema, for a new store.
 CURRENT_TABLES = """
 CREATE TABLE inputs (
@@ -99,14 +110,7 @@ CREATE TABLE run_assignments (
     rooms_json TEXT NOT NULL,
     PRIMARY KEY (run_id, event)
 ) WITHOUT ROWID;
-CREATE TABLE run_own_rooms (
-    run_id INTEGER NOT NULL REFERENCES runs(id) ON DELETE CASCADE,
-    attendee TEXT NOT NULL,
-    event TEXT NOT NULL,
-    room TEXT NOT NULL,                        -- the room the attendee sits alone in (Attendees sheet's Own room)
-    PRIMARY KEY (run_id, attendee, event)
-) WITHOUT ROWID;
-CREATE TABLE published (
+""" + RUN_OWN_ROOMS + """CREATE TABLE published (
     label TEXT PRIMARY KEY,
     run_id INTEGER NOT NULL REFERENCES runs(id) ON DELETE CASCADE,
     published_at TEXT NOT NULL
@@ -123,15 +127,7 @@ UPDATE inputs SET last_used_at = created_at;
 ALTER TABLE runs ADD COLUMN kept_from TEXT;
 CREATE INDEX runs_by_input ON runs(input_id);
 """,
-    2: """
-CREATE TABLE run_own_rooms (
-    run_id INTEGER NOT NULL REFERENCES runs(id) ON DELETE CASCADE,
-    attendee TEXT NOT NULL,
-    event TEXT NOT NULL,
-    room TEXT NOT NULL,                        -- the room the attendee sits alone in (Attendees sheet's Own room)
-    PRIMARY KEY (run_id, attendee, event)
-) WITHOUT ROWID;
-""",
+    2: RUN_OWN_ROOMS,
 }
 
 
