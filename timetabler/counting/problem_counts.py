@@ -9,14 +9,25 @@ always show the same numbers.
 
 from __future__ import annotations
 
+import time
 from typing import Callable, Sequence
 
 import networkx as nx
 
 from ..availability import Availability
 from ..model import Problem, Slot, generic_slots
+from .bounds import _log10_int
+from .budget import Budget
+from .people_counts import PEOPLE_WHAT_IF_SECONDS, PeopleCounter, most_limiting_people
 from .sequential_sampling import Moments
-from .timetables import CountReport, count_timetables, set_intervals
+from .timetables import (ComponentCount, CountReport, SlotCount, _ratio, count_timetables, exact_slot_count,
+                         set_intervals)
+
+#: the share of each K's time the count honouring people may take (the list-colouring bound gets the rest)
+PEOPLE_SHARE = 0.6
+#: groups up to this many events get a lower bound from a timetable found by search when not exact
+LOWER_BOUND_MAX_EVENTS = 400
+PEOPLE_METHOD = "dynamic programming over start slots (long events, extra time, quorums)"
 
 
 def default_slots_for(problem: Problem) -> Callable[[int], list[Slot]]:
@@ -98,50 +109,177 @@ def count_problem(
     return merged, notes
 
 
-def _count_with_availability(problem: Problem, ks, graph, slots_for, budget_seconds, progress):
+def _count_with_availability(problem, ks, graph, slots_for, budget_seconds, progress):
     """Counts where each event may start only where every required attendee can come.
 
     The allowed starts of :class:`~timetabler.availability.Availability` (fixed and barred
     slots included) are the lists of a list-colouring count, passed on as barred slots.
     When every event takes one slot for everyone and no quorum can be broken by optional
-    attendees busy elsewhere, that count is the number of timetables. Otherwise (long
-    events, extra time running into the next slot, such a quorum) every timetable is still
-    such a list-colouring, so the count is only an upper bound: reported not exact, with
-    that upper bound and 0 as the proven lower bound, and a note.
+    attendees busy elsewhere, that count is the number of timetables.
+
+    Otherwise (long events, extra time running into the next slot, such a quorum) the
+    timetables are counted by :class:`~timetabler.counting.people_counts.PeopleCounter`
+    first, group by group, within a share of the time: where every group finishes the
+    count is exact. Where one does not, the figure is not exact: its upper bound is the
+    product of the finished groups' counts and the others' list-colourings (every timetable
+    is one), its lower bound the finished groups' counts times what one timetable found by
+    search proves for the others (or 0), with a note.
+
+    Then, when some attendee cannot make some slot, the attendees whose unavailability
+    costs most timetables (:func:`~timetabler.counting.people_counts.most_limiting_people`)
+    at the fewest slots asked for with an exact, non-zero count.
     """
     notes: list[str] = []
     reports = []
-    quorum_open = any(e.quorum for e in problem.events.values()) and bool(problem.optional)
+    counter = PeopleCounter(problem, list(graph.nodes))
+    away = any(person.unavailable for person in problem.people.values())
+    reserve = min(PEOPLE_WHAT_IF_SECONDS, 0.15 * budget_seconds) if away else 0.0
+    share = max(budget_seconds - reserve, 0.5) / len(ks)
+    founds: dict[int, Availability] = {}
+    values_at: dict[int, dict[int, int | None]] = {}
     for k in ks:
-        found = Availability.of(problem, list(slots_for(k)))
+        started = time.monotonic()
+        slots = list(slots_for(k))
+        found = Availability.of(problem, slots)
+        founds[k] = found
         barred = {e: set(range(1, k + 1)) - set(found.starts.get(e, range(1, k + 1))) for e in graph}
         barred = {e: b for e, b in barred.items() if b}
-        report = count_timetables(graph, [k], budget_seconds=budget_seconds / len(ks), barred=barred,
-                                  progress=progress)
+        by_people = not found.one_slot_each or bool(counter.live_quorums)
+        if by_people:
+            if progress is not None:
+                progress(0, len(counter.groups), f"counting the starts honouring people with {k} slots")
+            values_at[k] = counter.group_counts(found, Budget(started + PEOPLE_SHARE * share))
+        left = max(share - (time.monotonic() - started), 0.5)
+        report = count_timetables(graph, [k], budget_seconds=left, barred=barred, progress=progress)
         report.constrained = True
         report.availability = True
-        if not found.one_slot_each or quorum_open:
-            report.availability_bound = True
-            for c in report.counts:
-                if c.exact and not c.timetables:
-                    continue  # no list-colouring, so no timetable: 0 stays exact
-                c.upper = c.timetables if c.exact else c.upper
-                c.exact, c.lower, c.timetables, c.log10 = False, 0, None, None
-                c.moments = c.ratio_moments = None  # the estimate was of the list-colourings
-                c.estimate_log10 = c.estimate_relative_error = c.estimate_interval_log10 = None
-                c.ratio_interval_log10, c.ratio_to_previous, c.groupings = None, None, None
-            notes.append(f"With {k} slots some events take more than one slot (long events, extra time) or a "
-                         f"quorum depends on optional attendees: the figure counts starts where every required "
-                         f"attendee can come, an upper bound on the timetables, not an exact count.")
+        if by_people:
+            report.people_rules = True
+            lower_budget = Budget(time.monotonic() + min(1.0, 0.1 * share))
+            if not _people_figures(report, counter, found, values_at[k], k, graph, lower_budget):
+                report.availability_bound = True
+                c = report.counts[0]
+                notes.append(f"With {k} slots some events take more than one slot (long events, extra time) or a "
+                             f"quorum depends on optional attendees, and a group of events was too large to count "
+                             f"exactly in the time: the figure is only bounded, between {_shown(c.lower)} and "
+                             f"{_shown(c.upper)} (the starts where every required attendee can come).")
         reports.append(report)
+    merged = _merge_runs(reports)
+    by_k = {c.slots: c for c in merged.counts}
+    for k in values_at:  # exact people counts of K and K − 1 give the ratio
+        c, prev = by_k[k], by_k.get(k - 1)
+        if c.exact and prev is not None and prev.exact and prev.timetables and c.ratio_to_previous is None:
+            c.ratio_to_previous = _ratio(c.timetables, prev.timetables)
+            ratio_log10 = _log10_int(c.timetables) - _log10_int(prev.timetables) if c.timetables else None
+            c.ratio_interval_log10 = None if ratio_log10 is None else (ratio_log10, ratio_log10)
+    _ratios_between_runs(merged.counts)
+    if away:
+        usable = [c.slots for c in merged.counts if c.exact and c.timetables]
+        if usable:
+            k = usable[0]
+            merged.most_limiting_people = most_limiting_people(
+                problem, list(slots_for(k)), counter, founds[k], seconds=max(reserve, 0.5), base=values_at.get(k))
+    return merged, notes
+
+
+def _shown(value: int | None) -> str:
+    """A bound in a note: up to 12 digits in full, else its leading digits and power of ten."""
+    if value is None:
+        return "unknown"
+    if len(str(value)) <= 12:
+        return f"{value:,}"
+    text = str(value)
+    return f"about {text[0]}.{text[1:4]} × 10^{len(text) - 1}"
+
+
+def _people_figures(report, counter: PeopleCounter, found: Availability, values: dict, k: int, graph,
+                    lower_budget: Budget) -> bool:
+    """Put the counts honouring people on ``report`` (one K): its groups and its total. True when exact.
+
+    ``report`` holds the list-colouring counts (every timetable is a list-colouring, so they
+    are upper bounds) by group of events linked by clashes; its groups become the people
+    groups (those linked by a quorum as well), each exact where its count finished.
+    """
+    comp_of = {}
+    for comp in report.components:
+        for v in comp.nodes:
+            comp_of[v] = comp
+    whole = report.counts[0]
+    lower_total, upper_total = 1, 1
+    groups = []
+    for index, group in enumerate(counter.groups):
+        value = values.get(index)
+        upper: int | None = 1
+        seen: set[int] = set()
+        for v in group:
+            comp = comp_of.get(v)
+            if comp is None:
+                upper = None if upper is None else upper * len(found.starts.get(v, ()))
+            elif id(comp) not in seen:
+                seen.add(id(comp))
+                c = comp.counts[0]
+                bound = c.timetables if c.exact else c.upper
+                upper = None if upper is None or bound is None else upper * bound
+        if value is not None:
+            lower, upper = value, value
+        else:
+            try:
+                lower = counter.lower_bound(found, group, lower_budget) if len(group) <= LOWER_BOUND_MAX_EVENTS else 0
+            except RecursionError:
+                lower = 0
+        lower_total *= lower
+        upper_total = None if upper_total is None or upper is None else upper_total * upper
+        if len(group) < 2:
+            continue
+        same = comp_of.get(group[0])
+        same = same if same is not None and list(same.nodes) == list(group) else None
+        if value is not None:
+            count = exact_slot_count(k, value, None)
+        else:
+            count = SlotCount(k, None, False, lower=lower, upper=upper)
+        groups.append(ComponentCount(
+            [str(v) for v in group], graph.subgraph(group).number_of_edges(), value is not None,
+            PEOPLE_METHOD if value is not None else "bounds: one timetable found by search; starts every required "
+            "attendee can make", same.polynomial if same is not None else None, True, [count],
+            None if value is not None else "not counted exactly within the time limit",
+            {k: value} if value is not None else {}, list(group)))
+    report.components = groups
+    if any(v == 0 for v in values.values()) or upper_total == 0:
+        report.counts = [exact_slot_count(k, 0, None)]
+        return True
+    if all(values.get(i) is not None for i in range(len(counter.groups))):
+        report.counts = [exact_slot_count(k, lower_total, None)]
+        return True
+    upper_whole = whole.timetables if whole.exact else whole.upper
+    if upper_total is None or (upper_whole is not None and upper_whole < upper_total):
+        upper_total = upper_whole
+    if upper_total is not None and lower_total == upper_total:
+        report.counts = [exact_slot_count(k, lower_total, None)]
+        return True
+    report.counts = [SlotCount(k, None, False, lower=lower_total, upper=upper_total)]
+    return False
+
+
+def _merge_runs(reports: list[CountReport]) -> CountReport:
+    """One report from the reports of single Ks: counts in order, each group's counts for every K."""
     merged = reports[0]
     merged.counts = [c for r in reports for c in r.counts]
+    mine = {tuple(c.events): c for c in merged.components}
     for other in reports[1:]:
-        for mine, theirs in zip(merged.components, other.components):
-            mine.counts.extend(theirs.counts)
+        for theirs in other.components:
+            comp = mine.get(tuple(theirs.events))
+            if comp is None:  # the groups of every K are the same; kept apart if not
+                merged.components.append(theirs)
+                mine[tuple(theirs.events)] = theirs
+                continue
+            comp.counts.extend(theirs.counts)
+            comp.values.update(theirs.values)
+            comp.exact = comp.exact and theirs.exact
+            comp.reason = comp.reason or theirs.reason
+        merged.availability_bound = merged.availability_bound or other.availability_bound
+        merged.people_rules = merged.people_rules or other.people_rules
     merged.seconds = sum(r.seconds for r in reports)
-    _ratios_between_runs(merged.counts)
-    return merged, notes
+    return merged
 
 
 def _ratios_between_runs(counts: list) -> None:

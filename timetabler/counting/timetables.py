@@ -50,6 +50,10 @@ MEANING = (
 MEANING_CONSTRAINED = MEANING + ", with every fixed event in its slot and no event in a slot barred to it"
 MEANING_AVAILABILITY = MEANING_CONSTRAINED + (
     ", and every event only in a slot all its required attendees can make (optional attendees make no clash)")
+MEANING_PEOPLE = (
+    "; an event longer than its slot takes the touching slots after it and an attendee with extra time every slot "
+    "of their sitting (no required attendee in two events at once), and a quorum counts an optional attendee only "
+    "when they can come and are booked in no other event at the time")
 SENSITIVITY_MAX_EVENTS = 16  # components up to this size get the what-if figures
 
 
@@ -148,7 +152,9 @@ class CountReport:
     most_freeing_clashes: list[dict] = field(default_factory=list)
     seconds: float = 0.0
     availability: bool = False  # events only where their required attendees can come
-    availability_bound: bool = False  # long events or extra time: the figures are upper bounds
+    availability_bound: bool = False  # long events, extra time or quorums not counted exactly: upper bounds
+    people_rules: bool = False  # long events, extra time or quorums with optional attendees are in the count
+    most_limiting_people: list[dict] = field(default_factory=list)  # attendee, slots (K), gain, starts_blocked
 
     @property
     def exact(self) -> bool:
@@ -157,8 +163,9 @@ class CountReport:
     def to_json(self) -> dict:
         return {
             "counts": [c.to_json() for c in self.counts],
-            "meaning": (MEANING_AVAILABILITY + ("; where events take more than one slot this counts their starts, "
-                                                "an upper bound" if self.availability_bound else "")
+            "meaning": (MEANING_AVAILABILITY + (MEANING_PEOPLE if self.people_rules else "")
+                        + ("; where a count is not exact its upper bound counts the starts every required attendee "
+                           "can make" if self.availability_bound else "")
                         if self.availability else MEANING_CONSTRAINED if self.constrained else MEANING),
             "events": self.events,
             "clashes": self.clashes,
@@ -171,6 +178,7 @@ class CountReport:
             "constrained": self.constrained,
             "riskiest_absent_clashes": self.riskiest_absent_clashes,
             "most_freeing_clashes": self.most_freeing_clashes,
+            "most_limiting_people": self.most_limiting_people,
             "seconds": round(self.seconds, 3),
         }
 

@@ -137,6 +137,20 @@ def pseudonymise(problem: Problem, runs: Sequence[Any], pseudonyms: Pseudonyms, 
     return new_problem, new_runs, new_reading
 
 
+def pseudonymise_counts(counts: Any, problem: Problem, pseudonyms: Pseudonyms) -> Any:
+    """A copy of a count report with the attendees it names (``most_limiting_people``) replaced by
+    the pseudonyms :func:`pseudonymise` gives them; the report itself is left as it was."""
+    named = list(getattr(counts, "most_limiting_people", None) or [])
+    if not named:
+        return counts
+    mapping = pseudonyms.mapping(problem.attendees)
+    clone = copy.copy(counts)
+    clone.most_limiting_people = [
+        dict(item, attendee=mapping.get(str(item.get("attendee")), None) or pseudonyms(str(item.get("attendee"))))
+        for item in named]
+    return clone
+
+
 def _text_replacer(mapping: dict[str, str]):
     if not mapping:
         return lambda text: text

@@ -79,11 +79,12 @@ def publish(
         if int(run.slots) not in validations and run.assignment and run.status in ("optimal", "feasible"):
             validations[int(run.slots)] = validate_run(problem, run)
     if outputs.get("pseudonyms"):
-        from .pseudonyms import Pseudonyms, load_or_create_key, pseudonymise
+        from .pseudonyms import Pseudonyms, load_or_create_key, pseudonymise, pseudonymise_counts
 
         key, key_file, created = load_or_create_key(outputs.get("pseudonym_key"))
         if created:
             notify(f"Created the pseudonym key {key_file}; keep it private and keep it to get the same pseudonyms next time.")
+        counts = pseudonymise_counts(counts, problem, Pseudonyms(key))  # the what-if figures name attendees
         problem, runs, reading = pseudonymise(problem, runs, Pseudonyms(key), reading)
         settings["attendees shown as"] = "pseudonyms"
     written = [] if written is None else written

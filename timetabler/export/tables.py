@@ -898,16 +898,18 @@ def groups_table(counts: Any) -> PublishedTable | None:
 
 
 def what_if_table(counts: Any) -> PublishedTable | None:
-    """The counting engine's what-if figures: absent clashes that would hurt most, clashes whose removal frees most."""
+    """The counting engine's what-if figures: absent clashes that would hurt most, clashes whose removal frees most,
+    and the attendees whose unavailability costs most timetables (the Event column then names the attendee)."""
     risky = list(getattr(counts, "riskiest_absent_clashes", None) or [])
     freeing = list(getattr(counts, "most_freeing_clashes", None) or [])
-    if not risky and not freeing:
+    people = list(getattr(counts, "most_limiting_people", None) or [])
+    if not risky and not freeing and not people:
         return None
     table = PublishedTable(
         "What if",
         [Column("Change"), Column("Event"), Column("Other event"), Column("Slots", INT), Column("Effect", FLOAT),
          Column("Meaning")],
-        title="What one change of enrolments would do to the number of timetables",
+        title="What one change of enrolments or of availability would do to the number of timetables",
     )
     for item in risky:
         a, b = (list(item.get("events", [])) + ["", ""])[:2]
@@ -919,6 +921,11 @@ def what_if_table(counts: Any) -> PublishedTable | None:
         gain = float(item.get("gain", 0.0))
         table.rows.append(["clash removed", a, b, item.get("slots"), gain,
                            f"with no attendee sitting both there would be {gain:.3g} times as many timetables"])
+    for item in people:
+        person = str(item.get("attendee", ""))
+        gain = float(item.get("gain", 0.0))
+        table.rows.append(["attendee made free", person, "", item.get("slots"), gain,
+                           f"if {person} could make every slot there would be {gain:.3g} times as many timetables"])
     return table
 
 
