@@ -51,6 +51,8 @@ Examples
 
 from __future__ import annotations
 
+import functools
+import math
 import time
 from dataclasses import dataclass, field, replace
 from fractions import Fraction
@@ -134,13 +136,15 @@ class StartModel:
         return all(q.holds(at) for q in self.quorums)
 
 
-def _bits(mask: int) -> list[int]:
+@functools.lru_cache(maxsize=1 << 16)
+def _bits(mask: int) -> tuple[int, ...]:
+    """The slot numbers of a mask's bits, lowest first."""
     out = []
     while mask:
         low = mask & -mask
         out.append(low.bit_length() - 1)
         mask ^= low
-    return out
+    return tuple(out)
 
 
 def live_quorum(problem: Problem, code: str, attendees: Sequence[str], events_of: dict[str, list[str]]) -> bool:
@@ -360,8 +364,61 @@ def count_model(model: StartModel, budget: Budget | None = None) -> int:
     return value
 
 
+def _order_cost(graph: nx.Graph, order: Sequence, size: dict) -> float:
+    """log10 of the most states a frontier of ``order`` can hold: the product of its events' numbers of starts,
+    summed over the steps (states beyond the largest are what the count pays for)."""
+    position = {v: i for i, v in enumerate(order)}
+    last = {v: max([position[u] for u in graph[v]] + [position[v]]) for v in order}
+    total, logs = 0.0, 0.0
+    leaving: dict[int, list] = {}
+    for v in order:
+        leaving.setdefault(last[v], []).append(v)
+    for i, v in enumerate(order):
+        logs += math.log10(max(size[v], 1))
+        total += 10 ** min(logs, 300)
+        for u in leaving.get(i, []):
+            logs -= math.log10(max(size[u], 1))
+    return math.log10(total) if total > 0 else 0.0
+
+
+def _greedy_order(graph: nx.Graph, start, size: dict) -> list:
+    """Grow the order from ``start``, each time taking the event that leaves the frontier's product of starts least."""
+    weight = {v: math.log10(max(size[v], 1)) for v in graph}
+    pending = {v: graph.degree(v) for v in graph}
+    order, placed, frontier, candidates = [], set(), set(), set()
+    current = start
+    while True:
+        order.append(current)
+        placed.add(current)
+        candidates.discard(current)
+        frontier.add(current)
+        for u in graph[current]:
+            pending[u] -= 1
+            if u not in placed:
+                candidates.add(u)
+        frontier = {u for u in frontier if pending[u] > 0}
+        if len(order) == len(graph):
+            return order
+        pool = candidates or (set(graph) - placed)
+
+        def score(v):
+            leaving = sum(weight[u] for u in graph[v] if u in frontier and pending[u] == 1)
+            stays = weight[v] if pending[v] > 0 else 0.0
+            return (stays - leaving, -sum(1 for u in graph[v] if u in frontier), str(v))
+
+        current = min(pool, key=score)
+
+
+def _best_order(graph: nx.Graph, size: dict) -> list:
+    """The cheapest of the frontier order (:func:`.frontier.frontier_order`) and greedy orders from a few starts."""
+    tries = [frontier_order(nx.Graph(graph)).order]
+    starts = sorted(graph, key=lambda v: (size[v], graph.degree(v), str(v)))[:8]
+    tries += [_greedy_order(graph, s, size) for s in starts]
+    return min(tries, key=lambda order: _order_cost(graph, order, size))
+
+
 def _count_connected(model: StartModel, graph: nx.Graph, budget: Budget | None) -> int:
-    order = frontier_order(nx.Graph(graph)).order
+    order = _best_order(graph, {v: bin(model.starts[v]).count("1") for v in graph})
     position = {v: i for i, v in enumerate(order)}
     last_needed = {v: max([position[u] for u in graph[v]] + [position[v]]) for v in order}
     quorums_at: dict[int, list[Quorum]] = {}
