@@ -13,7 +13,8 @@ people and clashes go, given as a start slot for every event:
   run into the next slot;
 * a quorum ``q`` holds: at least ``q`` attendees are free, a required attendee being free at
   every allowed start, an optional one when they can make every slot of their sitting and are
-  booked (required or optional) in no other event at a slot overlapping it.
+  booked in no other event at a slot overlapping it (booked: required there, or optional there
+  and able to come).
 
 The count is the number of such start assignments (the events' slots, fixed and barred slots
 and the required attendees' clashes are exactly those of the list-colouring count when every
@@ -262,7 +263,14 @@ class PeopleCounter:
                     if other == code:
                         continue
                     table: dict[int, int] = {}
-                    theirs = {t: held(other, t, attendee) or held(other, t, None) for t in found.starts.get(other, ())}
+                    theirs: dict[int, frozenset[int]] = {}
+                    for t in found.starts.get(other, ()):
+                        there = held(other, t, attendee)
+                        if (attendee, other) in optional:
+                            if there is not None and away.isdisjoint(there):
+                                theirs[t] = there  # an optional attendance they cannot come to books them nowhere
+                        else:
+                            theirs[t] = there or held(other, t, None)  # type: ignore[assignment]
                     for s, mine in mine_at.items():
                         mask = 0
                         for t, slots_there in theirs.items():
