@@ -117,6 +117,9 @@ def test_a_quorum_counting_optional_attendees_busy_elsewhere():
     assert counter.live_quorums == ["COUNCIL"]
     truth = assert_exact(problem, slots)
     assert 0 < truth < 4 ** 3
+    # the clash what-ifs count plain colourings, which these rules are not: none are given
+    report, _ = counted(problem, slots)
+    assert report.most_freeing_clashes == [] and report.riskiest_absent_clashes == []
 
 
 def test_random_small_problems_match_brute_force():
