@@ -125,7 +125,7 @@ def test_a_quorum_counting_optional_attendees_busy_elsewhere():
 def test_random_small_problems_match_brute_force():
     rng = random.Random(20310505)
     kinds = {"long": 0, "extra": 0, "quorum": 0, "nonzero": 0}
-    for trial in range(60):
+    for trial in range(30):
         days, hours = rng.choice([(1, 4), (2, 3), (2, 2), (1, 5), (3, 2)])
         slots = grid(days, hours)
         problem = random_problem(rng, days, hours)
@@ -135,7 +135,7 @@ def test_random_small_problems_match_brute_force():
         kinds["extra"] += bool(found.sittings)
         kinds["quorum"] += bool(PeopleCounter(problem).live_quorums)
         kinds["nonzero"] += truth > 0
-    assert min(kinds.values()) >= 5, kinds  # every rule was in play, and many cases have timetables
+    assert min(kinds.values()) >= 3, kinds  # every rule was in play, and many cases have timetables
 
 
 def random_problem(rng: random.Random, days: int, hours: int) -> Problem:
@@ -211,19 +211,16 @@ def test_what_if_gains_are_brute_force_ratios():
     assert report.counts[0].exact and report.counts[0].timetables == base == 3
     named = report.most_limiting_people
     assert named and [d["gain"] for d in named] == sorted((d["gain"] for d in named), reverse=True)
-    for item in named:
-        free = dict(problem.people)
-        free[item["attendee"]] = Attendee(item["attendee"])
-        truth = Fraction(brute_force(Problem(enrol, events=problem.events, people=free), slots), base)
-        assert item["slots"] == len(slots) and item["gain"] == pytest.approx(float(truth)) and truth > 1
-    # every attendee whose unavailability removes timetables is named (at most five), the others not
-    expected = set()
+    freed = {}
     for name in ("corm", "dace", "eska", "fenn", "gorse"):
         free = dict(problem.people)
         free[name] = Attendee(name)
-        if brute_force(Problem(enrol, events=problem.events, people=free), slots) != base:
-            expected.add(name)
-    assert {d["attendee"] for d in named} == expected and "gorse" not in expected
+        freed[name] = brute_force(Problem(enrol, events=problem.events, people=free), slots)
+    for item in named:
+        truth = Fraction(freed[item["attendee"]], base)
+        assert item["slots"] == len(slots) and item["gain"] == pytest.approx(float(truth)) and truth > 1
+    # every attendee whose unavailability removes timetables is named (at most five), the others not
+    assert {d["attendee"] for d in named} == {n for n, v in freed.items() if v != base} and freed["gorse"] == base
     doc = report.to_json()["most_limiting_people"]
     assert doc == named and set(doc[0]) >= {"attendee", "slots", "gain"}
 
@@ -232,7 +229,7 @@ def test_a_group_too_large_for_the_time_gets_proven_bounds(monkeypatch):
     rng = random.Random(77)
     checked = 0
     monkeypatch.setattr(people_counts, "MAX_STATES", 0)  # no group with a rule finishes
-    for trial in range(40):
+    for trial in range(25):
         slots = grid(2, 3)
         problem = random_problem(rng, 2, 3)
         report, notes = counted(problem, slots, budget=2.0)
@@ -244,12 +241,12 @@ def test_a_group_too_large_for_the_time_gets_proven_bounds(monkeypatch):
         assert c.lower <= truth <= c.upper and c.timetables is None
         assert any("only bounded" in n for n in notes)
         checked += truth > 0 and c.lower > 0
-    assert checked >= 3  # the lower bound from a timetable found by search is above 0 where one exists
+    assert checked >= 2  # the lower bound from a timetable found by search is above 0 where one exists
 
 
 def test_the_lower_bound_from_one_timetable_is_proven():
     rng = random.Random(5)
-    for trial in range(25):
+    for trial in range(15):
         slots = grid(1, 5)
         problem = random_problem(rng, 1, 5)
         counter = PeopleCounter(problem)
@@ -291,3 +288,39 @@ def test_what_if_rows_name_the_attendee_and_pseudonyms_hide_them(tmp_path):
     hidden = Pseudonyms(bytes.fromhex("ab" * 32))("Hale Morrow")
     assert "Hale Morrow" not in text and hidden in text
     assert report.most_limiting_people[0]["attendee"] == "Hale Morrow"  # the report itself is left as it was
+
+
+def test_one_slot_events_agree_with_the_list_colouring_count():
+    # where every event takes one slot for everyone, the count honouring people is the list-colouring
+    # count that tests/test_counting_availability.py checks against its own brute force
+    rng = random.Random(11)
+    for trial in range(10):
+        names = [f"n{i}" for i in range(8)]
+        codes = [f"H{j}" for j in range(7)]
+        pairs = sorted({(a, c) for a in names for c in rng.sample(codes, 2)})
+        slots = grid(2, 3)
+        people = {a: Attendee(a, unavailable=tuple(str(s) for s in rng.sample(range(1, 7), rng.randint(0, 2))))
+                  for a in names}
+        problem = Problem(pairs, people=people)
+        found = Availability.of(problem, slots)
+        assert found.one_slot_each and not PeopleCounter(problem).live_quorums
+        report, _ = counted(problem, slots)
+        assert report.counts[0].exact and PeopleCounter(problem).total(found) == report.counts[0].timetables
+
+
+def test_a_large_board_keeps_to_the_time_and_its_bounds_hold():
+    import time
+
+    rng = random.Random(4)
+    slots = grid(3, 6)
+    codes = [f"B{i:02d}" for i in range(36)]
+    enrol = sorted({(f"m{p}", c) for p in range(40) for c in rng.sample(codes, 3)})
+    events = {c: Event(c, duration_minutes=rng.choice([60, 120])) for c in codes}
+    people = {f"m{p}": Attendee(f"m{p}", unavailable=(str(rng.randint(1, 18)),)) for p in range(40)}
+    problem = Problem(enrol, events=events, people=people)
+    started = time.monotonic()
+    report, notes = counted(problem, slots, budget=1.0)
+    assert time.monotonic() - started < 2.5
+    c = report.counts[0]
+    assert not c.exact and c.timetables is None and 0 < c.lower <= c.upper and notes
+    assert report.most_limiting_people == []  # no exact count to compare with

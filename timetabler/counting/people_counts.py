@@ -67,7 +67,12 @@ from .budget import Budget, BudgetExceeded
 from .frontier import frontier_order
 
 #: states kept at once by one group's count before it gives up (memory: a tuple and an int each)
-MAX_STATES = 2_000_000
+MAX_STATES = 1_000_000
+#: groups of up to this many events try greedy orders besides the frontier order (each try costs n² steps)
+GREEDY_ORDER_MAX_EVENTS = 80
+#: orders whose frontier could hold more than MAX_STATES × 10^this states are not tried (the rules prune
+#: many states, so a little over the limit is still tried)
+HOPELESS_LOG10 = 4.0
 #: seconds the figures naming people may take in all
 PEOPLE_WHAT_IF_SECONDS = 3.0
 
@@ -198,8 +203,9 @@ class PeopleCounter:
 
     # ------------------------------------------------------------------ the model
 
-    def model(self, found: Availability, group: Sequence[str]) -> StartModel:
-        """The constraint network of ``group`` with the starts, spans and sittings of ``found``."""
+    def model(self, found: Availability, group: Sequence[str], budget: Budget | None = None) -> StartModel:
+        """The constraint network of ``group`` with the starts, spans and sittings of ``found`` (building it
+        checks ``budget`` too: a large group's clash tables take time)."""
         problem = self.problem
         optional = problem.optional
         members = set(group)
@@ -220,6 +226,8 @@ class PeopleCounter:
                     own = tuple(attendee if (attendee, c) in found.sittings else None for c in pair)
                     profiles.setdefault(pair, set()).add(own)  # type: ignore[arg-type]
         for (e, f), kinds in profiles.items():
+            if budget is not None:
+                budget.check_time("building the clash tables")
             forward: dict[int, int] = {}
             backward: dict[int, int] = {}
             for who_e, who_f in kinds:
@@ -242,6 +250,8 @@ class PeopleCounter:
         for code in self.live_quorums:
             if code not in members:
                 continue
+            if budget is not None:
+                budget.check_time("building the quorum checks")
             attendees = self.attendees_of[code]
             required = sum(1 for a in attendees if (a, code) not in optional)
             need = int(problem.events[code].quorum or 0) - required
@@ -290,7 +300,7 @@ class PeopleCounter:
 
     def count_group(self, found: Availability, group: Sequence[str], budget: Budget | None = None) -> int:
         """The exact number of timetables of ``group``; raises :class:`BudgetExceeded` when over budget."""
-        return count_model(self.model(found, group), budget)
+        return count_model(self.model(found, group, budget), budget)
 
     def group_counts(self, found: Availability, budget: Budget | None = None,
                      groups: Iterable[int] | None = None) -> dict[int, int | None]:
@@ -319,7 +329,10 @@ class PeopleCounter:
         involves two of them) can each move to any start that keeps every rule with the others
         where they are; every combination is a timetable, so the product of their choices is.
         """
-        model = self.model(found, group)
+        try:
+            model = self.model(found, group, budget)
+        except BudgetExceeded:
+            return 0
         at = find_timetable(model, budget)
         if at is None:
             return 0
@@ -417,16 +430,23 @@ def _greedy_order(graph: nx.Graph, start, size: dict) -> list:
         current = min(pool, key=score)
 
 
-def _best_order(graph: nx.Graph, size: dict) -> list:
-    """The cheapest of the frontier order (:func:`.frontier.frontier_order`) and greedy orders from a few starts."""
+def _best_order(graph: nx.Graph, size: dict, budget: Budget | None = None) -> list:
+    """The cheapest of the frontier order (:func:`.frontier.frontier_order`) and, on groups of up to
+    ``GREEDY_ORDER_MAX_EVENTS``, greedy orders from a few starts."""
     tries = [frontier_order(nx.Graph(graph)).order]
-    starts = sorted(graph, key=lambda v: (size[v], graph.degree(v), str(v)))[:8]
-    tries += [_greedy_order(graph, s, size) for s in starts]
+    if len(graph) <= GREEDY_ORDER_MAX_EVENTS:
+        for start in sorted(graph, key=lambda v: (size[v], graph.degree(v), str(v)))[:8]:
+            if budget is not None:
+                budget.check_time("ordering the events")
+            tries.append(_greedy_order(graph, start, size))
     return min(tries, key=lambda order: _order_cost(graph, order, size))
 
 
 def _count_connected(model: StartModel, graph: nx.Graph, budget: Budget | None) -> int:
-    order = _best_order(graph, {v: bin(model.starts[v]).count("1") for v in graph})
+    size = {v: bin(model.starts[v]).count("1") for v in graph}
+    order = _best_order(graph, size, budget)
+    if _order_cost(graph, order, size) > math.log10(MAX_STATES) + HOPELESS_LOG10:
+        raise BudgetExceeded("the events' frontier is too wide to count exactly")
     position = {v: i for i, v in enumerate(order)}
     last_needed = {v: max([position[u] for u in graph[v]] + [position[v]]) for v in order}
     quorums_at: dict[int, list[Quorum]] = {}
