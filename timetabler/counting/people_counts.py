@@ -445,7 +445,7 @@ def _best_order(graph: nx.Graph, size: dict, budget: Budget | None = None) -> li
 def _count_connected(model: StartModel, graph: nx.Graph, budget: Budget | None) -> int:
     size = {v: bin(model.starts[v]).count("1") for v in graph}
     order = _best_order(graph, size, budget)
-    if _order_cost(graph, order, size) > math.log10(MAX_STATES) + HOPELESS_LOG10:
+    if _order_cost(graph, order, size) > math.log10(max(MAX_STATES, 1)) + HOPELESS_LOG10:
         raise BudgetExceeded("the events' frontier is too wide to count exactly")
     position = {v: i for i, v in enumerate(order)}
     last_needed = {v: max([position[u] for u in graph[v]] + [position[v]]) for v in order}
