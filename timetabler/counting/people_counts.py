@@ -591,9 +591,11 @@ def most_limiting_people(problem: Problem, slots: Sequence[Slot], counter: Peopl
 
     For each attendee who cannot make some slot, biggest first by the starts they block, the
     groups holding their events are counted again with that attendee able to make every slot;
-    ``gain`` is the new count over the old one (the other groups cancel). Within ``seconds`` in
-    all; attendees whose recount does not finish are left out, and so are those whose
-    unavailability removes no timetable.
+    ``gain`` is the new count over the old one (the other groups cancel, so it is exact even when
+    another group's count is not). ``base``: group index → its count, None where it did not
+    finish (its attendees are then left out); groups missing from it are counted here. Within
+    ``seconds`` in all, each recount at most half of what is left; attendees whose recount does
+    not finish are left out, and so are those whose unavailability removes no timetable.
     """
     stop = time.monotonic() + seconds
     blocked = starts_blocked(found, problem)
@@ -607,12 +609,18 @@ def most_limiting_people(problem: Problem, slots: Sequence[Slot], counter: Peopl
         if time.monotonic() > stop:
             break
         groups = sorted({counter.group_of[c] for c in counter.events_of[attendee]})
-        budget = Budget(stop)
+        if any(g in base and base[g] is None for g in groups):
+            continue  # a group too large to count: no ratio
+        budget = Budget(time.monotonic() + (stop - time.monotonic()) / 2)
         try:
             old = 1
             for g in groups:
-                if base.get(g) is None:
-                    base[g] = counter.count_group(found, counter.groups[g], budget)
+                if g not in base:
+                    try:
+                        base[g] = counter.count_group(found, counter.groups[g], budget)
+                    except BudgetExceeded:
+                        base[g] = None
+                        raise
                 old *= base[g]  # type: ignore[operator]
             if old == 0:
                 continue

@@ -109,7 +109,7 @@ def count_problem(
     return merged, notes
 
 
-def _count_with_availability(problem, ks, graph, slots_for, budget_seconds, progress):
+def _count_with_availability(problem: Problem, ks, graph, slots_for, budget_seconds, progress):
     """Counts where each event may start only where every required attendee can come.
 
     The allowed starts of :class:`~timetabler.availability.Availability` (fixed and barred
@@ -127,7 +127,8 @@ def _count_with_availability(problem, ks, graph, slots_for, budget_seconds, prog
 
     Then, when some attendee cannot make some slot, the attendees whose unavailability
     costs most timetables (:func:`~timetabler.counting.people_counts.most_limiting_people`)
-    at the fewest slots asked for with an exact, non-zero count.
+    at the fewest slots asked for with an exact, non-zero count (else with a lower bound
+    above 0: the gains are ratios within the attendees' own groups, exact where those are).
     """
     notes: list[str] = []
     reports = []
@@ -177,8 +178,9 @@ def _count_with_availability(problem, ks, graph, slots_for, budget_seconds, prog
             ratio_log10 = _log10_int(c.timetables) - _log10_int(prev.timetables) if c.timetables else None
             c.ratio_interval_log10 = None if ratio_log10 is None else (ratio_log10, ratio_log10)
     _ratios_between_runs(merged.counts)
-    if away:
-        usable = [c.slots for c in merged.counts if c.exact and c.timetables]
+    if away:  # at the fewest slots with timetables: an exact count, else one proven above 0
+        usable = ([c.slots for c in merged.counts if c.exact and c.timetables]
+                  or [c.slots for c in merged.counts if not c.exact and c.lower])
         if usable:
             k = usable[0]
             merged.most_limiting_people = most_limiting_people(
