@@ -118,10 +118,11 @@ def apply_goal_options(problem: Any, weights: dict[str, int], max_per_day: int |
 
 
 def resolve_kept(problem: Any, refs: Any, slots: list) -> dict[str, int]:
-    """The earlier timetable (``--keep``) for these slots; events no longer enrolled and events
-    whose earlier slot is gone are named in warnings (they are left out, or placed afresh)."""
+    """The earlier timetable (``--keep``) for these slots; events no longer enrolled, events whose
+    earlier slot is gone (left out, or placed afresh) and slot references that could be a label or
+    a number are named in warnings."""
     resolved = resolve_previous(problem, refs, slots)
-    for finding in (resolved.dropped + resolved.unplaced)[:20]:
+    for finding in (resolved.dropped + resolved.unplaced + resolved.ambiguous)[:20]:
         warn(finding)
     return resolved.slots
 

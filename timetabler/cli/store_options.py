@@ -103,7 +103,8 @@ def earlier_timetable(keep: str, store: Callable[[], Store]) -> tuple[PreviousTi
                                  f"is labelled '{keep}'.", found=keep,
                                  expected=f"an existing .xlsx or .csv file, or one of the published labels: {listed}"))
     version = opened.published_version(keep)
-    return PreviousTimetable(slots=version.slot_references(), sheet=f"published '{version.label}'"), \
+    return PreviousTimetable(slots=version.slot_references(), sheet=f"published '{version.label}'",
+                             reference="label"), \
         f"label {version.label}"
 
 

@@ -26,6 +26,10 @@ EVENT_HEADERS = ("event", "exam", "code", "module", "meeting", "paper")
 #: The label first: a workbook's slot numbers count in time order, and one written before slots were
 #: sorted by time (or from a sheet reordered since) may number them otherwise; labels do not move
 SLOT_HEADERS = ("slot label", "slot", "slot number", "session")
+#: How the values of each slot column are read: a label column names slots by label only (a label
+#: that is gone is not taken for the slot in that position), a number column by position in time
+#: only; a bare "Slot" or "Session" column by label first, then by number
+REFERENCE_KINDS = {"slot label": "label", "slot number": "number", "slot": "either", "session": "either"}
 
 
 @dataclass
@@ -37,6 +41,9 @@ class PreviousTimetable:
     sheet: str | None = None
     #: Where each event code was written (its cell in the event column), for findings about the code.
     event_where: dict[str, Location] = field(default_factory=dict)
+    #: What the references are: "label" (slot labels only), "number" (positions 1..K in time order
+    #: only) or "either" (a label first, else a number; a value that could be both is warned about)
+    reference: str = "either"
 
 
 @dataclass
@@ -47,15 +54,19 @@ class ResolvedPrevious:
     ``dropped`` has a finding for each event of the earlier timetable that is not in the
     problem any more; ``unplaced`` one for each event whose earlier slot is not among the
     slots now. Both lists are warnings: the events concerned are simply placed afresh.
+    ``ambiguous`` has a warning for each reference that is the label of one slot and the number
+    of another (read as the label).
     """
 
     slots: dict[str, int] = field(default_factory=dict)
     dropped: list[Finding] = field(default_factory=list)
     unplaced: list[Finding] = field(default_factory=list)
+    ambiguous: list[Finding] = field(default_factory=list)
 
 
 def resolve_previous(problem: Problem, refs: PreviousTimetable, slots: list[Slot]) -> ResolvedPrevious:
-    """Resolve the slot references of ``refs`` against ``slots`` (labels first, then numbers 1..K).
+    """Resolve the slot references of ``refs`` against ``slots``: by label, by number 1..K (the
+    position in time), or, for ``refs.reference == "either"``, by label first, then by number.
 
     Examples
     --------
@@ -67,6 +78,9 @@ def resolve_previous(problem: Problem, refs: PreviousTimetable, slots: list[Slot
     ({'A': 2}, 1, 1)
     """
     out = ResolvedPrevious()
+    labels: dict[str, int] = {}
+    for i, slot in enumerate(slots, start=1):
+        labels.setdefault(slot.label.strip().casefold(), i)
     for code, ref in refs.slots.items():
         if code not in problem.events:
             out.dropped.append(Finding(
@@ -74,15 +88,35 @@ def resolve_previous(problem: Problem, refs: PreviousTimetable, slots: list[Slot
                 where=refs.event_where.get(code), found=code, severity="warning",
                 suggestion="If it was cancelled, nothing is needed; otherwise check the spelling of the code."))
             continue
-        number = problem.slot_number(ref, slots)
+        by_label = labels.get(str(ref).strip().casefold())
+        by_number = _position(ref, len(slots))
+        if refs.reference == "label":
+            number, expected = by_label, "a slot label of the slots now"
+        elif refs.reference == "number":
+            number, expected = by_number, f"a slot number from 1 to {len(slots)}"
+        else:
+            number, expected = (by_label or by_number), f"a slot number from 1 to {len(slots)} or a slot label"
+            if by_label is not None and by_number is not None and by_label != by_number:
+                out.ambiguous.append(Finding(
+                    f"{code} was in slot '{ref}', read as the slot labelled '{ref}' (slot {by_label} in time), "
+                    f"not slot number {by_number}.", where=refs.where.get(code), found=ref, severity="warning",
+                    suggestion="Name the column 'Slot label' or 'Slot number' to say which is meant."))
         if number is None:
             out.unplaced.append(Finding(
                 f"{code} was in slot '{ref}', which is not one of the {len(slots)} slots now.",
-                where=refs.where.get(code), found=ref, severity="warning",
-                expected=f"a slot number from 1 to {len(slots)} or a slot label"))
+                where=refs.where.get(code), found=ref, severity="warning", expected=expected))
             continue
         out.slots[code] = number
     return out
+
+
+def _position(ref: object, k: int) -> int | None:
+    """A slot number 1..k written as text ("3", "3.0"), or None."""
+    try:
+        value = float(str(ref).strip())
+    except ValueError:
+        return None
+    return int(value) if value.is_integer() and 1 <= value <= k else None
 
 
 def _norm(text: object) -> str:
@@ -123,10 +157,11 @@ def _read_table(name: str, sheet: str | None, rows: list[list[object]]) -> Previ
     for r, row in enumerate(rows[:15]):
         heads = [_norm(c) for c in row]
         ev = next((i for i, h in enumerate(heads) if h in EVENT_HEADERS), None)
-        sl = next((i for h_name in SLOT_HEADERS for i, h in enumerate(heads) if h == h_name), None)
+        sl, kind = next(((i, REFERENCE_KINDS[h_name]) for h_name in SLOT_HEADERS for i, h in enumerate(heads)
+                         if h == h_name), (None, None))
         if ev is None or sl is None:
             continue
-        out = PreviousTimetable(sheet=sheet)
+        out = PreviousTimetable(sheet=sheet, reference=kind)
         for n, data in enumerate(rows[r + 1:], start=r + 2):
             code = _cell(data[ev]) if ev < len(data) else ""
             slot = _cell(data[sl]) if sl < len(data) else ""

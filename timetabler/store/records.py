@@ -181,9 +181,11 @@ class PublishedVersion:
         return len(self.slots)
 
     def slot_references(self) -> dict[str, str]:
-        """Event -> slot number as text: the earlier timetable for a repair (``--keep LABEL``), as the Events
-        sheet of this version's workbook gives it, so keeping the label and keeping the workbook repair alike."""
-        return {code: str(n) for code, n in sorted(self.assignment.items())}
+        """Event -> slot label: the earlier timetable for a repair (``--keep LABEL``), as the "Slot label"
+        column of this version's workbook gives it, so keeping the label and keeping the workbook repair
+        alike. Labels, not numbers: a number is a position among this version's slots, and the slots of
+        the repair (another sheet, its rows in another order, labels that are numbers) may place it elsewhere."""
+        return {code: self.slots[n - 1].label for code, n in sorted(self.assignment.items())}
 
     def summary_json(self) -> dict:
         return {"label": self.label, "published_at": _stamp(self.published_at), "run": self.run_id,

@@ -177,7 +177,8 @@ def published_refs(request: Request, label: str):
 
     with _open(request) as store:
         version = store.published_version(label)
-    return PreviousTimetable(slots=version.slot_references(), sheet=f"published '{version.label}'")
+    return PreviousTimetable(slots=version.slot_references(), sheet=f"published '{version.label}'",
+                             reference="label")
 
 
 def _recorded(upload: Any) -> dict:
