@@ -36,10 +36,10 @@ class CommandClock:
         return self.started + (step + 1) * self.each - self.tail
 
     def options(self, options: SolveOptions, step: int) -> SolveOptions:
-        """``options`` for step ``step``: its deadline, and a time limit no later than it (unchanged in
-        repeatable mode, whose work must not depend on the clock)."""
-        if options.deterministic:
-            return options
+        """``options`` for step ``step``: its deadline, and a time limit no later than it (in repeatable
+        mode the deadline alone, as a hard stop: the amount of work must not depend on the clock)."""
         end = self.end(step)
+        if options.deterministic:
+            return dataclasses.replace(options, deadline=end)
         left = max(0.5, end - time.perf_counter())
         return dataclasses.replace(options, deadline=end, time_limit=min(options.time_limit, left))

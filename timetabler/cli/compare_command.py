@@ -23,7 +23,7 @@ from ..export.publishing import count_for_runs
 from .output_options import check_outputs, output_options, try_publish
 from .slot_counts import SlotCountsOption, choose_slot_counts, days_option, parse_slot_counts
 from .solve_options import (apply_goal_options, keep_option, max_per_day_option, print_repair, repeatable_option,
-                            resolve_kept,
+                            resolve_kept, warn_unrepeatable,
                             time_limit_option, weight_option)
 from .store_options import earlier_timetable, open_store, store_options
 
@@ -115,6 +115,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, day_counts,
                                           own_rooms=run.own_rooms,
                                           room_sharing=share_rooms, room_splitting=split_rooms)
             runs.append(run)
+    warn_unrepeatable(runs)
     with _step(not as_json, "counting clash-free timetables"):
         counts, count_note = count_for_runs(problem, runs, count_time, graph=graph)
     validations = {r.slots: r.validation for r in runs if getattr(r, "validation", None) is not None}

@@ -20,7 +20,7 @@ from .output_options import check_outputs, output_options, try_publish
 from .slot_counts import SlotCountsOption, choose_slot_counts, days_option, parse_slot_counts
 from .solve_options import (apply_goal_options, keep_option, max_per_day_option, parse_weights, print_repair,
                             repeatable_option,
-                            resolve_kept,
+                            resolve_kept, warn_unrepeatable,
                             time_limit_option, weight_option)
 from .store_options import check_publish_request, earlier_timetable, open_store, record_solve, store_options
 
@@ -149,6 +149,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, day_counts,
                 run.validation = validate(problem, slots, run.assignment, run.rooms or None, previous=previous,
                                           room_sharing=share_rooms, room_splitting=split_rooms, own_rooms=run.own_rooms)
             runs.append(run)
+    warn_unrepeatable(runs)
     settings = {"time limit (s)": time_limit, "workers": workers, "seed": seed,
                 "sessions per day": None if problem.slots else sessions_per_day,
                 "weights": dataclasses.asdict(problem.weights), "share rooms": share_rooms,

@@ -91,9 +91,10 @@ weight_option = click.option(
 
 repeatable_option = click.option(
     "--repeatable", is_flag=True,
-    help="Give exactly the same timetables on every run with the same seed and workers. The search then stops "
-         "after an amount of work, not on the clock, so --time-limit is no longer a limit: the work takes about "
-         "that long on an idle two-core computer and several times longer on a busy one.")
+    help="Give exactly the same timetables on every run with the same seed and workers. The search then does "
+         "a fixed amount of work (sized to take well under --time-limit on an idle two-core computer) instead of "
+         "searching until the time is up. --time-limit still ends the run: a run it cuts short (a busy "
+         "computer, a large file) may not repeat, and a warning says so.")
 
 max_per_day_option = click.option(
     "--max-per-day", type=click.IntRange(1, 24), metavar="N",
@@ -125,6 +126,14 @@ def resolve_kept(problem: Any, refs: Any, slots: list) -> dict[str, int]:
     for finding in (resolved.dropped + resolved.unplaced + resolved.ambiguous)[:20]:
         warn(finding)
     return resolved.slots
+
+
+def warn_unrepeatable(runs: Any) -> None:
+    """``--repeatable``: a warning for each run the time limit cut before its fixed amount of work was done."""
+    for run in runs:
+        if getattr(run, "repeatable", None) is False:
+            warn(f"--repeatable: the search for {run.slots} slots reached --time-limit before its fixed amount of "
+                 "work was done, so its result may differ on another run. Give a longer --time-limit.")
 
 
 def print_repair(run: Any) -> None:

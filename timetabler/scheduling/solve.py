@@ -28,6 +28,7 @@ apart, each with a share of the time limit proportional to its size.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import threading
 import time
@@ -65,14 +66,17 @@ class SolveOptions:
         search, seating).
     deadline
         A ``time.perf_counter()`` time the run must end by, whatever ``time_limit`` says (the command's
-        own deadline: what reading the file took is no longer there to spend). Not used in repeatable mode.
+        own deadline: what reading the file took is no longer there to spend). In repeatable mode only
+        a hard stop, as ``time_limit`` is (see ``deterministic``).
     workers
         CP-SAT search workers (threads). 2 suits an ordinary laptop.
     seed
         Random seed; with ``deterministic`` the same seed and workers give the same timetable.
     deterministic
-        Interleave the workers in fixed batches and stop on CP-SAT's deterministic time
-        (about ``time_limit`` seconds of work) instead of the wall clock, so runs repeat exactly.
+        Interleave the workers in fixed batches and stop on CP-SAT's deterministic time and the local
+        search's move count (``REPEATABLE_WORK_SHARE`` of ``time_limit`` as seconds of work) instead of
+        the wall clock, so runs repeat exactly. The clock still ends the run at ``time_limit`` (or
+        ``deadline``): a run cut there may not repeat, and says so (``SolveRun.repeatable`` False).
     room_sharing, room_splitting
         Several events may share a room, of any lengths, as long as their attendees fit in its
         seats (the default; a room with ``Room.shared`` False never holds two); a large event
@@ -126,6 +130,8 @@ class SolveRun:
     placed: list[dict] = field(default_factory=list)  # repair: events with no earlier slot, and where they went
     first_feasible_seconds: float | None = None
     validation: object | None = None  # a validator.Validation, filled by callers that check
+    #: repeatable mode only: True when the fixed amount of work was done, False when the time limit cut it
+    repeatable: bool | None = None
 
     @property
     def gap(self) -> float | None:
@@ -158,6 +164,8 @@ class SolveRun:
         }
         if self.validation is not None:
             doc["validation"] = self.validation.to_json()
+        if self.repeatable is not None:
+            doc["repeatable"] = self.repeatable
         return doc
 
 
@@ -211,6 +219,33 @@ class _Budget:
             self.used += seconds
 
 
+class _ClockStop:
+    """Repeatable mode's hard stop: true once the wall clock reaches ``deadline`` (noting that it cut the
+    work, so the run may not repeat), or when the caller's own ``stop`` is."""
+
+    def __init__(self, deadline: float, inner: Callable[[], bool] | None):
+        self.deadline = deadline
+        self.inner = inner
+        self.hit = False
+
+    def __call__(self) -> bool:
+        if time.perf_counter() >= self.deadline:
+            self.hit = True
+            return True
+        return bool(self.inner and self.inner())
+
+    def seconds_left(self) -> float:
+        return self.deadline - time.perf_counter()
+
+
+#: Repeatable mode: the share of the time limit given as seconds of counted work (CP-SAT's deterministic
+#: time, the local search's moves). The rest is for what is not counted (building models, checking, seating)
+#: and for the counted work running slower than its nominal rate: term_exams.xlsx, 14 slots, 2 s limit on
+#: 2 loaded cores took 4.6 s with the whole limit as work (CP-SAT 0.4 deterministic s in 1.1 s, the local
+#: search's 1.4 s of moves in 1.9 s, 1.2 s uncounted).
+REPEATABLE_WORK_SHARE = 0.4
+
+
 def _parameters(solver: cp_model.CpSolver, options: SolveOptions, seconds: float, *, workers: int | None = None,
                 pairs: int = 0) -> None:
     """Every CP-SAT parameter the tool sets, in one place (``pairs``: clashing pairs in the model)."""
@@ -232,7 +267,9 @@ def _parameters(solver: cp_model.CpSolver, options: SolveOptions, seconds: float
     if options.deterministic:
         p.interleave_search = True
         p.max_deterministic_time = max(0.05, seconds)
-        p.max_time_in_seconds = max(0.05, seconds) * 100  # a safety net only
+        # the clock only as the hard stop (the time limit); the work itself is counted
+        clock_left = options.stop.seconds_left() if isinstance(options.stop, _ClockStop) else math.inf
+        p.max_time_in_seconds = max(0.05, min(max(0.05, seconds) * 100, clock_left))
     else:
         p.max_time_in_seconds = max(0.05, seconds)
 
@@ -309,7 +346,15 @@ def solve(
     options = options or SolveOptions()
     start = time.perf_counter()
     limit = options.time_limit
-    if options.deadline is not None and not options.deterministic:
+    clock_stop = None
+    if options.deterministic:
+        # the work is counted (so runs repeat) and sized to fit the limit; the clock is the hard stop
+        limit = options.time_limit * REPEATABLE_WORK_SHARE
+        end = start + options.time_limit if options.deadline is None else min(start + options.time_limit,
+                                                                                options.deadline)
+        clock_stop = _ClockStop(end, options.stop)
+        options = dataclasses.replace(options, stop=clock_stop)
+    elif options.deadline is not None:
         limit = max(0.2, min(limit, options.deadline - start))
     k = len(slots)
     if time_order(slots) != list(range(k)):
@@ -364,7 +409,8 @@ def solve(
     previous = {c: s for c, s in (previous or {}).items() if c in problem.events}
     blocks = _blocks(problem, graph, slots, options)
     results: list[SolveRun] = []
-    budget = _Budget(limit - (time.perf_counter() - start), options.deterministic)
+    # repeatable mode: the work counted from here does not depend on how long the checks took
+    budget = _Budget(limit if options.deterministic else limit - (time.perf_counter() - start), options.deterministic)
     for i, block in enumerate(blocks):
         left = max(0.2, budget.left())
         share = left if i == len(blocks) - 1 else max(0.2, left * len(block) / max(1, sum(map(len, blocks[i:]))))
@@ -379,6 +425,8 @@ def solve(
                      if c in previous and previous[c] != s]
         if repairing:
             run.placed = [{"event": c, "to": s} for c, s in sorted(run.assignment.items()) if c not in previous]
+    if clock_stop is not None:
+        run.repeatable = not clock_stop.hit
     run.wall_seconds = time.perf_counter() - start
     say("done")
     return run
@@ -511,6 +559,7 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
                              room_splitting=options.room_splitting, room_sharing=options.room_sharing, cover=cover,
                              stop_at=_build_deadline(options, left()))
         except BuildStopped:
+            _cut_by_clock(options)
             return _out_of_time(run, k, t0)
         _add_hint(tm, aligned)
         phase_seconds = _search_seconds(left() * (1.0 if order_free else 0.5), tm)
@@ -570,6 +619,7 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
                                  room_sharing=options.room_sharing, nogoods=nogoods, cover=cover,
                                  stop_at=_build_deadline(options, left()))
             except BuildStopped:
+                _cut_by_clock(options)
                 tm = None
         if tm is not None:
             _add_hint(tm, start_from or _repair_hint(previous, hint, block))
@@ -702,10 +752,19 @@ BUILD_SHARE = 0.5
 
 
 def _build_deadline(options: SolveOptions, seconds_left: float) -> float | None:
-    """When building a model must end (None in repeatable mode, which must not depend on the clock)."""
+    """When building a model must end: a share of the time left (in repeatable mode, of the time to the
+    hard stop, since building is not counted work; a build stopped there cuts the run, see :class:`_ClockStop`)."""
+    if isinstance(options.stop, _ClockStop):
+        return time.perf_counter() + BUILD_SHARE * max(0.0, options.stop.seconds_left())
     if options.deterministic:
         return None
     return time.perf_counter() + BUILD_SHARE * max(0.0, seconds_left)
+
+
+def _cut_by_clock(options: SolveOptions) -> None:
+    """Repeatable mode: the clock stopped a step whose work was not done (the run may not repeat)."""
+    if isinstance(options.stop, _ClockStop):
+        options.stop.hit = True
 
 
 def _search_seconds(seconds_left: float, tm: TimetableModel) -> float:
@@ -898,7 +957,8 @@ def _improve_locally(problem, slots, graph, block, sizes, domains, previous, lar
     the independent validator confirms every hard rule and the penalty the search computed."""
     waited_from = time.perf_counter()
     if _local_search_loading is not None:  # the compiled loop, loaded in the background since the start
-        _local_search_loading.join(timeout=max(0.0, seconds))
+        wait = min(seconds, options.stop.seconds_left()) if isinstance(options.stop, _ClockStop) else seconds
+        _local_search_loading.join(timeout=max(0.0, wait))
         if _local_search_loading.is_alive():
             return None
         if not options.deterministic:
@@ -943,7 +1003,10 @@ def _run(tm: TimetableModel, options: SolveOptions, seconds: float, progress, in
             progress({**info, "event": "bound", "bound": bound, "seconds": time.perf_counter() - start})
         solver.best_bound_callback = bound_seen
     if stall is None:
-        return solver.solve(tm.model, watcher), solver, watcher
+        status = solver.solve(tm.model, watcher)
+        if isinstance(options.stop, _ClockStop):
+            options.stop()  # notes whether the clock, not the counted work, ended this search
+        return status, solver, watcher
     # stop when neither the best timetable nor the bound has moved for `stall` seconds
     watcher.moved = time.perf_counter()
     seen = {"bound": None}
@@ -990,6 +1053,7 @@ def _explain(problem, slots, graph, block, sizes, domains, options, left, run: S
                          room_splitting=options.room_splitting, room_sharing=options.room_sharing, cover=cover,
                          stop_at=_build_deadline(options, left()))
     except BuildStopped:
+        _cut_by_clock(options)
         run.reason = generic + " (the rules behind it could not be singled out in time)"
         run.reasons = [run.reason]
         return run
