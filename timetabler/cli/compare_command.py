@@ -13,7 +13,7 @@ from rich.table import Table
 
 from ..conflicts import conflict_graph
 from ..errors import Finding, InputError
-from ..export.tables import comparison_table, rows_as_json, run_figures, value_text
+from ..export.tables import comparison_table, rows_as_json, run_figures, short_sheet_words, value_text
 from ..model import generic_slots
 from ..scheduling import SolveOptions, fewest_slots, solve, validate
 from .command_clock import CommandClock
@@ -187,7 +187,9 @@ def _print_side_by_side(table, counts, fewest, count_note: str | None,
             console.print(styled((f"{row[0]} slots", "bold"), f": {reason}"), soft_wrap=True)
     if count_note:
         console.print(count_note)
-    if fewest is not None and fewest.upper is not None:
+    if short_sheet_words(fewest):
+        console.print(f"Fewest slots: {short_sheet_words(fewest)}", soft_wrap=True)
+    elif fewest is not None and fewest.upper is not None:
         state = "proven" if fewest.proven else f"not proven; at least {fewest.lower}"
         console.print(f"Fewest slots: {fewest.upper} ({state}: {fewest.lower_reason}).")
 

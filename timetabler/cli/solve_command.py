@@ -11,6 +11,7 @@ from rich.table import Table
 
 from ..conflicts import conflict_graph
 from ..errors import Finding, InputError
+from ..export.tables import short_sheet_words
 from ..model import GOAL_NAMES, generic_slots
 from ..scheduling import SolveOptions, fewest_slots, solve, validate
 from .command_clock import CommandClock
@@ -227,7 +228,9 @@ def _run_json(run, days_of_count: dict[int, int]) -> dict:
 def _print_runs(problem, runs, fewest_result, days_of_count: dict[int, int] | None = None) -> None:
     if fewest_result is not None:
         f = fewest_result
-        if f.upper is None:
+        if short_sheet_words(f):
+            console.print(styled(("Fewest slots: ", "bold"), short_sheet_words(f)), soft_wrap=True)
+        elif f.upper is None:
             console.print(styled("Fewest slots: at least ", (str(f.lower), "bold"),
                                  f" ({f.lower_reason}); no timetable was found within the time limit."))
         elif f.proven:
@@ -250,7 +253,8 @@ def _print_runs(problem, runs, fewest_result, days_of_count: dict[int, int] | No
                       str(len(r.moves)) if r.moves or r.status in ("optimal", "feasible") else "",
                       ("passed" if v.ok else f"FAILED ({len(v.violations)})") if v else "",
                       f"{r.wall_seconds:.1f}")
-    console.print(table)
+    if runs:  # --fewest with no timetable solves nothing: no empty table
+        console.print(table)
     if any(r.validation for r in runs):  # no timetable, nothing to re-check
         console.print("Check: the independent validator re-checked the timetable against every enrolment and rule.",
                       style="dim")

@@ -977,6 +977,22 @@ def verdict_words(validation: Any) -> str:
     return f"{len(getattr(validation, 'violations', []) or [])} violation(s)"
 
 
+def short_sheet_words(fewest: Any) -> str | None:
+    """When the slots sheet is shorter than the fewest slots needed: that, plainly, with how many are
+    needed and how many rows to add (None otherwise).
+
+    >>> from types import SimpleNamespace as F
+    >>> short_sheet_words(F(sheet_too_short=True, slots_in_sheet=3, lower=5, lower_reason="A1 has 5 events"))
+    'The Slots sheet has only 3 slots, and at least 5 are needed (A1 has 5 events): add at least 2 rows to the Slots sheet.'
+    """
+    if fewest is None or not getattr(fewest, "sheet_too_short", False):
+        return None
+    have, need = fewest.slots_in_sheet, fewest.lower
+    return (f"The Slots sheet has only {have} slot{'s' if have != 1 else ''}, and at least {need} are needed "
+            f"({fewest.lower_reason}): add at least {need - have} row{'s' if need - have != 1 else ''} to the "
+            "Slots sheet.")
+
+
 def fewest_words(fewest: Any, k: int) -> str:
     """What the fewest-slots result says about K slots, in plain words."""
     if fewest is None:

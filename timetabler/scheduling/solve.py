@@ -1109,10 +1109,18 @@ class FewestSlots:
     attempts: list[dict] = field(default_factory=list)
     dsatur_slots: int | None = None
     wall_seconds: float = 0.0
+    #: The slots sheet's slots (the most the search may use); None with generic slots
+    slots_in_sheet: int | None = None
+
+    @property
+    def sheet_too_short(self) -> bool:
+        """No timetable because the slots sheet has fewer slots than are needed (not for want of time)."""
+        return self.upper is None and self.slots_in_sheet is not None and self.lower > self.slots_in_sheet
 
     def to_json(self) -> dict:
         return {"lower": self.lower, "lower_reason": self.lower_reason, "witness": self.witness,
                 "upper": self.upper, "upper_reason": self.upper_reason, "proven": self.proven,
+                "slots_in_sheet": self.slots_in_sheet, "sheet_too_short": self.sheet_too_short,
                 "dsatur_slots": self.dsatur_slots, "attempts": self.attempts,
                 "wall_seconds": round(self.wall_seconds, 3),
                 "timetable": self.run.to_json() if self.run else None}
@@ -1173,7 +1181,7 @@ def fewest_slots(
     plain = not problem.rules and problem.max_per_day is None and not problem.rooms \
         and not problem.slots and not any(e.fixed_slot or e.barred_slots for e in problem.events.values())
     result = FewestSlots(lower=lower, lower_reason=reason, witness=witness, upper=None, upper_reason="",
-                         proven=False, dsatur_slots=dsat)
+                         proven=False, dsatur_slots=dsat, slots_in_sheet=len(problem.slots) if problem.slots else None)
     best_run: SolveRun | None = None
     hi = None
     max_k = len(problem.slots) if problem.slots else max(n, 1)

@@ -662,6 +662,7 @@ async def timetable(request: Request) -> Response:
             "stopped": sorted(job.stopped),
             "comparison": table,
             "fewest": job.fewest,
+            "fewest_short": _short_sheet(job.fewest),
             "shown": shown,
             "grid": an.grid(problem, shown) if shown is not None else None,
             "people": an.people_rows(problem, shown) if shown is not None else None,
@@ -690,6 +691,13 @@ def _moves(problem, run) -> list[dict]:
         rows.append({"event": move["event"], "title": getattr(event, "title", None) or "",
                      "from": label(move["from"]), "to": label(move["to"]), "attendees": sizes.get(move["event"], 0)})
     return rows
+
+
+def _short_sheet(fewest: Any) -> str | None:
+    """The plain sentence when the slots sheet is shorter than the fewest slots needed (else None)."""
+    from ..export.tables import short_sheet_words
+
+    return short_sheet_words(fewest)
 
 
 def _comparison(problem, runs: list, counts: Any, fewest: Any) -> dict:
