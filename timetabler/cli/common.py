@@ -190,8 +190,13 @@ def stop_on_sigterm() -> None:
         pass
 
 
-def _interrupted() -> int:
-    if written_files:
+def _interrupted(exc: BaseException | None = None) -> int:
+    # interruption.StoppedEarly (which click hands on as the cause of an Abort): what was shown and what was not
+    message = next((getattr(e, "message", None) for e in (exc, getattr(exc, "__cause__", None))
+                    if isinstance(e, KeyboardInterrupt) and getattr(e, "message", None)), None)
+    if message and not written_files:
+        err_console.print(message, soft_wrap=True)
+    elif written_files:
         names = ", ".join(str(p) for p in written_files[:10])
         more = f" and {len(written_files) - 10} more" if len(written_files) > 10 else ""
         err_console.print(f"Interrupted: wrote {names}{more}; nothing else was written.", soft_wrap=True)
@@ -241,8 +246,8 @@ def run_guarded(cli: click.Group, argv: list[str] | None = None) -> int:
     except InputError as exc:
         err_console.print(styled(("error:", "bold red"), " " + str(exc)), soft_wrap=True)
         return EXIT_BAD_INPUT
-    except (click.exceptions.Abort, KeyboardInterrupt):
-        return _interrupted()
+    except (click.exceptions.Abort, KeyboardInterrupt) as exc:
+        return _interrupted(exc)
     except (StdoutClosed, BrokenPipeError):
         return _stdout_closed()
     except click.ClickException as exc:

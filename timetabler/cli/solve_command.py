@@ -15,6 +15,7 @@ from ..export.tables import short_sheet_words
 from ..model import GOAL_NAMES, generic_slots
 from ..scheduling import SolveOptions, fewest_slots, solve, validate
 from .command_clock import CommandClock
+from .interruption import SearchInterruption, StoppedEarly
 from .common import (SHARE_ROOMS_HELP, console, err_console, input_options, print_json, read_input, require_enrolments,
                      show_warnings, styled)
 from .output_options import check_outputs, output_options, try_publish
@@ -131,7 +132,9 @@ def command(file, sheet, attendee_column, event_column, slot_counts, day_counts,
     fewest_result = None
     runs = []
     clock = CommandClock(started, time_limit, len(problem.enrolments))
-    with _progress_display(not as_json) as show:
+    # Ctrl-C stops the searches promptly; the best timetables found are shown, and the command exits 130
+    with _progress_display(not as_json) as show, SearchInterruption() as interruption:
+        options.stop = interruption.requested.is_set
         if fewest:
             task = show.add("fewest slots", time_limit)
             fewest_result = fewest_slots(problem, per_day=sessions_per_day, options=clock.options(options, 0),
@@ -140,6 +143,8 @@ def command(file, sheet, attendee_column, event_column, slot_counts, day_counts,
             if fewest_result.upper is not None and fewest_result.upper not in counts:
                 counts.insert(0, fewest_result.upper)
         for i, k in enumerate(counts, start=1 if fewest else 0):
+            if interruption.requested.is_set():
+                break
             slots = slots_for(k)
             previous = resolve_kept(problem, previous_refs, slots) if previous_refs else None
             task = show.add(f"{k} slots", time_limit)
@@ -150,6 +155,8 @@ def command(file, sheet, attendee_column, event_column, slot_counts, day_counts,
                 run.validation = validate(problem, slots, run.assignment, run.rooms or None, previous=previous,
                                           room_sharing=share_rooms, room_splitting=split_rooms, own_rooms=run.own_rooms)
             runs.append(run)
+    if interruption.by_ctrl_c:
+        _show_stopped(problem, file, runs, fewest_result, days_of_count, as_json, skipped=len(counts) - len(runs))
     warn_unrepeatable(runs)
     settings = {"time limit (s)": time_limit, "workers": workers, "seed": seed,
                 "sessions per day": None if problem.slots else sessions_per_day,
@@ -170,6 +177,24 @@ def command(file, sheet, attendee_column, event_column, slot_counts, day_counts,
         _print_runs(problem, runs, fewest_result, days_of_count)
     if write_error is not None:  # the results are shown above; the failed output is bad input (exit 2)
         raise write_error
+
+
+def _show_stopped(problem, file, runs, fewest_result, days_of_count, as_json: bool, *, skipped: int) -> None:
+    """Ctrl-C stopped the searches: show the best timetables found (the runs stopped keep theirs), then
+    exit 130 writing and recording nothing."""
+    if as_json:
+        doc = {"file": file, "runs": [_run_json(r, days_of_count) for r in runs], "interrupted": True}
+        if fewest_result is not None:
+            doc["fewest"] = {k: v for k, v in fewest_result.to_json().items() if k != "timetable"}
+        doc["written"] = []
+        print_json(doc)
+    else:
+        _print_runs(problem, runs, fewest_result, days_of_count)
+    found = [r for r in runs if r.assignment]
+    shown = ("the best timetable found is shown above" if len(found) == 1 else
+             f"the best timetables found ({len(found)}) are shown above" if found else "no timetable had been found")
+    left = f"; {skipped} slot count(s) were not tried" if skipped > 0 else ""
+    raise StoppedEarly(f"Interrupted: the search was stopped and {shown}{left}. Nothing was written or recorded.")
 
 
 class _progress_display:

@@ -252,8 +252,9 @@ def _parameters(solver: cp_model.CpSolver, options: SolveOptions, seconds: float
     p = solver.parameters
     # CP-SAT would catch Ctrl-C (ending the search as if the time were up, so the command went on)
     # and leave SIGINT and SIGTERM at their defaults afterwards, so a later Ctrl-C or kill ended
-    # the process without cleaning up. Off: both reach the caller as KeyboardInterrupt once the
-    # current search returns (at the latest when its time share is spent).
+    # the process without cleaning up. Off: the caller's ``options.stop`` ends a search promptly
+    # (see _run; the command line sets it from Ctrl-C), and a signal the caller turns into
+    # KeyboardInterrupt lands once the search returns.
     p.catch_sigint_signal = False
     p.num_workers = max(1, workers if workers is not None else options.workers)
     p.random_seed = options.seed
@@ -272,6 +273,8 @@ def _parameters(solver: cp_model.CpSolver, options: SolveOptions, seconds: float
         p.max_time_in_seconds = max(0.05, min(max(0.05, seconds) * 100, clock_left))
     else:
         p.max_time_in_seconds = max(0.05, seconds)
+    if options.stop is not None and options.stop():
+        p.max_time_in_seconds = 0.0  # stopped already: a search begun now gets no time; the run ends with what it has
 
 
 def _optional_links(problem: Problem) -> list[list[str]]:
@@ -1002,29 +1005,34 @@ def _run(tm: TimetableModel, options: SolveOptions, seconds: float, progress, in
         def bound_seen(bound: float) -> None:
             progress({**info, "event": "bound", "bound": bound, "seconds": time.perf_counter() - start})
         solver.best_bound_callback = bound_seen
-    if stall is None:
-        status = solver.solve(tm.model, watcher)
-        if isinstance(options.stop, _ClockStop):
-            options.stop()  # notes whether the clock, not the counted work, ended this search
-        return status, solver, watcher
-    # stop when neither the best timetable nor the bound has moved for `stall` seconds
-    watcher.moved = time.perf_counter()
-    seen = {"bound": None}
-    shown = solver.best_bound_callback if hasattr(solver, "best_bound_callback") else None
+    stop = options.stop
+    if stall is None and stop is None:
+        return solver.solve(tm.model, watcher), solver, watcher
+    if stall is not None:
+        # stop when neither the best timetable nor the bound has moved for `stall` seconds
+        watcher.moved = time.perf_counter()
+        seen = {"bound": None}
+        shown = solver.best_bound_callback if hasattr(solver, "best_bound_callback") else None
 
-    def bound_moved(bound: float) -> None:
-        if seen["bound"] is None or bound > seen["bound"] + 1e-9:
-            seen["bound"] = bound
-            watcher.moved = time.perf_counter()
-        if shown:
-            shown(bound)
-    if hasattr(solver, "best_bound_callback"):
-        solver.best_bound_callback = bound_moved
+        def bound_moved(bound: float) -> None:
+            if seen["bound"] is None or bound > seen["bound"] + 1e-9:
+                seen["bound"] = bound
+                watcher.moved = time.perf_counter()
+            if shown:
+                shown(bound)
+        if hasattr(solver, "best_bound_callback"):
+            solver.best_bound_callback = bound_moved
     done = threading.Event()
 
-    def guard() -> None:  # counts only once CP-SAT has a timetable (presolve may take long on a large model)
-        while not done.wait(0.25):
-            if watcher.solutions and time.perf_counter() - max(watcher.moved, watcher.last_solution) > stall:
+    def guard() -> None:
+        # the caller's stop (Ctrl-C, the page's stop button, repeatable mode's clock) is asked every
+        # STOP_POLL_SECONDS; the stall counts only once CP-SAT has a timetable (presolve may take long)
+        while not done.wait(STOP_POLL_SECONDS):
+            if stop is not None and stop():
+                solver.stop_search()  # again at every poll: a stop asked before the search has begun is not lost
+                continue
+            if stall is not None and watcher.solutions \
+                    and time.perf_counter() - max(watcher.moved, watcher.last_solution) > stall:
                 solver.stop_search()
                 return
     thread = threading.Thread(target=guard, daemon=True)
@@ -1034,7 +1042,13 @@ def _run(tm: TimetableModel, options: SolveOptions, seconds: float, progress, in
     finally:
         done.set()
         thread.join()
+    if isinstance(stop, _ClockStop):
+        stop()  # notes whether the clock, not the counted work, ended this search
     return status, solver, watcher
+
+
+#: How often a running CP-SAT search asks ``SolveOptions.stop`` (Ctrl-C lands within this).
+STOP_POLL_SECONDS = 0.1
 
 
 def _explain(problem, slots, graph, block, sizes, domains, options, left, run: SolveRun, cover) -> SolveRun:
@@ -1217,7 +1231,7 @@ def fewest_slots(
         share_end = time.perf_counter() + 0.4 * options.time_limit
         budget = max(0.25, options.time_limit / 60)
         attempt = 0
-        while hi > lo and time.perf_counter() < share_end:
+        while hi > lo and time.perf_counter() < share_end and not _stopped(options):
             k = hi - 1
             if progress:
                 progress({"event": "phase", "phase": f"tabu search for {k} slots", "slots": k,
@@ -1248,7 +1262,7 @@ def fewest_slots(
     k = lo
     while hi is None and k <= max_k:
         left = options.time_limit - (time.perf_counter() - start)
-        if left <= 0.2:
+        if left <= 0.2 or _stopped(options):
             break
         quick.time_limit = min(step_time, left) if k < max_k else left
         run = solve(_without_goals(problem), slots_for(k), quick, graph=graph)
@@ -1264,7 +1278,7 @@ def fewest_slots(
     first_try = True
     while hi is not None and lo < hi:
         left = options.time_limit - (time.perf_counter() - start)
-        if left <= 0.2:
+        if left <= 0.2 or _stopped(options):
             break
         mid = lo if first_try else (lo + hi) // 2
         first_try = False
@@ -1299,6 +1313,11 @@ def fewest_slots(
     result.run = best_run
     result.wall_seconds = time.perf_counter() - start
     return result
+
+
+def _stopped(options: SolveOptions) -> bool:
+    """The caller asked the searches to stop (``SolveOptions.stop``)."""
+    return options.stop is not None and bool(options.stop())
 
 
 def _seats_per_slot(problem: Problem) -> int | None:
