@@ -146,29 +146,32 @@ def test_an_interruption_after_one_output_says_what_was_written(run_command, sma
 def test_a_signal_during_the_export_cleans_up(tmp_path, sig):
     """A real SIGTERM or SIGINT (Ctrl-C) while a workbook is written, after CP-SAT has run (a
     subprocess). CP-SAT used to leave both signals at their defaults after a search, so the
-    process died on the spot, leaving the .part file and the openpyxl sheet files."""
-    enrolments = tmp_path / "many.csv"  # 4,000 students, one exam each: quick to solve, slower to write
-    enrolments.write_text("Student,Exam\n" + "".join(f"s{i},E{i % 200}\n" for i in range(4000)))
-    env = {"PYTHONPATH": str(ROOT), "PATH": "/usr/bin:/bin", "TMPDIR": str(tmp_path / "tmp"), "HOME": str(tmp_path)}
+    process died on the spot, leaving the .part file and the openpyxl sheet files.
+
+    The child (``signal_child.py``) touches a flag once the sheet files exist and then holds the
+    export until the signal comes, so the signal always lands mid-export (it used to be sent on
+    seeing the .part file, racing the export's end)."""
+    enrolments = tmp_path / "many.csv"
+    enrolments.write_text("Student,Exam\n" + "".join(f"s{i},E{i % 200}\n" for i in range(400)))
+    env = {"PYTHONPATH": str(ROOT), "PATH": "/usr/bin:/bin", "TMPDIR": str(tmp_path / "tmp"), "HOME": str(tmp_path),
+           "TIMETABLER_STORE": str(tmp_path / "store.sqlite3")}
     (tmp_path / "tmp").mkdir()
     out = tmp_path / "out"
     out.mkdir()
-    child = subprocess.Popen([sys.executable, "-m", "timetabler", "solve", str(enrolments), "--slots", "3",
-                              "--time-limit", "1", "--out", str(out / "t.xlsx")],
+    flag = tmp_path / "exporting"
+    child = subprocess.Popen([sys.executable, str(ROOT / "tests" / "signal_child.py"), str(flag), "export",
+                              "solve", str(enrolments), "--slots", "3", "--time-limit", "1", "--out",
+                              str(out / "t.xlsx")],
                              stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env, cwd=tmp_path)
-    deadline = time.monotonic() + 120
-    while time.monotonic() < deadline and child.poll() is None:
-        if any(p.name.endswith(".xlsx.part") for p in out.iterdir()):
-            child.send_signal(sig)
-            break
+    deadline = time.monotonic() + 60
+    while not flag.exists():
+        assert child.poll() is None, child.communicate()
+        assert time.monotonic() < deadline, "the export never began"
         time.sleep(0.005)
-    else:
-        child.kill()
-        child.communicate()
-        pytest.skip("the export finished before it could be interrupted")
+    assert list((tmp_path / "tmp").rglob("openpyxl.*")), "the sheet files should exist at this moment"
+    assert [p.name.endswith(".xlsx.part") for p in out.iterdir()] == [True], "the half-written workbook should exist"
+    child.send_signal(sig)
     stdout, stderr = child.communicate(timeout=60)
-    if child.returncode == 0 and (out / "t.xlsx").exists():
-        pytest.skip("the export finished before the signal arrived")
     assert child.returncode == 130, stderr
     assert "Interrupted: nothing was written." in stderr and "Traceback" not in stderr
     assert list(out.iterdir()) == []
