@@ -154,6 +154,10 @@ def test_solve_reports_local_search_progress_and_validates():
     goals = [e["penalty"] for e in seen if e.get("event") == "solution" and e.get("phase") == "goals"]
     assert run.penalty <= min(goals + local)
     assert np.all(np.diff(local) <= 0)
+    # across the phases too the best so far never rises, and the first timetable is reported
+    every = [e for e in seen if e.get("event") == "solution"]
+    assert every[0]["phase"] == "first timetable"
+    assert np.all(np.diff([e["penalty"] for e in every]) <= 0)
 
 
 def test_repeatable_mode_gives_the_same_timetable_twice():

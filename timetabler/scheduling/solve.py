@@ -194,6 +194,23 @@ class _Watcher(cp_model.CpSolverSolutionCallback):
                            "gap": gap, "seconds": time.perf_counter() - self.start})
 
 
+def _best_only(progress: Progress | None) -> Progress | None:
+    """``progress`` passing on a "solution" only when it is better than every one before it: the
+    phases (first timetable, local search, CP-SAT, whose objective may stand above the penalty the
+    timetable has) report on their own, and the best so far must never rise."""
+    if progress is None:
+        return None
+    best: list[int] = []
+
+    def passed(event: dict) -> None:
+        if event.get("event") == "solution":
+            if best and event["penalty"] >= best[0]:
+                return
+            best[:] = [event["penalty"]]
+        progress(event)
+    return passed
+
+
 class _Budget:
     """Time left for a run: wall-clock seconds, or CP-SAT deterministic time in repeatable mode
     (so that how the time is shared between phases does not depend on the machine's load)."""
@@ -419,7 +436,7 @@ def solve(
         share = left if i == len(blocks) - 1 else max(0.2, left * len(block) / max(1, sum(map(len, blocks[i:]))))
         block_cover = cover if len(blocks) == 1 else [c for c in cover if c[0] in set(block)]
         results.append(_solve_block(problem, slots, graph, block, sizes, domains, block_cover, clique, large,
-                                    previous, options, share, progress, info, start, budget))
+                                    previous, options, share, _best_only(progress), info, start, budget))
         if results[-1].status in ("infeasible", "unknown"):
             break
     _combine(run, results, len(blocks))
@@ -535,6 +552,10 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
         fallback = scored
         if run.first_feasible_seconds is None:
             run.first_feasible_seconds = time.perf_counter() - start
+        if progress and scored.penalty is not None:  # the first timetable is the best so far until a better one
+            progress({**info, "event": "solution", "phase": "first timetable", "penalty": int(scored.penalty),
+                      "bound": 0.0, "gap": 0.0 if scored.penalty == 0 else 1.0,
+                      "seconds": time.perf_counter() - start})
         return True
 
     # long events and extra time that takes the next slot are not colourings: CP-SAT alone handles them
