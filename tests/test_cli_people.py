@@ -62,3 +62,25 @@ def test_a_quorum_no_slot_meets_names_the_quorum(tmp_path, run_command):
     run = result.json()["runs"][0]
     assert run["status"] == "infeasible"
     assert "CREW needs 2 of its attendees free; at most 1 can make any one slot" in run["reason"]
+
+
+def test_count_names_the_member_whose_absence_costs_most_and_what_it_leaves_out(tmp_path, run_command):
+    # CREW (Ines, Tobin) and KIT (Tobin, Wren optional) clash through Tobin, who cannot make slot 1:
+    # both go in slots 2-4, apart: 3 × 2 = 6 timetables; with Tobin free, 4 × 3 = 12 (a factor of 2)
+    path = workbook(tmp_path, [["Tobin Ash", "Mon 09:00", None, None]])
+    result = run_command("count", path, "--slots", "4", "--json")
+    assert result.status == 0, result.stderr
+    doc = result.json()
+    assert int(doc["counts"][0]["timetables"]) == 6 and doc["counts"][0]["exact"]
+    assert [(d["attendee"], d["gain"]) for d in doc["most_limiting_people"]] == [("Tobin Ash", 2.0)]
+    assert doc["not_counted"] is None
+    shown = " ".join(run_command("count", path, "--slots", "4").stdout.split())
+    assert "Tobin Ash: × 2.00" in shown and "leave out" not in shown
+    # a rules sheet is left to the solver, and the count says so
+    path = write_xlsx(tmp_path / "ruled.xlsx", {
+        "Enrolments": [["Member", "Meeting"], ["Ines Farrow", "CREW"], ["Tobin Ash", "CREW"], ["Tobin Ash", "KIT"]],
+        "Slots": SLOTS, "Rules": [["Rule", "First event", "Other events"], ["before", "KIT", "CREW"]]})
+    doc = run_command("count", path, "--slots", "4", "--json").json()
+    assert doc["not_counted"] == "the 1 rule of the rules sheet"
+    shown = " ".join(run_command("count", path, "--slots", "4").stdout.split())
+    assert "Counts leave out the 1 rule of the rules sheet" in shown

@@ -184,6 +184,9 @@ def _print_report(file: str, report, notes: list[str], days_of_count: dict[int, 
                           f"{readable_count(c.lower, True)} and {readable_count(c.upper, True)} ({how}).")
     if report.constrained:
         console.print("Counts keep every fixed event in its slot and no event in a barred slot.")
+    if report.not_counted:
+        console.print(f"Counts leave out {report.not_counted}; `timetabler solve` keeps to them too, so fewer "
+                      f"timetables may keep every rule.")
     for note in notes:
         console.print(styled(("note:", "yellow"), f" {note}"))
     if report.chromatic_number is not None:
@@ -225,6 +228,13 @@ def _print_report(file: str, report, notes: list[str], days_of_count: dict[int, 
         console.print(f"\nClashes whose removal (e.g. moving the shared attendees) multiplies the {k}-slot count most:")
         for item in report.most_freeing_clashes:
             console.print(f"  {item['events'][0]} and {item['events'][1]}: × {item['gain']:,.2f}")
+    people = getattr(report, "most_limiting_people", None) or []
+    if people:
+        k = people[0]["slots"]
+        console.print(f"\nAttendees whose unavailability removes most timetables: with {k} slots, if they could "
+                      f"make every slot the count would be multiplied by")
+        for item in people:
+            console.print(f"  {item['attendee']}: × {item['gain']:,.2f}")
 
 
 def _print_polynomial(report, graph) -> None:

@@ -67,6 +67,12 @@ def count_problem(
     >>> report.counts[0].timetables  # A in slot 1, B in slot 2 or 3
     2
     """
+    report, notes = _count_problem(problem, ks, graph, slots_for, budget_seconds, progress)
+    report.not_counted = uncounted_rules(problem)
+    return report, notes
+
+
+def _count_problem(problem, ks, graph, slots_for, budget_seconds, progress):
     ks = sorted(set(int(k) for k in ks))
     if problem.has_people or problem.slots:
         slots_for = slots_for or default_slots_for(problem)
@@ -298,3 +304,25 @@ def _ratios_between_runs(counts: list) -> None:
         c.ratio_moments = Moments(c.moments.centre - prev.moments.centre, c.moments.variance + prev.moments.variance,
                                   min(c.moments.replicates, prev.moments.replicates))
         set_intervals(c)
+
+
+def uncounted_rules(problem: Problem) -> str | None:
+    """The hard rules of ``problem`` that the counts do not honour, in words, or None.
+
+    The counts honour clashes, fixed and barred slots, event lengths, availability, extra time
+    and quorums; a daily limit, the rules sheet, rooms and slot seat limits are left to the
+    solver, so with any of them a count is of timetables that may still break them.
+    """
+    parts = []
+    if problem.max_per_day is not None:
+        parts.append(f"the limit of {problem.max_per_day} events a day per attendee")
+    if problem.rules:
+        n = len(problem.rules)
+        parts.append(f"the {n} {'rule' if n == 1 else 'rules'} of the rules sheet")
+    if problem.rooms:
+        parts.append("the rooms")
+    if any(s.seat_capacity is not None for s in problem.slots):
+        parts.append("the seat limits of the slots")
+    if not parts:
+        return None
+    return parts[0] if len(parts) == 1 else ", ".join(parts[:-1]) + " and " + parts[-1]

@@ -155,6 +155,7 @@ class CountReport:
     availability_bound: bool = False  # long events, extra time or quorums not counted exactly: upper bounds
     people_rules: bool = False  # long events, extra time or quorums with optional attendees are in the count
     most_limiting_people: list[dict] = field(default_factory=list)  # attendee, slots (K), gain, starts_blocked
+    not_counted: str | None = None  # the hard rules the counts leave to the solver, in words
 
     @property
     def exact(self) -> bool:
@@ -179,6 +180,7 @@ class CountReport:
             "riskiest_absent_clashes": self.riskiest_absent_clashes,
             "most_freeing_clashes": self.most_freeing_clashes,
             "most_limiting_people": self.most_limiting_people,
+            "not_counted": self.not_counted,
             "seconds": round(self.seconds, 3),
         }
 

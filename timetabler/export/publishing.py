@@ -181,6 +181,9 @@ def count_for_runs(problem: Any, runs: Sequence[Any], budget: float, *, graph: A
     slot_lists = {int(r.slots): list(r.slot_list) for r in runs}
     report, notes = count_problem(problem, list(slot_lists), graph=graph, slots_for=slot_lists.__getitem__,
                                   budget_seconds=budget)
+    left_out = report.not_counted
+    if left_out:
+        notes = [*notes, f"Counts leave out {left_out}; the solver keeps to them too, so fewer timetables may keep every rule."]
     if not report.constrained:
-        return report, None
+        return report, " ".join(notes) if left_out else None
     return report, " ".join(["Counts respect fixed and barred slots."] + notes)
