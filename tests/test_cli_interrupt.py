@@ -63,8 +63,9 @@ def test_ctrl_c_stops_the_search_and_shows_the_best_timetable_found(tmp_path):
     stdout, stderr = child.communicate(timeout=60)
     took = time.monotonic() - sent
     assert child.returncode == 130, stderr
-    # within a moment (0.9 s measured, checking and printing included), not when CP-SAT's share ends
-    assert took < 2.5, took
+    # within a moment (0.9 s measured on an idle machine, checking and printing included), not when
+    # CP-SAT's 15 s share ends: 10 s leaves room for a loaded machine and still fails if the stop is ignored
+    assert took < 10, took
     assert "the best timetable found is shown above" in stderr and "Traceback" not in stderr
     doc = json.loads(stdout)
     assert doc["interrupted"] is True and doc["written"] == []
