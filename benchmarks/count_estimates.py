@@ -119,8 +119,8 @@ def validation(graphs: int, seconds: float) -> int:
     widths = [w for r in rows for w in r["width"] if w is not None]
     rwidths = [r["ratio_width"] for r in rows if r["ratio_width"] is not None]
     print()
-    print(f"| graphs | count intervals covering | ratio intervals covering | median count width (log10) "
-          f"| max | median ratio width (log10) | max | bounds bracket the truth |")
+    print("| graphs | count intervals covering | ratio intervals covering | median count width (log10) "
+          "| max | median ratio width (log10) | max | bounds bracket the truth |")
     print("|---|---|---|---|---|---|---|---|")
     print(f"| {len(rows)} | {sum(counts)}/{len(counts)} ({100 * sum(counts) / max(len(counts), 1):.0f} %) "
           f"| {sum(ratios)}/{len(ratios)} ({100 * sum(ratios) / max(len(ratios), 1):.0f} %) "

@@ -140,8 +140,6 @@ def generate_large(seed: int = 1, exams: int = 2000, students: int = 33000, enro
 
 
 def large(args) -> None:
-    import networkx as nx  # noqa: F401
-
     from timetabler.conflicts import conflict_graph
     t0 = time.perf_counter()
     problem = generate_large(seed=args.seed)

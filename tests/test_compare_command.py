@@ -24,14 +24,6 @@ def enrolment_csv(tmp_path):
     return path
 
 
-def _counting_available() -> bool:
-    try:
-        from timetabler.counting import count_timetables  # noqa: F401
-    except ImportError:
-        return False
-    return True
-
-
 def test_compare_json_workbook_and_terminal_agree(run_command, enrolment_csv, tmp_path):
     out = tmp_path / "choices.xlsx"
     result = run_command("compare", enrolment_csv, "--slots", "2", "3", "4", "--time-limit", "5", "--count-time", "5",
@@ -49,10 +41,7 @@ def test_compare_json_workbook_and_terminal_agree(run_command, enrolment_csv, tm
     assert rows[1]["exists"] == "yes" and rows[1]["fewest"].startswith("the fewest possible, proven")
     assert rows[2]["fewest"].startswith("1 more than the fewest")
     assert doc["fewest"]["upper"] == 3 and doc["fewest"]["proven"] is True
-    if _counting_available():
-        assert [r["timetables"] for r in rows] == [str(reference[k]) for k in (2, 3, 4)]
-    else:
-        assert "not available" in doc["counts_note"] and rows[1]["timetables"] is None
+    assert [r["timetables"] for r in rows] == [str(reference[k]) for k in (2, 3, 4)]
     assert doc["written"] == [str(out)]
     # the workbook's comparison sheet holds the same figures as the JSON document
     wb = load_workbook(out)

@@ -6,7 +6,6 @@ import itertools
 import random
 
 import networkx as nx
-import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 

@@ -37,8 +37,6 @@ def cycle_count(n: int, k: int) -> int:
 
 
 def networkx_count(graph: nx.Graph, k: int) -> int:
-    import sympy
-
     poly = nx.chromatic_polynomial(graph)
     (x,) = poly.free_symbols
     return int(poly.subs(x, k))

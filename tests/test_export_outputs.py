@@ -5,7 +5,6 @@ from __future__ import annotations
 import csv
 import datetime as dt
 import os
-from pathlib import Path
 
 import numpy as np
 import pytest

@@ -3,7 +3,6 @@ solver's result, the independent validator and reference counts."""
 
 from __future__ import annotations
 
-import datetime as dt
 import zipfile
 from collections import defaultdict
 

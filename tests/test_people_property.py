@@ -23,7 +23,6 @@ import datetime as dt
 import itertools
 import math
 
-import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 

@@ -11,7 +11,7 @@ import random
 
 import pytest
 
-from timetabler.model import Event, Problem, Slot, Weights, generic_slots
+from timetabler.model import Problem, Slot, Weights, generic_slots
 from timetabler.scheduling import SolveOptions, solve, validate
 
 OPT = SolveOptions(time_limit=20, workers=2, seed=4)

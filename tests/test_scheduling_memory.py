@@ -14,7 +14,7 @@ import time
 import pytest
 
 from timetabler.conflicts import conflict_graph
-from timetabler.model import Problem, Slot, Weights, generic_slots
+from timetabler.model import Problem, Weights, generic_slots
 from timetabler.scheduling import SolveOptions, solve, validate
 from timetabler.scheduling.cliques import clique_cover
 from timetabler.scheduling.cpsat_model import BuildStopped, build_model, large_event_codes, physical_domains

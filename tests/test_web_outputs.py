@@ -16,7 +16,7 @@ import pytest
 from starlette.testclient import TestClient
 
 from timetabler.web.app import WebSettings, create_app
-from test_web_routes import BASE, SAME, upload_ok
+from test_web_routes import BASE, upload_ok
 from test_web_solves import finished, start
 
 pytestmark = pytest.mark.filterwarnings("ignore::DeprecationWarning")

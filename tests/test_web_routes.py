@@ -237,7 +237,8 @@ def test_a_very_long_event_code_wraps_in_the_grid_and_keeps_its_full_name(client
     csv = f"Student,Exam\nHV-S0001,{long_code}\nHV-S0001,B\n"
     token = upload_ok(client, "long.csv", csv.encode())
     client.get(f"/files/{token}")
-    r = client.post(f"/files/{token}/solve", data={"slots": ["2"], "time_limit": "5"}, headers=SAME)
+    assert client.post(f"/files/{token}/solve", data={"slots": ["2"], "time_limit": "5"},
+                       headers=SAME).status_code == 200
     wait_finished(client, token)
     page = client.get(f"/files/{token}/timetable").text
     assert f'<span class="code" title="{long_code}">{long_code}</span>' in page

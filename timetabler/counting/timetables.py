@@ -298,12 +298,10 @@ def count_timetables(
         # exact counting may take what is left but a second or a tenth (kept for an estimate)
         left = max(deadline - time.monotonic(), 0.5)
         budget = Budget(time.monotonic() + max(left - min(0.1 * left, 1.0), 0.5), memory_bytes)
-        inner = None
-        if progress is not None:
-            def inner(done: int, total: int, index=index, size=len(comp)) -> None:
-                progress(index, len(big), f"a group of {size} events: step {done} of {total}")
-        results.append(_count_component(sub, needed, ks, budget, fixed, barred, constrained_events, inner,
-                                        exact_counting))
+        def inner(done: int, total: int, index=index, size=len(comp)) -> None:
+            progress(index, len(big), f"a group of {size} events: step {done} of {total}")
+        results.append(_count_component(sub, needed, ks, budget, fixed, barred, constrained_events,
+                                        inner if progress is not None else None, exact_counting))
         if progress is not None:
             progress(index + 1, len(big), f"counted a group of {len(comp)} events")
     pending = [r for r in results if not r.exact]

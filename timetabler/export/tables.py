@@ -601,7 +601,6 @@ def seats_table(problem: Problem, run: Any, people: TimetablePeople | None = Non
     taken = people.taken if people is not None else {c: (n,) for c, n in assignment.items()}
     seats = seats_by_slot(problem, slots, assignment, taken)
     counts = Counter(t for held in taken.values() for t in held)
-    room_seats = sum(r.capacity for r in problem.rooms) if problem.rooms else None
     table = PublishedTable(
         "Seats",
         [

@@ -21,7 +21,6 @@ import codecs
 import csv
 import io
 import re
-import zipfile
 from collections import Counter
 from dataclasses import dataclass, field
 from pathlib import Path

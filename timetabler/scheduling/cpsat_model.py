@@ -54,7 +54,7 @@ from typing import Hashable
 import networkx as nx
 from ortools.sat.python import cp_model
 
-from ..availability import Availability, unavailable_slots
+from ..availability import Availability
 from ..model import Problem, RuleKind, Slot, days_of
 from .cliques import clique_cover
 from .rooms import seated_apart, seats_in_rooms

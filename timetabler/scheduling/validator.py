@@ -219,7 +219,7 @@ def validate(
                         f"{attendee} has {n} events on day {d}, more than the limit of {problem.max_per_day}")
         for i in range(len(mine)):
             for j in range(i + 1, len(mine)):
-                (first_i, last_i, c_i), (first_j, last_j, c_j) = mine[i], mine[j]
+                (_, last_i, _), (first_j, _, _) = mine[i], mine[j]
                 if first_j <= last_i:
                     continue  # the two overlap: a double booking, reported above
                 gap = first_j - last_i  # slots apart in time, not in numbering
