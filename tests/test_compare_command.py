@@ -127,3 +127,18 @@ def test_compare_repeatable_gives_the_same_figures_twice(run_command, exam_week_
         assert doc["slots"] and doc["comparison"]
         return [{k: v for k, v in row.items() if k != "solve_seconds"} for row in doc["comparison"]]
     assert rows() == rows()
+
+
+def test_a_count_with_bounds_only_shows_its_bounds_not_not_counted():
+    # a count cut short with proven bounds and no estimate (as the committee round's long boards give)
+    from types import SimpleNamespace
+
+    from timetabler.export.tables import count_words
+
+    cut = SimpleNamespace(timetables=None, exact=False, log10=None, estimate_log10=None, lower=6_177_600,
+                          upper=2427 * 10 ** 40)
+    assert count_words(cut) == "between 6,177,600 and about 10^43.4"  # log10(2.427e43) = 43.385
+    small = SimpleNamespace(timetables=None, exact=False, log10=None, estimate_log10=None, lower=6, upper=120)
+    assert count_words(small) == "between 6 and 120"
+    nothing = SimpleNamespace(timetables=None, exact=False, log10=None, estimate_log10=None, lower=None, upper=None)
+    assert count_words(nothing) == "not counted"

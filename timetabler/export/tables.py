@@ -943,7 +943,13 @@ def count_words(c: Any) -> str:
     if t is not None and getattr(c, "exact", True):
         return str(int(t))
     lg = _count_log10(c)
-    return f"about 10^{lg:.1f}" if lg is not None and math.isfinite(lg) else "not counted"
+    if lg is not None and math.isfinite(lg):
+        return f"about 10^{lg:.1f}"
+    lower, upper = getattr(c, "lower", None), getattr(c, "upper", None)
+    if lower is not None and upper is not None:  # proven bounds and no estimate: say the bounds
+        top = f"{int(upper):,}" if upper < 10 ** 12 else f"about 10^{_big_log10(int(upper)):.1f}"
+        return f"between {int(lower):,} and {top}"
+    return "not counted"
 
 
 def validate_run(problem: Problem, run: Any) -> Any:
