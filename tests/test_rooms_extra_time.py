@@ -9,6 +9,7 @@ code from the rows written here, and ask the independent validator.
 from __future__ import annotations
 
 import datetime as dt
+from dataclasses import replace
 import itertools
 import math
 import random
@@ -398,3 +399,20 @@ def test_seating_alone_agrees_with_the_brute_force_on_every_timetable(seed):
         if not got.failed_groups:
             assert bruteforce_seating_ok(problem, slots, at, got.rooms, sharing=sharing, splitting=splitting)
     assert tried
+
+
+def test_a_slot_seat_limit_counts_the_candidate_still_writing():
+    # no rooms: each hour seats at most 3. NAV1 (kit with 50 % extra time, lin) runs into the next hour,
+    # so it cannot be at 11:00 (past the day's slots) and NAV2's three candidates cannot start in the
+    # hour after it (4 seats): NAV1 9:00 with NAV2 11:00, or NAV1 10:00 with NAV2 9:00. By hand.
+    slots = [replace(s, seat_capacity=3) for s in SLOTS]
+    p = replace(problem(hall_seats=3), rooms=[])
+    assert not validate(p, slots, {"NAV1": 1, "NAV2": 2}).ok
+    assert any("seats 4 attendees, more than its 3 seats" in x for x in validate(p, slots, {"NAV1": 1, "NAV2": 2}).violations)
+    allowed = {(1, 3), (2, 1)}
+    for a, b in itertools.product(range(1, 4), repeat=2):
+        if a != b:
+            assert validate(p, slots, {"NAV1": a, "NAV2": b}).ok == ((a, b) in allowed), (a, b)
+    run = solve(p, slots, SolveOptions(time_limit=5, workers=1))
+    assert run.status in ("optimal", "feasible")
+    assert (run.assignment["NAV1"], run.assignment["NAV2"]) in allowed

@@ -690,12 +690,14 @@ def build_model(
                     cond = [occ[e][s]] + ([lit] if lit is not None else [])
                     m.add(sum(occ[c][s] for c in others) == 0).only_enforce_if(cond)
 
-    # seats per slot
+    # seats per slot, with the seats of extra-time sittings that run into the slot past their event's
+    slot_tails = _tail_seats({}, found, x, code_set, {c: 1 for c in codes}) \
+        if any(slot.seat_capacity is not None for slot in slots) else {}
     for s in range(k):
         cap = slots[s].seat_capacity
         if cap is None:
             continue
-        load = [(sizes[c], occ[c][s]) for c in codes if sizes[c] > 0]
+        load = [(sizes[c], occ[c][s]) for c in codes if sizes[c] > 0] + [(n, lit) for _, n, lit in slot_tails.get(s + 1, ())]
         if sum(n for n, _ in load) <= cap:
             continue
         lit = rule_literal(f"slot {s + 1} ({slots[s].label}) seats at most {cap}", "seats")

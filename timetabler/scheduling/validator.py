@@ -267,11 +267,20 @@ def validate(
             if n >= cut and code in placed:
                 soft["large_late"] += rank[placed[code] - 1]
 
-    # seats per slot
+    # seats per slot; an attendee whose extra time runs past the event's slots holds a seat then too
     seats_in: dict[int, int] = defaultdict(int)
     for code, s in placed.items():
         for t in taken[code]:
             seats_in[t] += sizes[code]
+    if any(slot.seat_capacity is not None for slot in slots):
+        for attendee, code in problem.enrolments:
+            person = problem.people.get(attendee)
+            if code not in placed or person is None or not person.extra_time_percent:
+                continue
+            held, _, _ = timing.sitting(problem.events[code].duration_minutes, taken[code], person.extra_time_percent)
+            for t in held or ():
+                if t not in taken[code]:
+                    seats_in[t] += 1
     for s in range(1, k + 1):
         cap = slots[s - 1].seat_capacity
         if cap is not None and seats_in[s] > cap:
