@@ -436,36 +436,36 @@ def _exact(problem, codes, rooms, sizes, sharing, splitting, seconds, seed, goal
                 continue
             if not splitting and r.capacity < sizes[c]:
                 continue
-            use[c, r.name] = m.NewBoolVar(f"use[{c},{r.name}]")
+            use[c, r.name] = m.new_bool_var(f"use[{c},{r.name}]")
             if not splitting:
                 seats[c, r.name] = sizes[c] * use[c, r.name]
                 continue
-            seats[c, r.name] = m.NewIntVar(0, min(r.capacity, sizes[c]), f"seats[{c},{r.name}]")
-            m.Add(seats[c, r.name] <= min(r.capacity, sizes[c]) * use[c, r.name])
-            m.Add(seats[c, r.name] >= use[c, r.name])
+            seats[c, r.name] = m.new_int_var(0, min(r.capacity, sizes[c]), f"seats[{c},{r.name}]")
+            m.add(seats[c, r.name] <= min(r.capacity, sizes[c]) * use[c, r.name])
+            m.add(seats[c, r.name] >= use[c, r.name])
     for c in codes:
         mine = [r.name for r in rooms if (c, r.name) in use]
         if not mine:
             return None, True
         if splitting:
-            m.Add(sum(seats[c, n] for n in mine) == sizes[c])
+            m.add(sum(seats[c, n] for n in mine) == sizes[c])
         else:
-            m.AddExactlyOne(use[c, n] for n in mine)
+            m.add_exactly_one(use[c, n] for n in mine)
     for r in rooms:
         here = [c for c in codes if (c, r.name) in use]
         if not here:
             continue
-        m.Add(sum(seats[c, r.name] for c in here) <= r.capacity)
+        m.add(sum(seats[c, r.name] for c in here) <= r.capacity)
         if not (sharing and r.shared):
-            m.AddAtMostOne(use[c, r.name] for c in here)
+            m.add_at_most_one(use[c, r.name] for c in here)
     _minimise_room_goals(m, use, seats, codes, rooms, goals, splitting, hint)
     solver, status = _solve_seating(m, seconds, seed)
     if status not in (cp_model.OPTIMAL, cp_model.FEASIBLE):
         return None, status == cp_model.INFEASIBLE
     out: dict[str, list[tuple[str, int]]] = {}
     for (c, name), v in use.items():
-        if solver.BooleanValue(v):
-            out.setdefault(c, []).append((name, solver.Value(seats[c, name]) if splitting else sizes[c]))
+        if solver.boolean_value(v):
+            out.setdefault(c, []).append((name, solver.value(seats[c, name]) if splitting else sizes[c]))
     return {c: sorted(v) for c, v in out.items()}, status == cp_model.OPTIMAL
 
 
@@ -581,21 +581,21 @@ def _exact_group(problem, codes, apart_here, spans, sizes, sharing, splitting, s
                 continue
             if not splitting and r.capacity < sizes[c]:
                 continue
-            use[c, r.name] = m.NewBoolVar(f"use[{c},{r.name}]")
+            use[c, r.name] = m.new_bool_var(f"use[{c},{r.name}]")
             if not splitting:
                 seats[c, r.name] = sizes[c] * use[c, r.name]
                 continue
-            seats[c, r.name] = m.NewIntVar(0, min(r.capacity, sizes[c]), f"seats[{c},{r.name}]")
-            m.Add(seats[c, r.name] <= min(r.capacity, sizes[c]) * use[c, r.name])
-            m.Add(seats[c, r.name] >= use[c, r.name])
+            seats[c, r.name] = m.new_int_var(0, min(r.capacity, sizes[c]), f"seats[{c},{r.name}]")
+            m.add(seats[c, r.name] <= min(r.capacity, sizes[c]) * use[c, r.name])
+            m.add(seats[c, r.name] >= use[c, r.name])
     for c in codes:
         mine = [r.name for r in problem.rooms if (c, r.name) in use]
         if not mine:
             return None, True
         if splitting:
-            m.Add(sum(seats[c, n] for n in mine) == sizes[c])
+            m.add(sum(seats[c, n] for n in mine) == sizes[c])
         else:
-            m.AddExactlyOne(use[c, n] for n in mine)
+            m.add_exactly_one(use[c, n] for n in mine)
         if not tails.get(c):
             continue
         if not splitting:
@@ -605,20 +605,20 @@ def _exact_group(problem, codes, apart_here, spans, sizes, sharing, splitting, s
         if not hosts:
             return None, True
         for n in hosts:
-            host[c, n] = m.NewBoolVar(f"host[{c},{n}]")
-            m.AddImplication(host[c, n], use[c, n])
+            host[c, n] = m.new_bool_var(f"host[{c},{n}]")
+            m.add_implication(host[c, n], use[c, n])
             for other in mine:
                 if other != n:  # the most seats; on a tie, the first room in the Rooms sheet
                     ahead = 1 if order[other] < order[n] else 0
-                    m.Add(seats[c, n] >= seats[c, other] + ahead).OnlyEnforceIf(host[c, n])
-        m.AddExactlyOne(host[c, n] for n in hosts)
+                    m.add(seats[c, n] >= seats[c, other] + ahead).only_enforce_if(host[c, n])
+        m.add_exactly_one(host[c, n] for n in hosts)
     for i, (attendee, code, kind, sitting) in enumerate(apart_here):
         mine = _own_room_candidates(problem, kind, sitting, unavailable)
         if not mine:
             return None, True
         for r in mine:
-            alone[i, r.name] = m.NewBoolVar(f"alone[{attendee},{code},{r.name}]")
-        m.AddExactlyOne(alone[i, r.name] for r in mine)
+            alone[i, r.name] = m.new_bool_var(f"alone[{attendee},{code},{r.name}]")
+        m.add_exactly_one(alone[i, r.name] for r in mine)
     slot_set = sorted({t for c in codes for t in spans[c]} | {t for c in codes for t in tails.get(c, ())}
                       | {t for item in apart_here for t in item[3]})
     for r in problem.rooms:
@@ -630,16 +630,16 @@ def _exact_group(problem, codes, apart_here, spans, sizes, sharing, splitting, s
                      for c in codes if (c, r.name) in host and t in tails[c]]
             solo = [alone[i, r.name] for i, item in enumerate(apart_here) if (i, r.name) in alone and t in item[3]]
             if solo:
-                m.AddAtMostOne(solo)
+                m.add_at_most_one(solo)
                 for lit in solo:
                     for present, _, _ in here:
-                        m.AddImplication(lit, present.Not())
+                        m.add_implication(lit, present.negated())
             if not here:
                 continue
             if sum(most for _, _, most in here) > r.capacity:
-                m.Add(sum(n for _, n, _ in here) <= r.capacity)
+                m.add(sum(n for _, n, _ in here) <= r.capacity)
             if not (sharing and r.shared) and len(here) > 1:
-                m.AddAtMostOne(present for present, _, _ in here)
+                m.add_at_most_one(present for present, _, _ in here)
     rooms_hint, own_hint = hint if hint else (None, {})
     _minimise_room_goals(m, use, seats, codes, problem.rooms, goals, splitting, rooms_hint)
     if hint:
@@ -650,9 +650,9 @@ def _exact_group(problem, codes, apart_here, spans, sizes, sharing, splitting, s
         return None, status == cp_model.INFEASIBLE
     rooms: dict[str, list[tuple[str, int]]] = {}
     for (c, name), v in use.items():
-        if solver.BooleanValue(v):
-            rooms.setdefault(c, []).append((name, solver.Value(seats[c, name]) if splitting else sizes[c]))
-    own = {(apart_here[i][0], apart_here[i][1]): name for (i, name), v in alone.items() if solver.BooleanValue(v)}
+        if solver.boolean_value(v):
+            rooms.setdefault(c, []).append((name, solver.value(seats[c, name]) if splitting else sizes[c]))
+    own = {(apart_here[i][0], apart_here[i][1]): name for (i, name), v in alone.items() if solver.boolean_value(v)}
     return ({c: sorted(v) for c, v in rooms.items()}, own), status == cp_model.OPTIMAL
 
 

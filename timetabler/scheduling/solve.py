@@ -753,8 +753,9 @@ def _solve_block(problem, slots, graph, block, sizes, domains, cover, clique, la
         if left() <= 0 or round_ == 5:
             run.status = "unknown"
             run.assignment = {}
+            when = "within the time limit" if left() <= 0 else f"after {round_ + 1} rounds of new timetables"
             run.reason = ("a clash-free timetable was found but its events could not be seated in the rooms of "
-                          f"slot(s) {', '.join(map(str, sorted(seating.failed_slots)))} within the time limit")
+                          f"slot(s) {', '.join(map(str, sorted(seating.failed_slots)))} {when}")
             run.reasons = [run.reason]
             return run
     run.wall_seconds = time.perf_counter() - t0
