@@ -416,3 +416,23 @@ def test_a_slot_seat_limit_counts_the_candidate_still_writing():
     run = solve(p, slots, SolveOptions(time_limit=5, workers=1))
     assert run.status in ("optimal", "feasible")
     assert (run.assignment["NAV1"], run.assignment["NAV2"]) in allowed
+
+
+def test_a_candidate_still_writing_is_listed_in_the_one_room_they_keep():
+    # NAV2 split over Chart Hall (2 seats) and Map Room (1 seat); kit (50 % extra time) writes past the
+    # hour, so kit's seat is in Chart Hall, the room with most of NAV2's seats (the rule the validator
+    # checks); the others of NAV2 see both rooms
+    from types import SimpleNamespace
+
+    from timetabler.export.tables import personal_table
+
+    p = Problem([("kit", "NAV2"), ("mo", "NAV2"), ("ned", "NAV2")], events={"NAV2": Event("NAV2", duration_minutes=60)},
+                rooms=[Room("Map Room", capacity=1), Room("Chart Hall", capacity=2)],
+                people={"kit": Attendee("kit", extra_time_percent=50)})
+    rooms = {"NAV2": [("Map Room", 1), ("Chart Hall", 2)]}
+    assert validate(p, SLOTS, {"NAV2": 1}, rooms, room_splitting=True).ok
+    run = SimpleNamespace(assignment={"NAV2": 1}, rooms=rooms, own_rooms={}, status="feasible", slot_list=SLOTS)
+    table = personal_table(p, run)
+    where = {row[0]: row[9] for row in table.rows}
+    assert where["kit"] == "Chart Hall"
+    assert where["mo"] == where["ned"] == "Map Room, Chart Hall"

@@ -432,7 +432,8 @@ def personal_table(problem: Problem, run: Any, show: Callable[[str], str] = str,
     """One row per attendee and event: personal timetables, sorted by attendee then slot.
 
     The end is the attendee's own: with their extra time (Attendees sheet), and a long event's
-    true end; an attendee seated apart (Own room) is given their own room, not the event's.
+    true end; an attendee seated apart (Own room) is given their own room, not the event's, and
+    one whose extra time runs past a split event's slots the one room they keep their seat in.
     With optional attendance, a column says whether each row is required or optional
     and another why an optional attendee cannot come.
     """
@@ -443,13 +444,19 @@ def personal_table(problem: Problem, run: Any, show: Callable[[str], str] = str,
         people = timetable_people(problem, run)
     own_end: dict[tuple[str, str], Any] = {}
     missed: dict[tuple[str, str], str] = {}
+    late_room: dict[tuple[str, str], str] = {}  # still writing past a split event's slots: its one room then
     if people is not None:
+        from ..scheduling.rooms import tail_room
+
         for attendee, mine in people.sittings.items():
             for x in mine:
                 if x.ends is not None:
                     own_end[(attendee, x.event)] = x.ends.time()
                 if x.missed:
                     missed[(attendee, x.event)] = x.missed
+                parts = (getattr(run, "rooms", None) or {}).get(x.event) or []
+                if len(parts) > 1 and set(x.taken or ()) - set(people.taken.get(x.event, ())):
+                    late_room[(attendee, x.event)] = tail_room(problem, [(str(r), int(n)) for r, n in parts])
     optional = bool(problem.optional)
     apart = {(a, c): room for a, c, room, _ in own_room_placements(run, people)}
     table = PublishedTable(
@@ -464,7 +471,7 @@ def personal_table(problem: Problem, run: Any, show: Callable[[str], str] = str,
     for attendee, code in problem.enrolments:
         n = assignment.get(code)
         place = places[n - 1] if n and 1 <= n <= len(places) else None
-        rooms = apart.get((attendee, code)) or _room_text(run, code)[0]
+        rooms = apart.get((attendee, code)) or late_room.get((attendee, code)) or _room_text(run, code)[0]
         end = own_end.get((attendee, code)) or event_end(problem, code, place.slot if place else None)
         row = [
             show(attendee), code, problem.events[code].title or "", n, place.slot.label if place else "",
