@@ -55,13 +55,7 @@ def cli(ctx: click.Context) -> None:
 
 
 for _name in COMMAND_MODULES:
-    try:
-        _module = importlib.import_module(f"{__name__}.{_name}")
-    except ModuleNotFoundError as exc:  # a command not built yet in this checkout
-        if exc.name != f"{__name__}.{_name}":
-            raise
-        continue
-    cli.add_command(_module.command)
+    cli.add_command(importlib.import_module(f"{__name__}.{_name}").command)
 
 
 def main(argv: list[str] | None = None) -> None:

@@ -1,7 +1,7 @@
 """``--slots 5 6 7`` / ``--slots 5-8``: the option that takes several numbers of slots.
 
 Click options take one value each; registrars type the numbers one after another, as the
-command-line contract in the design notes shows. :class:`SlotCountsOption` swallows every
+command-line contract (../shared/DESIGN.md) shows. :class:`SlotCountsOption` swallows every
 following token that looks like a number or a range, and :func:`parse_slot_counts` turns
 them into a tuple of distinct whole numbers in the order given.
 """

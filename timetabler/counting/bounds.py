@@ -114,15 +114,6 @@ class Estimate:
     probes: int
     zero: bool
 
-    def interval_log10(self) -> tuple[float, float] | None:
-        """log10 of mean ± 2 standard errors (the lower end omitted when it is ≤ 0)."""
-        if self.log10 is None or self.relative_error is None:
-            return None
-        hi = self.log10 + math.log10(1 + 2 * self.relative_error)
-        lo_factor = 1 - 2 * self.relative_error
-        lo = self.log10 + math.log10(lo_factor) if lo_factor > 0 else float("-inf")
-        return lo, hi
-
 
 def knuth_estimate(
     graph: nx.Graph,
@@ -207,19 +198,26 @@ def _summarise(samples: list[int]) -> Estimate:
     if total == 0:
         return Estimate(None, None, done, True)
     total_sq = sum(x * x for x in samples)
-    mean_log10 = _log10_int(total) - math.log10(done)
+    mean_log10 = log10_int(total) - math.log10(done)
     if done > 1:
         # standard error / mean = sqrt((N Σx² − (Σx)²) / (N − 1)) / Σx, in logs (huge ints)
         num = done * total_sq - total * total
-        rel = 10 ** (0.5 * (_log10_int(num) - math.log10(done - 1)) - _log10_int(total)) if num > 0 else 0.0
+        rel = 10 ** (0.5 * (log10_int(num) - math.log10(done - 1)) - log10_int(total)) if num > 0 else 0.0
     else:
         rel = None
     return Estimate(mean_log10, rel, done, False)
 
 
-def _log10_int(x: int) -> float:
-    if x <= 0:
-        raise ValueError("log10 of a non-positive number")
+def log10_int(x: int) -> float:
+    """log10 of a Python int of any size without overflowing a float; -inf for 0.
+
+    >>> round(log10_int(10 ** 400 * 3), 6), log10_int(0)
+    (400.477121, -inf)
+    """
+    if x == 0:
+        return -math.inf
+    if x < 0:
+        raise ValueError("log10 of a negative number")
     bits = x.bit_length()
     if bits < 1000:
         return math.log10(x)

@@ -259,11 +259,6 @@ class ChromaticPolynomial:
 # --------------------------------------------------------------------------- closed forms
 
 
-def complete_power(n: int) -> list[int]:
-    """``K_n``: the falling factorial ``k^(n)`` (Read 1968)."""
-    return list(_stirling1_row(n))
-
-
 def cycle_power(n: int) -> list[int]:
     """``C_n`` (n ≥ 3): ``(k−1)^n + (−1)^n (k−1)`` (Read 1968)."""
     out = [1]
@@ -272,14 +267,6 @@ def cycle_power(n: int) -> list[int]:
     sign = 1 if n % 2 == 0 else -1
     out[1] += sign
     out[0] -= sign
-    return out
-
-
-def tree_power(n: int) -> list[int]:
-    """Any tree on ``n ≥ 1`` vertices: ``k (k−1)^(n−1)`` (Read 1968)."""
-    out = [0, 1]
-    for _ in range(n - 1):
-        out = poly_mul_linear(out, 1)
     return out
 
 

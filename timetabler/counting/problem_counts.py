@@ -16,7 +16,7 @@ import networkx as nx
 
 from ..availability import Availability
 from ..model import Problem, Slot, generic_slots
-from .bounds import _log10_int
+from .bounds import log10_int
 from .budget import Budget
 from .people_counts import PEOPLE_WHAT_IF_SECONDS, PeopleCounter, most_limiting_people
 from .sequential_sampling import Moments
@@ -181,7 +181,7 @@ def _count_with_availability(problem: Problem, ks, graph, slots_for, budget_seco
         c, prev = by_k[k], by_k.get(k - 1)
         if c.exact and prev is not None and prev.exact and prev.timetables and c.ratio_to_previous is None:
             c.ratio_to_previous = _ratio(c.timetables, prev.timetables)
-            ratio_log10 = _log10_int(c.timetables) - _log10_int(prev.timetables) if c.timetables else None
+            ratio_log10 = log10_int(c.timetables) - log10_int(prev.timetables) if c.timetables else None
             c.ratio_interval_log10 = None if ratio_log10 is None else (ratio_log10, ratio_log10)
     _ratios_between_runs(merged.counts)
     if away:  # at the fewest slots with timetables: an exact count, else one proven above 0

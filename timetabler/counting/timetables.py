@@ -27,7 +27,7 @@ import networkx as nx
 
 from ..conflicts import largest_clique
 from .bounds import (
-    _log10_int,
+    log10_int,
     agreeing_family_lower,
     chordal_subgraph_upper,
     clique_product_upper,
@@ -399,8 +399,8 @@ def _count_component(sub, needed, ks, budget, fixed, barred, constrained_events,
 
 def exact_slot_count(k: int, value: int, prev: int | None, groupings: int | None = None) -> SlotCount:
     """An exact count, its interval the single point it is (empty for 0)."""
-    log10 = _log10_int(value) if value else None
-    ratio_log10 = _log10_int(value) - _log10_int(prev) if value and prev else None
+    log10 = log10_int(value) if value else None
+    ratio_log10 = log10_int(value) - log10_int(prev) if value and prev else None
     return SlotCount(
         k, value, True, log10, value, value,
         ratio_to_previous=_ratio(value, prev) if prev else None,
@@ -546,8 +546,8 @@ def _estimated_count(k: int, lower: int, upper: int, moments: Moments | None, ra
 
 
 def set_intervals(count: SlotCount) -> None:
-    low_bound = _log10_int(count.lower) if count.lower else -math.inf
-    high_bound = _log10_int(count.upper) if count.upper else math.inf
+    low_bound = log10_int(count.lower) if count.lower else -math.inf
+    high_bound = log10_int(count.upper) if count.upper else math.inf
     if count.moments is not None:
         iv = count.moments.interval()
         centre = min(max(iv.estimate, low_bound), high_bound)
@@ -585,10 +585,10 @@ def _combine_inexact(results: list[ComponentCount], iso: dict[int, int], k: int)
                 zero = True
                 continue
             if moments is not None:
-                moments = moments.shifted(_log10_int(c.timetables) * LN10)
+                moments = moments.shifted(log10_int(c.timetables) * LN10)
             prev = r.values.get(k - 1) if r.values else None
             if ratio is not None and prev:
-                ratio = ratio.shifted((_log10_int(c.timetables) - _log10_int(prev)) * LN10)
+                ratio = ratio.shifted((log10_int(c.timetables) - log10_int(prev)) * LN10)
             else:
                 ratio = None
         else:
@@ -610,7 +610,7 @@ def _combine_inexact(results: list[ComponentCount], iso: dict[int, int], k: int)
 def _ratio(value: int, prev: int) -> float:
     if value == 0:
         return 0.0
-    return 10 ** (_log10_int(value) - _log10_int(prev))
+    return 10 ** (log10_int(value) - log10_int(prev))
 
 
 def _groupings(results: list[ComponentCount], isolated: list, k: int, deadline: float | None = None) -> int | None:

@@ -33,6 +33,7 @@ from collections import Counter, defaultdict
 from dataclasses import dataclass, field
 from typing import Any, Callable, Mapping, Sequence
 
+from ..counting.bounds import log10_int
 from ..model import Problem, Slot, days_of, event_times
 
 TEXT, INT, FLOAT, DATE, TIME, FLAG, BIGINT = "text", "int", "float", "date", "time", "flag", "bigint"
@@ -812,13 +813,7 @@ def _count_log10(c: Any) -> float | None:
 
 
 def _big_log10(n: int) -> float:
-    if n <= 0:
-        return float("-inf")
-    digits = len(str(n))
-    if digits < 300:
-        return math.log10(n)
-    head = int(str(n)[:17])
-    return math.log10(head) + digits - 17
+    return log10_int(n) if n > 0 else -math.inf
 
 
 def power_text(log10: float) -> str:
@@ -1081,14 +1076,6 @@ def rows_as_json(table: PublishedTable) -> list[dict[str, Any]]:
                 v = round(v, 6)
             doc[col.key] = (v or None) if col.kind in (BIGINT, TEXT) and v == "" else v
         out.append(doc)
-    return out
-
-
-def rows_as_text(table: PublishedTable) -> list[list[str]]:
-    """Rows with every value as text (ISO dates, HH:MM times, yes/no flags), for CSV and terminals."""
-    out = []
-    for row in table.rows:
-        out.append([value_text(v, col.kind) for v, col in zip(row, table.columns)])
     return out
 
 

@@ -86,7 +86,6 @@ from .tables import (
 
 RED = PatternFill("solid", start_color="FFC7CE", end_color="FFC7CE", bgColor="FFC7CE")
 AMBER = PatternFill("solid", start_color="FFEB9C", end_color="FFEB9C", bgColor="FFEB9C")
-GREEN = PatternFill("solid", start_color="C6EFCE", end_color="C6EFCE", bgColor="C6EFCE")
 RED_FONT = Font(color="9C0006")
 AMBER_FONT = Font(color="9C5700")
 BOLD = Font(bold=True)

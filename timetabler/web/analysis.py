@@ -193,22 +193,6 @@ def slot_list(problem: Problem, k: int, sessions_per_day: int) -> list[Slot]:
     return generic_slots(k, sessions_per_day)
 
 
-def fixed_and_barred(problem: Problem, slots: list[Slot]) -> tuple[dict[str, int], dict[str, set[int]]]:
-    """Fixed and barred slots of events as slot numbers 1..K (references that do not resolve are left out)."""
-    fixed: dict[str, int] = {}
-    barred: dict[str, set[int]] = {}
-    for code, event in problem.events.items():
-        if event.fixed_slot:
-            n = problem.slot_number(event.fixed_slot, slots)
-            if n is not None:
-                fixed[code] = n
-        numbers = {problem.slot_number(ref, slots) for ref in event.barred_slots}
-        numbers.discard(None)
-        if numbers:
-            barred[code] = numbers  # type: ignore[assignment]
-    return fixed, barred
-
-
 def count(analysis: Analysis, ks: list[int], budget_seconds: float, progress: Any = None) -> Any:
     """The counting engine's report for these slot counts (cached per upload).
 

@@ -14,6 +14,8 @@ import math
 from dataclasses import dataclass
 from html import escape
 
+from ..counting.bounds import log10_int
+
 
 @dataclass
 class ChartBar:
@@ -29,7 +31,7 @@ def bar_from_count(item) -> ChartBar:
     exact = bool(getattr(item, "exact", False))
     log10 = getattr(item, "log10", None)
     if timetables is not None and exact:
-        log10 = -math.inf if timetables == 0 else _log10_int(timetables)
+        log10 = -math.inf if timetables == 0 else log10_int(timetables)
     elif log10 is None:
         log10 = getattr(item, "estimate_log10", None)
         if log10 is None and getattr(item, "upper", None) == 0:
@@ -41,15 +43,6 @@ def bar_from_count(item) -> ChartBar:
     else:
         label = ("" if exact else "≈ ") + f"10^{log10:.1f}"
     return ChartBar(int(item.slots), log10, exact and log10 is not None, label)
-
-
-def _log10_int(n: int) -> float:
-    """log10 of a big Python int without overflowing a float."""
-    digits = len(str(n))
-    if digits <= 300:
-        return math.log10(n)
-    head = int(str(n)[:17])
-    return math.log10(head) + digits - 17
 
 
 def count_chart_svg(bars: list[ChartBar], *, width: int = 560, height: int = 260) -> str:
