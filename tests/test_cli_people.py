@@ -84,3 +84,15 @@ def test_count_names_the_member_whose_absence_costs_most_and_what_it_leaves_out(
     assert doc["not_counted"] == "the 1 rule of the rules sheet"
     shown = " ".join(run_command("count", path, "--slots", "4").stdout.split())
     assert "Counts leave out the 1 rule of the rules sheet" in shown
+
+
+def test_inspect_shows_what_the_file_says_of_people(tmp_path, run_command):
+    # the default club rows: Wren optional at KIT; Ines cannot make Monday; no extra time, no quorum
+    path = workbook(tmp_path, [["Ines Farrow", "2027-04-05", None, None], ["Tobin Ash", None, "25", None]])
+    doc = run_command("inspect", path, "--json").json()
+    assert doc["people"]["Optional enrolments"] == 1
+    assert doc["people"]["Attendees in the Attendees sheet"] == 2
+    assert doc["people"]["Attendees with slots they cannot make"] == 1
+    assert doc["people"]["Attendees with extra time"] == 1
+    shown = " ".join(run_command("inspect", path).stdout.split())
+    assert "Optional enrolments 1" in shown and "Attendees with extra time 1" in shown

@@ -159,3 +159,23 @@ def summarise(problem: Problem, graph: nx.Graph | None = None, top: int = 5) -> 
         busiest_attendees=busiest,
         max_events_per_attendee=max(load.values(), default=0),
     )
+
+
+def people_figures(problem: Problem) -> list[tuple[str, int]]:
+    """What the upload says of people (empty when nothing): the Attendees sheet, optional
+    attendance, quorums and events longer than a slot."""
+    if not problem.has_people and not any(e.duration_minutes for e in problem.events.values()):
+        return []
+    people = list(problem.people.values())
+    shortest = min((s.length_minutes for s in problem.slots if s.length_minutes), default=None)
+    rows = [
+        ("Attendees in the Attendees sheet", len(people)),
+        ("Attendees with slots they cannot make", sum(1 for p in people if p.unavailable)),
+        ("Attendees with extra time", sum(1 for p in people if p.extra_time_percent)),
+        ("Attendees seated in a room of their own", sum(1 for p in people if p.own_room_type)),
+        ("Optional enrolments", len(problem.optional)),
+        ("Events with a quorum", sum(1 for e in problem.events.values() if e.quorum)),
+        ("Events longer than a slot", sum(1 for e in problem.events.values()
+                                          if shortest and e.duration_minutes and e.duration_minutes > shortest)),
+    ]
+    return rows if any(n for _, n in rows) else []

@@ -5,7 +5,7 @@ from __future__ import annotations
 import click
 from rich.table import Table
 
-from ..conflicts import conflict_graph, summarise
+from ..conflicts import conflict_graph, people_figures, summarise
 from .common import console, input_options, print_json, read_input, show_warnings, styled
 
 
@@ -35,6 +35,7 @@ def command(file: str, sheet, attendee_column, event_column, as_json: bool) -> N
         doc["duplicates_dropped"] = reading.duplicates_dropped
         doc["reading"] = reading.to_dict()
         doc["warnings"] = [w.to_dict() for w in reading.warnings]
+        doc["people"] = dict(people_figures(reading.problem))
         print_json(doc)
         return
     console.print(styled((file, "bold"), f": {reading.describe()}"), soft_wrap=True)
@@ -53,6 +54,7 @@ def command(file: str, sheet, attendee_column, event_column, as_json: bool) -> N
         ("Largest set of mutually clashing events", summary.max_clique),
         ("Most events for one attendee", summary.max_events_per_attendee),
     ]
+    rows += people_figures(reading.problem)
     for label, value in rows:
         table.add_row(label, str(value))
     console.print(table)

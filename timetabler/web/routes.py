@@ -38,6 +38,7 @@ from starlette.requests import Request
 from starlette.responses import FileResponse, JSONResponse, RedirectResponse, Response
 from starlette.routing import Route
 
+from ..conflicts import people_figures
 from ..errors import Finding, InputError
 from . import analysis as an
 from .count_chart import bar_from_count, count_chart_svg
@@ -321,7 +322,7 @@ async def overview(request: Request) -> Response:
             "rules": [rule.describe() for rule in problem.rules],
             "has_slots_sheet": bool(problem.slots),
             "has_rooms": bool(problem.rooms),
-            "people_figures": an.people_figures(problem),
+            "people_figures": people_figures(problem),
             "settings": settings,
             "solves": [(kept, solve_base(stored, kept)) for kept in solves_of(stored.state).values()],
             "options": options,
