@@ -96,3 +96,15 @@ def test_inspect_shows_what_the_file_says_of_people(tmp_path, run_command):
     assert doc["people"]["Attendees with extra time"] == 1
     shown = " ".join(run_command("inspect", path).stdout.split())
     assert "Optional enrolments 1" in shown and "Attendees with extra time 1" in shown
+
+
+def test_the_fewest_slots_of_the_clashes_alone_is_a_lower_bound_when_people_matter(tmp_path, run_command):
+    # CREW and KIT clash through Tobin: 2 slots by the clashes; Ines (CREW) cannot come on Monday, the
+    # first two slots, so 2 slots have no timetable at all (counted by hand: CREW has no slot)
+    path = workbook(tmp_path, [["Ines Farrow", "2027-04-05", None, None]])
+    doc = run_command("count", path, "--slots", "2", "--json").json()
+    assert doc["counts"][0]["timetables"] == "0" and doc["counts"][0]["exact"]
+    assert doc["fewest_slots"]["slots"] == 2 and doc["fewest_slots"]["at_least"] is True
+    assert "2 slots have no timetable that keeps them" in doc["fewest_slots"]["reason"]
+    shown = " ".join(run_command("count", path, "--slots", "2").stdout.split())
+    assert "Fewest slots: at least 2 — from the clashes alone" in shown

@@ -131,13 +131,14 @@ def _count_with_availability(problem: Problem, ks, graph, slots_for, budget_seco
     is one), its lower bound the finished groups' counts times what one timetable found by
     search proves for the others (or 0), with a note.
 
-    Then, when some attendee cannot make some slot, the attendees whose unavailability
-    costs most timetables (:func:`~timetabler.counting.people_counts.most_limiting_people`)
+    Then, when some attendee cannot make some slot, within what is left of the time (at least
+    a small reserve), the attendees whose unavailability costs most timetables (:func:`~timetabler.counting.people_counts.most_limiting_people`)
     at the fewest slots asked for with an exact, non-zero count (else with a lower bound
     above 0: the gains are ratios within the attendees' own groups, exact where those are).
     """
     notes: list[str] = []
     reports = []
+    deadline = time.monotonic() + budget_seconds
     counter = PeopleCounter(problem, list(graph.nodes))
     away = any(person.unavailable for person in problem.people.values())
     reserve = min(PEOPLE_WHAT_IF_SECONDS, 0.15 * budget_seconds) if away else 0.0
@@ -184,13 +185,21 @@ def _count_with_availability(problem: Problem, ks, graph, slots_for, budget_seco
             ratio_log10 = log10_int(c.timetables) - log10_int(prev.timetables) if c.timetables else None
             c.ratio_interval_log10 = None if ratio_log10 is None else (ratio_log10, ratio_log10)
     _ratios_between_runs(merged.counts)
+    if merged.chromatic_number is not None:
+        # the fewest slots of the clashes alone: availability, long events and extra time may need more
+        merged.fewest_at_least = True
+        none = [c.slots for c in merged.counts if c.exact and c.timetables == 0 and c.slots >= merged.chromatic_number]
+        merged.fewest_slots_reason = (f"from the clashes alone: {merged.fewest_slots_reason}; the people's rules "
+                                      f"(availability, events longer than a slot, extra time, quorums) may need more"
+                                      + (f": {max(none)} slots have no timetable that keeps them" if none else ""))
     if away:  # at the fewest slots with timetables: an exact count, else one proven above 0
         usable = ([c.slots for c in merged.counts if c.exact and c.timetables]
                   or [c.slots for c in merged.counts if not c.exact and c.lower])
         if usable:
             k = usable[0]
             merged.most_limiting_people = most_limiting_people(
-                problem, list(slots_for(k)), counter, founds[k], seconds=max(reserve, 0.5), base=values_at.get(k))
+                problem, list(slots_for(k)), counter, founds[k],  # its reserve, or all the time the counts left
+                seconds=max(reserve, 0.5, deadline - time.monotonic()), base=values_at.get(k))
     return merged, notes
 
 

@@ -156,6 +156,7 @@ class CountReport:
     people_rules: bool = False  # long events, extra time or quorums with optional attendees are in the count
     most_limiting_people: list[dict] = field(default_factory=list)  # attendee, slots (K), gain, starts_blocked
     not_counted: str | None = None  # the hard rules the counts leave to the solver, in words
+    fewest_at_least: bool = False  # chromatic_number is from the clashes alone: the people's rules may need more
 
     @property
     def exact(self) -> bool:
@@ -174,7 +175,7 @@ class CountReport:
             "chromatic_number": self.chromatic_number,
             "fewest_slots": None
             if self.chromatic_number is None
-            else {"slots": self.chromatic_number, "reason": self.fewest_slots_reason},
+            else {"slots": self.chromatic_number, "reason": self.fewest_slots_reason, "at_least": self.fewest_at_least},
             "components": [c.to_json() for c in self.components],
             "constrained": self.constrained,
             "riskiest_absent_clashes": self.riskiest_absent_clashes,

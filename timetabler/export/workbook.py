@@ -503,7 +503,8 @@ def _overview(book: _Book, problem: Problem, runs, counts, reading, settings, va
     ]
     chi = getattr(counts, "chromatic_number", None) if counts is not None else None
     if chi is not None:
-        rows.append(("Fewest slots (from the counts)", chi))
+        rows.append(("Fewest slots (from the counts)" if not getattr(counts, "fewest_at_least", False)
+                     else "Fewest slots (from the clashes alone): at least", chi))
     if fewest is not None:
         rows.append(("Fewest slots: at least", getattr(fewest, "lower", None)))
         if getattr(fewest, "lower_reason", None):
