@@ -38,12 +38,15 @@ def publish(
     notify: Callable[[str], None] | None = None,
     status: Callable[[str], Any] | None = None,
     written: list[Path] | None = None,
+    count_if_missing: bool = True,
 ) -> list[Path]:
     """Write every output asked for in ``outputs``; return the paths written.
 
     When a workbook or a chart is asked for and ``counts`` is None, the numbers of
     clash-free timetables for the slot counts of ``runs`` are counted here (within the
-    ``count_budget`` seconds of ``settings``, default 20).
+    ``count_budget`` seconds of ``settings``, default 20), unless ``count_if_missing`` is
+    False (the web page, whose own background count is the one that counts: the workbook then
+    says the numbers were not counted).
 
     Every output asked for is checked before anything is written. ``notify(text)`` receives
     messages for the person (a created key, an output that could not be made) and
@@ -62,7 +65,7 @@ def publish(
         return []
     settings = dict(settings or {})
     runs = list(runs)
-    if counts is None and (outputs.get("out") or outputs.get("plot")) and runs:
+    if counts is None and count_if_missing and (outputs.get("out") or outputs.get("plot")) and runs:
         counts, _ = count_for_runs(problem, runs, float(settings.get("count_budget", 20.0)))
     solved = [r for r in runs if r.assignment and r.status in ("optimal", "feasible")]
     # check what each output needs before writing anything
