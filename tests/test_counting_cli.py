@@ -111,3 +111,36 @@ def test_human_table_shows_counts_and_not_exact_marks(run_command, tmp_path):
     doc = run_command("count", path, "--slots", "4", "--time-limit", "0.3", "--json").json()
     assert doc["counts"][0]["timetables"] is None
     assert int(doc["counts"][0]["lower"]) <= int(doc["counts"][0]["upper"])
+
+
+def _column_cells(table_lines: list[str], header: str) -> str:
+    """The text of one column of a rich table's single body row, its folded lines joined."""
+    heads = [line for line in table_lines if line.startswith("┃")]
+    columns = [" ".join(parts) for parts in zip(*[[c.strip() for c in line.strip("┃").split("┃")] for line in heads])]
+    index = next(i for i, name in enumerate(columns) if " ".join(name.split()) == header)
+    body = [line for line in table_lines if line.startswith("│")]
+    return "".join(line.strip("│").split("│")[index].strip() for line in body)
+
+
+def test_a_count_too_wide_for_its_column_keeps_every_digit(tmp_path):
+    """At 80 columns the groups table had no room for 12 digits and cut them ("343,59…"), which
+    reads as a figure. A path of 19 exams: a tree on n vertices has k(k-1)^(n-1) colourings
+    (standard closed form for trees)."""
+    import os
+    import subprocess
+    import sys
+
+    path = tmp_path / "path.csv"
+    pd.DataFrame([{"Student": f"QP-S{i:03d}", "Exam": f"QM{j:03d}"} for i in range(18) for j in (i, i + 1)]
+                 ).to_csv(path, index=False)
+    env = {**os.environ, "COLUMNS": "80"}
+    done = subprocess.run([sys.executable, "-m", "timetabler", "count", str(path), "--slots", "4", "5", "6", "7"],
+                          capture_output=True, text=True, env=env, timeout=60)
+    assert done.returncode == 0, done.stderr
+    lines = done.stdout.splitlines()
+    start = next(i for i, line in enumerate(lines) if line.startswith("Groups of events"))
+    table = lines[start + 1:]
+    assert f"{4 * 3 ** 18:,}" == "1,549,681,956" and f"{5 * 4 ** 18:,}" == "343,597,383,680"
+    assert _column_cells(table, "4 slots") == f"{4 * 3 ** 18:,}"
+    assert _column_cells(table, "5 slots") == f"{5 * 4 ** 18:,}"
+    assert "…" not in "".join(line for line in lines if line.startswith("│") and "(+" not in line)

@@ -150,12 +150,14 @@ def _print_report(file: str, report, notes: list[str], days_of_count: dict[int, 
                   f"{report.isolated_events} {'event' if report.isolated_events == 1 else 'events'} with no clash"))
     table = Table(title="Clash-free timetables", title_justify="left")
     if days_of_count:
-        table.add_column("Days", justify="right")
-    table.add_column("Slots", justify="right")
-    table.add_column("Timetables", justify="right")
+        table.add_column("Days", justify="right", overflow="fold")
+    # A count too wide for its column folds onto the next line: rich's default cuts it with "…",
+    # which leaves a shorter number that reads as a figure.
+    table.add_column("Slots", justify="right", overflow="fold")
+    table.add_column("Timetables", justify="right", overflow="fold")
     table.add_column("Exact", justify="center")
-    table.add_column("× vs one slot fewer", justify="right")
-    table.add_column("Groupings (slots unlabelled)", justify="right")
+    table.add_column("× vs one slot fewer", justify="right", overflow="fold")
+    table.add_column("Groupings (slots unlabelled)", justify="right", overflow="fold")
     for c in report.counts:
         if c.exact:
             shown = readable_count(c.timetables)
@@ -199,11 +201,11 @@ def _print_report(file: str, report, notes: list[str], days_of_count: dict[int, 
     if report.components:
         groups = Table(title="Groups of events linked by clashes (largest first)", title_justify="left")
         groups.add_column("Events")
-        groups.add_column("Size", justify="right")
-        groups.add_column("Clashes", justify="right")
-        groups.add_column("Fewest slots", justify="right")
+        groups.add_column("Size", justify="right", overflow="fold")
+        groups.add_column("Clashes", justify="right", overflow="fold")
+        groups.add_column("Fewest slots", justify="right", overflow="fold")
         for k in [c.slots for c in report.counts]:
-            groups.add_column(f"{k} slots", justify="right")
+            groups.add_column(f"{k} slots", justify="right", overflow="fold")
         shown = sorted(report.components, key=lambda c: -len(c.events))[:10]
         for comp in shown:
             names = ", ".join(comp.events[:4]) + (f", … (+{len(comp.events) - 4})" if len(comp.events) > 4 else "")
