@@ -260,7 +260,7 @@ CASES = [
          options={"limits": Limits(max_file_bytes=50)}, error=("larger than", None, None, None)),
     Case("a stray double quote in a CSV",
          lambda t: _bytes(t / "a.csv", ("Student,Exam\nHV-S0001,\"MAT101\n" + "".join(f"{a},{e}\n" for a, e in BASE * 2)).encode()),
-         error=("double quote", None, 2, "column 2")),
+         error=("double quote", None, 2, "B (Exam)")),
     Case("a one-column CSV (wrong delimiter)", lambda t: _bytes(t / "a.csv", b"Student Exam\nHV-S0001 MAT101\n"),
          error=("No enrolment header", None, None, None)),
     Case("no attendee column", lambda t: write_xlsx(t / "a.xlsx", {"S": [["Programme", "Exam"], ["BSc", "MAT101"]]}),
@@ -548,11 +548,11 @@ CASES += [
          error=("longer than timetabler reads", None, 2, None)),
     Case("an unclosed quote swallowing a few rows",
          lambda t: _bytes(t / "a.csv", b'Student,Exam\nHV-S0001,MAT101\nHV-S0002,"PHY110\nHV-S0003,CHM120\nHV-S0004,HIS130\n'),
-         error=("double quote", None, 3, "column 2")),
+         error=("double quote", None, 3, "B (Exam)")),
     Case("an unclosed quote in the last row",
          lambda t: _bytes(t / "a.csv", ("Student\tExam\n" + "".join(f"{a}\t{e}\n" for a, e in BASE[:-1])
                                         + f'{BASE[-1][0]}\t"{BASE[-1][1]}\n').encode()),
-         error=("double quote", None, 11, "column 2")),
+         error=("double quote", None, 11, "B (Exam)")),
     Case("a quoted cell with a line break in a notes column reads",
          lambda t: write_text(t / "a.csv", [["Student", "Exam", "Notes"]] + [[a, e, "late entry\napproved" if i == 2 else ""]
                                                                              for i, (a, e) in enumerate(BASE)]),

@@ -181,7 +181,7 @@ def text_rows(name: str, text: str, delimiter: str, budget: CellBudget | None = 
                 for j, cell in enumerate(row):
                     lines = cell.splitlines()
                     if len(lines) >= 10 or any(delimiter in part for part in lines[1:]):
-                        raise _open_quote(name, i, j, cell)
+                        raise _open_quote(name, i, j, cell, rows)
             line = reader.line_num
             while row and not row[-1].strip():
                 row.pop()
@@ -200,15 +200,23 @@ def text_rows(name: str, text: str, delimiter: str, budget: CellBudget | None = 
         raise InputError(Finding("The text file cannot be read as CSV.", where=Location(name, None, i + 1),
                                  found=str(exc), suggestion="Save it again as CSV from your spreadsheet program.")) from None
     if ("\n" in tail or "\r" in tail) and not text.rstrip().endswith('"'):
-        raise _open_quote(name, i, width - 1, tail)  # the file ends inside a quoted cell, never closed
+        raise _open_quote(name, i, width - 1, tail, rows)  # the file ends inside a quoted cell, never closed
     return rows
 
 
-def _open_quote(name: str, row: int, column: int, cell: str) -> InputError:
+def _open_quote(name: str, row: int, column: int, cell: str, rows: list[list[str]] | None = None) -> InputError:
+    """The finding for a cell that swallowed the lines after it, its column named as elsewhere:
+    the letter a spreadsheet shows and the header above it (from the first row of two or more
+    cells read so far, the usual header row; the letter alone when there is none)."""
+    from .header_detection import column_letter  # header_detection imports this module
+
+    headers = next((r for r in rows or [] if sum(1 for c in r if c.strip()) >= 2), [])
+    header = headers[column].strip() if column < len(headers) else ""
+    label = f"{column_letter(column)} ({header})" if header else column_letter(column)
     return InputError(Finding(
         "A cell runs over several lines: a double quote (\") that is opened and never closed has "
         "joined the following lines into one cell, and their rows would be lost.",
-        where=Location(name, None, row, f"column {column + 1}"),
+        where=Location(name, None, row, label),
         found=cell[:60].replace("\r", "").replace("\n", " | ") + " ...",
         suggestion="Remove the stray double quote in this row, or enclose the whole cell in double quotes.",
     ))
