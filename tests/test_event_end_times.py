@@ -75,6 +75,25 @@ def test_calendars_invent_no_end_for_an_event_without_duration_in_a_slot_without
     assert "'Mon PM'" in result.stderr and "ART140" in result.stderr and "no end time" in result.stderr
     assert "sheet 'Slots', row 3" in result.stderr  # the slot's row, to add its length
     assert not (ics / "session.ics").exists()
+    # found before solving (ART140 is fixed there): no timetable table is printed, the workbook is not
+    # left unwritten after a solve
+    assert "Timetables" not in result.stdout and not (ics).exists()
+
+
+def test_an_event_that_may_land_in_a_slot_without_length_is_refused_before_solving(tmp_path, run_command):
+    # ART140 has no duration and no fixed slot, so it may land in 'Mon PM' (no length): refused at once;
+    # barred from 'Mon PM' it can only take 'Mon AM' (180 minutes), and the calendars are written
+    rows = {"Enrolments": [["Student", "Exam"], ["HV-S0003", "ART140"]],
+            "Slots": [["Slot", "Date", "Start", "Length"], ["Mon AM", DAY, "09:00", 180], ["Mon PM", DAY, "14:00", None]]}
+    free = write_xlsx(tmp_path / "free.xlsx", {**rows, "Events": [["Event", "Duration"], ["ART140", None]]})
+    result = run_command("solve", free, "--slots", "2", "--no-record", "--ics", tmp_path / "cal1", "--out",
+                         tmp_path / "t.xlsx")
+    assert result.status == 2 and "'Mon PM'" in result.stderr and "ART140" in result.stderr
+    assert "Timetables" not in result.stdout and not (tmp_path / "t.xlsx").exists()
+    barred = write_xlsx(tmp_path / "barred.xlsx", {**rows, "Events": [["Event", "Barred slots"], ["ART140", "Mon PM"]]})
+    result = run_command("solve", barred, "--slots", "2", "--no-record", "--ics", tmp_path / "cal2")
+    assert result.status == 0, result.stderr
+    assert list((tmp_path / "cal2").glob("*.ics"))
 
 
 def test_one_definition_of_the_end():

@@ -72,7 +72,7 @@ def check_outputs(outputs: Mapping[str, Any] | None, *, problem: Any, slots: Any
     """Check every output option before the solving starts (see
     :func:`timetabler.export.publishing.check_outputs`): a bad name, folder or time zone is
     bad input found at once, not after minutes of work."""
-    export_check_outputs(outputs, inputs=[getattr(problem, "source", None), keep], slots=slots)
+    export_check_outputs(outputs, inputs=[getattr(problem, "source", None), keep], slots=slots, problem=problem)
 
 
 def publish(outputs: Mapping[str, Any] | None, *, quiet: bool = False, **results: Any) -> list[Path]:

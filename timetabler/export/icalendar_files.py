@@ -130,13 +130,22 @@ def check_dated_slots(slots: Any) -> None:
 
 def calendar_end_findings(problem: Problem, slots: list[Slot], assignment: dict[str, int] | None = None) -> list[Finding]:
     """One finding per slot with a start time and no length holding an event without a duration
-    (with ``assignment`` None: any event without a duration, as before solving)."""
+    (with ``assignment`` None, before solving: each such slot that an event without a duration may
+    take, by its fixed and barred slots)."""
     out: list[Finding] = []
     without = sorted(c for c, e in problem.events.items() if not e.duration_minutes)
+
+    def may_take(code: str, number: int) -> bool:
+        event = problem.events[code]
+        if event.fixed_slot and str(event.fixed_slot).strip():
+            return problem.slot_number(event.fixed_slot, slots) == number
+        return all(problem.slot_number(ref, slots) != number for ref in event.barred_slots)
+
     for number, slot in enumerate(slots, start=1):
         if slot.start is None or slot.length_minutes:
             continue
-        here = without if assignment is None else [c for c in without if assignment.get(c) == number]
+        here = [c for c in without if may_take(c, number)] if assignment is None else \
+            [c for c in without if assignment.get(c) == number]
         if not here:
             continue
         where = replace(slot.where, column="Length") if isinstance(slot.where, Location) else None

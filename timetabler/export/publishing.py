@@ -119,14 +119,16 @@ def publish(
     return written
 
 
-def check_outputs(outputs: Mapping[str, Any] | None, *, inputs: Sequence[Any] = (), slots: Sequence[Any] | None = None) -> None:
+def check_outputs(outputs: Mapping[str, Any] | None, *, inputs: Sequence[Any] = (), slots: Sequence[Any] | None = None,
+                  problem: Any = None) -> None:
     """Check every output asked for before any work is done: each file's extension, that no
     output is an input file, that each folder can be written (or created), the time zone,
-    that iCalendar files have dated ``slots`` (None: not known yet) and the pseudonym key.
+    that iCalendar files have dated ``slots`` (None: not known yet) and, with ``problem``, an end
+    time for every event in any slot it may take, and the pseudonym key.
 
     Raises :class:`InputError` naming the option and the place.
     """
-    from .icalendar_files import check_dated_slots, time_zone
+    from .icalendar_files import calendar_end_findings, check_dated_slots, time_zone
     from .safe_write import check_target, check_writable_folder
 
     outputs = dict(outputs or {})
@@ -153,6 +155,9 @@ def check_outputs(outputs: Mapping[str, Any] | None, *, inputs: Sequence[Any] = 
     time_zone(outputs.get("ics_time_zone"))
     if outputs.get("ics") and slots is not None:
         check_dated_slots(slots)
+        endless = calendar_end_findings(problem, list(slots)) if problem is not None else []
+        if endless:
+            raise InputError(endless)
     key_file = outputs.get("pseudonym_key")
     if key_file and not outputs.get("pseudonyms"):
         raise InputError(Finding("--pseudonym-key is the key of --pseudonyms, which was not given.",
