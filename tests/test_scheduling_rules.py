@@ -207,7 +207,8 @@ def test_rooms_are_shared_by_default_even_by_events_of_different_lengths():
     run, _ = solved(p, generic_slots(2))
     assert run.assignment["A"] != run.assignment["B"]
     run = infeasible(p, generic_slots(1))
-    assert any("1 such rooms give only 1 places" in r for r in run.reasons), run.reasons
+    assert any("the one such room gives only 1 place over 1 slot (one event per room, as each is marked not "
+               "shared" in r for r in run.reasons), run.reasons
 
 
 def test_rooms_of_a_type_run_out_of_seats():

@@ -396,11 +396,16 @@ def room_count_witness(problem: Problem, slots: list[Slot], sizes: dict[str, int
             if len(big) > places:
                 word = f"rooms of type '{ty}'" if ty else "rooms"
                 count = sum(1 for r in rooms if r.capacity >= need)
-                how = ("one event per room; sharing or splitting rooms may help" if not any(shared.values()) else
+                how = ("one event per room; sharing or splitting rooms may help" if not any(shared.values())
+                       and not sharing else
+                       "one event per room, as each is marked not shared; splitting events over rooms may help"
+                       if not any(shared.values()) else
                        "a shared room holds as many of them as its seats allow, a room marked not shared one; "
                        "splitting events over rooms may help")
-                return Witness("rooms", f"{len(big)} events need {word} with at least {need} seats, but the "
-                                        f"{count} such rooms give only {places} places over {len(slots)} slots "
+                rooms_word = "the one such room gives" if count == 1 else f"the {count} such rooms give"
+                places_word = "1 place" if places == 1 else f"{places} places"
+                return Witness("rooms", f"{len(big)} events need {word} with at least {need} seats, but "
+                                        f"{rooms_word} only {places_word} over {len(slots)} {'slot' if len(slots) == 1 else 'slots'} "
                                         f"({how})",
                                events=sorted(big))
     return None
