@@ -280,3 +280,19 @@ def test_exact_cover_agrees_with_trying_every_choice_of_sets():
     assert found_some and missed_some  # both answers were exercised
     _, finished = exact_cover([frozenset([i]) for i in range(30)] * 2, list(range(30)), max_steps=5)
     assert not finished  # stopped by the step limit, so nothing is claimed
+
+
+def test_solve_and_fewest_slots_leave_the_callers_graph_as_it_was():
+    # EMPTY has no enrolment, so it is not in the conflict graph: the engines add it to a copy of their own
+    from timetabler.conflicts import conflict_graph
+    from timetabler.model import Event
+    from timetabler.plan import solve_checked
+    from timetabler.scheduling import SolveOptions, fewest_slots
+
+    p = Problem([("a", "X"), ("a", "Y")], events={"X": Event("X"), "Y": Event("Y"), "EMPTY": Event("EMPTY")})
+    graph = conflict_graph(p)
+    before = (sorted(graph.nodes), sorted(graph.edges))
+    run = solve_checked(p, generic_slots(2), SolveOptions(time_limit=2, workers=1), graph=graph)
+    assert run.validation.ok and set(run.assignment) == {"X", "Y", "EMPTY"}
+    assert fewest_slots(p, options=SolveOptions(time_limit=2, workers=1), graph=graph).upper == 2
+    assert (sorted(graph.nodes), sorted(graph.edges)) == before

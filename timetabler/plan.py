@@ -91,3 +91,19 @@ def _day_words(slot: Slot) -> str:
     if slot.date is not None:
         return slot.date.strftime("%a %d %b %Y")
     return f"day {slot.day}" if slot.day is not None else ""
+
+
+def solve_checked(problem: Problem, slots: list[Slot], options, *, previous: dict[str, int] | None = None,
+                  graph=None, progress=None):
+    """One timetable with these ``slots`` (:func:`timetabler.scheduling.solve`), checked by the
+    independent validator when one was found (``run.validation``, with the run's rooms, own rooms and
+    the room rules of ``options``): the one step of every command and of the web page's solves."""
+    from .scheduling import solve, validate
+
+    run = solve(problem, slots, options, previous=previous, graph=graph, progress=progress)
+    if run.assignment:
+        run.validation = validate(problem, slots, run.assignment, run.rooms or None, previous=previous,
+                                  room_sharing=bool(getattr(options, "room_sharing", True)),
+                                  room_splitting=bool(getattr(options, "room_splitting", False)),
+                                  own_rooms=run.own_rooms)
+    return run

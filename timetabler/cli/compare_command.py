@@ -15,7 +15,8 @@ from ..conflicts import conflict_graph
 from ..errors import Finding, InputError
 from ..export.tables import comparison_table, rows_as_json, run_figures, short_sheet_words, value_text
 from ..model import generic_slots
-from ..scheduling import SolveOptions, fewest_slots, solve, validate
+from ..plan import solve_checked
+from ..scheduling import SolveOptions, fewest_slots
 from .command_clock import CommandClock
 from .common import (SHARE_ROOMS_HELP, console, err_console, input_options, print_json, read_input, require_enrolments, show_warnings,
                      styled)
@@ -109,11 +110,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, day_counts,
         with _step(not as_json, f"solving with {k} slots"):
             slots = slots_for(k)
             previous = resolve_kept(problem, previous_refs, slots) if previous_refs else None
-            run = solve(problem, slots, clock.options(options, i), previous=previous, graph=graph)
-            if run.assignment:
-                run.validation = validate(problem, slots, run.assignment, run.rooms or None, previous=previous,
-                                          own_rooms=run.own_rooms,
-                                          room_sharing=share_rooms, room_splitting=split_rooms)
+            run = solve_checked(problem, slots, clock.options(options, i), previous=previous, graph=graph)
             runs.append(run)
     warn_unrepeatable(runs)
     with _step(not as_json, "counting clash-free timetables"):

@@ -13,7 +13,8 @@ from ..conflicts import conflict_graph
 from ..errors import Finding, InputError
 from ..export.tables import short_sheet_words
 from ..model import GOAL_NAMES, generic_slots
-from ..scheduling import SolveOptions, fewest_slots, solve, validate
+from ..plan import solve_checked
+from ..scheduling import SolveOptions, fewest_slots
 from .command_clock import CommandClock
 from .interruption import SearchInterruption, StoppedEarly
 from .common import (SHARE_ROOMS_HELP, console, err_console, input_options, print_json, read_input, require_enrolments,
@@ -148,12 +149,9 @@ def command(file, sheet, attendee_column, event_column, slot_counts, day_counts,
             slots = slots_for(k)
             previous = resolve_kept(problem, previous_refs, slots) if previous_refs else None
             task = show.add(f"{k} slots", time_limit)
-            run = solve(problem, slots, clock.options(options, i), previous=previous, graph=graph,
-                        progress=lambda e, task=task: show.update(task, e))
+            run = solve_checked(problem, slots, clock.options(options, i), previous=previous, graph=graph,
+                                progress=lambda e, task=task: show.update(task, e))
             show.finish(task)
-            if run.assignment:
-                run.validation = validate(problem, slots, run.assignment, run.rooms or None, previous=previous,
-                                          room_sharing=share_rooms, room_splitting=split_rooms, own_rooms=run.own_rooms)
             runs.append(run)
     if interruption.by_ctrl_c:
         _show_stopped(problem, file, runs, fewest_result, days_of_count, as_json, skipped=len(counts) - len(runs))

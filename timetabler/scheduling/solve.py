@@ -381,11 +381,11 @@ def solve(
         # the model reads consecutive numbers as consecutive slots; intake sorts a slots sheet by time
         raise ValueError("the slots must be given in time order (by date, then start time)")
     graph = conflict_graph(problem) if graph is None else graph
+    missing = [c for c in problem.events if c not in graph]
+    if missing:  # events nobody is enrolled in: added to a copy, never to the caller's graph
+        graph = graph.copy()
+        graph.add_nodes_from(missing, size=0)
     sizes = {c: int(graph.nodes[c].get("size", 0)) for c in graph}
-    for c in problem.events:
-        sizes.setdefault(c, 0)
-        if c not in graph:
-            graph.add_node(c, size=0)
     codes = sorted(graph.nodes)
     info = {"slots": k}
 
@@ -1185,9 +1185,10 @@ def fewest_slots(
     options = options or SolveOptions()
     start = time.perf_counter()
     graph = conflict_graph(problem) if graph is None else graph
-    for c in problem.events:
-        if c not in graph:
-            graph.add_node(c, size=0)
+    missing = [c for c in problem.events if c not in graph]
+    if missing:  # events nobody is enrolled in: added to a copy, never to the caller's graph
+        graph = graph.copy()
+        graph.add_nodes_from(missing, size=0)
     sizes = {c: int(graph.nodes[c].get("size", 0)) for c in graph}
     n = graph.number_of_nodes()
 

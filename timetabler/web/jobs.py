@@ -165,19 +165,15 @@ def _child_main() -> None:
         if options is not None and hasattr(options, "stop"):
             options.stop = stop.is_set  # the local search asks it between rounds
         from timetabler.conflicts import conflict_graph
-        from timetabler.scheduling import fewest_slots, solve, validate
+        from timetabler.plan import solve_checked
+        from timetabler.scheduling import fewest_slots
 
         graph = conflict_graph(problem)
         for k, slots in plan:
             _send(out, ("start", k, time.time()))
             previous = previous_for.get(k) or None
-            run = solve(problem, slots, options, previous=previous, progress=_throttled(out, "progress", k), graph=graph.copy())
-            if run.assignment:
-                run.validation = validate(
-                    problem, slots, run.assignment, run.rooms or None, previous=previous,
-                    room_sharing=bool(getattr(options, "room_sharing", True)),
-                    room_splitting=bool(getattr(options, "room_splitting", False)), own_rooms=run.own_rooms,
-                )
+            run = solve_checked(problem, slots, options, previous=previous, progress=_throttled(out, "progress", k),
+                                graph=graph)
             _send(out, ("run", k, run))
             if stop.is_set():
                 _send(out, ("stopped",))
@@ -185,7 +181,7 @@ def _child_main() -> None:
         if fewest_per_day is not None:
             _send(out, ("start", FEWEST, time.time()))
             result = fewest_slots(problem, per_day=fewest_per_day, options=options,
-                                  progress=_throttled(out, "progress", FEWEST), graph=graph.copy())
+                                  progress=_throttled(out, "progress", FEWEST), graph=graph)
             _send(out, ("fewest", FEWEST, result))
         _send(out, ("done",))
     except BaseException as exc:  # noqa: BLE001 - reported to the parent, never shown as a traceback
