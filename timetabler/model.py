@@ -271,6 +271,11 @@ class Problem:
     def event_codes(self) -> list[str]:
         return sorted(self.events)
 
+    def slots_for(self, k: int, per_day: int | None = None) -> list[Slot]:
+        """The slots of a K-slot timetable: the first K of the Slots sheet (intake sorts it in time
+        order), else K generic slots of ``per_day`` a day. The one rule for every command and page."""
+        return list(self.slots[:k]) if self.slots else generic_slots(k, per_day)
+
     def event_sizes(self) -> dict[str, int]:
         sizes = {code: 0 for code in self.events}
         for _, code in self.enrolments:

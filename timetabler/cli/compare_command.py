@@ -14,7 +14,6 @@ from rich.table import Table
 from ..conflicts import conflict_graph
 from ..errors import Finding, InputError
 from ..export.tables import comparison_table, rows_as_json, run_figures, short_sheet_words, value_text
-from ..model import generic_slots
 from ..plan import solve_checked
 from ..scheduling import SolveOptions, fewest_slots
 from .command_clock import CommandClock
@@ -97,7 +96,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, day_counts,
     previous_refs, _ = earlier_timetable(keep, store) if keep else (None, None)
 
     def slots_for(k: int):
-        return list(problem.slots[:k]) if problem.slots else generic_slots(k, sessions_per_day)
+        return problem.slots_for(k, sessions_per_day)
 
     graph = conflict_graph(problem)
     options = SolveOptions(time_limit=time_limit, workers=workers, seed=seed, deterministic=repeatable,

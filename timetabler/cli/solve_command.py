@@ -12,7 +12,7 @@ from rich.table import Table
 from ..conflicts import conflict_graph
 from ..errors import Finding, InputError
 from ..export.tables import short_sheet_words
-from ..model import GOAL_NAMES, generic_slots
+from ..model import GOAL_NAMES
 from ..plan import solve_checked
 from ..scheduling import SolveOptions, fewest_slots
 from .command_clock import CommandClock
@@ -127,7 +127,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, day_counts,
     graph = conflict_graph(problem)
 
     def slots_for(k: int):
-        return list(problem.slots[:k]) if problem.slots else generic_slots(k, sessions_per_day)
+        return problem.slots_for(k, sessions_per_day)
 
     counts = list(slot_counts) or ([len(problem.slots)] if problem.slots and not fewest else [])
     fewest_result = None

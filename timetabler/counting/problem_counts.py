@@ -15,7 +15,7 @@ from typing import Callable, Sequence
 import networkx as nx
 
 from ..availability import Availability
-from ..model import Problem, Slot, generic_slots
+from ..model import Problem, Slot
 from .bounds import log10_int
 from .budget import Budget
 from .people_counts import PEOPLE_WHAT_IF_SECONDS, PeopleCounter, most_limiting_people
@@ -32,7 +32,7 @@ PEOPLE_METHOD = "dynamic programming over start slots (long events, extra time, 
 
 def default_slots_for(problem: Problem) -> Callable[[int], list[Slot]]:
     """The slots of K: the first K of the slots sheet, else K generic slots."""
-    return lambda k: list(problem.slots[:k]) if problem.slots else generic_slots(k)
+    return problem.slots_for
 
 
 def pinned_events(problem: Problem) -> list:

@@ -39,7 +39,7 @@ import networkx as nx
 from ortools.sat.python import cp_model
 
 from ..conflicts import conflict_graph
-from ..model import Problem, Slot, days_of, generic_slots, time_order
+from ..model import Problem, Slot, days_of, time_order
 from .cliques import clique_cover, largest_clique_found
 from ..availability import Availability
 from .cpsat_model import (BuildStopped, TimetableModel, _room_capacity_by_slot, build_model, large_event_codes,
@@ -1193,7 +1193,7 @@ def fewest_slots(
     n = graph.number_of_nodes()
 
     def slots_for(k: int) -> list[Slot]:
-        return list(problem.slots[:k]) if problem.slots else generic_slots(k, per_day)
+        return problem.slots_for(k, per_day)
 
     cover = clique_cover(graph)
     clique = largest_clique_found(graph, cover)

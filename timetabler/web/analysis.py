@@ -22,7 +22,7 @@ import networkx as nx
 from ..conflicts import ConflictSummary, conflict_graph, summarise
 from ..errors import Finding, InputError
 from ..intake import ReadOptions, Reading, read_problem
-from ..model import Problem, Slot, Weights, days_of, generic_slots
+from ..model import Problem, Slot, Weights, days_of
 from ..export.tables import event_end
 
 log = logging.getLogger("timetabler.web")
@@ -188,9 +188,7 @@ def parse_slot_counts(text: str | list[str], *, limit: int) -> list[int]:
 
 def slot_list(problem: Problem, k: int, sessions_per_day: int) -> list[Slot]:
     """The slots of a K-slot timetable: the first K of the slots sheet, or K generic slots."""
-    if problem.slots:
-        return list(problem.slots[:k])
-    return generic_slots(k, sessions_per_day)
+    return problem.slots_for(k, sessions_per_day)
 
 
 def count(analysis: Analysis, ks: list[int], budget_seconds: float, progress: Any = None) -> Any:
