@@ -107,3 +107,31 @@ def solve_checked(problem: Problem, slots: list[Slot], options, *, previous: dic
                                   room_splitting=bool(getattr(options, "room_splitting", False)),
                                   own_rooms=run.own_rooms)
     return run
+
+
+def looks_like_count(token: str) -> bool:
+    """Whether ``token`` is a whole number or a range of them (``6``, ``5-8``, ``5..8``)."""
+    parts = token.replace("..", "-").split("-")
+    return 1 <= len(parts) <= 2 and all(p.strip().isdigit() for p in parts)
+
+
+def parse_counts(text: str, noun: str = "slots") -> list[int]:
+    """'5 6', '5,6', '5-8', '5..8' -> distinct whole numbers of ``noun`` (slots, days), in the order
+    given: the one reading of slot and day counts for the command line and the web page. Raises
+    ValueError in plain words (a token that is no number, a range that runs backwards, a 0).
+
+    >>> parse_counts("6, 5-7 9")
+    [6, 5, 7, 9]
+    """
+    counts: list[int] = []
+    for token in str(text).replace(",", " ").split():
+        if not looks_like_count(token):
+            raise ValueError(f"'{token}' is not a number of {noun} (give whole numbers like 6, or a range like 5-8)")
+        parts = [int(p) for p in token.replace("..", "-").split("-")]
+        lo, hi = parts[0], parts[-1]
+        if lo > hi:
+            raise ValueError(f"the range '{token}' runs backwards (write it {hi}-{lo})")
+        counts.extend(range(lo, hi + 1))
+    if any(k < 1 for k in counts):
+        raise ValueError(f"the number of {noun} must be at least 1")
+    return list(dict.fromkeys(counts))

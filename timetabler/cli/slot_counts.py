@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import click
 
-from ..plan import day_choices, days_by_slot_count
+from ..plan import day_choices, days_by_slot_count, looks_like_count, parse_counts as plan_parse_counts
 
 
 class SlotCountsOption(click.Option):
@@ -35,11 +35,6 @@ class SlotCountsOption(click.Option):
         return result
 
 
-def looks_like_count(token: str) -> bool:
-    parts = token.replace("..", "-").split("-")
-    return 1 <= len(parts) <= 2 and all(p.strip().isdigit() for p in parts)
-
-
 def parse_slot_counts(ctx, param, value) -> tuple[int, ...]:
     """Click callback: '5 6', '5,6', '5-8' -> (5, 6, ...); a clear message for anything else."""
     return parse_counts(value, "slots")
@@ -54,18 +49,10 @@ def parse_counts(value, noun: str) -> tuple[int, ...]:
     """'5 6', '5,6', '5-8' -> distinct whole numbers of ``noun`` (slots, days) in the order given."""
     if value is None:
         return ()
-    counts: list[int] = []
-    for token in str(value).replace(",", " ").split():
-        if not looks_like_count(token):
-            raise click.BadParameter(f"'{token}' is not a number of {noun} (give whole numbers like 6, or a range like 5-8)")
-        parts = [int(p) for p in token.replace("..", "-").split("-")]
-        lo, hi = parts[0], parts[-1]
-        if lo > hi:
-            raise click.BadParameter(f"the range '{token}' runs backwards")
-        counts.extend(range(lo, hi + 1))
-    if any(k < 1 for k in counts):
-        raise click.BadParameter(f"the number of {noun} must be at least 1")
-    return tuple(dict.fromkeys(counts))
+    try:
+        return tuple(plan_parse_counts(value, noun))
+    except ValueError as exc:
+        raise click.BadParameter(str(exc)) from None
 
 
 def days_option(verb: str):

@@ -23,6 +23,7 @@ from ..conflicts import ConflictSummary, conflict_graph, summarise
 from ..errors import Finding, InputError
 from ..intake import ReadOptions, Reading, read_problem
 from ..model import Problem, Slot, Weights, days_of
+from ..plan import parse_counts
 from ..export.tables import event_end
 
 log = logging.getLogger("timetabler.web")
@@ -162,21 +163,10 @@ def parse_slot_counts(text: str | list[str], *, limit: int) -> list[int]:
     """Slot counts typed or ticked by the user: '5 6 7', '5-8', '5,6'. Raises ValueError in plain words."""
     if isinstance(text, list):
         text = " ".join(text)
-    found: list[int] = []
-    for part in text.replace(",", " ").split():
-        if "-" in part.strip("-"):
-            a, b = part.split("-", 1)
-            if not (a.isdigit() and b.isdigit()):
-                raise ValueError(f"'{part}' is not a range of slot counts such as 5-8.")
-            lo, hi = int(a), int(b)
-            if hi < lo:
-                lo, hi = hi, lo
-            found.extend(range(lo, hi + 1))
-        elif part.isdigit():
-            found.append(int(part))
-        else:
-            raise ValueError(f"'{part}' is not a number of slots.")
-    found = sorted(set(found))
+    try:
+        found = sorted(parse_counts(text, "slots"))  # the command line's reading; the page lists them in order
+    except ValueError as exc:
+        raise ValueError(f"{str(exc)[0].upper()}{str(exc)[1:]}.") from None
     if not found:
         raise ValueError("Choose at least one number of slots.")
     if found[0] < 1 or found[-1] > MAX_SLOTS:
