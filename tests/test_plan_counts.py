@@ -25,3 +25,18 @@ def test_the_page_and_the_command_refuse_alike(tmp_path, run_command, text, word
     path.write_text("Student,Exam\nQP1,A\nQP1,B\n")
     result = run_command("count", path, "--slots", text)
     assert result.status == 2 and words in " ".join(result.stderr.split())
+
+
+@pytest.mark.parametrize("typed, words", [("100000000000000000000", "at most 1,000,000"), ("-4", "0 or more"),
+                                          ("2.5", "whole number")])
+def test_a_weight_is_refused_alike_by_the_command_and_the_page(tmp_path, run_command, typed, words):
+    # 10^20 once crashed the solve (OverflowError converting the pair costs to 64-bit integers, exit 1)
+    from timetabler.model import Weights
+    from timetabler.web.analysis import weights_from_form
+
+    with pytest.raises(ValueError, match=words):
+        weights_from_form({"weight_back_to_back": typed}, Weights())
+    path = tmp_path / "pair.csv"
+    path.write_text("Student,Exam\nQP1,A\nQP1,B\n")
+    result = run_command("solve", path, "--slots", "2", "--no-record", "--weight", f"back-to-back={typed}")
+    assert result.status == 2 and words in " ".join(result.stderr.split()) and "Traceback" not in result.stderr

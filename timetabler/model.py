@@ -175,6 +175,28 @@ class Rule:
         return f"{ev[0]} must be alone in its slot"
 
 
+#: The largest weight a goal may be given, in every input (Weights sheet, --weight, the web form):
+#: weights times the pairs of a whole university must stay within CP-SAT's 64-bit objective.
+MAX_WEIGHT = 1_000_000
+
+
+def weight_value(raw: object) -> int:
+    """A goal's weight as typed (text or number): a whole number from 0 to :data:`MAX_WEIGHT`.
+    Raises ValueError in plain words otherwise.
+
+    >>> weight_value(" 20 "), weight_value(0)
+    (20, 0)
+    """
+    text = str(raw).strip()
+    if isinstance(raw, float) and raw.is_integer():
+        text = str(int(raw))
+    if not text.isdigit():
+        raise ValueError(f"a weight must be a whole number, 0 or more; '{text}' is not")
+    if int(text) > MAX_WEIGHT:
+        raise ValueError(f"a weight must be at most {MAX_WEIGHT:,}; '{text}' is more")
+    return int(text)
+
+
 @dataclass
 class Weights:
     """Weights of the soft goals (penalty per occurrence). Defaults are documented in the README.

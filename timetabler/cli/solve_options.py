@@ -23,7 +23,7 @@ import click
 
 from ..intake.previous_timetable import resolve_previous
 from ..intake.vocabulary import GOAL_WORDS, key
-from ..model import GOAL_NAMES, Weights
+from ..model import GOAL_NAMES, Weights, weight_value
 from ..export.tables import slot_words
 from .common import console, styled, warn
 
@@ -74,12 +74,9 @@ def parse_weights(ctx, param, values) -> dict[str, int]:
             raise click.BadParameter(
                 f"'{item}' should be NAME=NUMBER with NAME one of {', '.join(sorted(WEIGHT_NAMES))}")
         try:
-            n = int(number)
-        except ValueError:
-            raise click.BadParameter(f"the weight in '{item}' must be a whole number") from None
-        if n < 0:
-            raise click.BadParameter(f"the weight in '{item}' cannot be negative")
-        out[attr] = n
+            out[attr] = weight_value(number)
+        except ValueError as exc:
+            raise click.BadParameter(f"{exc} (in '{item}')") from None
     return out
 
 

@@ -13,7 +13,7 @@ import datetime as _dt
 import re
 from dataclasses import dataclass, field
 
-from ..model import Attendee, Event, Location, Room, Rule, RuleKind, Slot, Weights, time_order
+from ..model import MAX_WEIGHT, Attendee, Event, Location, Room, Rule, RuleKind, Slot, Weights, time_order
 from .file_types import RawSheet
 from .findings import FindingList
 from .header_detection import SCAN_ROWS, column_letter
@@ -446,8 +446,8 @@ def read_weights(table: Table, findings: FindingList, extras: Extras) -> None:
             continue
         if is_blank(raw_weight):
             continue  # keep the default
-        if weight is None or weight < 0:
-            findings.error("A weight must be a whole number, 0 or more.", table.where(r, "Weight"),
+        if weight is None or weight < 0 or weight > MAX_WEIGHT:
+            findings.error(f"A weight must be a whole number from 0 to {MAX_WEIGHT:,}.", table.where(r, "Weight"),
                            found=identifier(raw_weight), expected="e.g. 10; 0 switches the goal off")
             continue
         setattr(extras.weights, attr, weight)

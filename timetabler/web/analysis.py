@@ -22,7 +22,7 @@ import networkx as nx
 from ..conflicts import ConflictSummary, conflict_graph, summarise
 from ..errors import Finding, InputError
 from ..intake import ReadOptions, Reading, read_problem
-from ..model import Problem, Slot, Weights, days_of
+from ..model import Problem, Slot, Weights, days_of, weight_value
 from ..plan import parse_counts
 from ..export.tables import event_end
 
@@ -229,10 +229,10 @@ def weights_from_form(form: dict[str, str], base: Weights) -> Weights:
         raw = form.get(f"weight_{f.name}")
         if raw is None or raw.strip() == "":
             continue
-        raw = raw.strip()
-        if not raw.isdigit() or int(raw) > 1000:
-            raise ValueError(f"The weight for '{WEIGHT_LABELS.get(f.name, f.name)}' must be a whole number from 0 to 1000; it was '{raw}'.")
-        values[f.name] = int(raw)
+        try:
+            values[f.name] = weight_value(raw)
+        except ValueError as exc:
+            raise ValueError(f"The weight for '{WEIGHT_LABELS.get(f.name, f.name)}': {exc}.") from None
     return dataclasses.replace(base, **values)
 
 
