@@ -104,7 +104,17 @@ def test_the_fewest_slots_of_the_clashes_alone_is_a_lower_bound_when_people_matt
     path = workbook(tmp_path, [["Ines Farrow", "2027-04-05", None, None]])
     doc = run_command("count", path, "--slots", "2", "--json").json()
     assert doc["counts"][0]["timetables"] == "0" and doc["counts"][0]["exact"]
-    assert doc["fewest_slots"]["slots"] == 2 and doc["fewest_slots"]["at_least"] is True
-    assert "2 slots have no timetable that keeps them" in doc["fewest_slots"]["reason"]
+    # a timetable of 2 slots would be one of 3: so at least 3, not proven (3 was not counted)
+    assert doc["fewest_slots"]["slots"] == 3 and doc["fewest_slots"]["at_least"] is True
+    assert "2 slots have no timetable in which every required attendee can come" in doc["fewest_slots"]["reason"]
+    assert "the clashes alone need 2" in doc["fewest_slots"]["reason"]
     shown = " ".join(run_command("count", path, "--slots", "2").stdout.split())
-    assert "Fewest slots: at least 2 — from the clashes alone" in shown
+    assert "Fewest slots: at least 3 — 2 slots have no timetable" in shown
+    # with 3 and 4 counted too: 3 slots put CREW in slot 3 (Tuesday) and KIT in 1 or 2: 2 ways, so 3 exactly
+    doc = run_command("count", path, "--slots", "2-4", "--json").json()
+    assert [c["timetables"] for c in doc["counts"]] == ["0", "2", str(2 * 3)]  # 4 slots: CREW 3 or 4, KIT any other
+    assert doc["fewest_slots"]["slots"] == 3 and doc["fewest_slots"]["at_least"] is False
+    # the clashes alone say 2: with no people the fewest is 2, exactly
+    plain = workbook(tmp_path, [])
+    doc = run_command("count", plain, "--slots", "2-4", "--json").json()
+    assert doc["fewest_slots"]["slots"] == 2

@@ -193,7 +193,7 @@ def _print_report(file: str, report, notes: list[str], days_of_count: dict[int, 
         console.print(styled(("note:", "yellow"), f" {note}"))
     if report.chromatic_number is not None:
         console.print(styled("\nFewest slots: " + ("at least " if report.fewest_at_least else ""),
-                             (str(report.chromatic_number), "bold"),
+                             (str(report.fewest), "bold"),
                              f" — {report.fewest_slots_reason}."))
     else:
         console.print("\nFewest slots: not known exactly (a group was too large to count within the time limit; "

@@ -186,12 +186,26 @@ def _count_with_availability(problem: Problem, ks, graph, slots_for, budget_seco
             c.ratio_interval_log10 = None if ratio_log10 is None else (ratio_log10, ratio_log10)
     _ratios_between_runs(merged.counts)
     if merged.chromatic_number is not None:
-        # the fewest slots of the clashes alone: availability, long events and extra time may need more
-        merged.fewest_at_least = True
-        none = [c.slots for c in merged.counts if c.exact and c.timetables == 0 and c.slots >= merged.chromatic_number]
-        merged.fewest_slots_reason = (f"from the clashes alone: {merged.fewest_slots_reason}; the people's rules "
-                                      f"(availability, events longer than a slot, extra time, quorums) may need more"
-                                      + (f": {max(none)} slots have no timetable that keeps them" if none else ""))
+        # the fewest slots of the clashes alone: availability, long events and extra time may need more. A
+        # timetable of the first K slots is one of the first K + 1, so a K counted exactly 0 proves K + 1 at least;
+        # with the next count exact and above 0, and no rule left out of the counts, that is the fewest
+        chi = merged.chromatic_number
+        none = [c.slots for c in merged.counts if c.exact and c.timetables == 0 and c.slots >= chi]
+        if not none:
+            merged.fewest_at_least = True
+            merged.fewest_slots_reason = (f"from the clashes alone: {merged.fewest_slots_reason}; the people's "
+                                          f"rules (availability, events longer than a slot, extra time, quorums) "
+                                          f"may need more")
+        else:
+            low = max(none) + 1
+            after = next((c for c in merged.counts if c.slots == low and c.exact and c.timetables), None)
+            merged.fewest_with_people = low
+            merged.fewest_at_least = after is None or uncounted_rules(problem) is not None
+            merged.fewest_slots_reason = (
+                f"{max(none)} slots have no timetable in which every required attendee can come (counted exactly), "
+                + (f"and {low} slots have {after.timetables:,}" if after is not None else
+                   f"so at least {low} are needed")
+                + f" (the clashes alone need {chi}: {merged.fewest_slots_reason})")
     if away:  # at the fewest slots with timetables: an exact count, else one proven above 0
         usable = ([c.slots for c in merged.counts if c.exact and c.timetables]
                   or [c.slots for c in merged.counts if not c.exact and c.lower])

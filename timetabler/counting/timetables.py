@@ -156,7 +156,14 @@ class CountReport:
     people_rules: bool = False  # long events, extra time or quorums with optional attendees are in the count
     most_limiting_people: list[dict] = field(default_factory=list)  # attendee, slots (K), gain, starts_blocked
     not_counted: str | None = None  # the hard rules the counts leave to the solver, in words
-    fewest_at_least: bool = False  # chromatic_number is from the clashes alone: the people's rules may need more
+    fewest_at_least: bool = False  # the fewest shown is a lower bound only: the people's rules may need more
+    fewest_with_people: int | None = None  # with people: the fewest the counts prove (above chromatic_number)
+
+    @property
+    def fewest(self) -> int | None:
+        """The fewest slots as the counts show it: with people, at least one more than every slot
+        count counted exactly 0 (a timetable of K slots is one of K + 1); else the chromatic number."""
+        return self.fewest_with_people if self.fewest_with_people is not None else self.chromatic_number
 
     @property
     def exact(self) -> bool:
@@ -175,7 +182,7 @@ class CountReport:
             "chromatic_number": self.chromatic_number,
             "fewest_slots": None
             if self.chromatic_number is None
-            else {"slots": self.chromatic_number, "reason": self.fewest_slots_reason, "at_least": self.fewest_at_least},
+            else {"slots": self.fewest, "reason": self.fewest_slots_reason, "at_least": self.fewest_at_least},
             "components": [c.to_json() for c in self.components],
             "constrained": self.constrained,
             "riskiest_absent_clashes": self.riskiest_absent_clashes,

@@ -501,10 +501,10 @@ def _overview(book: _Book, problem: Problem, runs, counts, reading, settings, va
         ("Slots in the slots sheet", len(problem.slots) or "none (generic slots)"),
         ("Rooms", len(problem.rooms) or "none"),
     ]
-    chi = getattr(counts, "chromatic_number", None) if counts is not None else None
+    chi = getattr(counts, "fewest", None) if counts is not None else None
     if chi is not None:
         rows.append(("Fewest slots (from the counts)" if not getattr(counts, "fewest_at_least", False)
-                     else "Fewest slots (from the clashes alone): at least", chi))
+                     else "Fewest slots (from the counts): at least", chi))
     if fewest is not None:
         rows.append(("Fewest slots: at least", getattr(fewest, "lower", None)))
         if getattr(fewest, "lower_reason", None):
