@@ -76,6 +76,8 @@ def test_changes_match_an_independent_diff_of_the_timetables_and_enrolments(run_
     # the notification list in CSV has one row per attendee to tell, and one per attendee and change
     listed = run_command("changes", "first", "second", "--csv", tmp_path / "notices")
     assert listed.status == 0, listed.stderr
+    assert "Write the notification list" not in listed.stdout  # no advice to do what was just done
+    assert "Write the notification list" in run_command("changes", "first", "second").stdout
     with open(tmp_path / "notices" / "notices.csv", encoding="utf-8-sig") as fh:
         notices = list(csv.DictReader(fh))
     assert sorted(r["Attendee"] for r in notices) == sorted(people)

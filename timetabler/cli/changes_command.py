@@ -76,10 +76,10 @@ def command(old_label, new_label, as_json, out, csv, ics, ics_time_zone, store_a
     for path in written:
         if path.suffix != ".ics":
             err_console.print(f"Wrote {path}")
-    _print(changes, before, after)
+    _print(changes, before, after, wrote=bool(out or csv or ics))
 
 
-def _print(changes, before, after) -> None:
+def _print(changes, before, after, wrote: bool = False) -> None:
     console.print(f"From '{before.label}' ({before.slot_count} slots, published {before.published_at:%Y-%m-%d %H:%M} "
                   f"UTC) to '{after.label}' ({after.slot_count} slots, published {after.published_at:%Y-%m-%d %H:%M} UTC)",
                   soft_wrap=True)
@@ -100,4 +100,4 @@ def _print(changes, before, after) -> None:
     n = len(changes.attendees)
     console.print(f"{n} attendee(s) to tell; {changes.unchanged_events} event(s) kept their slot."
                   + (" Write the notification list with --out notices.xlsx or --csv DIR, calendars with --ics DIR."
-                     if n else ""), soft_wrap=True)
+                     if n and not wrote else ""), soft_wrap=True)
