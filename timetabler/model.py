@@ -175,6 +175,9 @@ class Rule:
         return f"{ev[0]} must be alone in its slot"
 
 
+#: The statuses of a run that found a timetable (``solve --json``: optimal | feasible | infeasible | unknown).
+FOUND_STATUSES = ("optimal", "feasible")
+
 #: The largest weight a goal may be given, in every input (Weights sheet, --weight, the web form):
 #: weights times the pairs of a whole university must stay within CP-SAT's 64-bit objective.
 MAX_WEIGHT = 1_000_000

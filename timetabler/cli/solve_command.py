@@ -12,7 +12,7 @@ from rich.table import Table
 from ..conflicts import conflict_graph
 from ..errors import Finding, InputError
 from ..export.tables import short_sheet_words
-from ..model import GOAL_NAMES
+from ..model import FOUND_STATUSES, GOAL_NAMES
 from ..plan import solve_checked
 from ..scheduling import SolveOptions, fewest_slots
 from .command_clock import CommandClock
@@ -273,7 +273,7 @@ def _print_runs(problem, runs, fewest_result, days_of_count: dict[int, int] | No
         days = [_num(days_of_count.get(r.slots))] if days_of_count else []
         table.add_row(*days, str(r.slots), r.status, _num(r.penalty), _num(None if r.bound is None else round(r.bound)),
                       _num(soft.get("back_to_back")),
-                      str(len(r.moves)) if r.moves or r.status in ("optimal", "feasible") else "",
+                      str(len(r.moves)) if r.moves or r.status in FOUND_STATUSES else "",
                       ("passed" if v.ok else f"FAILED ({len(v.violations)})") if v else "",
                       f"{r.wall_seconds:.1f}")
     if runs:  # --fewest with no timetable solves nothing: no empty table

@@ -57,7 +57,7 @@ def publish(
     """
     notify = (lambda text: None) if (quiet or notify is None) else notify
     status = _no_status if (quiet or status is None) else status
-    from .tables import validate_run
+    from .tables import has_timetable, validate_run
     from .workbook import write_workbook
 
     outputs = dict(outputs or {})
@@ -67,7 +67,7 @@ def publish(
     runs = list(runs)
     if counts is None and count_if_missing and (outputs.get("out") or outputs.get("plot")) and runs:
         counts, _ = count_for_runs(problem, runs, float(settings.get("count_budget", 20.0)))
-    solved = [r for r in runs if r.assignment and r.status in ("optimal", "feasible")]
+    solved = [r for r in runs if has_timetable(r)]
     # check what each output needs before writing anything
     if outputs.get("plot") and counts is None:
         raise InputError(Finding("The chart (--plot) needs the numbers of timetables, and counting is not available "
@@ -79,7 +79,7 @@ def publish(
             check_dated(run, problem)
     validations = dict(validations or {})
     for run in runs:
-        if int(run.slots) not in validations and run.assignment and run.status in ("optimal", "feasible"):
+        if int(run.slots) not in validations and has_timetable(run):
             validations[int(run.slots)] = validate_run(problem, run)
     if outputs.get("pseudonyms"):
         from .pseudonyms import Pseudonyms, load_or_create_key, pseudonymise, pseudonymise_counts

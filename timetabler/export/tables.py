@@ -34,7 +34,7 @@ from dataclasses import dataclass, field
 from typing import Any, Callable, Mapping, Sequence
 
 from ..counting.bounds import log10_int
-from ..model import Problem, Slot, days_of, event_times
+from ..model import FOUND_STATUSES, Problem, Slot, days_of, event_times
 
 TEXT, INT, FLOAT, DATE, TIME, FLAG, BIGINT = "text", "int", "float", "date", "time", "flag", "bigint"
 
@@ -98,7 +98,7 @@ def _run_slots(run: Any) -> list[Slot]:
 
 
 def has_timetable(run: Any) -> bool:
-    return bool(getattr(run, "assignment", None)) and getattr(run, "status", "") in ("optimal", "feasible")
+    return bool(getattr(run, "assignment", None)) and getattr(run, "status", "") in FOUND_STATUSES
 
 
 # --------------------------------------------------------------------------- people in a timetable

@@ -39,7 +39,7 @@ import networkx as nx
 from ortools.sat.python import cp_model
 
 from ..conflicts import conflict_graph
-from ..model import Problem, Slot, days_of, time_order
+from ..model import FOUND_STATUSES, Problem, Slot, days_of, time_order
 from .cliques import clique_cover, largest_clique_found
 from ..availability import Availability
 from .cpsat_model import (BuildStopped, TimetableModel, _room_capacity_by_slot, build_model, large_event_codes,
@@ -132,6 +132,16 @@ class SolveRun:
     validation: object | None = None  # a validator.Validation, filled by callers that check
     #: repeatable mode only: True when the fixed amount of work was done, False when the time limit cut it
     repeatable: bool | None = None
+
+    @property
+    def found(self) -> bool:
+        """A timetable was found (status optimal or feasible): the one test of it."""
+        return self.status in FOUND_STATUSES
+
+    @property
+    def has_timetable(self) -> bool:
+        """A timetable was found and is held (an interrupted or cut run may have the status but no events)."""
+        return self.found and bool(self.assignment)
 
     @property
     def gap(self) -> float | None:
@@ -440,7 +450,7 @@ def solve(
         if results[-1].status in ("infeasible", "unknown"):
             break
     _combine(run, results, len(blocks))
-    if run.status in ("optimal", "feasible"):
+    if run.found:
         run.moves = [{"event": c, "from": previous[c], "to": s} for c, s in sorted(run.assignment.items())
                      if c in previous and previous[c] != s]
         if repairing:
@@ -1269,7 +1279,7 @@ def fewest_slots(
             quick.time_limit = min(budget, max(0.05, share_end - time.perf_counter()))
             run = solve(_without_goals(problem), slots_for(k), quick, graph=graph)
             result.attempts.append({"slots": k, "status": run.status, "seconds": round(run.wall_seconds, 3)})
-            if run.status in ("optimal", "feasible"):
+            if run.found:
                 colouring, hi, result.upper_reason = dict(run.assignment), k, "CP-SAT"
             elif run.status == "infeasible":
                 lo = proven_lo = k + 1
@@ -1290,7 +1300,7 @@ def fewest_slots(
         quick.time_limit = min(step_time, left) if k < max_k else left
         run = solve(_without_goals(problem), slots_for(k), quick, graph=graph)
         result.attempts.append({"slots": k, "status": run.status, "seconds": round(run.wall_seconds, 3)})
-        if run.status in ("optimal", "feasible"):
+        if run.found:
             hi, best_run, result.upper_reason = k, run, "CP-SAT"
         elif run.status == "infeasible":
             proven_lo = max(proven_lo, k + 1)
@@ -1312,7 +1322,7 @@ def fewest_slots(
                       "seconds": time.perf_counter() - start})
         run = solve(_without_goals(problem), slots_for(mid), quick, graph=graph)
         result.attempts.append({"slots": mid, "status": run.status, "seconds": round(run.wall_seconds, 3)})
-        if run.status in ("optimal", "feasible"):
+        if run.found:
             used = max(run.assignment.values(), default=0) if not problem.slots else mid
             hi, best_run, result.upper_reason = max(used, lo), run, "CP-SAT"
             if used < mid:  # the same timetable, rooms and own rooms over the slots it uses

@@ -42,7 +42,7 @@ from pathlib import Path
 from typing import Any, Sequence
 
 from ..errors import Finding, InputError
-from ..model import Attendee, Event, Problem, Room, Rule, RuleKind, Slot, Weights
+from ..model import FOUND_STATUSES, Attendee, Event, Problem, Room, Rule, RuleKind, Slot, Weights
 from .schema import NewerStoreError, prepare
 
 BUSY_TIMEOUT_MS = 30_000
@@ -533,7 +533,7 @@ class _Transaction:
 
 def publication_problems(problem: Any, run: Any) -> str:
     """Why ``run`` may not be published (empty when it may): not clash-free, events left out, not validated."""
-    if run.status not in ("optimal", "feasible") or not run.assignment:
+    if run.status not in FOUND_STATUSES or not run.assignment:
         return f"the result is {run.status}" + (f" ({run.reason})" if run.reason else "") + "."
     missing = sorted(set(problem.events) - set(run.assignment))
     if missing:
