@@ -462,11 +462,7 @@ def _exact(problem, codes, rooms, sizes, sharing, splitting, seconds, seed, goal
     solver, status = _solve_seating(m, seconds, seed)
     if status not in (cp_model.OPTIMAL, cp_model.FEASIBLE):
         return None, status == cp_model.INFEASIBLE
-    out: dict[str, list[tuple[str, int]]] = {}
-    for (c, name), v in use.items():
-        if solver.boolean_value(v):
-            out.setdefault(c, []).append((name, solver.value(seats[c, name]) if splitting else sizes[c]))
-    return {c: sorted(v) for c, v in out.items()}, status == cp_model.OPTIMAL
+    return _rooms_found(solver, use, seats, sizes, splitting), status == cp_model.OPTIMAL
 
 
 def _own_room_candidates(problem, kind: str, sitting: tuple[int, ...], unavailable) -> list[Room]:
@@ -648,12 +644,8 @@ def _exact_group(problem, codes, apart_here, spans, sizes, sharing, splitting, s
     solver, status = _solve_seating(m, seconds, seed)
     if status not in (cp_model.OPTIMAL, cp_model.FEASIBLE):
         return None, status == cp_model.INFEASIBLE
-    rooms: dict[str, list[tuple[str, int]]] = {}
-    for (c, name), v in use.items():
-        if solver.boolean_value(v):
-            rooms.setdefault(c, []).append((name, solver.value(seats[c, name]) if splitting else sizes[c]))
     own = {(apart_here[i][0], apart_here[i][1]): name for (i, name), v in alone.items() if solver.boolean_value(v)}
-    return ({c: sorted(v) for c, v in rooms.items()}, own), status == cp_model.OPTIMAL
+    return (_rooms_found(solver, use, seats, sizes, splitting), own), status == cp_model.OPTIMAL
 
 
 def _minimise_room_goals(m: cp_model.CpModel, use, seats, codes, rooms, goals: _RoomGoals, splitting: bool,
@@ -688,6 +680,15 @@ def _minimise_room_goals(m: cp_model.CpModel, use, seats, codes, rooms, goals: _
                 m.add_hint(seats[key], given.get(key, 0))
         for c, v in miss.items():
             m.add_hint(v, not any(name.casefold() in goals.wanted[c] for name, _ in hint.get(c, [])))
+
+
+def _rooms_found(solver, use, seats, sizes: dict[str, int], splitting: bool) -> dict[str, list[tuple[str, int]]]:
+    """Event -> [(room, seats)] read from a solved seating model, rooms sorted by name."""
+    out: dict[str, list[tuple[str, int]]] = {}
+    for (c, name), v in use.items():
+        if solver.boolean_value(v):
+            out.setdefault(c, []).append((name, solver.value(seats[c, name]) if splitting else sizes[c]))
+    return {c: sorted(v) for c, v in out.items()}
 
 
 def _solve_seating(m: cp_model.CpModel, seconds: float, seed: int) -> tuple[cp_model.CpSolver, int]:
