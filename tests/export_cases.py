@@ -13,12 +13,13 @@ from __future__ import annotations
 import datetime as dt
 import itertools
 import math
-from dataclasses import dataclass, field
 
 import networkx as nx
 
 from timetabler.conflicts import conflict_graph
+from timetabler.counting import CountReport, SlotCount
 from timetabler.model import Problem, Room, Slot
+from timetabler.scheduling import SolveRun
 from timetabler.scheduling.validator import validate
 
 # A Harrowgate Vale College resit week: 6 papers, 12 candidates, 2 rooms.
@@ -58,23 +59,8 @@ def dated_slots(k: int, per_day: int = 2, first: dt.date = dt.date(2027, 6, 7)) 
     return out
 
 
-@dataclass
-class BruteRun:
-    """A solver result shaped like SolveRun, from exhaustive search."""
-
-    slots: int
-    slot_list: list
-    status: str
-    assignment: dict = field(default_factory=dict)
-    rooms: dict = field(default_factory=dict)
-    penalty: int | None = None
-    bound: float | None = None
-    proven: bool = False
-    reason: str | None = None
-    reasons: list = field(default_factory=list)
-    penalty_breakdown: dict = field(default_factory=dict)
-    wall_seconds: float = 0.0
-    moves: list = field(default_factory=list)
+# an exhaustive search's result is the solver's own result type, so exports see what they see from solve
+BruteRun = SolveRun
 
 
 def _seat(problem: Problem, assignment: dict[str, int], k: int) -> dict | None:
@@ -124,27 +110,17 @@ def solve_run(problem: Problem, slots: list[Slot]):
     return solve(problem, slots, SolveOptions(time_limit=10, workers=2, seed=1, deterministic=True))
 
 
-@dataclass
-class RefCount:
-    slots: int
-    timetables: int | None
-    exact: bool = True
-    log10: float | None = None
-    lower: int | None = None
-    upper: int | None = None
-    estimate_log10: float | None = None
-    ratio_to_previous: float | None = None
-    groupings: int | None = None
+# reference counts travel in the counting engine's own result types, so exports see what they see from count
+RefCount = SlotCount
 
 
-@dataclass
-class RefReport:
-    counts: list
-    components: list = field(default_factory=list)
-    chromatic_number: int | None = None
+def RefReport(counts: list, components: list | None = None, chromatic_number: int | None = None) -> CountReport:
+    """A count report holding the given counts (the figures the exports read; the rest left empty)."""
+    return CountReport(counts=list(counts), components=list(components or []), chromatic_number=chromatic_number,
+                       events=0, clashes=0, isolated_events=0, constrained=False)
 
 
-def reference_counts(graph: nx.Graph, ks: list[int]) -> RefReport:
+def reference_counts(graph: nx.Graph, ks: list[int]) -> CountReport:
     """P(G, k) from networkx.chromatic_polynomial (reference library; sympy polynomial)."""
     import sympy
 

@@ -36,7 +36,7 @@ from __future__ import annotations
 import datetime as _dt
 import enum
 from dataclasses import dataclass, field
-from typing import Iterable, Sequence
+from typing import Iterable, Mapping, Sequence
 
 
 @dataclass(frozen=True)
@@ -175,8 +175,64 @@ class Rule:
         return f"{ev[0]} must be alone in its slot"
 
 
-#: The statuses of a run that found a timetable (``solve --json``: optimal | feasible | infeasible | unknown).
-FOUND_STATUSES = ("optimal", "feasible")
+class SolveStatus(str, enum.Enum):
+    """What a solve found for one number of slots (``solve --json``'s ``status``).
+
+    A ``str`` enum: it compares equal to its word and prints and shows as it, so JSON, sheets
+    and the store see ``optimal`` / ``feasible`` / ``infeasible`` / ``unknown`` as before.
+
+    >>> SolveStatus("feasible").found, f"{SolveStatus.INFEASIBLE}", SolveStatus.OPTIMAL == "optimal"
+    (True, 'infeasible', True)
+    """
+
+    OPTIMAL = "optimal"  # a timetable, proven best for the goals
+    FEASIBLE = "feasible"  # a timetable, not proven best
+    INFEASIBLE = "infeasible"  # proven: no timetable with these slots
+    UNKNOWN = "unknown"  # neither found nor ruled out in the time given
+
+    __str__ = str.__str__
+    __format__ = str.__format__
+    __repr__ = str.__repr__  # shown as its word, as before it was an enum
+
+    @property
+    def found(self) -> bool:
+        """A timetable was found (optimal or feasible)."""
+        return self in FOUND_STATUSES
+
+
+#: The statuses of a run that found a timetable.
+FOUND_STATUSES = (SolveStatus.OPTIMAL, SolveStatus.FEASIBLE)
+
+
+@dataclass(frozen=True)
+class Timetable:
+    """One timetable: the slots in time order, each event's slot number (1..K), the rooms.
+
+    ``rooms[code]`` is the list of (room, seats) an event is given (more than one when it is
+    split); ``own_rooms[(attendee, code)]`` the room an attendee sits alone in. The same four
+    things whether the timetable comes from a solve, a published version or a workbook.
+
+    >>> t = Timetable(tuple(generic_slots(3)), {"A": 1, "B": 3})
+    >>> t.slot_of("B").label, t.events_in(1), t.slot_count
+    ('Slot 3', ['A'], 3)
+    """
+
+    slots: tuple[Slot, ...]
+    assignment: Mapping[str, int]
+    rooms: Mapping[str, Sequence[tuple[str, int]]] = field(default_factory=dict)
+    own_rooms: Mapping[tuple[str, str], str] = field(default_factory=dict)
+
+    @property
+    def slot_count(self) -> int:
+        return len(self.slots)
+
+    def slot_of(self, code: str) -> Slot:
+        """The slot an event is in (KeyError for an event not in the timetable)."""
+        return self.slots[self.assignment[code] - 1]
+
+    def events_in(self, number: int) -> list[str]:
+        """The events in slot ``number`` (1..K), in code order."""
+        return sorted(c for c, n in self.assignment.items() if n == number)
 
 #: The largest weight a goal may be given, in every input (Weights sheet, --weight, the web form):
 #: weights times the pairs of a whole university must stay within CP-SAT's 64-bit objective.

@@ -98,14 +98,12 @@ def solve_checked(problem: Problem, slots: list[Slot], options, *, previous: dic
     """One timetable with these ``slots`` (:func:`timetabler.scheduling.solve`), checked by the
     independent validator when one was found (``run.validation``, with the run's rooms, own rooms and
     the room rules of ``options``): the one step of every command and of the web page's solves."""
-    from .scheduling import solve, validate
+    from .scheduling import solve, validate_timetable
 
     run = solve(problem, slots, options, previous=previous, graph=graph, progress=progress)
     if run.assignment:
-        run.validation = validate(problem, slots, run.assignment, run.rooms or None, previous=previous,
-                                  room_sharing=bool(getattr(options, "room_sharing", True)),
-                                  room_splitting=bool(getattr(options, "room_splitting", False)),
-                                  own_rooms=run.own_rooms)
+        run.validation = validate_timetable(problem, run.timetable, previous=previous, room_sharing=options.room_sharing,
+                                            room_splitting=options.room_splitting)
     return run
 
 

@@ -31,10 +31,14 @@ import datetime as dt
 import math
 from collections import Counter, defaultdict
 from dataclasses import dataclass, field
-from typing import Any, Callable, Mapping, Sequence
+from typing import TYPE_CHECKING, Any, Callable, Mapping, Sequence
 
 from ..counting.bounds import log10_int
-from ..model import FOUND_STATUSES, Problem, Slot, days_of, event_times
+from ..model import Problem, Room, Slot, SolveStatus, days_of, event_times
+
+if TYPE_CHECKING:  # reports sit above the engines; the names are for the signatures only
+    from ..counting import CountReport, SlotCount
+    from ..scheduling import FewestSlots, SolveRun, Validation
 
 TEXT, INT, FLOAT, DATE, TIME, FLAG, BIGINT = "text", "int", "float", "date", "time", "flag", "bigint"
 
@@ -93,12 +97,12 @@ def slot_places(slots: Sequence[Slot]) -> list[SlotPlace]:
     return places
 
 
-def _run_slots(run: Any) -> list[Slot]:
-    return list(getattr(run, "slot_list", None) or [])
+def _run_slots(run: SolveRun) -> list[Slot]:
+    return list(run.slot_list or [])
 
 
-def has_timetable(run: Any) -> bool:
-    return bool(getattr(run, "assignment", None)) and getattr(run, "status", "") in FOUND_STATUSES
+def has_timetable(run: SolveRun) -> bool:
+    return bool(run.assignment) and SolveStatus(run.status).found
 
 
 # --------------------------------------------------------------------------- people in a timetable
@@ -175,7 +179,7 @@ def people_matter(problem: Problem, slots: Sequence[Slot]) -> bool:
                                         for e in problem.events.values())
 
 
-def timetable_people(problem: Problem, run: Any) -> TimetablePeople:
+def timetable_people(problem: Problem, run: SolveRun) -> TimetablePeople:
     """The slots every event and attendee take in ``run``'s timetable, and who misses what.
 
     An optional attendee misses an event when they cannot make a slot it takes for them, when
@@ -183,7 +187,7 @@ def timetable_people(problem: Problem, run: Any) -> TimetablePeople:
     takes an overlapping slot for them (the issue's definitions; see DEVELOPERS.md).
     """
     slots = _run_slots(run)
-    assignment = {c: n for c, n in (getattr(run, "assignment", {}) or {}).items()
+    assignment = {c: n for c, n in (run.assignment).items()
                   if isinstance(n, int) and 1 <= n <= len(slots)}
     avail = _pinned_availability(problem, slots, assignment) if people_matter(problem, slots) else None
     taken = {c: (avail.slots_taken(c, n) if avail is not None else (n,)) for c, n in assignment.items()}
@@ -319,10 +323,10 @@ class RunFigures:
     people: "TimetablePeople | None" = None  # when people_matter: the slots each event and attendee take
 
 
-def run_figures(problem: Problem, run: Any) -> RunFigures:
+def run_figures(problem: Problem, run: SolveRun) -> RunFigures:
     slots = _run_slots(run)
     places = slot_places(slots)
-    figures = RunFigures(slots=int(getattr(run, "slots", len(slots))), days=len({p.day for p in places}))
+    figures = RunFigures(slots=int(run.slots), days=len({p.day for p in places}))
     if not has_timetable(run) or not slots:
         return figures
     assignment = run.assignment
@@ -369,8 +373,8 @@ def event_end(problem: Problem, code: str, slot: Slot | None) -> dt.time | None:
     return end.time() if end is not None else None
 
 
-def _room_text(run: Any, code: str) -> tuple[str, int | None]:
-    rooms = (getattr(run, "rooms", None) or {}).get(code) or []
+def _room_text(run: SolveRun, code: str) -> tuple[str, int | None]:
+    rooms = run.rooms.get(code) or []
     if not rooms:
         return "", None
     return ", ".join(str(name) for name, _ in rooms), sum(int(seats) for _, seats in rooms)
@@ -380,7 +384,7 @@ def _taken_words(slots: Sequence[Slot], taken: tuple[int, ...]) -> str:
     return "; ".join(slots[t - 1].label for t in taken if 1 <= t <= len(slots))
 
 
-def events_table(problem: Problem, run: Any, people: TimetablePeople | None = None) -> PublishedTable:
+def events_table(problem: Problem, run: SolveRun, people: TimetablePeople | None = None) -> PublishedTable:
     """One row per event: its slot, date, start, end, rooms, seats and size.
 
     The end is the event's own (start plus its duration), not the slot's, when it has a duration:
@@ -407,7 +411,7 @@ def events_table(problem: Problem, run: Any, people: TimetablePeople | None = No
         + ([Column("Slots taken", note="every slot a long event takes")] if spans else []),
         title="Every event and its slot",
     )
-    assignment = getattr(run, "assignment", {}) or {}
+    assignment = run.assignment
     for code in sorted(problem.events, key=lambda c: (assignment.get(c, 10**9), c)):
         event = problem.events[code]
         n = assignment.get(code)
@@ -420,7 +424,7 @@ def events_table(problem: Problem, run: Any, people: TimetablePeople | None = No
         ]
         if preferences:
             wanted = {name.strip().casefold() for name in event.preferred_rooms}
-            given = {str(name).strip().casefold() for name, _ in (getattr(run, "rooms", None) or {}).get(code) or []}
+            given = {str(name).strip().casefold() for name, _ in run.rooms.get(code) or []}
             row += ["; ".join(event.preferred_rooms), bool(wanted & given) if wanted and given else None]
         if spans:
             row.append(_taken_words(slots, people.taken.get(code, ())))
@@ -428,7 +432,7 @@ def events_table(problem: Problem, run: Any, people: TimetablePeople | None = No
     return table
 
 
-def personal_table(problem: Problem, run: Any, show: Callable[[str], str] = str,
+def personal_table(problem: Problem, run: SolveRun, show: Callable[[str], str] = str,
                    people: TimetablePeople | None = None) -> PublishedTable:
     """One row per attendee and event: personal timetables, sorted by attendee then slot.
 
@@ -440,10 +444,10 @@ def personal_table(problem: Problem, run: Any, show: Callable[[str], str] = str,
     """
     slots = _run_slots(run)
     places = slot_places(slots)
-    assignment = getattr(run, "assignment", {}) or {}
+    assignment = run.assignment
     if people is None and people_matter(problem, slots) and has_timetable(run):
         people = timetable_people(problem, run)
-    own_end: dict[tuple[str, str], Any] = {}
+    own_end: dict[tuple[str, str], dt.time] = {}
     missed: dict[tuple[str, str], str] = {}
     late_room: dict[tuple[str, str], str] = {}  # still writing past a split event's slots: its one room then
     if people is not None:
@@ -455,7 +459,7 @@ def personal_table(problem: Problem, run: Any, show: Callable[[str], str] = str,
                     own_end[(attendee, x.event)] = x.ends.time()
                 if x.missed:
                     missed[(attendee, x.event)] = x.missed
-                parts = (getattr(run, "rooms", None) or {}).get(x.event) or []
+                parts = run.rooms.get(x.event) or []
                 if len(parts) > 1 and set(x.taken or ()) - set(people.taken.get(x.event, ())):
                     late_room[(attendee, x.event)] = tail_room(problem, [(str(r), int(n)) for r, n in parts])
     optional = bool(problem.optional)
@@ -501,14 +505,14 @@ def sitting_words(people: TimetablePeople, sitting: Sitting) -> str:
     return f"{sitting.event} {when}" + (f" ({', '.join(marks)})" if marks else "")
 
 
-def own_room_placements(run: Any, people: TimetablePeople | None = None) -> list[tuple[str, str, str, tuple[int, ...]]]:
+def own_room_placements(run: SolveRun, people: TimetablePeople | None = None) -> list[tuple[str, str, str, tuple[int, ...]]]:
     """The attendees seated apart in ``run`` (Own room): (attendee, event, room, slots held).
 
     Read from the run's ``own_rooms`` (a mapping ``(attendee, event) -> room`` or a list of
     ``{"attendee", "event", "room"}``), when the scheduler gives them; each room is held for
     every slot of the attendee's sitting (``people``), else for the event's start slot.
     """
-    given = getattr(run, "own_rooms", None) or {}
+    given = run.own_rooms
     items: list[tuple[str, str, str]] = []
     if isinstance(given, Mapping):
         for key, room in given.items():
@@ -518,7 +522,7 @@ def own_room_placements(run: Any, people: TimetablePeople | None = None) -> list
         for item in given:
             if isinstance(item, Mapping):
                 items.append((str(item.get("attendee")), str(item.get("event")), str(item.get("room"))))
-    assignment = getattr(run, "assignment", {}) or {}
+    assignment = run.assignment
     out = []
     for attendee, code, room in sorted(items):
         held: tuple[int, ...] = ()
@@ -530,7 +534,7 @@ def own_room_placements(run: Any, people: TimetablePeople | None = None) -> list
     return out
 
 
-def people_table(problem: Problem, run: Any, show: Callable[[str], str] = str,
+def people_table(problem: Problem, run: SolveRun, show: Callable[[str], str] = str,
                  people: TimetablePeople | None = None) -> PublishedTable:
     """One row per attendee: their events with their own times, the slots they cannot make and
     whether the timetable keeps them free there, and the optional events they miss and why.
@@ -577,12 +581,12 @@ def people_table(problem: Problem, run: Any, show: Callable[[str], str] = str,
     return table
 
 
-def load_table(problem: Problem, run: Any, show: Callable[[str], str] = str, loads: list[AttendeeLoad] | None = None) -> PublishedTable:
+def load_table(problem: Problem, run: SolveRun, show: Callable[[str], str] = str, loads: list[AttendeeLoad] | None = None) -> PublishedTable:
     """One row per attendee: events, busiest day, clashes, back-to-back, two in a day, overnight."""
     slots = _run_slots(run)
     if loads is None:
         people = timetable_people(problem, run) if people_matter(problem, slots) and has_timetable(run) else None
-        loads = attendee_loads(problem, slots, getattr(run, "assignment", {}) or {}, people)
+        loads = attendee_loads(problem, slots, run.assignment, people)
     table = PublishedTable(
         "Load",
         [
@@ -599,11 +603,11 @@ def load_table(problem: Problem, run: Any, show: Callable[[str], str] = str, loa
     return table
 
 
-def seats_table(problem: Problem, run: Any, people: TimetablePeople | None = None) -> PublishedTable:
+def seats_table(problem: Problem, run: SolveRun, people: TimetablePeople | None = None) -> PublishedTable:
     """One row per slot: events, seats needed, the slot's seat limit and room seats, free seats
     (a long event counts in every slot it takes)."""
     slots = _run_slots(run)
-    assignment = getattr(run, "assignment", {}) or {}
+    assignment = run.assignment
     if people is None and people_matter(problem, slots) and has_timetable(run):
         people = timetable_people(problem, run)
     taken = people.taken if people is not None else {c: (n,) for c, n in assignment.items()}
@@ -628,7 +632,7 @@ def seats_table(problem: Problem, run: Any, people: TimetablePeople | None = Non
     return table
 
 
-def _room_available(problem: Problem, room: Any, slots: Sequence[Slot], number: int) -> bool:
+def _room_available(problem: Problem, room: Room, slots: Sequence[Slot], number: int) -> bool:
     return not any(problem.slot_number(ref, slots) == number for ref in room.unavailable_slots)
 
 
@@ -639,7 +643,7 @@ def _room_seats_in(problem: Problem, slots: Sequence[Slot], number: int) -> int 
     return sum(r.capacity for r in problem.rooms if _room_available(problem, r, slots, number))
 
 
-def rooms_table(problem: Problem, run: Any, people: TimetablePeople | None = None) -> PublishedTable | None:
+def rooms_table(problem: Problem, run: SolveRun, people: TimetablePeople | None = None) -> PublishedTable | None:
     """Room occupancy by slot (only when the problem has rooms): every room in every slot.
 
     A long event holds its rooms in every slot it takes; an attendee seated apart (Own room)
@@ -649,11 +653,11 @@ def rooms_table(problem: Problem, run: Any, people: TimetablePeople | None = Non
     if not problem.rooms:
         return None
     slots = _run_slots(run)
-    assignment = getattr(run, "assignment", {}) or {}
+    assignment = run.assignment
     if people is None and people_matter(problem, slots) and has_timetable(run):
         people = timetable_people(problem, run)
     used: dict[tuple[int, str], list[tuple[str, int]]] = defaultdict(list)
-    for code, placed in (getattr(run, "rooms", None) or {}).items():
+    for code, placed in run.rooms.items():
         n = assignment.get(code)
         for name, seats in placed:
             for t in (people.taken.get(code, (n,)) if people is not None else (n,)):
@@ -661,8 +665,8 @@ def rooms_table(problem: Problem, run: Any, people: TimetablePeople | None = Non
     for _attendee, code, name, held in own_room_placements(run, people):
         for t in held:  # no name here: the room plan goes to the rooms staff
             used[(t, str(name))].append((f"{code} (one attendee apart)", 1))
-    avoided = any(getattr(r, "penalised", False) for r in problem.rooms)
-    single = any(not getattr(r, "shared", True) for r in problem.rooms)
+    avoided = any(r.penalised for r in problem.rooms)
+    single = any(not r.shared for r in problem.rooms)
     table = PublishedTable(
         "Rooms",
         [
@@ -702,12 +706,12 @@ def slot_words(slots: Sequence[Slot], number: int | None) -> str:
     return f"{slot.label} ({when}, slot {number})" if when else slot.label
 
 
-def moves_table(problem: Problem, run: Any) -> PublishedTable | None:
+def moves_table(problem: Problem, run: SolveRun) -> PublishedTable | None:
     """Repair mode: every event moved from the earlier timetable, and every event placed afresh
     (not in the earlier timetable, or its slot is gone), with the old and new slot of each and
     the attendees each change affects."""
-    moves = getattr(run, "moves", None) or []
-    placed = getattr(run, "placed", None) or []
+    moves = run.moves
+    placed = run.placed
     if not moves and not placed:
         return None
     slots = _run_slots(run)
@@ -720,7 +724,7 @@ def moves_table(problem: Problem, run: Any) -> PublishedTable | None:
         title="Events moved from the earlier timetable, and events placed afresh",
     )
 
-    def at(number: Any) -> list[Any]:
+    def at(number: int | None) -> list[object]:
         slot = slots[number - 1] if isinstance(number, int) and 1 <= number <= len(slots) else None
         return [number, slot.label if slot else "", slot.date if slot else None, slot.start if slot else None]
 
@@ -744,7 +748,7 @@ class GridDay:
     events: list[list[str]]
 
 
-def grid_rows(problem: Problem, run: Any, people: TimetablePeople | None = None) -> tuple[list[str], list[GridDay]]:
+def grid_rows(problem: Problem, run: SolveRun, people: TimetablePeople | None = None) -> tuple[list[str], list[GridDay]]:
     """The timetable as a grid: session headers, and per day the slot headings and events of each session.
 
     Events are listed one per line under their session, as ``CODE`` or ``CODE Title``, followed by
@@ -754,7 +758,7 @@ def grid_rows(problem: Problem, run: Any, people: TimetablePeople | None = None)
     """
     slots = _run_slots(run)
     places = slot_places(slots)
-    assignment = getattr(run, "assignment", {}) or {}
+    assignment = run.assignment
     if people is None and people_matter(problem, slots) and has_timetable(run):
         people = timetable_people(problem, run)
     by_slot: dict[int, list[str]] = defaultdict(list)
@@ -801,12 +805,11 @@ def count_text(value: int | None) -> str:
     return "" if value is None else str(int(value))
 
 
-def _count_log10(c: Any) -> float | None:
-    for name in ("log10", "estimate_log10"):
-        v = getattr(c, name, None)
+def _count_log10(c: SlotCount) -> float | None:
+    for v in (c.log10, c.estimate_log10):
         if v is not None:
             return float(v)
-    t = getattr(c, "timetables", None)
+    t = c.timetables
     if t:
         return _big_log10(int(t))
     return None
@@ -838,12 +841,12 @@ def interval_words(interval: Sequence[float] | None, prefix: str = "") -> str:
     return f"{prefix}between {power_text(low)} and {power_text(high)}, 95 % confidence"
 
 
-def ratio_words(c: Any) -> str:
+def ratio_words(c: SlotCount) -> str:
     """The ratio to one slot fewer as its interval, ``× between … and …, 95 % confidence`` (empty when unknown)."""
-    return interval_words(getattr(c, "ratio_interval_log10", None), "× ")
+    return interval_words(c.ratio_interval_log10, "× ")
 
 
-def counts_table(counts: Any) -> PublishedTable:
+def counts_table(counts: CountReport) -> PublishedTable:
     """One row per slot count: the exact number of clash-free timetables (as text) and its figures."""
     table = PublishedTable(
         "Counts",
@@ -856,26 +859,26 @@ def counts_table(counts: Any) -> PublishedTable:
         ],
         title="Number of clash-free timetables for each number of slots",
     )
-    for c in getattr(counts, "counts", None) or []:
-        t = getattr(c, "timetables", None)
+    for c in counts.counts:
+        t = c.timetables
         table.rows.append([
             int(c.slots), count_text(t), len(str(int(t))) if t else (1 if t == 0 else None), _count_log10(c),
-            getattr(c, "ratio_to_previous", None), bool(getattr(c, "exact", False)), count_text(getattr(c, "lower", None)),
-            count_text(getattr(c, "upper", None)), getattr(c, "estimate_relative_error", None),
-            count_text(getattr(c, "groupings", None)),
-            *(list(getattr(c, "estimate_interval_log10", None) or (None, None))),
-            interval_words(getattr(c, "estimate_interval_log10", None)), ratio_words(c),
+            c.ratio_to_previous, bool(c.exact), count_text(c.lower),
+            count_text(c.upper), c.estimate_relative_error,
+            count_text(c.groupings),
+            *(list(c.estimate_interval_log10 or (None, None))),
+            interval_words(c.estimate_interval_log10), ratio_words(c),
         ])
     return table
 
 
-def groups_table(counts: Any) -> PublishedTable | None:
+def groups_table(counts: CountReport) -> PublishedTable | None:
     """Per group of events linked by clashes: its size, clashes, how it was counted, and its counts.
 
     The total for K slots is the product of the groups' counts and K for every event with no
     clash (that factor is shown as its own row when no fixed or barred slot applies).
     """
-    components = list(getattr(counts, "components", None) or [])
+    components = list(counts.components)
     if not components:
         return None
     ks = [int(c.slots) for c in counts.counts]
@@ -888,22 +891,22 @@ def groups_table(counts: Any) -> PublishedTable | None:
         codes = sorted(map(str, comp.events))
         shown = ", ".join(codes[:30]) + (f", … {len(codes) - 30} more" if len(codes) > 30 else "")
         by_k = {int(c.slots): c for c in comp.counts}
-        table.rows.append([i, len(codes), shown, getattr(comp, "clashes", None), bool(comp.exact),
-                           getattr(comp, "method", "") or "", getattr(comp, "chromatic_number", None)]
-                          + [count_text(getattr(by_k.get(k), "timetables", None)) for k in ks])
-    isolated = int(getattr(counts, "isolated_events", 0) or 0)
-    if isolated and not getattr(counts, "constrained", False):
+        table.rows.append([i, len(codes), shown, comp.clashes, bool(comp.exact),
+                           comp.method or "", comp.chromatic_number]
+                          + [count_text(by_k[k].timetables if k in by_k else None) for k in ks])
+    isolated = int(counts.isolated_events or 0)
+    if isolated and not counts.constrained:
         table.rows.append([None, isolated, "events with no clash: any slot each", 0, True, "closed form (K per event)",
                            1] + [str(k ** isolated) for k in ks])
     return table
 
 
-def what_if_table(counts: Any) -> PublishedTable | None:
+def what_if_table(counts: CountReport) -> PublishedTable | None:
     """The counting engine's what-if figures: absent clashes that would hurt most, clashes whose removal frees most,
     and the attendees whose unavailability costs most timetables (the Event column then names the attendee)."""
-    risky = list(getattr(counts, "riskiest_absent_clashes", None) or [])
-    freeing = list(getattr(counts, "most_freeing_clashes", None) or [])
-    people = list(getattr(counts, "most_limiting_people", None) or [])
+    risky = list(counts.riskiest_absent_clashes)
+    freeing = list(counts.most_freeing_clashes)
+    people = list(counts.most_limiting_people)
     if not risky and not freeing and not people:
         return None
     table = PublishedTable(
@@ -930,44 +933,41 @@ def what_if_table(counts: Any) -> PublishedTable | None:
     return table
 
 
-def count_for(counts: Any, k: int) -> Any:
-    for c in getattr(counts, "counts", None) or []:
+def count_for(counts: CountReport | None, k: int) -> SlotCount | None:
+    for c in (counts.counts if counts is not None else []):
         if int(c.slots) == int(k):
             return c
     return None
 
 
-def count_words(c: Any) -> str:
+def count_words(c: SlotCount | None) -> str:
     """A count as a reader sees it: exact digits, or '≈ 10^x' when only estimated."""
     if c is None:
         return ""
-    t = getattr(c, "timetables", None)
-    if t is not None and getattr(c, "exact", True):
+    t = c.timetables
+    if t is not None and c.exact:
         return str(int(t))
     lg = _count_log10(c)
     if lg is not None and math.isfinite(lg):
         return f"about 10^{lg:.1f}"
-    lower, upper = getattr(c, "lower", None), getattr(c, "upper", None)
+    lower, upper = c.lower, c.upper
     if lower is not None and upper is not None:  # proven bounds and no estimate: say the bounds
         top = f"{int(upper):,}" if upper < 10 ** 12 else f"about 10^{_big_log10(int(upper)):.1f}"
         return f"between {int(lower):,} and {top}"
     return "not counted"
 
 
-def validate_run(problem: Problem, run: Any) -> Any:
+def validate_run(problem: Problem, run: SolveRun) -> Validation:
     """The independent validator's verdict on a run, or None when the validator is not available."""
-    attached = getattr(run, "validation", None)
+    attached = run.validation
     if attached is not None:
         return attached
-    try:
-        from ..scheduling import validate
-    except ImportError:
-        return None
-    return validate(problem, list(run.slot_list), dict(run.assignment), getattr(run, "rooms", None) or None,
-                    own_rooms=getattr(run, "own_rooms", None))
+    from ..scheduling import validate_timetable
+
+    return validate_timetable(problem, run.timetable)
 
 
-def validations_for(problem: Problem, runs: Sequence[Any], given: Mapping[int, Any] | None = None) -> dict[int, Any]:
+def validations_for(problem: Problem, runs: Sequence[SolveRun], given: Mapping[int, Validation] | None = None) -> dict[int, Validation]:
     """The validator's verdict for every run with a timetable (given ones kept)."""
     out = dict(given or {})
     for run in runs:
@@ -976,15 +976,15 @@ def validations_for(problem: Problem, runs: Sequence[Any], given: Mapping[int, A
     return out
 
 
-def verdict_words(validation: Any) -> str:
+def verdict_words(validation: Validation | None) -> str:
     if validation is None:
         return "not checked"
-    if getattr(validation, "ok", False):
+    if validation.ok:
         return "valid"
-    return f"{len(getattr(validation, 'violations', []) or [])} violation(s)"
+    return f"{len(validation.violations)} violation(s)"
 
 
-def short_sheet_words(fewest: Any) -> str | None:
+def short_sheet_words(fewest: FewestSlots | None) -> str | None:
     """When the slots sheet is shorter than the fewest slots needed: that, plainly, with how many are
     needed and how many rows to add (None otherwise).
 
@@ -992,7 +992,7 @@ def short_sheet_words(fewest: Any) -> str | None:
     >>> short_sheet_words(F(sheet_too_short=True, slots_in_sheet=3, lower=5, lower_reason="A1 has 5 events"))
     'The Slots sheet has only 3 slots, and at least 5 are needed (A1 has 5 events): add at least 2 rows to the Slots sheet.'
     """
-    if fewest is None or not getattr(fewest, "sheet_too_short", False):
+    if fewest is None or not fewest.sheet_too_short:
         return None
     have, need = fewest.slots_in_sheet, fewest.lower
     return (f"The Slots sheet has only {have} slot{'s' if have != 1 else ''}, and at least {need} are needed "
@@ -1000,13 +1000,13 @@ def short_sheet_words(fewest: Any) -> str | None:
             "Slots sheet.")
 
 
-def fewest_words(fewest: Any, k: int) -> str:
+def fewest_words(fewest: FewestSlots | None, k: int) -> str:
     """What the fewest-slots result says about K slots, in plain words."""
     if fewest is None:
         return ""
-    lower, upper = getattr(fewest, "lower", None), getattr(fewest, "upper", None)
-    reason = getattr(fewest, "lower_reason", "") or ""
-    proven = bool(getattr(fewest, "proven", False))
+    lower, upper = fewest.lower, fewest.upper
+    reason = fewest.lower_reason or ""
+    proven = bool(fewest.proven)
     if lower is not None and k < lower:
         return f"too few: at least {lower} needed ({reason})"
     if proven and upper == k:
@@ -1018,8 +1018,9 @@ def fewest_words(fewest: Any, k: int) -> str:
     return f"at least {lower} needed ({reason}); {k} not settled"
 
 
-def comparison_table(problem: Problem, runs: Sequence[Any], counts: Any = None, validations: Mapping[int, Any] | None = None,
-                     figures: Mapping[int, RunFigures] | None = None, fewest: Any = None) -> PublishedTable:
+def comparison_table(problem: Problem, runs: Sequence[SolveRun], counts: CountReport | None = None,
+                     validations: Mapping[int, Validation] | None = None,
+                     figures: Mapping[int, RunFigures] | None = None, fewest: FewestSlots | None = None) -> PublishedTable:
     """Every solved slot count side by side."""
     validations = validations or {}
     table = PublishedTable(
@@ -1045,19 +1046,19 @@ def comparison_table(problem: Problem, runs: Sequence[Any], counts: Any = None, 
         k = int(run.slots)
         fig = (figures or {}).get(k) or run_figures(problem, run)
         c = count_for(counts, k)
-        status = getattr(run, "status", "unknown")
-        exists = {"optimal": "yes", "feasible": "yes", "infeasible": "no"}.get(status, "unknown")
-        if exists == "unknown" and c is not None and getattr(c, "exact", False) and getattr(c, "timetables", None) is not None:
+        status = SolveStatus(run.status)
+        exists = "yes" if status.found else "no" if status is SolveStatus.INFEASIBLE else "unknown"
+        if exists == "unknown" and c is not None and c.exact and c.timetables is not None:
             exists = "yes" if int(c.timetables) > 0 else "no"
-        bound = getattr(run, "bound", None)
-        reason = getattr(run, "reason", None) or ""
+        bound = run.bound
+        reason = run.reason or ""
         table.rows.append([
-            k, fig.days, exists, fewest_words(fewest, k), status, bool(getattr(run, "proven", False)), getattr(run, "penalty", None),
+            k, fig.days, exists, fewest_words(fewest, k), status, bool(run.proven), run.penalty,
             float(bound) if bound is not None else None, count_words(c), _count_log10(c) if c is not None else None,
             fig.attendees_back_to_back, fig.attendees_two_in_a_day, fig.back_to_back, fig.same_day, fig.overnight,
             fig.proximity, fig.peak_seats,
             fig.peak_slot or "", verdict_words(validations.get(k)) if has_timetable(run) else "",
-            getattr(run, "wall_seconds", None), reason,
+            run.wall_seconds, reason,
         ])
     return table
 

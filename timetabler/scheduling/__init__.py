@@ -10,6 +10,6 @@ Public API::
 """
 
 from .solve import FewestSlots, SolveOptions, SolveRun, fewest_slots, solve
-from .validator import Validation, validate
+from .validator import Validation, validate, validate_timetable
 
-__all__ = ["solve", "SolveOptions", "SolveRun", "fewest_slots", "FewestSlots", "validate", "Validation"]
+__all__ = ["solve", "SolveOptions", "SolveRun", "fewest_slots", "FewestSlots", "validate", "validate_timetable", "Validation"]

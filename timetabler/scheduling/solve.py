@@ -39,7 +39,7 @@ import networkx as nx
 from ortools.sat.python import cp_model
 
 from ..conflicts import conflict_graph
-from ..model import FOUND_STATUSES, Problem, Slot, days_of, time_order
+from ..model import Problem, Slot, SolveStatus, Timetable, days_of, time_order
 from .cliques import clique_cover, largest_clique_found
 from ..availability import Availability
 from .cpsat_model import (BuildStopped, TimetableModel, _room_capacity_by_slot, build_model, large_event_codes,
@@ -115,7 +115,7 @@ class SolveRun:
 
     slots: int
     slot_list: list[Slot]
-    status: str  # optimal | feasible | infeasible | unknown
+    status: SolveStatus  # given as the enum or its word; always held as the enum
     assignment: dict[str, int] = field(default_factory=dict)
     rooms: dict[str, list[tuple[str, int]]] = field(default_factory=dict)
     own_rooms: dict[tuple[str, str], str] = field(default_factory=dict)  # (attendee, event) -> room they sit alone in
@@ -133,10 +133,20 @@ class SolveRun:
     #: repeatable mode only: True when the fixed amount of work was done, False when the time limit cut it
     repeatable: bool | None = None
 
+    def __setattr__(self, name: str, value) -> None:
+        if name == "status":
+            value = SolveStatus(value)  # a word outside the four is a bug: ValueError
+        object.__setattr__(self, name, value)
+
     @property
     def found(self) -> bool:
         """A timetable was found (status optimal or feasible): the one test of it."""
-        return self.status in FOUND_STATUSES
+        return self.status.found
+
+    @property
+    def timetable(self) -> Timetable:
+        """The timetable held, as one value (its assignment is empty when none was found)."""
+        return Timetable(tuple(self.slot_list), dict(self.assignment), dict(self.rooms), dict(self.own_rooms))
 
     @property
     def has_timetable(self) -> bool:

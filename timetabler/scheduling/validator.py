@@ -89,7 +89,7 @@ from collections import defaultdict
 from dataclasses import dataclass, field
 from typing import Mapping, Sequence
 
-from ..model import Problem, RuleKind, Slot
+from ..model import Problem, RuleKind, Slot, Timetable
 
 #: Carter, Laporte & Lee (1996): weight of two events of one attendee ``gap`` slots apart.
 CARTER_WEIGHTS = {1: 16, 2: 8, 3: 4, 4: 2, 5: 1}
@@ -304,6 +304,20 @@ def validate(
         + w.optional_missed * soft["optional_missed"]
     )
     return Validation(ok=not violations, violations=violations, soft=soft, attendee_load=load, penalty=penalty)
+
+
+def validate_timetable(problem: Problem, timetable: Timetable, *, previous: Mapping[str, int] | None = None,
+                       room_sharing: bool = True, room_splitting: bool = False) -> Validation:
+    """:func:`validate` for one :class:`~timetabler.model.Timetable` (slots, assignment, rooms, own rooms).
+
+    >>> from timetabler.model import Event, Problem, Timetable, generic_slots
+    >>> p = Problem(events={"A": Event("A"), "B": Event("B")}, enrolments=[("s1", "A"), ("s1", "B")])
+    >>> validate_timetable(p, Timetable(tuple(generic_slots(2)), {"A": 1, "B": 2})).ok
+    True
+    """
+    return validate(problem, list(timetable.slots), dict(timetable.assignment), dict(timetable.rooms) or None,
+                    previous=previous, room_sharing=room_sharing, room_splitting=room_splitting,
+                    own_rooms=dict(timetable.own_rooms))
 
 
 def _timeline(slots: Sequence[Slot]) -> tuple[list[int], list[int]]:

@@ -224,12 +224,10 @@ async def publish(request: Request) -> Response:
     settings = {"input file": upload.name, **(kept.settings or {})}
 
     def work() -> Any:
-        from ..scheduling import validate
+        from ..export.tables import validate_run
 
         run = runs[0]
-        if getattr(run, "validation", None) is None:
-            run.validation = validate(problem, run.slot_list, run.assignment, run.rooms or None,
-                                      own_rooms=getattr(run, "own_rooms", None))
+        run.validation = validate_run(problem, run)
         problems = publication_problems(problem, run)
         if problems:
             raise InputError(f"The timetable for {run.slots} slots was not published: {problems}")
