@@ -8,7 +8,7 @@ checks here are the only ones, so both refuse the same things with the same word
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 
 from .errors import Finding, InputError
@@ -98,13 +98,86 @@ def solve_checked(problem: Problem, slots: list[Slot], options, *, previous: dic
     """One timetable with these ``slots`` (:func:`timetabler.scheduling.solve`), checked by the
     independent validator when one was found (``run.validation``, with the run's rooms, own rooms and
     the room rules of ``options``): the one step of every command and of the web page's solves."""
-    from .scheduling import solve, validate_timetable
+    from .scheduling import SolveOptions, solve, validate_timetable
 
+    options = options if options is not None else SolveOptions()
     run = solve(problem, slots, options, previous=previous, graph=graph, progress=progress)
     if run.assignment:
         run.validation = validate_timetable(problem, run.timetable, previous=previous, room_sharing=options.room_sharing,
                                             room_splitting=options.room_splitting)
     return run
+
+
+#: The step key of the fewest-slots search: 0, which no number of slots can be (the solves are
+#: keyed by their number of slots).
+FEWEST = 0
+
+
+@dataclass(frozen=True)
+class StepStarted:
+    """A step begins: the fewest-slots search (``step == FEWEST``) or the solve with ``step`` slots.
+    ``index`` is its place in the order of steps (0 for the first), as a shared clock counts them."""
+
+    step: int
+    index: int
+
+
+@dataclass(frozen=True)
+class FewestFound:
+    """The fewest-slots search ended (a :class:`~timetabler.scheduling.FewestSlots`); ``to_solve``
+    the numbers of slots the steps solve next, in order."""
+
+    result: object
+    to_solve: tuple[int, ...] = ()
+
+
+@dataclass(frozen=True)
+class Solved:
+    """The solve with ``slots`` slots ended: its run, checked by the validator when it found a timetable."""
+
+    slots: int
+    run: object
+
+
+def solve_steps(problem: Problem, slot_counts: Sequence[int], slots_for: Callable[[int], list[Slot]], *,
+                options: Callable[[int], object], fewest_per_day: int | None = None, solve_fewest: bool = False,
+                previous: Callable[[int, list[Slot]], dict[str, int] | None] | None = None, graph=None,
+                progress: Callable[[int], Callable | None] | None = None,
+                stop: Callable[[], bool] | None = None) -> Iterator[StepStarted | FewestFound | Solved]:
+    """The one order of steps of every command and of the web page: the fewest-slots search first
+    (when ``fewest_per_day`` is given: sessions per day of its generic slots), then a checked solve
+    (:func:`solve_checked`) for each number of slots in turn.
+
+    ``options(index)`` gives the solver options of step ``index`` (a shared clock's deadlines);
+    ``previous(k, slots)`` the earlier timetable to keep close to, resolved against these slots;
+    ``progress(step)`` the progress callback of a step; ``stop()`` ends the steps before the next
+    solve. With ``solve_fewest``, the fewest slots the search found is solved too when it is not
+    among ``slot_counts`` (first), so its timetable is checked and published like the others.
+    Yields a :class:`StepStarted` before each step and a :class:`FewestFound` or :class:`Solved` after it.
+    """
+    from .conflicts import conflict_graph
+    from .scheduling import fewest_slots
+
+    graph = conflict_graph(problem) if graph is None else graph
+    counts = list(slot_counts)
+    index = 0
+    if fewest_per_day is not None:
+        yield StepStarted(FEWEST, index)
+        result = fewest_slots(problem, per_day=fewest_per_day, options=options(index), graph=graph,
+                              progress=progress(FEWEST) if progress else None)
+        if solve_fewest and result.upper is not None and result.upper not in counts:
+            counts.insert(0, result.upper)
+        yield FewestFound(result, tuple(counts))
+        index += 1
+    for k in counts:
+        if stop is not None and stop():
+            return
+        slots = slots_for(k)
+        yield StepStarted(k, index)
+        run = solve_checked(problem, slots, options(index), previous=previous(k, slots) if previous else None,
+                            graph=graph, progress=progress(k) if progress else None)
+        yield Solved(k, run)
+        index += 1
 
 
 def looks_like_count(token: str) -> bool:

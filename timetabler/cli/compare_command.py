@@ -14,8 +14,8 @@ from rich.table import Table
 from ..conflicts import conflict_graph
 from ..errors import Finding, InputError
 from ..export.tables import comparison_table, rows_as_json, run_figures, short_sheet_words, value_text
-from ..plan import solve_checked
-from ..scheduling import SolveOptions, fewest_slots
+from ..plan import FEWEST, FewestFound, StepStarted, solve_steps
+from ..scheduling import SolveOptions
 from .command_clock import CommandClock
 from .common import (SHARE_ROOMS_HELP, console, err_console, input_options, print_json, read_input, require_enrolments, show_warnings,
                      styled)
@@ -95,26 +95,28 @@ def command(file, sheet, attendee_column, event_column, slot_counts, day_counts,
 
     previous_refs, _ = earlier_timetable(keep, store) if keep else (None, None)
 
-    def slots_for(k: int):
-        return problem.slots_for(k, sessions_per_day)
-
     graph = conflict_graph(problem)
     options = SolveOptions(time_limit=time_limit, workers=workers, seed=seed, deterministic=repeatable,
                            room_sharing=share_rooms, room_splitting=split_rooms)
     clock = CommandClock(started, time_limit, len(problem.enrolments))
-    with _step(not as_json, "looking for the fewest slots"):
-        fewest = fewest_slots(problem, per_day=sessions_per_day, options=clock.options(options, 0), graph=graph)
-    runs = []
-    for i, k in enumerate(ks, start=1):
-        with _step(not as_json, f"solving with {k} slots"):
-            slots = slots_for(k)
-            previous = resolve_kept(problem, previous_refs, slots) if previous_refs else None
-            run = solve_checked(problem, slots, clock.options(options, i), previous=previous, graph=graph)
-            runs.append(run)
+    fewest, runs = None, []
+    with contextlib.ExitStack() as showing:
+        for step in solve_steps(problem, ks, lambda k: problem.slots_for(k, sessions_per_day),
+                                options=lambda i: clock.options(options, i), fewest_per_day=sessions_per_day,
+                                previous=(lambda k, slots: resolve_kept(problem, previous_refs, slots)) if previous_refs else None,
+                                graph=graph):
+            showing.close()  # the words of the step before
+            if isinstance(step, StepStarted):
+                showing.enter_context(_step(not as_json, "looking for the fewest slots" if step.step == FEWEST
+                                            else f"solving with {step.step} slots"))
+            elif isinstance(step, FewestFound):
+                fewest = step.result
+            else:
+                runs.append(step.run)
     warn_unrepeatable(runs)
     with _step(not as_json, "counting clash-free timetables"):
         counts, count_note = count_for_runs(problem, runs, count_time, graph=graph)
-    validations = {r.slots: r.validation for r in runs if getattr(r, "validation", None) is not None}
+    validations = {r.slots: r.validation for r in runs if r.validation is not None}
     settings = {"compared slot counts": ks, "time limit (s)": time_limit, "count time (s)": count_time,
                 "workers": workers, "seed": seed, "repeatable": repeatable, "sessions per day": None if problem.slots else sessions_per_day,
                 "share rooms": share_rooms, "split rooms": split_rooms,

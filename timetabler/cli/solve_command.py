@@ -13,8 +13,8 @@ from ..conflicts import conflict_graph
 from ..errors import Finding, InputError
 from ..export.tables import short_sheet_words
 from ..model import FOUND_STATUSES, GOAL_NAMES
-from ..plan import solve_checked
-from ..scheduling import SolveOptions, fewest_slots
+from ..plan import FEWEST, FewestFound, StepStarted, solve_steps
+from ..scheduling import SolveOptions
 from .command_clock import CommandClock
 from .interruption import SearchInterruption, StoppedEarly
 from .common import (SHARE_ROOMS_HELP, console, err_console, input_options, print_json, read_input, require_enrolments,
@@ -126,33 +126,28 @@ def command(file, sheet, attendee_column, event_column, slot_counts, day_counts,
     previous_refs, kept_from = earlier_timetable(keep, store) if keep else (None, None)
     graph = conflict_graph(problem)
 
-    def slots_for(k: int):
-        return problem.slots_for(k, sessions_per_day)
-
     counts = list(slot_counts) or ([len(problem.slots)] if problem.slots and not fewest else [])
     fewest_result = None
     runs = []
     clock = CommandClock(started, time_limit, len(problem.enrolments))
+    tasks: dict = {}
     # Ctrl-C stops the searches promptly; the best timetables found are shown, and the command exits 130
     with _progress_display(not as_json) as show, SearchInterruption() as interruption:
         options.stop = interruption.requested.is_set
-        if fewest:
-            task = show.add("fewest slots", time_limit)
-            fewest_result = fewest_slots(problem, per_day=sessions_per_day, options=clock.options(options, 0),
-                                         graph=graph, progress=lambda e: show.update(task, e))
-            show.finish(task)
-            if fewest_result.upper is not None and fewest_result.upper not in counts:
-                counts.insert(0, fewest_result.upper)
-        for i, k in enumerate(counts, start=1 if fewest else 0):
-            if interruption.requested.is_set():
-                break
-            slots = slots_for(k)
-            previous = resolve_kept(problem, previous_refs, slots) if previous_refs else None
-            task = show.add(f"{k} slots", time_limit)
-            run = solve_checked(problem, slots, clock.options(options, i), previous=previous, graph=graph,
-                                progress=lambda e, task=task: show.update(task, e))
-            show.finish(task)
-            runs.append(run)
+        for step in solve_steps(problem, counts, lambda k: problem.slots_for(k, sessions_per_day),
+                                options=lambda i: clock.options(options, i),
+                                fewest_per_day=sessions_per_day if fewest else None, solve_fewest=True,
+                                previous=(lambda k, slots: resolve_kept(problem, previous_refs, slots)) if previous_refs else None,
+                                graph=graph, progress=lambda key: (lambda e: show.update(tasks[key], e)),
+                                stop=interruption.requested.is_set):
+            if isinstance(step, StepStarted):
+                tasks[step.step] = show.add("fewest slots" if step.step == FEWEST else f"{step.step} slots", time_limit)
+                continue
+            show.finish(tasks[FEWEST if isinstance(step, FewestFound) else step.slots])
+            if isinstance(step, FewestFound):
+                fewest_result, counts = step.result, list(step.to_solve)
+            else:
+                runs.append(step.run)
     if interruption.by_ctrl_c:
         _show_stopped(problem, file, runs, fewest_result, days_of_count, as_json, skipped=len(counts) - len(runs))
     warn_unrepeatable(runs)

@@ -34,6 +34,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from ..plan import FEWEST
+
 log = logging.getLogger("timetabler.web")
 
 #: Fewest seconds between two progress messages from the child for one slot count.
@@ -148,8 +150,8 @@ def _child_main() -> None:
     """Body of the child process: read the job from stdin, solve each slot count, report on stdout.
 
     Each timetable is checked by the independent validator here, as the ``compare`` command
-    does, and the check travels with the run (``run.validation``). With ``fewest_per_day``
-    set, the fewest-slots search runs last.
+    does, and the check travels with the run (``run.validation``). The steps are the commands'
+    (:func:`timetabler.plan.solve_steps`): with ``fewest_per_day`` set, the fewest-slots search first.
     """
     out = sys.stdout.buffer
     sys.stdout = sys.stderr  # anything the engine prints must not corrupt the channel
@@ -164,25 +166,20 @@ def _child_main() -> None:
         stop = _stoppable_searches(control)
         if options is not None and hasattr(options, "stop"):
             options.stop = stop.is_set  # the local search asks it between rounds
-        from timetabler.conflicts import conflict_graph
-        from timetabler.plan import solve_checked
-        from timetabler.scheduling import fewest_slots
+        from timetabler.plan import FewestFound, StepStarted, solve_steps  # noqa: the child imports late
 
-        graph = conflict_graph(problem)
-        for k, slots in plan:
-            _send(out, ("start", k, time.time()))
-            previous = previous_for.get(k) or None
-            run = solve_checked(problem, slots, options, previous=previous, progress=_throttled(out, "progress", k),
-                                graph=graph)
-            _send(out, ("run", k, run))
-            if stop.is_set():
+        for step in solve_steps(problem, [k for k, _ in plan], dict(plan).__getitem__, options=lambda i: options,
+                                fewest_per_day=fewest_per_day, previous=lambda k, slots: previous_for.get(k) or None,
+                                progress=lambda key: _throttled(out, "progress", key)):
+            if isinstance(step, StepStarted):
+                _send(out, ("start", step.step, time.time()))
+            elif isinstance(step, FewestFound):
+                _send(out, ("fewest", FEWEST, step.result))
+            else:
+                _send(out, ("run", step.slots, step.run))
+            if stop.is_set() and not isinstance(step, StepStarted):
                 _send(out, ("stopped",))
                 return
-        if fewest_per_day is not None:
-            _send(out, ("start", FEWEST, time.time()))
-            result = fewest_slots(problem, per_day=fewest_per_day, options=options,
-                                  progress=_throttled(out, "progress", FEWEST), graph=graph)
-            _send(out, ("fewest", FEWEST, result))
         _send(out, ("done",))
     except BaseException as exc:  # noqa: BLE001 - reported to the parent, never shown as a traceback
         try:
@@ -249,8 +246,6 @@ def _stoppable_searches(control: int) -> threading.Event:
     return stop
 
 
-#: Key of the fewest-slots search among the progress rows (slot counts are 1 and up).
-FEWEST = 0
 
 
 @dataclass
