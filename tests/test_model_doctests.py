@@ -8,7 +8,7 @@ import importlib
 import pytest
 
 
-@pytest.mark.parametrize("name", ["timetabler.model", "timetabler.plan"])
+@pytest.mark.parametrize("name", ["timetabler.model", "timetabler.plan", "timetabler.errors"])
 def test_docstring_examples(name):
     result = doctest.testmod(importlib.import_module(name), optionflags=doctest.ELLIPSIS)
     assert result.attempted > 0, f"{name} has no examples"

@@ -8,6 +8,7 @@ warnings are kept and shown beside the result.
 
 from __future__ import annotations
 
+import dataclasses
 import re
 from dataclasses import dataclass
 
@@ -38,6 +39,37 @@ def _escape(match: re.Match) -> str:
         f"\\x{ord(ch):02x}" if ord(ch) < 0x100 else f"\\u{ord(ch):04x}")
 
 
+#: The settings a message may point the reader to, in neutral words. Intake and the other layers
+#: below the interfaces write :func:`setting` in their text; each interface names the settings
+#: its own way with :meth:`Finding.worded` (the command line by its options, the page by its
+#: boxes), and a finding shown as it is uses these words.
+SETTINGS = {
+    "sheet": "the sheet setting",
+    "attendee_column": "the attendee column setting",
+    "event_column": "the event column setting",
+    "wide_layout": "the wide layout (one row per attendee, events listed across)",
+    "case_sensitive_codes": "case-sensitive event codes",
+    "slots": "the number of slots",
+    "days": "the number of days",
+    "force": "the setting that replaces an existing file",
+    "timetable_workbook": "a timetable workbook written by timetabler",
+}
+_SETTING = re.compile("\ue000([a-z_]+)\ue001")
+
+
+def setting(name: str) -> str:
+    """A place in a message's text where a setting is named (one of :data:`SETTINGS`)."""
+    if name not in SETTINGS:
+        raise KeyError(f"no setting called {name!r}")
+    return f"\ue000{name}\ue001"
+
+
+def _named(text: str | None, names: dict[str, str] | None) -> str | None:
+    if text is None or "\ue000" not in text:
+        return text
+    return _SETTING.sub(lambda m: (names or {}).get(m.group(1)) or SETTINGS.get(m.group(1), m.group(1)), text)
+
+
 @dataclass
 class Finding:
     message: str
@@ -47,30 +79,42 @@ class Finding:
     suggestion: str | None = None
     severity: str = "error"  # "error" or "warning"
 
+    def worded(self, names: dict[str, str]) -> "Finding":
+        """A copy naming the settings its text points to in an interface's words (``names[setting]``).
+
+        >>> f = Finding("Two sheets.", suggestion=f"Name the sheet to read with {setting('sheet')}.")
+        >>> f.worded({"sheet": "--sheet"}).suggestion, str(f)
+        ('Name the sheet to read with --sheet.', 'Two sheets. Name the sheet to read with the sheet setting.')
+        """
+        return dataclasses.replace(self, message=_named(self.message, names), expected=_named(self.expected, names),
+                                   suggestion=_named(self.suggestion, names))
+
     def __str__(self) -> str:
         """The finding in one paragraph; every part that may come from a user's file passes :func:`visible`."""
-        text = f"{self.where}: {self.message}" if self.where else self.message
-        if self.found is not None:
-            text += f" Found: '{self.found}'."  # quoted as typed; visible() below escapes what must be
-        if self.expected:
-            text += f" Expected: {self.expected}."
-        if self.suggestion:
-            text += f" {self.suggestion}"
+        f = self.worded({})
+        text = f"{f.where}: {f.message}" if f.where else f.message
+        if f.found is not None:
+            text += f" Found: '{f.found}'."  # quoted as typed; visible() below escapes what must be
+        if f.expected:
+            text += f" Expected: {f.expected}."
+        if f.suggestion:
+            text += f" {f.suggestion}"
         return visible(text)
 
     def to_dict(self) -> dict:
         """The finding's parts (for JSON documents and the web page), each passed through :func:`visible`."""
-        w = self.where
+        f = self.worded({})
+        w = f.where
         out = {
-            "severity": self.severity,
-            "message": self.message,
+            "severity": f.severity,
+            "message": f.message,
             "file": w.file if w else None,
             "sheet": w.sheet if w else None,
             "row": w.row if w else None,
             "column": w.column if w else None,
-            "found": self.found,
-            "expected": self.expected,
-            "suggestion": self.suggestion,
+            "found": f.found,
+            "expected": f.expected,
+            "suggestion": f.suggestion,
         }
         return {k: visible(v) if isinstance(v, str) else v for k, v in out.items()}
 
@@ -87,3 +131,7 @@ class InputError(Exception):
             Finding("The input could not be read, and no reason was recorded (a bug in timetabler: please report it).",
                     where=where)]
         super().__init__("\n".join(str(f) for f in self.findings))
+
+    def worded(self, names: dict[str, str]) -> "InputError":
+        """The same error naming settings in an interface's words (see :meth:`Finding.worded`)."""
+        return InputError([f.worded(names) for f in self.findings])

@@ -11,7 +11,7 @@ from __future__ import annotations
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 
-from .errors import Finding, InputError
+from .errors import Finding, InputError, setting
 from .model import Location, Problem, Slot
 
 
@@ -33,7 +33,7 @@ def slots_sheet_days(slots: Sequence[Slot]) -> list[object] | None:
     return None
 
 
-def day_choices(problem: Problem, days: Sequence[int], option: str = "--days") -> list[DayChoice]:
+def day_choices(problem: Problem, days: Sequence[int]) -> list[DayChoice]:
     """The slot count of the first N days of the Slots sheet, for each N in ``days`` (in order).
 
     The slots are in time order (intake sorts them), so the first N days are a run of slots
@@ -51,16 +51,16 @@ def day_choices(problem: Problem, days: Sequence[int], option: str = "--days") -
     file = problem.source or "the input file"
     if not problem.slots:
         raise InputError(Finding(
-            f"{option} counts the days of the Slots sheet, and this file has no Slots sheet.",
+            f"{setting('days')} counts the days of the Slots sheet, and this file has no Slots sheet.",
             where=Location(file),
-            suggestion="Add a Slots sheet with a Date (or Day) column, or say how many slots to use with --slots K."))
+            suggestion=f"Add a Slots sheet with a Date (or Day) column, or say how many slots to use with {setting('slots')}."))
     where = _sheet_of(problem.slots, file)
     of_slot = slots_sheet_days(problem.slots)
     if of_slot is None:
         raise InputError(Finding(
-            f"{option} counts the days of the Slots sheet, but its slots do not all say which day they fall on.",
+            f"{setting('days')} counts the days of the Slots sheet, but its slots do not all say which day they fall on.",
             where=where, expected="a date (or a day number in a Day column) on every slot",
-            suggestion="Fill in the Date or Day column of every slot, or use --slots K."))
+            suggestion=f"Fill in the Date or Day column of every slot, or use {setting('slots')}."))
     ends: list[int] = []  # ends[n - 1]: how many slots the first n days hold
     for i, day in enumerate(of_slot):
         if i and day != of_slot[i - 1]:
@@ -71,7 +71,7 @@ def day_choices(problem: Problem, days: Sequence[int], option: str = "--days") -
         first, last = _day_words(problem.slots[0]), _day_words(problem.slots[-1])
         span = f" ({first} to {last})" if first and last and first != last else ""
         raise InputError(Finding(
-            f"{option} asks for {max(wanted)} days but the Slots sheet's {len(of_slot)} slots fall on only "
+            f"{setting('days')} asks for {max(wanted)} days but the Slots sheet's {len(of_slot)} slots fall on only "
             f"{len(ends)} {'day' if len(ends) == 1 else 'days'}{span}.",
             where=where, suggestion="Add the missing days to the Slots sheet, or ask for fewer."))
     return [DayChoice(n, ends[n - 1]) for n in wanted]

@@ -160,15 +160,35 @@ def print_json(document: Any) -> None:
     click.echo(json.dumps(document, indent=2, ensure_ascii=False, default=str))
 
 
+#: The command line's names of the settings a finding may point to (:data:`timetabler.errors.SETTINGS`).
+OPTION_NAMES = {
+    "sheet": "--sheet",
+    "attendee_column": "--attendee-column",
+    "event_column": "--event-column",
+    "wide_layout": "--layout wide",
+    "case_sensitive_codes": "--case-sensitive-codes",
+    "slots": "--slots K",
+    "days": "--days",
+    "force": "--force to replace it",
+    "timetable_workbook": "the workbook that 'timetabler solve --out' wrote",
+}
+
+
 def show_warnings(reading: Reading, as_json: bool) -> None:
     """Warnings from intake go to stderr (so --json stdout stays one document)."""
     for finding in reading.warnings:
         warn(finding)
 
 
-def warn(finding: Any) -> None:
-    """One warning on stderr: 'warning:' in yellow, then the finding as plain text."""
-    err_console.print(styled(("warning:", "yellow"), f" {finding}"), soft_wrap=True)
+def warn(finding: Finding | str) -> None:
+    """One warning on stderr: 'warning:' in yellow, then the finding as plain text (settings named by their options)."""
+    shown = finding.worded(OPTION_NAMES) if isinstance(finding, Finding) else finding
+    err_console.print(styled(("warning:", "yellow"), f" {shown}"), soft_wrap=True)
+
+
+def finding_json(finding: Finding) -> dict:
+    """A finding for a ``--json`` document, its settings named by their options."""
+    return finding.worded(OPTION_NAMES).to_dict()
 
 
 #: Files this command has finished writing, in order (filled as each one is complete), so
@@ -244,7 +264,7 @@ def run_guarded(cli: click.Group, argv: list[str] | None = None) -> int:
     try:
         cli.main(args=argv, prog_name="timetabler", standalone_mode=False)
     except InputError as exc:
-        err_console.print(styled(("error:", "bold red"), " " + str(exc)), soft_wrap=True)
+        err_console.print(styled(("error:", "bold red"), " " + str(exc.worded(OPTION_NAMES))), soft_wrap=True)
         return EXIT_BAD_INPUT
     except (click.exceptions.Abort, KeyboardInterrupt) as exc:
         return _interrupted(exc)

@@ -12,7 +12,7 @@ from ..counting.problem_counts import count_problem
 from ..counting.polynomial import ChromaticPolynomial, edgeless_power, poly_mul
 from ..errors import Finding, InputError
 from ..export.tables import interval_words, ratio_words
-from .common import console, err_console, input_options, print_json, read_input, show_warnings, styled
+from .common import console, err_console, finding_json, input_options, print_json, read_input, show_warnings, styled
 from .slot_counts import SlotCountsOption, choose_slot_counts, days_option, parse_slot_counts
 from .solve_options import time_limit_option
 
@@ -95,7 +95,7 @@ def command(file: str, sheet, attendee_column, event_column, slot_counts, day_co
         if show_polynomial:
             poly = whole_polynomial(report, graph)
             doc["polynomial"] = poly.to_json() if poly is not None else None
-        doc["warnings"] = [w.to_dict() for w in reading.warnings]
+        doc["warnings"] = [finding_json(w) for w in reading.warnings]
         print_json(doc)
         return
 

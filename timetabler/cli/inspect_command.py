@@ -6,7 +6,7 @@ import click
 from rich.table import Table
 
 from ..conflicts import conflict_graph, people_figures, summarise
-from .common import console, input_options, print_json, read_input, show_warnings, styled
+from .common import console, finding_json, input_options, print_json, read_input, show_warnings, styled
 
 
 @click.command("inspect")
@@ -34,7 +34,7 @@ def command(file: str, sheet, attendee_column, event_column, as_json: bool) -> N
         doc["event_column"] = reading.event_column
         doc["duplicates_dropped"] = reading.duplicates_dropped
         doc["reading"] = reading.to_dict()
-        doc["warnings"] = [w.to_dict() for w in reading.warnings]
+        doc["warnings"] = [finding_json(w) for w in reading.warnings]
         doc["people"] = dict(people_figures(reading.problem))
         print_json(doc)
         return

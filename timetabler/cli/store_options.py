@@ -21,7 +21,7 @@ from ..intake.previous_timetable import PreviousTimetable, read_previous_timetab
 from ..store import Store, store_path
 from ..store.location import RETENTION_ENV
 from ..store.records import publication_problems
-from .common import err_console
+from .common import err_console, warn
 
 #: Days a stored input (its enrolments, results and labels) is kept after it was last used.
 #: Common practice with no single source: an academic term and the following resit period.
@@ -119,7 +119,7 @@ def record_solve(opened: Callable[[], Store], problem: Any, runs: Sequence[Any],
         try:
             store = opened()
         except InputError as exc:
-            err_console.print(f"[yellow]warning:[/yellow] this run was not recorded: {exc}", soft_wrap=True)
+            warn(f"this run was not recorded: {exc}")
             return
     else:
         store = opened()
@@ -141,7 +141,7 @@ def record_solve(opened: Callable[[], Store], problem: Any, runs: Sequence[Any],
     except sqlite3.Error as exc:  # a full disc, a read-only file: the record is lost, not the results
         if target is not None:
             raise InputError(f"The timetable was not published: the store {store.path} cannot be written ({exc}).")
-        err_console.print(f"[yellow]warning:[/yellow] this run was not recorded in {store.path}: {exc}", soft_wrap=True)
+        warn(f"this run was not recorded in {store.path}: {exc}")
         return
     if not quiet:
         where = _shown(store.path)

@@ -24,6 +24,7 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass, field
 
+from ..errors import setting
 from ..model import Location
 from .file_types import RawSheet
 from .findings import FindingList
@@ -225,7 +226,7 @@ def _joined_warning(joined: list[tuple[int, str]], out: RawEnrolments, sheet: Ra
         _where(file, sheet, row, layout, layout.events[0] if len(layout.events) == 1 else None),
         found=", ".join(distinct[:5]) + (", ..." if len(distinct) > 5 else ""),
         suggestion="If such a cell lists several events, give each its own row (or separate them with ; and use "
-        "--layout wide); if it is one event known by two codes, nothing needs changing.")
+        f"{setting('wide_layout')}); if it is one event known by two codes, nothing needs changing.")
 
 
 def _clash_list(sheet: RawSheet, layout: Layout, file: str, findings: FindingList, max_pairs: int) -> RawEnrolments:

@@ -17,7 +17,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from ..errors import Finding, InputError
+from ..errors import Finding, InputError, setting
 from ..model import Location, Problem, Slot
 from .file_types import load_book
 from .limits import Limits
@@ -150,7 +150,7 @@ def read_previous_timetable(path: str | Path) -> PreviousTimetable:
     raise InputError(Finding(
         f"{name}: no sheet has a header row with an event column and a 'Slot' column.",
         expected="a header such as 'Event' and 'Slot' in the first 15 rows",
-        suggestion="Give the workbook that 'timetabler solve --out' wrote, or a .csv with columns Event,Slot."))
+        suggestion=f"Give {setting('timetable_workbook')}, or a .csv with columns Event,Slot."))
 
 
 def _read_table(name: str, sheet: str | None, rows: list[list[object]]) -> PreviousTimetable | None:

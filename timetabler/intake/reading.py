@@ -28,7 +28,7 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Callable
 
-from ..errors import Finding, InputError
+from ..errors import Finding, InputError, setting
 from ..model import Event, Location, Problem, distinct_enrolments
 from .file_types import DELIMITER_NAMES, RawBook, RawSheet, load_book
 from .findings import FindingList
@@ -160,7 +160,7 @@ def read_problem(path: str | Path, options: ReadOptions | None = None) -> Readin
     if also_fit:
         findings.warn(f"Other sheets also look like enrolments ({', '.join(repr(n) for n in also_fit[:5])}); "
                       f"only '{sheet.name}', the one with most rows, was read.", Location(name, sheet.name),
-                      suggestion="Name the sheet to read with --sheet.")
+                      suggestion=f"Name the sheet to read with {setting('sheet')}.")
     if options.progress:
         options.progress(f"reading enrolments from {sheet.name or name}", 0, len(sheet.rows))
     raw = read_enrolments(sheet, layout, name, findings, options.limits.max_cells)
@@ -176,7 +176,7 @@ def read_problem(path: str | Path, options: ReadOptions | None = None) -> Readin
             findings.warn(f"{raw.separators_seen} event cells hold a comma or semicolon"
                           + (f" (first in row {row})" if row else "") + "; each was read as one event code.",
                           Location(name, sheet.name, row, layout.column_label(layout.events[0])), found=text,
-                          suggestion="If these cells list several events, use --layout wide.")
+                          suggestion=f"If these cells list several events, use {setting('wide_layout')}.")
 
     cs = options.case_sensitive_codes
     event_names: dict[str, str] = {}
@@ -293,7 +293,7 @@ def choose_sheet(book: RawBook, name: str, options: ReadOptions,
         ]
         if not wanted:
             if book.kind == "text":
-                raise InputError(Finding("A CSV file has no sheets; leave out --sheet.", where=Location(name),
+                raise InputError(Finding(f"A CSV file has no sheets; leave out {setting('sheet')}.", where=Location(name),
                                          found=options.sheet))
             raise InputError(Finding("The workbook has no sheet of that name.", where=Location(name),
                                      found=options.sheet, expected="one of " + ", ".join(f"'{s.name}'" for s in book.sheets)))
@@ -335,8 +335,8 @@ def _no_header(name: str, sheets: list[RawSheet], options: ReadOptions, event_co
             suggestion = ("Only one column was found: check that the file separates columns with commas, "
                           "semicolons, tabs or |.")
         else:
-            suggestion = ("Name the columns with --attendee-column and --event-column"
-                          + (", and the sheet with --sheet." if len(sheets) > 1 else "."))
+            suggestion = (f"Name the columns with {setting('attendee_column')} and {setting('event_column')}"
+                          + (f", and the sheet with {setting('sheet')}." if len(sheets) > 1 else "."))
         findings.append(Finding(
             "No enrolment header row was found" + (f" among the top {min(len(s.rows), 30)} rows." if s.rows else "."),
             where=where, found=", ".join(headers[:12]) or "no headers", expected=expected, suggestion=suggestion))

@@ -13,6 +13,7 @@ import datetime as _dt
 import re
 from dataclasses import dataclass, field
 
+from ..errors import setting
 from ..model import MAX_WEIGHT, Attendee, Event, Location, Room, Rule, RuleKind, Slot, Weights, time_order
 from .file_types import RawSheet
 from .findings import FindingList
@@ -293,7 +294,7 @@ def _in_time_order(table: Table, read: list[tuple[Slot, Location]], findings: Fi
             f"start time), "
             f"so slot {moved[0] + 1} is '{first[0].label}' ({_moment(first[0])}, row {first[1].row}).",
             table.where(first[1].row, "Date" if dated else "Day"), found=_moment(first[0]),
-            suggestion="Slot numbers (in the Events and Rooms sheets, --slots K and the results) count in time "
+            suggestion=f"Slot numbers (in the Events and Rooms sheets, {setting('slots')} and the results) count in time "
                        "order; list the rows in time order to make them match the rows.")
     ordered = [read[i] for i in order]
     _warn_overlaps(table, ordered, findings)

@@ -17,7 +17,7 @@ import os
 import tempfile
 from pathlib import Path
 
-from ..errors import Finding, InputError
+from ..errors import Finding, InputError, setting
 from ..model import Location, Weights
 from .vocabulary import (
     ATTENDANCE,
@@ -118,7 +118,7 @@ def write_template(path: str | Path, *, force: bool = False, example: bool = Fal
                                  where=Location(name), found=path.suffix or "no extension", expected=".xlsx"))
     if path.exists() and not force:
         raise InputError(Finding("The file already exists; it was not overwritten.", where=Location(name),
-                                 suggestion="Choose another name, or add --force to replace it."))
+                                 suggestion=f"Choose another name, or add {setting('force')}."))
     if path.is_dir():
         raise InputError(Finding("This is a folder, not a file name.", where=Location(name)))
     folder = path.parent if str(path.parent) else Path(".")

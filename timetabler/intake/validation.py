@@ -32,6 +32,7 @@ import datetime as dt
 import re
 import statistics
 
+from ..errors import setting
 from ..model import Event, Location, Problem, RuleKind, Slot
 from .findings import FindingList
 from .normalising import identifier
@@ -256,7 +257,7 @@ def figure_warnings(problem: Problem, findings: FindingList, enrolment_where: Lo
     if n_events >= 10 and n_events > 2 * n_attendees:
         findings.warn("There are far more events than attendees: the attendee and event columns may be swapped.",
                       enrolment_where, found=f"{n_attendees} attendees, {n_events} events",
-                      suggestion="Name the columns with --attendee-column and --event-column.")
+                      suggestion=f"Name the columns with {setting('attendee_column')} and {setting('event_column')}.")
     for short, long in leading_zero_pairs[:5]:
         findings.warn(f"The identifiers {long!r} and {short!r} differ only by leading zeros; they are read as "
                       "two different identifiers.", enrolment_where,
@@ -265,7 +266,7 @@ def figure_warnings(problem: Problem, findings: FindingList, enrolment_where: Lo
         shown = "; ".join(f"{a!r} = {b!r}" for a, b in case_merges[:5])
         more = f" (and {len(case_merges) - 5} more)" if len(case_merges) > 5 else ""
         findings.warn(f"Codes differing only in upper/lower case were read as the same: {shown}{more}.",
-                      enrolment_where, suggestion="Use --case-sensitive-codes if they are really different.")
+                      enrolment_where, suggestion=f"Use {setting('case_sensitive_codes')} if they are really different.")
 
 
 def leading_zero_variants(values: list[str]) -> list[tuple[str, str]]:

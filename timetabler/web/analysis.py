@@ -70,27 +70,27 @@ def analyse(path: Path, options: dict[str, str | None]) -> Analysis:
     return Analysis(reading=reading, graph=graph, summary=summarise(reading.problem, graph), read_options=dict(options))
 
 
-#: Command-line option names in intake's suggestions, and what the page calls them.
-_OPTION_WORDS = (
-    ("--attendee-column", "the box 'Header of the attendee column' below"),
-    ("--event-column", "the box 'Header of the event column' below"),
-    ("--sheet", "the box 'Sheet' below"),
-)
+#: The page's names of the settings a finding may point to (:data:`timetabler.errors.SETTINGS`).
+BOX_NAMES = {
+    "sheet": "the box 'Sheet' below",
+    "attendee_column": "the box 'Header of the attendee column' below",
+    "event_column": "the box 'Header of the event column' below",
+    "wide_layout": "one row per attendee with the events listed across (the page finds the layout from the headers)",
+    "slots": "the numbers of slots",
+    "timetable_workbook": "a timetable workbook downloaded from this page",
+}
 
 
 def finding_rows(findings: list[Finding], private: Path, shown_name: str) -> list[dict]:
     """Findings as dicts for the page: the private upload path replaced by the user's file name,
-    and command-line option names by the boxes of the page."""
+    and the settings they point to named by the boxes of the page."""
     rows = []
     for finding in findings:
-        row = finding.to_dict()
+        row = finding.worded(BOX_NAMES).to_dict()
         row["file"] = shown_name
         for key in ("message", "found", "expected", "suggestion"):
             if isinstance(row.get(key), str):
-                text = row[key].replace(str(private), shown_name)
-                for option, words in _OPTION_WORDS:
-                    text = text.replace(option, words)
-                row[key] = text
+                row[key] = row[key].replace(str(private), shown_name)
         rows.append(row)
     return rows
 

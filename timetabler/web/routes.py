@@ -526,7 +526,7 @@ def _earlier_from(request: Request, stored: StoredUpload, refs, name: str, path:
 
     def findings(found: list) -> Response:
         if path is None:
-            return message(request, 400, "The earlier timetable cannot be used", " ".join(str(f) for f in found),
+            return message(request, 400, "The earlier timetable cannot be used", " ".join(str(f.worded(an.BOX_NAMES)) for f in found),
                            back=f"/files/{stored.token}")
         return _earlier_findings(request, stored, name, path, found)
 
