@@ -102,12 +102,12 @@ def brute_force_run(problem: Problem, slots: list[Slot]) -> BruteRun:
 
 
 def solve_run(problem: Problem, slots: list[Slot]):
-    """A real SolveRun when the scheduling engine is available, else exhaustive search."""
-    try:
-        from timetabler.scheduling import SolveOptions, solve
-    except ImportError:
-        return brute_force_run(problem, slots)
-    return solve(problem, slots, SolveOptions(time_limit=10, workers=2, seed=1, deterministic=True))
+    """A real SolveRun, checked by the validator as the commands check theirs (exports write the checks
+    they are given)."""
+    from timetabler.plan import solve_checked
+    from timetabler.scheduling import SolveOptions
+
+    return solve_checked(problem, slots, SolveOptions(time_limit=10, workers=2, seed=1, deterministic=True))
 
 
 # reference counts travel in the counting engine's own result types, so exports see what they see from count

@@ -388,6 +388,19 @@ class Problem:
         return n if 1 <= n <= len(slots) else None
 
 
+def tail_room(problem: Problem, parts: Sequence[tuple[str, int]]) -> str:
+    """The room of an event's ``parts`` [(room, seats)] in which its attendees still writing with extra time
+    keep their seats past its own slots: the one with the most seats, the first in the Rooms sheet on a tie
+    (our rule: the seating, the validator and the published tables all use this one).
+
+    >>> p = Problem([], rooms=[Room("Hall", 80), Room("Annexe", 40), Room("Loft", 40)])
+    >>> tail_room(p, [("Loft", 30), ("Annexe", 30)]), tail_room(p, [("Annexe", 30), ("Hall", 25)])
+    ('Annexe', 'Annexe')
+    """
+    order = {r.name: i for i, r in enumerate(problem.rooms)}
+    return max(parts, key=lambda part: (part[1], -order.get(part[0], len(order))))[0]
+
+
 def generic_slots(k: int, per_day: int | None = None) -> list[Slot]:
     """K interchangeable slots labelled ``Slot 1`` .. ``Slot K``.
 

@@ -98,14 +98,11 @@ def solve_checked(problem: Problem, slots: list[Slot], options, *, previous: dic
     """One timetable with these ``slots`` (:func:`timetabler.scheduling.solve`), checked by the
     independent validator when one was found (``run.validation``, with the run's rooms, own rooms and
     the room rules of ``options``): the one step of every command and of the web page's solves."""
-    from .scheduling import SolveOptions, solve, validate_timetable
+    from .scheduling import SolveOptions, solve
 
     options = options if options is not None else SolveOptions()
     run = solve(problem, slots, options, previous=previous, graph=graph, progress=progress)
-    if run.assignment:
-        run.validation = validate_timetable(problem, run.timetable, previous=previous, room_sharing=options.room_sharing,
-                                            room_splitting=options.room_splitting)
-    return run
+    return checked(problem, run, previous=previous, options=options)
 
 
 #: The step key of the fewest-slots search: 0, which no number of slots can be (the solves are
@@ -178,6 +175,43 @@ def solve_steps(problem: Problem, slot_counts: Sequence[int], slots_for: Callabl
                             graph=graph, progress=progress(k) if progress else None)
         yield Solved(k, run)
         index += 1
+
+
+def checked(problem: Problem, run, *, previous: dict[str, int] | None = None, options=None):
+    """``run`` with the independent validator's verdict attached (``run.validation``), when it holds a
+    timetable and has none yet (a run read back from elsewhere); the run itself is returned."""
+    from .scheduling import validate_timetable
+
+    if run.validation is None and run.assignment:
+        run.validation = validate_timetable(
+            problem, run.timetable, previous=previous,
+            room_sharing=options.room_sharing if options is not None else True,
+            room_splitting=options.room_splitting if options is not None else False)
+    return run
+
+
+def counts_for_runs(problem: Problem, runs: Sequence, budget: float, *, graph=None) -> tuple[object, str | None]:
+    """Count clash-free timetables for the slot counts of ``runs``, or (None, why not).
+
+    Fixed and barred slots are respected, resolved against each run's own slots; without
+    any, all slot counts are counted in one call (the polynomial is shared).
+    """
+    from .conflicts import conflict_graph
+    from .counting.problem_counts import count_problem
+
+    graph = conflict_graph(problem) if graph is None else graph
+    runs = sorted({int(r.slots): r for r in runs}.values(), key=lambda r: int(r.slots))
+    if not runs:
+        return None, None
+    slot_lists = {int(r.slots): list(r.slot_list) for r in runs}
+    report, notes = count_problem(problem, list(slot_lists), graph=graph, slots_for=slot_lists.__getitem__,
+                                  budget_seconds=budget)
+    left_out = report.not_counted
+    if left_out:
+        notes = [*notes, f"Counts leave out {left_out}; the solver keeps to them too, so fewer timetables may keep every rule."]
+    if not report.constrained:
+        return report, " ".join(notes) if left_out else None
+    return report, " ".join(["Counts respect fixed and barred slots."] + notes)
 
 
 def looks_like_count(token: str) -> bool:

@@ -14,12 +14,11 @@ from rich.table import Table
 from ..conflicts import conflict_graph
 from ..errors import Finding, InputError
 from ..export.tables import comparison_table, rows_as_json, run_figures, short_sheet_words, value_text
-from ..plan import FEWEST, FewestFound, StepStarted, solve_steps
+from ..plan import FEWEST, FewestFound, StepStarted, counts_for_runs, solve_steps
 from ..scheduling import SolveOptions
 from .command_clock import CommandClock
 from .common import (SHARE_ROOMS_HELP, console, err_console, input_options, print_json, read_input, require_enrolments, show_warnings,
                      styled)
-from ..export.publishing import count_for_runs
 from .output_options import check_outputs, output_options, try_publish
 from .slot_counts import SlotCountsOption, choose_slot_counts, days_option, parse_slot_counts
 from .solve_options import (apply_goal_options, keep_option, max_per_day_option, print_repair, repeatable_option,
@@ -115,7 +114,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, day_counts,
                 runs.append(step.run)
     warn_unrepeatable(runs)
     with _step(not as_json, "counting clash-free timetables"):
-        counts, count_note = count_for_runs(problem, runs, count_time, graph=graph)
+        counts, count_note = counts_for_runs(problem, runs, count_time, graph=graph)
     validations = {r.slots: r.validation for r in runs if r.validation is not None}
     settings = {"compared slot counts": ks, "time limit (s)": time_limit, "count time (s)": count_time,
                 "workers": workers, "seed": seed, "repeatable": repeatable, "sessions per day": None if problem.slots else sessions_per_day,

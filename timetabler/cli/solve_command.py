@@ -13,9 +13,13 @@ from ..conflicts import conflict_graph
 from ..errors import Finding, InputError
 from ..export.tables import short_sheet_words
 from ..model import FOUND_STATUSES, GOAL_NAMES
-from ..plan import FEWEST, FewestFound, StepStarted, solve_steps
+from ..plan import FEWEST, FewestFound, StepStarted, counts_for_runs, solve_steps
 from ..scheduling import SolveOptions
 from .command_clock import CommandClock
+
+#: Seconds the solve command spends counting clash-free timetables for its workbook or chart
+#: (``compare --count-time`` sets its own).
+SOLVE_COUNT_SECONDS = 20.0
 from .interruption import SearchInterruption, StoppedEarly
 from .common import (SHARE_ROOMS_HELP, console, err_console, input_options, print_json, read_input, require_enrolments,
                      show_warnings, styled)
@@ -155,9 +159,11 @@ def command(file, sheet, attendee_column, event_column, slot_counts, day_counts,
                 "sessions per day": None if problem.slots else sessions_per_day,
                 "weights": dataclasses.asdict(problem.weights), "share rooms": share_rooms,
                 "split rooms": split_rooms, "kept from": keep}
-    written, write_error = try_publish(outputs, problem=problem, runs=runs, reading=reading, settings=settings,
-                                   validations={r.slots: r.validation for r in runs if r.validation is not None},
-                                   fewest=fewest_result, quiet=as_json)
+    timetable_counts = None
+    if outputs and (outputs.get("out") or outputs.get("plot")) and runs:  # the workbook and the chart show the counts
+        timetable_counts, _ = counts_for_runs(problem, runs, SOLVE_COUNT_SECONDS, graph=graph)
+    written, write_error = try_publish(outputs, problem=problem, runs=runs, counts=timetable_counts, reading=reading,
+                                       settings=settings, fewest=fewest_result, quiet=as_json)
     if not no_record:
         record_solve(store, problem, runs, settings, publish_label=publish_label, kept_from=kept_from, quiet=as_json)
     if as_json:

@@ -65,7 +65,7 @@ def write_csv_folder(folder: str | Path, *, problem: Problem, runs: Sequence[Any
     """Write the lists as CSV files into ``folder`` (created if needed); return the files written."""
     target = prepare_folder(folder)
     runs = sorted(runs, key=lambda r: int(r.slots))
-    validations = validations_for(problem, runs, validations)
+    validations = validations_for(runs, validations)
     tables: list[tuple[str, PublishedTable]] = []
     figures = {int(r.slots): run_figures(problem, r) for r in runs}
     if runs:

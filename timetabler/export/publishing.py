@@ -38,15 +38,13 @@ def publish(
     notify: Callable[[str], None] | None = None,
     status: Callable[[str], Any] | None = None,
     written: list[Path] | None = None,
-    count_if_missing: bool = True,
 ) -> list[Path]:
     """Write every output asked for in ``outputs``; return the paths written.
 
-    When a workbook or a chart is asked for and ``counts`` is None, the numbers of
-    clash-free timetables for the slot counts of ``runs`` are counted here (within the
-    ``count_budget`` seconds of ``settings``, default 20), unless ``count_if_missing`` is
-    False (the web page, whose own background count is the one that counts: the workbook then
-    says the numbers were not counted).
+    The outputs show what they are given: counts (``counts``; the workbook says the numbers were
+    not counted when it is None) and the validator's verdicts (``validations``, and each run's own
+    ``run.validation``); nothing is counted or checked here (:func:`timetabler.plan.counts_for_runs`
+    and :func:`timetabler.plan.checked` do that).
 
     Every output asked for is checked before anything is written. ``notify(text)`` receives
     messages for the person (a created key, an output that could not be made) and
@@ -57,7 +55,7 @@ def publish(
     """
     notify = (lambda text: None) if (quiet or notify is None) else notify
     status = _no_status if (quiet or status is None) else status
-    from .tables import has_timetable, validate_run
+    from .tables import has_timetable, validations_for
     from .workbook import write_workbook
 
     outputs = dict(outputs or {})
@@ -65,8 +63,6 @@ def publish(
         return []
     settings = dict(settings or {})
     runs = list(runs)
-    if counts is None and count_if_missing and (outputs.get("out") or outputs.get("plot")) and runs:
-        counts, _ = count_for_runs(problem, runs, float(settings.get("count_budget", 20.0)))
     solved = [r for r in runs if has_timetable(r)]
     # check what each output needs before writing anything
     if outputs.get("plot") and counts is None:
@@ -77,10 +73,7 @@ def publish(
 
         for run in solved:
             check_dated(run, problem)
-    validations = dict(validations or {})
-    for run in runs:
-        if int(run.slots) not in validations and has_timetable(run):
-            validations[int(run.slots)] = validate_run(problem, run)
+    validations = validations_for(runs, validations)
     if outputs.get("pseudonyms"):
         from .pseudonyms import Pseudonyms, load_or_create_key, pseudonymise, pseudonymise_counts
 
@@ -171,27 +164,3 @@ def check_outputs(outputs: Mapping[str, Any] | None, *, inputs: Sequence[Any] = 
                 raise InputError(Finding(f"The pseudonym key {file} is a folder, not a key file."))
         else:
             check_writable_folder(file.parent, f"the pseudonym key {file.name}")
-
-
-def count_for_runs(problem: Any, runs: Sequence[Any], budget: float, *, graph: Any = None) -> tuple[Any, str | None]:
-    """Count clash-free timetables for the slot counts of ``runs``, or (None, why not).
-
-    Fixed and barred slots are respected, resolved against each run's own slots; without
-    any, all slot counts are counted in one call (the polynomial is shared).
-    """
-    from ..conflicts import conflict_graph
-    from ..counting.problem_counts import count_problem
-
-    graph = conflict_graph(problem) if graph is None else graph
-    runs = sorted({int(r.slots): r for r in runs}.values(), key=lambda r: int(r.slots))
-    if not runs:
-        return None, None
-    slot_lists = {int(r.slots): list(r.slot_list) for r in runs}
-    report, notes = count_problem(problem, list(slot_lists), graph=graph, slots_for=slot_lists.__getitem__,
-                                  budget_seconds=budget)
-    left_out = report.not_counted
-    if left_out:
-        notes = [*notes, f"Counts leave out {left_out}; the solver keeps to them too, so fewer timetables may keep every rule."]
-    if not report.constrained:
-        return report, " ".join(notes) if left_out else None
-    return report, " ".join(["Counts respect fixed and barred slots."] + notes)

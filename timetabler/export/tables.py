@@ -34,7 +34,7 @@ from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any, Callable, Mapping, Sequence
 
 from ..counting.bounds import log10_int
-from ..model import Problem, Room, Slot, SolveStatus, days_of, event_times
+from ..model import Problem, Room, Slot, SolveStatus, days_of, event_times, tail_room
 
 if TYPE_CHECKING:  # reports sit above the engines; the names are for the signatures only
     from ..counting import CountReport, SlotCount
@@ -451,7 +451,6 @@ def personal_table(problem: Problem, run: SolveRun, show: Callable[[str], str] =
     missed: dict[tuple[str, str], str] = {}
     late_room: dict[tuple[str, str], str] = {}  # still writing past a split event's slots: its one room then
     if people is not None:
-        from ..scheduling.rooms import tail_room
 
         for attendee, mine in people.sittings.items():
             for x in mine:
@@ -957,22 +956,13 @@ def count_words(c: SlotCount | None) -> str:
     return "not counted"
 
 
-def validate_run(problem: Problem, run: SolveRun) -> Validation:
-    """The independent validator's verdict on a run, or None when the validator is not available."""
-    attached = run.validation
-    if attached is not None:
-        return attached
-    from ..scheduling import validate_timetable
-
-    return validate_timetable(problem, run.timetable)
-
-
-def validations_for(problem: Problem, runs: Sequence[SolveRun], given: Mapping[int, Validation] | None = None) -> dict[int, Validation]:
-    """The validator's verdict for every run with a timetable (given ones kept)."""
+def validations_for(runs: Sequence[SolveRun], given: Mapping[int, Validation] | None = None) -> dict[int, Validation]:
+    """The validator's verdicts the runs carry (``run.validation``, given ones first): exports write the
+    checks they are given and never run the validator (:func:`timetabler.plan.checked` does)."""
     out = dict(given or {})
     for run in runs:
-        if int(run.slots) not in out and has_timetable(run):
-            out[int(run.slots)] = validate_run(problem, run)
+        if int(run.slots) not in out and has_timetable(run) and run.validation is not None:
+            out[int(run.slots)] = run.validation
     return out
 
 

@@ -126,7 +126,7 @@ def write_workbook(
     inputs = [getattr(problem, "source", ""), *inputs]
     target = check_target(path, inputs=inputs, suffixes=(".xlsx",))
     runs = sorted(runs, key=lambda r: int(r.slots))
-    validations = validations_for(problem, runs, validations)
+    validations = validations_for(runs, validations)
     figures = {int(r.slots): run_figures(problem, r) for r in runs}
 
     def build(tmp: Path) -> None:

@@ -87,7 +87,7 @@ from networkx.utils import UnionFind
 from ortools.sat.python import cp_model
 
 from ..availability import Availability
-from ..model import Problem, Room, Slot
+from ..model import Problem, Room, Slot, tail_room
 
 
 @dataclass
@@ -192,14 +192,6 @@ def seat_events(problem: Problem, slots: list[Slot], assignment: dict[str, int],
             _seat_group(problem, slot_set, codes, apart_here, held, need, assignment, sharing, splitting,
                         seconds_per_slot, seed, goals, unavailable, out, spans, tails)
     return out
-
-
-def tail_room(problem: Problem, parts: list[tuple[str, int]]) -> str:
-    """The room of an event's ``parts`` [(room, seats)] in which its attendees still writing with extra time
-    keep their seats past its own slots: the one with the most seats, the first in the Rooms sheet on a tie
-    (our rule, as the validator's)."""
-    order = {r.name: i for i, r in enumerate(problem.rooms)}
-    return max(parts, key=lambda part: (part[1], -order.get(part[0], len(order))))[0]
 
 
 def _tails(problem: Problem, found: Availability, code: str, start: int, span, apart) -> dict[int, int]:

@@ -224,10 +224,9 @@ async def publish(request: Request) -> Response:
     settings = {"input file": upload.name, **(kept.settings or {})}
 
     def work() -> Any:
-        from ..export.tables import validate_run
+        from ..plan import checked
 
-        run = runs[0]
-        run.validation = validate_run(problem, run)
+        run = checked(problem, runs[0])
         problems = publication_problems(problem, run)
         if problems:
             raise InputError(f"The timetable for {run.slots} slots was not published: {problems}")

@@ -801,14 +801,14 @@ def _make_output(stored: StoredUpload, kept: Solve, kind: str, runs: list, count
     if kind == "xlsx":
         target = out / "timetable.xlsx"
         publish({"out": str(target), **wanted}, problem=problem, runs=runs, counts=counts, reading=reading, settings=settings,
-                quiet=True, count_if_missing=False, **extra)
+                quiet=True, **extra)
         return target
     folder = out / kind
     if folder.exists():
         shutil.rmtree(folder)
     key = "csv" if kind == "csv" else "ics"
     publish({key: str(folder), **wanted}, problem=problem, runs=runs, counts=counts, reading=reading, settings=settings,
-            quiet=True, count_if_missing=False, **extra)
+            quiet=True, **extra)
     return an.zip_folder(folder, out / f"{kind}.zip")
 
 
