@@ -15,6 +15,26 @@ from .errors import Finding, InputError, setting
 from .model import Location, Problem, Slot
 
 
+# --------------------------------------------------------------------------- defaults
+# The defaults of a plan: the command line's options, the page's form and the README take them
+# from here (tests/test_readme_defaults.py holds the README to them).
+
+#: Slots in a day when the file has no Slots sheet: common practice with no single source (a
+#: morning and an afternoon session).
+SESSIONS_PER_DAY = 2
+MOST_SESSIONS_PER_DAY = 12
+#: Seconds of search for each number of slots (``solve``, the page) and in ``compare``.
+SOLVE_SECONDS = 30.0
+COMPARE_SECONDS = 20.0
+#: Seconds of counting: ``count``, ``compare --count-time``, and the counts of ``solve``'s workbook.
+COUNT_SECONDS = 20.0
+#: Search threads (a laptop's two cores).
+WORKERS = 2
+#: Seconds the page's counting may go on in the background: well over the command line's, since a
+#: count cut short says "not exact" where the command is exact.
+BACKGROUND_COUNT_SECONDS = 600.0
+
+
 @dataclass(frozen=True)
 class DayChoice:
     """The first ``days`` days of the Slots sheet: its first ``slots`` slots in time order."""

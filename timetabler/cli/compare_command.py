@@ -14,6 +14,7 @@ from rich.table import Table
 from ..conflicts import conflict_graph
 from ..errors import Finding, InputError
 from ..export.tables import comparison_table, rows_as_json, run_figures, short_sheet_words, value_text
+from ..plan import COMPARE_SECONDS, COUNT_SECONDS, MOST_SESSIONS_PER_DAY, SESSIONS_PER_DAY, WORKERS
 from ..plan import FEWEST, FewestFound, StepStarted, counts_for_runs, solve_steps
 from ..scheduling import SolveOptions
 from .command_clock import CommandClock
@@ -33,13 +34,14 @@ from .store_options import earlier_timetable, open_store, store_options
 @click.option("--slots", "slot_counts", cls=SlotCountsOption, metavar="K [K ...]", callback=parse_slot_counts,
               help="The numbers of slots to put side by side, e.g. --slots 5 6 or --slots 8-12 (or --days).")
 @days_option("Put side by side")
-@click.option("--sessions-per-day", type=click.IntRange(1, 12), default=2, show_default=True,
+@click.option("--sessions-per-day", type=click.IntRange(1, MOST_SESSIONS_PER_DAY),
+              default=SESSIONS_PER_DAY, show_default=True,
               help="Without a slots sheet: how many slots make a day (for back-to-back and two-in-a-day figures).")
-@time_limit_option(20.0, "Time for each number of slots, and again for the fewest-slots search, counted from the "
+@time_limit_option(COMPARE_SECONDS, "Time for each number of slots, and again for the fewest-slots search, counted from the "
                          "start of the command (reading the file comes out of it).")
-@time_limit_option(20.0, "Time for counting the clash-free timetables. Counts that take longer are estimated.",
+@time_limit_option(COUNT_SECONDS, "Time for counting the clash-free timetables. Counts that take longer are estimated.",
                    minimum=0.1, name="--count-time")
-@click.option("--workers", type=click.IntRange(1, 64), default=2, show_default=True, help="Search threads.")
+@click.option("--workers", type=click.IntRange(1, 64), default=WORKERS, show_default=True, help="Search threads.")
 @click.option("--seed", type=int, default=0, show_default=True, help="Random seed of the search.")
 @repeatable_option
 @click.option("--share-rooms/--no-share-rooms", default=True, help=SHARE_ROOMS_HELP)

@@ -14,6 +14,7 @@ from ..errors import Finding, InputError
 from ..export.tables import interval_words, ratio_words
 from .common import console, err_console, finding_json, input_options, print_json, read_input, show_warnings, styled
 from .slot_counts import SlotCountsOption, choose_slot_counts, days_option, parse_slot_counts
+from ..plan import COUNT_SECONDS
 from .solve_options import time_limit_option
 
 
@@ -24,7 +25,7 @@ from .solve_options import time_limit_option
               help="The numbers of slots to count for, e.g. --slots 5 6 or --slots 5-8 "
                    "(default: the number of slots in the slots sheet).")
 @days_option("Count for")
-@time_limit_option(20.0, "Time for exact counting. A group of events that takes longer is given bounds and an "
+@time_limit_option(COUNT_SECONDS, "Time for exact counting. A group of events that takes longer is given bounds and an "
                          "estimate, marked not exact.", minimum=0.1)
 @click.option("--polynomial", "show_polynomial", is_flag=True,
               help="Also print the counting polynomial P(k) and the number of ways to split the events into "

@@ -9,6 +9,7 @@ import webbrowser
 
 import click
 
+from ..plan import BACKGROUND_COUNT_SECONDS
 from .common import err_console, styled
 from .store_options import open_store, store_options
 
@@ -40,7 +41,7 @@ def _port_free(host: str, port: int) -> bool:
               help="Address to listen on. Keep the default: other addresses let other computers reach the page.")
 @click.option("--max-upload-mb", type=click.IntRange(1, 1024), default=20, show_default=True,
               help="Largest file the page accepts, in MB.")
-@click.option("--count-seconds", type=click.FloatRange(1, 3600), default=600.0, show_default=True,
+@click.option("--count-seconds", type=click.FloatRange(1, 3600), default=BACKGROUND_COUNT_SECONDS, show_default=True,
               help="Time the counting of clash-free timetables may go on in the background for the overview page "
                    "(the page shows bounds after a few seconds and the exact figures when they are ready).")
 @store_options

@@ -13,13 +13,11 @@ from ..conflicts import conflict_graph
 from ..errors import Finding, InputError
 from ..export.tables import short_sheet_words
 from ..model import FOUND_STATUSES, GOAL_NAMES
+from ..plan import COUNT_SECONDS, MOST_SESSIONS_PER_DAY, SESSIONS_PER_DAY, SOLVE_SECONDS, WORKERS
 from ..plan import FEWEST, FewestFound, StepStarted, counts_for_runs, solve_steps
 from ..scheduling import SolveOptions
 from .command_clock import CommandClock
 
-#: Seconds the solve command spends counting clash-free timetables for its workbook or chart
-#: (``compare --count-time`` sets its own).
-SOLVE_COUNT_SECONDS = 20.0
 from .interruption import SearchInterruption, StoppedEarly
 from .common import (SHARE_ROOMS_HELP, console, err_console, input_options, print_json, read_input, require_enrolments,
                      show_warnings, styled)
@@ -44,12 +42,13 @@ _parse_weights = parse_weights  # the one --weight parser, under its former name
 @click.option("--fewest", is_flag=True,
               help="Find the fewest slots that hold a timetable meeting every rule, say whether that is proven, "
                    "and give that timetable.")
-@click.option("--sessions-per-day", type=click.IntRange(1, 12), default=2, show_default=True,
+@click.option("--sessions-per-day", type=click.IntRange(1, MOST_SESSIONS_PER_DAY),
+              default=SESSIONS_PER_DAY, show_default=True,
               help="Without a slots sheet: how many slots make a day (for back-to-back and same-day counts).")
-@time_limit_option(30.0, "Time for each number of slots (and for --fewest), counted from the start of the command: "
+@time_limit_option(SOLVE_SECONDS, "Time for each number of slots (and for --fewest), counted from the start of the command: "
                    "reading the file and writing the results come out of it. The best timetable found by then is "
                    "given.")
-@click.option("--workers", type=click.IntRange(1, 64), default=2, show_default=True,
+@click.option("--workers", type=click.IntRange(1, 64), default=WORKERS, show_default=True,
               help="Search threads. More finish sooner on a machine with more cores.")
 @click.option("--seed", type=int, default=0, show_default=True, help="Random seed of the search.")
 @repeatable_option
@@ -161,7 +160,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, day_counts,
                 "split rooms": split_rooms, "kept from": keep}
     timetable_counts = None
     if outputs and (outputs.get("out") or outputs.get("plot")) and runs:  # the workbook and the chart show the counts
-        timetable_counts, _ = counts_for_runs(problem, runs, SOLVE_COUNT_SECONDS, graph=graph)
+        timetable_counts, _ = counts_for_runs(problem, runs, COUNT_SECONDS, graph=graph)
     written, write_error = try_publish(outputs, problem=problem, runs=runs, counts=timetable_counts, reading=reading,
                                        settings=settings, fewest=fewest_result, quiet=as_json)
     if not no_record:

@@ -19,13 +19,10 @@ import click
 from ..errors import Finding, InputError
 from ..intake.previous_timetable import PreviousTimetable, read_previous_timetable
 from ..store import Store, store_path
-from ..store.location import RETENTION_ENV
+from ..store.location import DEFAULT_RETENTION_DAYS, RETENTION_ENV
 from ..store.records import publication_problems
 from .common import err_console, warn
 
-#: Days a stored input (its enrolments, results and labels) is kept after it was last used.
-#: Common practice with no single source: an academic term and the following resit period.
-DEFAULT_RETENTION_DAYS = 180
 
 
 def store_options(func: Callable) -> Callable:

@@ -16,6 +16,9 @@ from pathlib import Path
 STORE_ENV = "TIMETABLER_STORE"
 RETENTION_ENV = "TIMETABLER_RETENTION_DAYS"
 FILE_NAME = "store.sqlite3"
+#: Days a stored input (its enrolments, results and labels) is kept after it was last used.
+#: Common practice with no single source: an academic term and the following resit period.
+DEFAULT_RETENTION_DAYS = 180
 
 
 def default_store_path() -> Path:

@@ -40,6 +40,8 @@ from starlette.staticfiles import StaticFiles
 from starlette.templating import Jinja2Templates
 from starlette.types import ASGIApp, Receive, Scope, Send
 
+from ..plan import BACKGROUND_COUNT_SECONDS, MOST_SESSIONS_PER_DAY, SESSIONS_PER_DAY, SOLVE_SECONDS
+from ..store.location import DEFAULT_RETENTION_DAYS
 from .uploads import DEFAULT_MAX_UPLOAD_BYTES, UploadStore
 
 log = logging.getLogger("timetabler.web")
@@ -72,9 +74,9 @@ class WebSettings:
     count_first_seconds: float = 3.0
     #: Seconds the counting of one set of slot counts may go on in the background; at least the
     #: command line's 20 s, since a count cut short says "not exact" where the command is exact.
-    count_budget_seconds: float = 600.0
+    count_budget_seconds: float = BACKGROUND_COUNT_SECONDS
     #: Default and largest time limit per slot count offered for a solve.
-    default_time_limit: int = 30
+    default_time_limit: int = int(SOLVE_SECONDS)
     max_time_limit: int = 3600
     #: Most slot counts solved in one job.
     max_slot_counts: int = 8
@@ -86,7 +88,7 @@ class WebSettings:
     #: The store of published timetables (None: --store / TIMETABLER_STORE / the user's data folder),
     #: and the days an unused stored input is kept (0: until deleted).
     store_path: str | None = None
-    retention_days: int = 180
+    retention_days: int = DEFAULT_RETENTION_DAYS
     #: Every host name the page answers as: the loopback names and extra_hosts.
     allowed_hosts: tuple[str, ...] = field(default=(), init=False)
 
@@ -208,6 +210,7 @@ def make_templates() -> Jinja2Templates:
     from . import page_format
 
     env.filters.update(page_format.FILTERS)
+    env.globals.update(sessions_per_day=SESSIONS_PER_DAY, most_sessions_per_day=MOST_SESSIONS_PER_DAY)
     return Jinja2Templates(env=env)
 
 

@@ -39,6 +39,7 @@ from starlette.responses import FileResponse, JSONResponse, RedirectResponse, Re
 from starlette.routing import Route
 
 from ..conflicts import people_figures
+from ..plan import MOST_SESSIONS_PER_DAY, SESSIONS_PER_DAY
 from ..errors import Finding, InputError
 from . import analysis as an
 from .count_chart import bar_from_count, count_chart_svg
@@ -407,7 +408,7 @@ async def _start_solve(request: Request, stored: StoredUpload, analysis: an.Anal
             raise ValueError(
                 f"The slots sheet of this file lists {len(problem.slots)} slots; a timetable cannot use more than that."
             )
-        per_day = _whole(fields.get("sessions_per_day", "2"), "Sessions per day", 1, 12)
+        per_day = _whole(fields.get("sessions_per_day", str(SESSIONS_PER_DAY)), "Sessions per day", 1, MOST_SESSIONS_PER_DAY)
         limit = _whole(fields.get("time_limit", str(settings.default_time_limit)), "Time limit", 1, settings.max_time_limit)
         weights = an.weights_from_form(fields, problem.weights)
         if fields.get("rules_listed") == "yes":  # the form listed the rules: keep the ticked ones
