@@ -42,9 +42,10 @@ from ..conflicts import conflict_graph
 from ..model import Problem, Slot, SolveStatus, Timetable, days_of, time_order
 from .cliques import clique_cover, largest_clique_found
 from ..availability import Availability
-from .cpsat_model import (BuildStopped, TimetableModel, _room_capacity_by_slot, build_model, large_event_codes,
-                          model_memory_mb, needs_availability, pair_plan, physical_domains,
-                          slots_interchangeable)
+from .cpsat_goals import model_memory_mb, pair_plan
+from .cpsat_model import BuildStopped, TimetableModel, build_model
+from .slot_domains import (_room_capacity_by_slot, large_event_codes, needs_availability, physical_domains,
+                           slots_interchangeable)
 from .arrangement import arrange
 from .dsatur import dsatur
 from .infeasibility import prechecks, room_count_witness
