@@ -78,12 +78,29 @@ def fewest_slots(
         graph.add_nodes_from(missing, size=0)
     sizes = {c: int(graph.nodes[c].get("size", 0)) for c in graph}
     n = graph.number_of_nodes()
-
-    def slots_for(k: int) -> list[Slot]:
-        return problem.slots_for(k, per_day)
-
     cover = clique_cover(graph)
     clique = largest_clique_found(graph, cover)
+    lower, reason, witness = _lower_bound(problem, n, clique, sizes)
+    colouring = dsatur(graph)
+    dsat = max(colouring.values(), default=0)
+    plain = not problem.rules and problem.max_per_day is None and not problem.rooms \
+        and not problem.slots and not any(e.fixed_slot or e.barred_slots for e in problem.events.values())
+    result = FewestSlots(lower=lower, lower_reason=reason, witness=witness, upper=None, upper_reason="",
+                         proven=False, dsatur_slots=dsat, slots_in_sheet=len(problem.slots) if problem.slots else None)
+    search = _Search(problem, per_day, options, progress, graph, start, result, lo=lower, proven_lo=lower,
+                     max_k=len(problem.slots) if problem.slots else max(n, 1),
+                     quick=SolveOptions(**{**options.__dict__, "explain": False}))
+    if plain:
+        search.tighten_plain(colouring, dsat, cover, clique)
+    search.upwards()
+    search.lo = max(search.lo, search.proven_lo)
+    search.bisect()
+    return search.finish()
+
+
+def _lower_bound(problem: Problem, n: int, clique: list, sizes: dict[str, int]) -> tuple[int, str, list[str]]:
+    """The best of the lower bounds, with its reason and witness: the largest clique found, the busiest
+    attendee, the seats."""
     lower, reason, witness = (1 if n else 0), "there is at least one event" if n else "there are no events", []
     if len(clique) > lower:
         lower, reason, witness = len(clique), f"{len(clique)} events pairwise share attendees", [str(c) for c in clique]
@@ -100,26 +117,50 @@ def fewest_slots(
         need = math.ceil(seats_needed / per_slot)
         if need > lower:
             lower, reason, witness = need, (f"{seats_needed} seats are needed and a slot seats at most {per_slot}"), []
-    colouring = dsatur(graph)
-    dsat = max(colouring.values(), default=0)
-    plain = not problem.rules and problem.max_per_day is None and not problem.rooms \
-        and not problem.slots and not any(e.fixed_slot or e.barred_slots for e in problem.events.values())
-    result = FewestSlots(lower=lower, lower_reason=reason, witness=witness, upper=None, upper_reason="",
-                         proven=False, dsatur_slots=dsat, slots_in_sheet=len(problem.slots) if problem.slots else None)
+    return lower, reason, witness
+
+
+@dataclass
+class _Search:
+    """The search between the bounds: what its phases hand on (the bounds, the best timetable, why counts fail)."""
+
+    problem: Problem
+    per_day: int | None
+    options: SolveOptions
+    progress: Progress | None
+    graph: nx.Graph
+    start: float
+    result: FewestSlots
+    lo: int
+    proven_lo: int
+    max_k: int
+    quick: SolveOptions  # the probes' options (no explanation), their time limit set before each
+    hi: int | None = None
     best_run: SolveRun | None = None
-    hi = None
-    max_k = len(problem.slots) if problem.slots else max(n, 1)
-    proven_lo = lower
-    why_not: dict[int, str] = {}  # slot count proven impossible -> the solver's reason
-    lo = lower
-    quick = SolveOptions(**{**options.__dict__, "explain": False})
-    if plain:
-        hi = max(dsat, lower)
+    why_not: dict[int, str] = field(default_factory=dict)  # slot count proven impossible -> the solver's reason
+
+    def slots_for(self, k: int) -> list[Slot]:
+        return self.problem.slots_for(k, self.per_day)
+
+    def say(self, phase: str, k: int) -> None:
+        if self.progress:
+            self.progress({"event": "phase", "phase": phase, "slots": k, "seconds": time.perf_counter() - self.start})
+
+    def probe(self, k: int) -> SolveRun:
+        """CP-SAT on ``k`` slots without the goals, within ``quick.time_limit``, noted in the attempts."""
+        run = solve(_without_goals(self.problem), self.slots_for(k), self.quick, graph=self.graph)
+        self.result.attempts.append({"slots": k, "status": run.status, "seconds": round(run.wall_seconds, 3)})
+        return run
+
+    def tighten_plain(self, colouring: dict, dsat: int, cover, clique) -> None:
+        """Plain clashes only: the transversal method at the lower bound, then TabuCol taking turns with short
+        CP-SAT probes, one slot fewer at a time."""
+        options, result, graph = self.options, self.result, self.graph
+        hi = max(dsat, self.lo)
         result.upper_reason = "DSATUR"
+        lo = self.lo
         if hi > lo:
-            if progress:
-                progress({"event": "phase", "phase": f"transversals for {lo} slots", "slots": lo,
-                          "seconds": time.perf_counter() - start})
+            self.say(f"transversals for {lo} slots", lo)
             # events that split into cliques of exactly `lo`: a timetable with `lo` slots is a partition into
             # transversals (transversals.py); decided first, as it settles the question outright when it succeeds
             found = colour_by_transversals(graph, lo, cover + [clique], seconds=0.4 * options.time_limit,
@@ -128,10 +169,10 @@ def fewest_slots(
             if found.colouring is not None:
                 colouring, hi, result.upper_reason = found.colouring, lo, "CP-SAT over transversals of the clique partition"
             elif found.impossible:
-                why_not[lo] = (f"the events split into groups of {lo} that pairwise share attendees, so each slot "
-                               f"takes one event of every group; of the {found.transversals} clash-free ways to "
-                               f"pick one from each, no {lo} cover every event")
-                lo = proven_lo = lo + 1
+                self.why_not[lo] = (f"the events split into groups of {lo} that pairwise share attendees, so each slot "
+                                    f"takes one event of every group; of the {found.transversals} clash-free ways to "
+                                    f"pick one from each, no {lo} cover every event")
+                lo = self.lo = self.proven_lo = lo + 1
         # Up to 40 % of the time tightens the upper bound one slot at a time: TabuCol for a short
         # budget, then (if it fails) CP-SAT for the same budget, which may find a timetable or prove
         # that none exists; the budget doubles after each round that settles nothing. A step that
@@ -141,11 +182,9 @@ def fewest_slots(
         share_end = time.perf_counter() + 0.4 * options.time_limit
         budget = max(0.25, options.time_limit / 60)
         attempt = 0
-        while hi > lo and time.perf_counter() < share_end and not _stopped(options):
+        while hi > self.lo and time.perf_counter() < share_end and not _stopped(options):
             k = hi - 1
-            if progress:
-                progress({"event": "phase", "phase": f"tabu search for {k} slots", "slots": k,
-                          "seconds": time.perf_counter() - start})
+            self.say(f"tabu search for {k} slots", k)
             step = min(budget, max(0.05, share_end - time.perf_counter()))
             better = tabucol(graph, k, start=colouring, seed=options.seed + attempt, seconds=step,
                              max_moves=int(40_000 * step) if options.deterministic else None)
@@ -153,76 +192,82 @@ def fewest_slots(
             if better is not None:
                 colouring, hi, result.upper_reason = better, k, "tabu search (TabuCol)"
                 continue
-            quick.time_limit = min(budget, max(0.05, share_end - time.perf_counter()))
-            run = solve(_without_goals(problem), slots_for(k), quick, graph=graph)
-            result.attempts.append({"slots": k, "status": run.status, "seconds": round(run.wall_seconds, 3)})
+            self.quick.time_limit = min(budget, max(0.05, share_end - time.perf_counter()))
+            run = self.probe(k)
             if run.found:
                 colouring, hi, result.upper_reason = dict(run.assignment), k, "CP-SAT"
             elif run.status == "infeasible":
-                lo = proven_lo = k + 1
-                why_not[k] = run.reason or ""
+                self.lo = self.proven_lo = k + 1
+                self.why_not[k] = run.reason or ""
             else:
                 budget *= 2
-        best_run = SolveRun(slots=hi, slot_list=slots_for(hi), status="feasible", assignment=dict(colouring))
-    # without a timetable yet (rules, rooms, a slots sheet): a quick pass upwards from the lower bound,
-    # each count with a short budget (enough for DSATUR's seat-aware first timetable, a witness of
-    # impossibility, or a short CP-SAT search), stopping at the first timetable; the counts below it that
-    # were left open are then tried again, with the rest of the time, by the bisection below
-    step_time = max(1.0, options.time_limit / 20)
-    k = lo
-    while hi is None and k <= max_k:
-        left = options.time_limit - (time.perf_counter() - start)
-        if left <= 0.2 or _stopped(options):
-            break
-        quick.time_limit = min(step_time, left) if k < max_k else left
-        run = solve(_without_goals(problem), slots_for(k), quick, graph=graph)
-        result.attempts.append({"slots": k, "status": run.status, "seconds": round(run.wall_seconds, 3)})
-        if run.found:
-            hi, best_run, result.upper_reason = k, run, "CP-SAT"
-        elif run.status == "infeasible":
-            proven_lo = max(proven_lo, k + 1)
-            why_not[k] = run.reason or ""
-        k += 1
-    lo = max(lo, proven_lo)
-    # with a timetable in hand: the lower bound first, then bisection
-    first_try = True
-    while hi is not None and lo < hi:
-        left = options.time_limit - (time.perf_counter() - start)
-        if left <= 0.2 or _stopped(options):
-            break
-        mid = lo if first_try else (lo + hi) // 2
-        first_try = False
-        # the lower bound is often the answer (cliques decide most real sessions): give it most of the time
-        quick.time_limit = left if hi - lo <= 1 else (left * 0.7 if mid == lo else left / 2)
-        if progress:
-            progress({"event": "phase", "phase": f"trying {mid} slots", "slots": mid,
-                      "seconds": time.perf_counter() - start})
-        run = solve(_without_goals(problem), slots_for(mid), quick, graph=graph)
-        result.attempts.append({"slots": mid, "status": run.status, "seconds": round(run.wall_seconds, 3)})
-        if run.found:
-            used = max(run.assignment.values(), default=0) if not problem.slots else mid
-            hi, best_run, result.upper_reason = max(used, lo), run, "CP-SAT"
-            if used < mid:  # the same timetable, rooms and own rooms over the slots it uses
-                best_run = SolveRun(slots=hi, slot_list=slots_for(hi), status="feasible", assignment=run.assignment,
-                                    rooms=dict(run.rooms), own_rooms=dict(run.own_rooms))
-        elif run.status == "infeasible":
-            # fewer slots only make it harder: infeasible at mid proves the fewest is above mid
-            lo = mid + 1
-            proven_lo = max(proven_lo, mid + 1)
-            why_not[mid] = run.reason or ""
-        else:
-            lo = mid + 1
-    result.upper = hi
-    if proven_lo > result.lower:
-        result.lower = proven_lo
-        reason = why_not.get(proven_lo - 1)
-        result.lower_reason = (f"{proven_lo - 1} slots cannot hold a timetable: {reason}" if reason else
-                               f"CP-SAT proved that {proven_lo - 1} slots cannot hold a timetable")
-        result.witness = []
-    result.proven = hi is not None and result.lower == hi
-    result.run = best_run
-    result.wall_seconds = time.perf_counter() - start
-    return result
+        self.hi = hi
+        self.best_run = SolveRun(slots=hi, slot_list=self.slots_for(hi), status="feasible", assignment=dict(colouring))
+
+    def upwards(self) -> None:
+        """Without a timetable yet (rules, rooms, a slots sheet): a quick pass upwards from the lower bound,
+        each count with a short budget (enough for DSATUR's seat-aware first timetable, a witness of
+        impossibility, or a short CP-SAT search), stopping at the first timetable; the counts below it that
+        were left open are then tried again, with the rest of the time, by :meth:`bisect`."""
+        options = self.options
+        step_time = max(1.0, options.time_limit / 20)
+        k = self.lo
+        while self.hi is None and k <= self.max_k:
+            left = options.time_limit - (time.perf_counter() - self.start)
+            if left <= 0.2 or _stopped(options):
+                break
+            self.quick.time_limit = min(step_time, left) if k < self.max_k else left
+            run = self.probe(k)
+            if run.found:
+                self.hi, self.best_run, self.result.upper_reason = k, run, "CP-SAT"
+            elif run.status == "infeasible":
+                self.proven_lo = max(self.proven_lo, k + 1)
+                self.why_not[k] = run.reason or ""
+            k += 1
+
+    def bisect(self) -> None:
+        """With a timetable in hand: the lower bound first, then bisection."""
+        options, problem = self.options, self.problem
+        first_try = True
+        while self.hi is not None and self.lo < self.hi:
+            lo, hi = self.lo, self.hi
+            left = options.time_limit - (time.perf_counter() - self.start)
+            if left <= 0.2 or _stopped(options):
+                break
+            mid = lo if first_try else (lo + hi) // 2
+            first_try = False
+            # the lower bound is often the answer (cliques decide most real sessions): give it most of the time
+            self.quick.time_limit = left if hi - lo <= 1 else (left * 0.7 if mid == lo else left / 2)
+            self.say(f"trying {mid} slots", mid)
+            run = self.probe(mid)
+            if run.found:
+                used = max(run.assignment.values(), default=0) if not problem.slots else mid
+                self.hi, self.best_run, self.result.upper_reason = max(used, lo), run, "CP-SAT"
+                if used < mid:  # the same timetable, rooms and own rooms over the slots it uses
+                    self.best_run = SolveRun(slots=self.hi, slot_list=self.slots_for(self.hi), status="feasible",
+                                             assignment=run.assignment, rooms=dict(run.rooms),
+                                             own_rooms=dict(run.own_rooms))
+            elif run.status == "infeasible":
+                # fewer slots only make it harder: infeasible at mid proves the fewest is above mid
+                self.lo = mid + 1
+                self.proven_lo = max(self.proven_lo, mid + 1)
+                self.why_not[mid] = run.reason or ""
+            else:
+                self.lo = mid + 1
+
+    def finish(self) -> FewestSlots:
+        result, hi, proven_lo = self.result, self.hi, self.proven_lo
+        result.upper = hi
+        if proven_lo > result.lower:
+            result.lower = proven_lo
+            reason = self.why_not.get(proven_lo - 1)
+            result.lower_reason = (f"{proven_lo - 1} slots cannot hold a timetable: {reason}" if reason else
+                                   f"CP-SAT proved that {proven_lo - 1} slots cannot hold a timetable")
+            result.witness = []
+        result.proven = hi is not None and result.lower == hi
+        result.run = self.best_run
+        result.wall_seconds = time.perf_counter() - self.start
+        return result
 
 
 def _stopped(options: SolveOptions) -> bool:
