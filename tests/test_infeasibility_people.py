@@ -145,7 +145,7 @@ def test_optional_enrolments_count_towards_no_attendees_load():
     slots = SLOTS[:2]
     assert _any_timetable(p, slots)
     assert solve(p, slots, QUICK).status in ("optimal", "feasible")
-    from timetabler.scheduling.solve import fewest_slots
+    from timetabler.scheduling.fewest_slots_search import fewest_slots
     assert fewest_slots(p, options=QUICK).lower == 2
 
 

@@ -239,7 +239,7 @@ def test_fewest_slots_uses_the_clique_partition_when_the_other_searches_cannot_c
     import importlib
 
     from timetabler.scheduling import SolveRun
-    solve_module = importlib.import_module("timetabler.scheduling.solve")
+    solve_module = importlib.import_module("timetabler.scheduling.fewest_slots_search")
     # as on queen11_11, where tabu search and CP-SAT on the slot model find nothing in a minute
     monkeypatch.setattr(solve_module, "tabucol", lambda *a, **k: None)
     monkeypatch.setattr(solve_module, "solve", lambda problem, slots, *a, **k: SolveRun(

@@ -294,7 +294,7 @@ def test_groups_are_not_moved_between_slots_when_a_rule_ties_an_event_to_its_slo
     # fixed slot; it must run only when the slots are interchangeable. Before this was checked,
     # the sample term's first timetable lost its fixed paper's slot and was thrown away.
     import importlib
-    solve_module = importlib.import_module("timetabler.scheduling.solve")
+    solve_module = importlib.import_module("timetabler.scheduling.block_solver")
     calls = []
     real = solve_module.arrange
     monkeypatch.setattr(solve_module, "arrange", lambda *a, **k: calls.append(1) or real(*a, **k))

@@ -48,13 +48,13 @@ def enrolments(edges: list[tuple[int, int]]) -> bytes:
 def colourable(edges: list[tuple[int, int]], n: int, k: int) -> bool:
     """An independent check, with a CP-SAT model of our own: can the exams take k slots with no clash?"""
     model = cp_model.CpModel()
-    slot = [model.NewIntVar(0, k - 1, f"x{i}") for i in range(n)]
+    slot = [model.new_int_var(0, k - 1, f"x{i}") for i in range(n)]
     for i, j in edges:
-        model.Add(slot[i] != slot[j])
+        model.add(slot[i] != slot[j])
     solver = cp_model.CpSolver()
     solver.parameters.max_time_in_seconds = 60
     solver.parameters.num_workers = 1
-    status = solver.Solve(model)
+    status = solver.solve(model)
     assert status in (cp_model.OPTIMAL, cp_model.FEASIBLE, cp_model.INFEASIBLE)
     return status != cp_model.INFEASIBLE
 

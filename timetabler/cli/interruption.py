@@ -2,7 +2,7 @@
 
 Python runs a signal handler only when the main thread is back in the interpreter, and during a
 CP-SAT search the main thread is inside the solver until the search ends (CP-SAT is told not to
-catch SIGINT itself, see ``scheduling/solve._parameters``). So :class:`SearchInterruption` also
+catch SIGINT itself, see ``scheduling/cpsat_run.set_parameters``). So :class:`SearchInterruption` also
 has the signal's number written to a pipe (``signal.set_wakeup_fd``, done at the moment the
 signal arrives), and a thread reading that pipe sets :attr:`SearchInterruption.requested`, which
 the engine's ``SolveOptions.stop`` asks: every CP-SAT search stops within a tenth of a second,

@@ -39,7 +39,8 @@ import numpy as np
 
 from ..model import Problem, RuleKind, Slot, days_of
 from .arrangement import pair_cost
-from .cpsat_model import Domains, _attendee_event_sets, _room_capacity_by_slot, _type_key, optional_missed_by_slot
+from .cpsat_rules import _attendee_event_sets
+from .slot_domains import Domains, _room_capacity_by_slot, _type_key, optional_missed_by_slot
 
 #: A limit so high it never binds (slot seats not given).
 UNLIMITED = np.iinfo(np.int64).max // 4

@@ -684,7 +684,7 @@ def _rooms_found(solver, use, seats, sizes: dict[str, int], splitting: bool) -> 
 
 
 def _solve_seating(m: cp_model.CpModel, seconds: float, seed: int) -> tuple[cp_model.CpSolver, int]:
-    """One worker, within ``seconds``; Ctrl-C and SIGTERM stay the caller's (see solve._parameters)."""
+    """One worker, within ``seconds``; Ctrl-C and SIGTERM stay the caller's (see cpsat_run.set_parameters)."""
     solver = cp_model.CpSolver()
     solver.parameters.catch_sigint_signal = False
     solver.parameters.max_time_in_seconds = seconds

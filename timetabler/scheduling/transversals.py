@@ -128,7 +128,7 @@ def colour_by_transversals(
     for literals in covering.values():
         model.add_exactly_one(literals)
     solver = cp_model.CpSolver()
-    solver.parameters.catch_sigint_signal = False  # Ctrl-C and SIGTERM stay the caller's (see solve._parameters)
+    solver.parameters.catch_sigint_signal = False  # Ctrl-C and SIGTERM stay the caller's (see cpsat_run.set_parameters)
     left = max(0.05, seconds - (time.perf_counter() - start))
     if configure is not None:
         configure(solver, left)
