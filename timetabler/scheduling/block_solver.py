@@ -615,9 +615,16 @@ def _improve_locally(task: BlockTask, assignment: dict[str, int], seconds: float
     progress, info, start = task.progress, task.info, task.start
     waited_from = time.perf_counter()
     if _local_search_loading is not None:  # the compiled loop, loaded in the background since the start
-        wait = min(seconds, options.stop.seconds_left()) if isinstance(options.stop, ClockStop) else seconds
-        _local_search_loading.join(timeout=max(0.0, wait))
+        if options.deterministic:
+            # repeatable mode: the same work whether the loop loads fast or slowly, so wait up to the hard
+            # stop (not the counted seconds: a first solve would skip the search a second one makes)
+            wait = options.stop.seconds_left() if isinstance(options.stop, ClockStop) else None
+        else:
+            wait = seconds
+        _local_search_loading.join(timeout=None if wait is None else max(0.0, wait))
         if _local_search_loading.is_alive():
+            if options.deterministic:
+                cut_by_clock(options)  # the search this run should make was not made: it may not repeat
             return None
         if not options.deterministic:
             seconds -= time.perf_counter() - waited_from
