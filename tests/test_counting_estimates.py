@@ -17,7 +17,7 @@ import pytest
 
 from timetabler.counting import count_timetables
 from timetabler.counting.bounds import agreeing_family_lower, clique_product_upper, degeneracy_lower
-from timetabler.counting.sequential_sampling import dsatur_order, log_mean_moments, sample_chain
+from timetabler.counting.sequential_sampling import dsatur_order, log_mean_moments, neyman_shares, sample_chain, sample_counts
 
 
 def brute_count(graph: nx.Graph, k: int, allowed: dict | None = None) -> int:
@@ -71,6 +71,53 @@ def test_intervals_cover_exact_counts_and_ratios():
     # 95 % intervals on 7 cases (fixed seeds): all but at most one must cover
     assert covered >= len(every) - 1
     assert ratios >= len(every) - 1
+
+
+def complete_count(n: int, k: int) -> int:
+    return math.perm(k, n)  # closed form: k (k − 1) … (k − n + 1)
+
+
+def test_one_chain_per_number_of_slots_covers_closed_forms_and_their_ratios():
+    # cycle (closed form above), tree k (k − 1)^(n − 1), complete graph k!/(k − n)! (closed forms)
+    tree = nx.balanced_tree(3, 2)
+    n = tree.number_of_nodes()
+    every = [(nx.cycle_graph(11), {3: cycle_count(11, 3), 4: cycle_count(11, 4)}),
+             (tree, {3: 3 * 2 ** (n - 1), 4: 4 * 3 ** (n - 1)}),
+             (nx.complete_graph(6), {6: complete_count(6, 6), 7: complete_count(6, 7)})]
+    for g, truth in every:
+        ks = sorted(truth)
+        est = sample_counts(g, ks, seconds=0.8)
+        assert sorted(est) == ks and all(est[k].ks == [k] for k in ks)  # one chain each, no closing steps
+        for k in ks:
+            iv = est[k].count_moments(k).interval()
+            assert iv.low - 1e-9 <= math.log10(truth[k]) <= iv.high + 1e-9
+            assert iv.high - iv.low < 0.2
+        lo, hi = ks
+        below, above = est[lo].count_moments(lo), est[hi].count_moments(hi)
+        ratio = type(above)(above.centre - below.centre, above.variance + below.variance, 8).interval()
+        assert ratio.low - 1e-9 <= math.log10(truth[hi] / truth[lo]) <= ratio.high + 1e-9
+
+
+def test_the_time_goes_where_the_variance_is():
+    # a tree in DSATUR order: every event after the first has one earlier neighbour, so the
+    # weights are constant and the estimate has no variance; the odd cycle at 3 slots does
+    g = nx.disjoint_union(nx.balanced_tree(2, 4), nx.cycle_graph(9))
+    tree_only = nx.balanced_tree(2, 4)
+    est = sample_counts(tree_only, [3, 4], seconds=0.6)
+    for k in (3, 4):
+        m = est[k].count_moments(k)
+        assert m.variance == pytest.approx(0.0, abs=1e-18)
+        assert m.centre == pytest.approx(math.log(k) + (31 - 1) * math.log(k - 1))  # closed form, tree
+    # the time is spent where the variance is (Neyman: t_k ∝ √v_k), every k keeping a floor
+    shares = neyman_shares({3: 16.0, 4: 1.0, 5: 0.0})
+    assert sum(shares.values()) == pytest.approx(1.0)
+    assert shares[3] == pytest.approx(4 * shares[4])  # √16 : √1
+    # by hand: roots 4, 1, 0 give 0.8, 0.2, 0; the floor lifts 0 to 1/9; rescaled by 10/9
+    assert shares[5] == pytest.approx(0.1) and shares[3] == pytest.approx(0.72)
+    assert neyman_shares({3: None, 4: 1.0})[3] == pytest.approx(2 / 3)  # unknown: four times the worst, √4 : √1
+    # and the pilots feed it: a tree (no variance) and an odd cycle at 3 slots (some)
+    est = sample_counts(g, [3, 30], seconds=1.0)
+    assert all(est[k].count_moments(k) is not None for k in (3, 30))
 
 
 def test_fixed_and_barred_slots_are_respected_by_the_estimate():

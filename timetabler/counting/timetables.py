@@ -35,7 +35,7 @@ from .bounds import (
     lower_bound,
 )
 from ..dsatur import dsatur_order
-from .sequential_sampling import Moments, sample_chain
+from .sequential_sampling import Moments, sample_counts
 from .budget import Budget, BudgetExceeded
 from .frontier import colourings, frontier_order
 from .polynomial import ChromaticPolynomial
@@ -466,25 +466,14 @@ def _estimate_component(comp: ComponentCount, sub: nx.Graph, ks: list[int], stop
                 lowers[k] = max(lowers[k], agreeing_family_lower(sub, k, dsatur, deadline=bounds_stop))
     possible = [k for k in possible if uppers[k] > 0]
     chains: dict[int, object] = {}
-    direct: dict[int, Moments | None] = {}
     if possible:
+        # every number of slots by its own chain; the ratio to one slot fewer is the difference
+        # of two independent logs (sample_counts says why, and how the time is shared)
         runs = _chain_runs(possible, len(clique), comp.constrained)
-        weights = [hi - lo + 1 for lo, hi in runs]
-        for index, (lo, hi) in enumerate(runs):
-            left = max(stop - time.monotonic(), 0.1)
-            share = 0.9 * left * weights[index] / sum(weights[index:])
-            allowed = allowed_at.get(lo) or None
-            if hi > lo:
-                # the fewest slots of the run are the hardest: the chain closing slots down to it may
-                # meet dead ends, so it is also sampled on its own, placing the events at lo slots
-                chain = sample_chain(sub, lo, hi, seconds=0.65 * share, order=order)
-                alone = sample_chain(sub, lo, lo, seconds=max(share - (time.monotonic() - (stop - left)), 0.1), order=order)
-                direct[lo] = alone.count_moments(lo)
-                chain.colourings.setdefault(lo, []).extend(alone.colourings.get(lo, []))
-            else:
-                chain = sample_chain(sub, lo, hi, seconds=share, allowed=allowed, order=order)
-            for k in chain.ks:
-                chains[k] = chain
+        sampled = sorted({k for lo, hi in runs for k in range(lo, hi + 1)})
+        left = max(stop - time.monotonic(), 0.1)
+        chains = sample_counts(sub, sampled, seconds=0.9 * left, order=order,
+                               allowed_at={k: allowed_at.get(k) or None for k in sampled})
     counts = []
     for k in ks:
         if k not in uppers or uppers[k] == 0:
@@ -508,18 +497,11 @@ def _estimate_component(comp: ComponentCount, sub: nx.Graph, ks: list[int], stop
                 break
             lower = max(lower, agreeing_family_lower(sub, k, colouring, allowed, deadline=stop))
         moments = chain.count_moments(k) if chain is not None else None
-        alone = direct.get(k)
-        if alone is not None and (moments is None or alone.variance < moments.variance):
-            moments = alone
-        ratio = chain.ratio_moments(k) if chain is not None and k - 1 in chain.ks else None
-        if chain is not None and direct.get(k - 1) is not None and k - 1 in chain.ks:
-            above = chain.count_moments(k)
-            if above is not None:  # independent runs: the variances add
-                below = direct[k - 1]
-                other = Moments(above.centre - below.centre, above.variance + below.variance,
-                                min(above.replicates, below.replicates))
-                if ratio is None or other.variance < ratio.variance:
-                    ratio = other
+        ratio = None
+        below = chains[k - 1].count_moments(k - 1) if k - 1 in chains else None
+        if moments is not None and below is not None:  # independent chains: the variances add
+            ratio = Moments(moments.centre - below.centre, moments.variance + below.variance,
+                            min(moments.replicates, below.replicates))
         counts.append(_estimated_count(k, lower, uppers[k], moments, ratio))
     comp.counts = counts
 
