@@ -138,7 +138,7 @@ def test_json_contract_and_big_integers_as_text():
 def test_progress_reports_steps_and_groups():
     seen = []
     g = nx.disjoint_union(nx.random_regular_graph(3, 24, seed=1), nx.cycle_graph(7))
-    count_timetables(g, [3], progress=lambda done, total, message: seen.append((done, total, message)),
+    count_timetables(g, [3], progress=lambda message, done, total: seen.append((done, total, message)),
                      what_if=False)
     assert seen[-1][0] == seen[-1][1] == 2  # two groups linked by clashes, both done
     assert any("step" in message for _, _, message in seen)  # the long count reported its steps

@@ -101,7 +101,7 @@ def command(file: str, sheet, attendee_column, event_column, slot_counts, day_co
         return
 
     with err_console.status(styled("Counting clash-free timetables…")) as status:
-        def progress(done: int, total: int, message: str) -> None:
+        def progress(message: str, done: int, total: int | None) -> None:
             status.update(styled(f"Counting clash-free timetables… group {done} of {total} done ({message})"))
 
         report = work(progress)

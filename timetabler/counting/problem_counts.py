@@ -155,7 +155,7 @@ def _count_with_availability(problem: Problem, ks, graph, slots_for, budget_seco
         by_people = not found.one_slot_each or bool(counter.live_quorums)
         if by_people:
             if progress is not None:
-                progress(0, len(counter.groups), f"counting the starts honouring people with {k} slots")
+                progress(f"counting the starts honouring people with {k} slots", 0, len(counter.groups))
             values_at[k] = counter.group_counts(found, Budget(started + PEOPLE_SHARE * share))
         left = max(share - (time.monotonic() - started), 0.5)
         if by_people and all(v is not None for v in values_at[k].values()):

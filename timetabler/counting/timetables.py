@@ -21,11 +21,12 @@ from __future__ import annotations
 import math
 import time
 from dataclasses import dataclass, field
-from typing import Callable, Sequence
+from typing import Sequence
 
 import networkx as nx
 
 from ..conflicts import largest_clique
+from ..progress import StepProgress
 from .bounds import (
     log10_int,
     agreeing_family_lower,
@@ -41,7 +42,7 @@ from .frontier import colourings, frontier_order
 from .polynomial import ChromaticPolynomial
 from .reductions import chromatic_polynomial
 
-Progress = Callable[[int, int, str], None]
+Progress = StepProgress  # (what, done, total): see timetabler.progress
 
 MEANING = (
     "timetables = the number of ways to give every event one of K distinct, labelled slots "
@@ -271,8 +272,9 @@ def count_timetables(
         Event code → slot number (1-based) it must use; event code → slot numbers it may
         not use. Counts then respect them (see the module notes).
     progress : callable, optional
-        Called as ``progress(done, total, message)``: groups done out of groups to count,
-        and a line about the work in hand (steps of a long frontier count included).
+        Called as ``progress(message, done, total)`` (:data:`timetabler.progress.StepProgress`):
+        a line about the work in hand (steps of a long frontier count included), and groups done
+        out of groups to count.
     exact_counting : bool
         ``False`` skips exact counting and estimates every group (for checking the
         estimates against exact counts: ``benchmarks/count_estimates.py``).
@@ -307,15 +309,15 @@ def count_timetables(
         left = max(deadline - time.monotonic(), 0.5)
         budget = Budget(time.monotonic() + max(left - min(0.1 * left, 1.0), 0.5), memory_bytes)
         def inner(done: int, total: int, index=index, size=len(comp)) -> None:
-            progress(index, len(big), f"a group of {size} events: step {done} of {total}")
+            progress(f"a group of {size} events: step {done} of {total}", index, len(big))
         results.append(_count_component(sub, needed, ks, budget, fixed, barred, constrained_events,
                                         inner if progress is not None else None, exact_counting))
         if progress is not None:
-            progress(index + 1, len(big), f"counted a group of {len(comp)} events")
+            progress(f"counted a group of {len(comp)} events", index + 1, len(big))
     pending = [r for r in results if not r.exact]
     if pending:
         if progress is not None:
-            progress(len(big), len(big), f"estimating {len(pending)} large group(s) until the time limit")
+            progress(f"estimating {len(pending)} large group(s) until the time limit", len(big), len(big))
         _estimate_components(pending, graph, ks, deadline - 0.3, fixed, barred)
 
     def isolated_factor(k: int) -> int:

@@ -24,10 +24,10 @@ import re
 from collections import Counter
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Callable
 
 from ..errors import Finding, InputError, visible
 from ..model import Location
+from ..progress import StepProgress
 from .limits import CellBudget, Limits, check_archive, check_file_size, check_ods_cells
 from .xlsx_sheets import read_xlsx
 
@@ -38,7 +38,7 @@ SUPPORTED = ".xlsx, .xlsm, .ods, .csv, .tsv"
 DELIMITERS = (",", ";", "\t", "|")
 DELIMITER_NAMES = {",": "comma", ";": "semicolon", "\t": "tab", "|": "pipe"}
 
-Progress = Callable[[str, int, "int | None"], None]
+Progress = StepProgress  # (what, done, total): see timetabler.progress
 
 
 @dataclass

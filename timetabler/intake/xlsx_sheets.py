@@ -32,11 +32,11 @@ import posixpath
 import re
 import zipfile
 import zlib
-from typing import Callable
 from xml.parsers import expat
 
 from ..errors import Finding, InputError, visible
 from ..model import Location
+from ..progress import StepProgress
 from .limits import CellBudget, Limits, mib
 
 MAX_ROW = 1_048_576
@@ -49,7 +49,7 @@ _NUMBER = re.compile(r"[+-]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?")
 _REL_WORKSHEET = "/worksheet"
 _EMPTY: tuple = ()  # every absent row is this one immutable object: a gap of a million rows costs 8 MB
 
-Progress = Callable[[str, int, "int | None"], None]
+Progress = StepProgress  # (what, done, total): see timetabler.progress
 
 
 class _Overlong:

@@ -10,12 +10,13 @@ from typing import TYPE_CHECKING, Callable
 
 from ortools.sat.python import cp_model
 
+from ..progress import SolveProgressCallback
 from .cpsat_model import TimetableModel
 
 if TYPE_CHECKING:
     from .solve import SolveOptions
 
-Progress = Callable[[dict], None]
+Progress = SolveProgressCallback  # see timetabler.progress
 
 
 class Watcher(cp_model.CpSolverSolutionCallback):

@@ -74,7 +74,7 @@ class CountTask:
     def run(self, analysis: Any, first_seconds: float) -> None:
         from .analysis import count
 
-        def progress(done: int, total: int, message: str = "") -> None:
+        def progress(message: str, done: int, total: int | None) -> None:
             self.done, self.total, self.message = done, total, message
 
         try:
@@ -203,7 +203,7 @@ def _child_main() -> None:
 
         last = [0.0]
 
-        def progress(done: int, total: int, message: str = "") -> None:
+        def progress(message: str, done: int, total: int | None) -> None:
             now = time.monotonic()
             if now - last[0] >= PROGRESS_EVERY:
                 last[0] = now
