@@ -2,7 +2,7 @@
 
 * :mod:`.workbook` — :func:`~.workbook.write_workbook`, the published ``.xlsx`` workbook;
 * :mod:`.csv_folder` — the same lists as CSV files;
-* :mod:`.icalendar_files` — RFC 5545 calendars of the session and of each attendee;
+* :mod:`.icalendar_files` — RFC 5545 calendars of the exam period and of each attendee;
 * :mod:`.count_chart` — a PNG chart of the number of clash-free timetables against slots;
 * :mod:`.pseudonyms` — stable keyed pseudonyms for attendee identifiers;
 * :mod:`.tables` — the figures every output shows, computed once;

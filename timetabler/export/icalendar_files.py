@@ -1,4 +1,4 @@
-"""iCalendar files (RFC 5545) of a timetable: the whole session, and one per attendee.
+"""iCalendar files (RFC 5545) of a timetable: the whole exam period, and one per attendee.
 
 Written with the ``icalendar`` library. Each event of the timetable becomes a VEVENT
 with the event code and title as its summary, the rooms as its location, and a stable
