@@ -375,6 +375,19 @@ class Problem:
             out.setdefault(attendee, []).append(code)
         return out
 
+    def slot_refs(self, slots: Sequence[Slot]) -> SlotRefs:
+        """Every reference to a slot in the problem resolved once against ``slots`` (see :class:`SlotRefs`)."""
+
+        def numbers(refs) -> frozenset[int]:
+            return frozenset(n for ref in refs if (n := self.slot_number(ref, slots)) is not None)
+
+        return SlotRefs(
+            fixed={c: self.slot_number(e.fixed_slot, slots) for c, e in self.events.items()
+                   if e.fixed_slot is not None and str(e.fixed_slot).strip()},
+            barred={c: numbers(e.barred_slots) for c, e in self.events.items() if e.barred_slots},
+            preferred={c: numbers(e.preferred_slots) for c, e in self.events.items() if e.preferred_slots},
+            room_unavailable={r.name: numbers(r.unavailable_slots) for r in self.rooms})
+
     def slot_number(self, ref: str, slots: Sequence[Slot]) -> int | None:
         """Resolve a slot reference (label, or number 1..K as text) to a slot number, or None."""
         ref = str(ref).strip()
@@ -386,6 +399,37 @@ class Problem:
         except ValueError:
             return None
         return n if 1 <= n <= len(slots) else None
+
+
+@dataclass(frozen=True)
+class SlotRefs:
+    """The problem's references to slots, resolved once against one list of slots (numbers 1..K):
+    the engines and exports read these, not the references (the validator resolves them with its own code).
+
+    ``fixed[code]``: the fixed slot of each event that has one, None when it names none of these slots
+    (it cannot hold); ``barred[code]`` and ``preferred[code]``: the slots named that exist (a reference to
+    no slot is dropped); ``room_unavailable[name]``: a room's unavailable slots, likewise.
+
+    >>> p = Problem([], events={"A": Event("A", fixed_slot="Tue am"), "B": Event("B", barred_slots=("2", "9"))})
+    >>> refs = p.slot_refs([Slot("Mon am"), Slot("Tue am"), Slot("Wed am")])
+    >>> refs.fixed, sorted(refs.barred["B"]), refs.allowed("A", {1, 2, 3}), sorted(refs.allowed("B", {1, 2, 3}))
+    ({'A': 2}, [2], {2}, [1, 3])
+    """
+
+    fixed: Mapping[str, int | None]
+    barred: Mapping[str, frozenset[int]]
+    preferred: Mapping[str, frozenset[int]]
+    room_unavailable: Mapping[str, frozenset[int]]
+
+    def allowed(self, code: str, slots: Iterable[int]) -> set[int]:
+        """Of ``slots``, those the event may take: only its fixed slot if it has one, never a barred one."""
+        out = set(slots)
+        if code in self.fixed:
+            out &= {self.fixed[code]}
+        return out - self.barred.get(code, frozenset())
+
+    def room_free(self, room: str, number: int) -> bool:
+        return number not in self.room_unavailable.get(room, frozenset())
 
 
 def tail_room(problem: Problem, parts: Sequence[tuple[str, int]]) -> str:

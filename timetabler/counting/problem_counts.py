@@ -88,18 +88,18 @@ def _count_problem(problem, ks, graph, slots_for, budget_seconds, progress):
         slots = list(slots_for(k))
         fixed: dict[str, int] = {}
         barred: dict[str, set[int]] = {}
+        refs = problem.slot_refs(slots)
         for event in pinned:
-            if event.fixed_slot and str(event.fixed_slot).strip():
-                number = problem.slot_number(event.fixed_slot, slots)
+            if event.code in refs.fixed:
+                number = refs.fixed[event.code]
                 if number is None:
                     notes.append(
                         f"With {k} slots, {event.code} is fixed to '{event.fixed_slot}', which is not one of the "
                         f"slots: no timetable can honour it, so the count is 0."
                     )
                 fixed[event.code] = number or 0
-            refs = {problem.slot_number(r, slots) for r in event.barred_slots} - {None}
-            if refs:
-                barred[event.code] = refs  # type: ignore[assignment]
+            if refs.barred.get(event.code):
+                barred[event.code] = set(refs.barred[event.code])
         reports.append(
             count_timetables(
                 graph, [k], budget_seconds=budget_seconds / len(ks), fixed=fixed, barred=barred, progress=progress

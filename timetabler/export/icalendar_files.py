@@ -135,11 +135,12 @@ def calendar_end_findings(problem: Problem, slots: list[Slot], assignment: dict[
     out: list[Finding] = []
     without = sorted(c for c, e in problem.events.items() if not e.duration_minutes)
 
+    refs = problem.slot_refs(slots)
+
     def may_take(code: str, number: int) -> bool:
-        event = problem.events[code]
-        if event.fixed_slot and str(event.fixed_slot).strip():
-            return problem.slot_number(event.fixed_slot, slots) == number
-        return all(problem.slot_number(ref, slots) != number for ref in event.barred_slots)
+        if code in refs.fixed:
+            return refs.fixed[code] == number
+        return number not in refs.barred.get(code, ())
 
     for number, slot in enumerate(slots, start=1):
         if slot.start is None or slot.length_minutes:

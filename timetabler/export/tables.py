@@ -34,7 +34,7 @@ from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any, Callable, Mapping, Sequence
 
 from ..counting.bounds import log10_int
-from ..model import Problem, Room, Slot, SolveStatus, days_of, event_times, tail_room
+from ..model import Problem, Slot, SlotRefs, SolveStatus, days_of, event_times, tail_room
 
 if TYPE_CHECKING:  # reports sit above the engines; the names are for the signatures only
     from ..counting import CountReport, SlotCount
@@ -620,8 +620,9 @@ def seats_table(problem: Problem, run: SolveRun, people: TimetablePeople | None 
         ],
         title="Seats by slot",
     )
+    refs = problem.slot_refs(slots)
     for place in slot_places(slots):
-        limits = [x for x in (place.slot.seat_capacity, _room_seats_in(problem, slots, place.number)) if x is not None]
+        limits = [x for x in (place.slot.seat_capacity, _room_seats_in(problem, refs, place.number)) if x is not None]
         limit = min(limits) if limits else None
         need = seats[place.number - 1]
         table.rows.append([
@@ -631,15 +632,11 @@ def seats_table(problem: Problem, run: SolveRun, people: TimetablePeople | None 
     return table
 
 
-def _room_available(problem: Problem, room: Room, slots: Sequence[Slot], number: int) -> bool:
-    return not any(problem.slot_number(ref, slots) == number for ref in room.unavailable_slots)
-
-
-def _room_seats_in(problem: Problem, slots: Sequence[Slot], number: int) -> int | None:
+def _room_seats_in(problem: Problem, refs: SlotRefs, number: int) -> int | None:
     """Seats of the rooms available in slot ``number`` (None when the problem has no rooms)."""
     if not problem.rooms:
         return None
-    return sum(r.capacity for r in problem.rooms if _room_available(problem, r, slots, number))
+    return sum(r.capacity for r in problem.rooms if refs.room_free(r.name, number))
 
 
 def rooms_table(problem: Problem, run: SolveRun, people: TimetablePeople | None = None) -> PublishedTable | None:
@@ -676,11 +673,12 @@ def rooms_table(problem: Problem, run: SolveRun, people: TimetablePeople | None 
         + ([Column("Shared", FLAG, "no: holds one event at a time")] if single else []),
         title="Room occupancy by slot",
     )
+    refs = problem.slot_refs(slots)
     for place in slot_places(slots):
         for room in problem.rooms:
             here = used.get((place.number, room.name), [])
             taken = sum(s for _, s in here)
-            available = _room_available(problem, room, slots, place.number)
+            available = refs.room_free(room.name, place.number)
             table.rows.append([
                 place.number, place.slot.label, place.slot.date, place.slot.start, room.name, room.room_type or "",
                 room.capacity, ", ".join(c for c, _ in here), taken, room.capacity - taken, available,

@@ -128,12 +128,8 @@ class _BlockSolve:
         """DSATUR within each event's allowed slots, fixed and barred slots too (so a complete colouring meets
         them); with the slots alike, relabelled to the symmetry break and its groups arranged over the slots."""
         task, problem, slots, block, k = self.task, self.problem, self.slots, self.block, self.k
-        allowed = {c: set(task.domains.allowed[c]) for c in block}
-        for c in block:
-            ev = problem.events[c]
-            if ev.fixed_slot is not None and str(ev.fixed_slot).strip():
-                allowed[c] &= {problem.slot_number(ev.fixed_slot, slots)}
-            allowed[c] -= {problem.slot_number(r, slots) for r in ev.barred_slots}
+        refs = problem.slot_refs(slots)
+        allowed = {c: refs.allowed(c, task.domains.allowed[c]) for c in block}
         hint = _first_colouring(problem, slots, self.sub, block, allowed, task.sizes, k)
         symmetric = self.symmetric = slots_interchangeable(problem, slots, block)
         self.order_free = objective_order_free(problem, slots, task.previous)

@@ -91,11 +91,11 @@ def _add_large_late(b: ModelBuild, terms: Terms) -> None:
 def _add_preferred_slots(b: ModelBuild, terms: Terms) -> None:
     m, x, tm, problem, w = b.m, b.x, b.tm, b.problem, b.problem.weights
     if w.preferred_slot > 0:
+        preferred = problem.slot_refs(b.slots).preferred
         for c in tm.codes:
-            refs = problem.events[c].preferred_slots
-            if not refs:
+            if c not in preferred:
                 continue
-            wanted = frozenset(n for r in refs if (n := problem.slot_number(r, b.slots)) is not None)
+            wanted = preferred[c]
             miss = m.new_bool_var(f"miss_preferred[{c}]")
             tm.derived.append((miss.index, "miss", c, wanted))
             m.add(sum(x[c][s - 1] for s in wanted) + miss == 1)

@@ -131,16 +131,17 @@ def add_optional_busy(b: ModelBuild) -> None:
 
 def add_fixed_and_barred(b: ModelBuild) -> None:
     m, x, problem, slots = b.m, b.x, b.problem, b.slots
+    refs = problem.slot_refs(slots)
     for c in b.codes:
         ev = problem.events[c]
-        if ev.fixed_slot is not None and str(ev.fixed_slot).strip():
-            s = problem.slot_number(ev.fixed_slot, slots)
+        if c in refs.fixed:
+            s = refs.fixed[c]
             lit = b.rule_literal(f"{c} is fixed to {_slot_name(slots, s, ev.fixed_slot)}", "fixed")
             if s is None:
                 b.enforce(m.add_bool_or([]), lit)  # refers to no slot: cannot hold
             else:
                 b.enforce(m.add(x[c][s - 1] == 1), lit)
-        barred = sorted({n for ref in ev.barred_slots if (n := problem.slot_number(ref, slots)) is not None})
+        barred = sorted(refs.barred.get(c, ()))
         if barred:
             lit = b.rule_literal(f"{c} may not go in slot(s) {_ranges(barred)}", "barred")
             for s in barred:

@@ -95,15 +95,16 @@ def prechecks(problem: Problem, slots: list[Slot], graph: nx.Graph, clique: list
             out.append(Witness("fit", f"{code} fits no slot: {sample}", events=[code]))
     # fixed slots
     fixed: dict[int, list[str]] = {}
+    refs = problem.slot_refs(slots)
     for code, ev in sorted(problem.events.items()):
-        if ev.fixed_slot is None or not str(ev.fixed_slot).strip():
+        if code not in refs.fixed:
             continue
-        s = problem.slot_number(ev.fixed_slot, slots)
+        s = refs.fixed[code]
         if s is None:
             out.append(Witness("fixed", f"{code} is fixed to '{ev.fixed_slot}', which is not one of the {k} slots",
                                events=[code]))
             continue
-        if any(problem.slot_number(r, slots) == s for r in ev.barred_slots):
+        if s in refs.barred.get(code, ()):
             out.append(Witness("fixed", f"{code} is fixed to slot {s} and also barred from it", events=[code]))
         fixed.setdefault(s, []).append(code)
     for s, codes in sorted(fixed.items()):
@@ -192,10 +193,8 @@ def people_witnesses(problem: Problem, slots: list[Slot], found: Availability,
         return set(found.starts.get(code, ())) & (allowed[code] if allowed is not None and code in allowed else
                                                    set(range(1, k + 1)))
     events = problem.events
-    resolve_fixed = {}
-    for code, event in events.items():
-        if event.fixed_slot is not None and str(event.fixed_slot).strip():
-            resolve_fixed[code] = problem.slot_number(event.fixed_slot, slots)
+    refs = problem.slot_refs(slots)
+    resolve_fixed = dict(refs.fixed)
     for code in sorted(events):
         if left(code):
             continue
@@ -203,7 +202,7 @@ def people_witnesses(problem: Problem, slots: list[Slot], found: Availability,
         blocked = found.blocked.get(code, {})
         short = found.quorum_short.get(code, {})
         fixed = resolve_fixed.get(code, "none")
-        barred = {problem.slot_number(r, slots) for r in event.barred_slots} - {None}
+        barred = set(refs.barred.get(code, ()))
         by_cause: dict[str, set[int]] = {}
         person_slots: dict[str, set[int]] = {}
         late_slots: dict[str, set[int]] = {}  # of person_slots: extra time past the day's slots
@@ -383,8 +382,8 @@ def room_count_witness(problem: Problem, slots: list[Slot], sizes: dict[str, int
         members = [c for c, e in problem.events.items() if sizes.get(c, 0) > 0
                    and (ty is None or (e.room_type or "").casefold() == ty)]
         rooms = [r for r in problem.rooms if ty is None or (r.room_type or "").casefold() == ty]
-        free = {r.name: sum(1 for s in range(1, len(slots) + 1)
-                            if not any(problem.slot_number(u, slots) == s for u in r.unavailable_slots)) for r in rooms}
+        refs = problem.slot_refs(slots)
+        free = {r.name: sum(1 for s in range(1, len(slots) + 1) if refs.room_free(r.name, s)) for r in rooms}
         shared = {r.name: sharing and r.shared for r in rooms}
         needs = {r.capacity + 1 for r in rooms} | {min((sizes[c] for c in members), default=1)}
         if any(shared.values()):

@@ -160,6 +160,7 @@ def build_state(
     k = len(slots)
     n = len(codes)
     index = {c: i for i, c in enumerate(codes)}
+    refs = problem.slot_refs(slots)
     day = np.array(days_of(slots), dtype=np.int64)
     w = problem.weights
     cost = np.array(pair_cost(slots, w), dtype=np.int64).reshape(k, k)
@@ -173,7 +174,7 @@ def build_state(
         if w.large_late and c in large:
             event_cost[i] += w.large_late * np.arange(k)
         if w.preferred_slot and ev.preferred_slots:
-            wanted = {problem.slot_number(r, slots) for r in ev.preferred_slots}
+            wanted = refs.preferred.get(c, frozenset())
             for s in range(k):
                 if s + 1 not in wanted:
                     event_cost[i, s] += w.preferred_slot
@@ -194,10 +195,7 @@ def build_state(
     allowed = np.zeros((n, k), dtype=np.bool_)
     for c, i in index.items():
         ev = problem.events[c]
-        ok = set(domains.allowed[c])
-        if ev.fixed_slot is not None and str(ev.fixed_slot).strip():
-            ok &= {problem.slot_number(ev.fixed_slot, slots)}
-        ok -= {problem.slot_number(r, slots) for r in ev.barred_slots}
+        ok = refs.allowed(c, domains.allowed[c])
         for s in ok:
             if s is not None and 1 <= s <= k:
                 allowed[i, s - 1] = True

@@ -179,8 +179,7 @@ def seat_events(problem: Problem, slots: list[Slot], assignment: dict[str, int],
         members.setdefault(groups[span[0]], ([], []))[0].append(code)
     for item in own:
         members.setdefault(groups[item[3][0]], ([], []))[1].append(item)
-    unavailable = {r.name: {t for ref in r.unavailable_slots if (t := problem.slot_number(ref, slots)) is not None}
-                   for r in problem.rooms}
+    unavailable = {name: set(numbers) for name, numbers in problem.slot_refs(slots).room_unavailable.items()}
     parts = sorted(members.values(), key=lambda m: min(t for c in m[0] for t in held[c]) if m[0]
                    else min(t for item in m[1] for t in item[3]))
     for codes, apart_here in parts:

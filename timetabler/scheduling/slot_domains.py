@@ -81,8 +81,7 @@ def _own_rooms_short(problem: Problem, slots: list[Slot], code: str, s: int, apa
                      found: Availability | None) -> str | None:
     """Why ``code`` started in ``s`` leaves an attendee seated apart without a room of their type (None: it
     does not): no such room free for their whole sitting, or fewer free in slot ``s`` than they are."""
-    away = {r.name: {t for ref in r.unavailable_slots if (t := problem.slot_number(ref, slots)) is not None}
-            for r in problem.rooms}
+    away = {name: set(numbers) for name, numbers in problem.slot_refs(slots).room_unavailable.items()}
     by_type: dict[str, list[str]] = {}
     for attendee, kind in apart:
         by_type.setdefault(kind.casefold(), []).append(attendee)
@@ -187,10 +186,11 @@ def _room_capacity_by_slot(problem: Problem, slots: list[Slot], *, shared_only: 
     """(capacity, may be shared) of the rooms free in each slot, by room type (key None: every room).
     With ``shared_only`` (room sharing switched off) no room may be shared."""
     out: dict[int, dict[str | None, list[tuple[int, bool]]]] = {}
+    refs = problem.slot_refs(slots)
     for s in range(1, len(slots) + 1):
         by_type: dict[str | None, list[tuple[int, bool]]] = {None: []}
         for room in problem.rooms:
-            if any(problem.slot_number(ref, slots) == s for ref in room.unavailable_slots):
+            if not refs.room_free(room.name, s):
                 continue
             entry = (room.capacity, room.shared and not shared_only)
             by_type[None].append(entry)
