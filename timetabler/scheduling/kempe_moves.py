@@ -13,6 +13,7 @@ CP-SAT looks for the first timetable; nothing else imports numba.
 from __future__ import annotations
 
 import math
+from collections import namedtuple
 
 import numpy as np
 
@@ -30,17 +31,26 @@ def seed_moves(seed):
     np.random.seed(seed)
 
 
+#: The search's own arrays, changed in place by the loop (see :class:`.kempe_search` for each).
+SearchArrays = namedtuple("SearchArrays", "x wn load occ alone_in gload best_x mark members stats")
+#: The problem's arrays, read only: costs, allowed slots, neighbours, resources, rules, daily cap, days
+#: (:class:`.penalty_state.PenaltyState` holds them under these names).
+RuleArrays = namedtuple("RuleArrays", "cost event_cost allowed adj_ptr adj_idx adj_w res_use res_cap before_ptr "
+                                      "before_idx before_sign same_ptr same_idx apart_ptr apart_idx alone group_ptr "
+                                      "group_idx per_day_cap day")
+
+
 @njit(cache=True)
-def anneal_moves(x, wn, load, occ, alone_in, gload, best_x, mark, members, stats,
-            cost, event_cost, allowed, adj_ptr, adj_idx, adj_w, res_use, res_cap,
-            before_ptr, before_idx, before_sign, same_ptr, same_idx, apart_ptr, apart_idx,
-            alone, group_ptr, group_idx, per_day_cap, day,
-            moves, t_start, t_end, swap_share, record):
-    """``moves`` tries at temperatures falling from ``t_start`` to ``t_end``; the state arrays change in place.
+def anneal_moves(search, rules, moves, t_start, t_end, swap_share, record):
+    """``moves`` tries at temperatures falling from ``t_start`` to ``t_end``; the ``search`` arrays
+    (:data:`SearchArrays`) change in place, the ``rules`` (:data:`RuleArrays`) are read.
 
     ``stats``: [current penalty, best penalty, stamp, tried, accepted, recorded]. With a
     non-empty ``record`` nothing is applied: the changes of feasible moves are recorded instead.
     """
+    x, wn, load, occ, alone_in, gload, best_x, mark, members, stats = search
+    (cost, event_cost, allowed, adj_ptr, adj_idx, adj_w, res_use, res_cap, before_ptr, before_idx, before_sign,
+     same_ptr, same_idx, apart_ptr, apart_idx, alone, group_ptr, group_idx, per_day_cap, day) = rules
     n = x.shape[0]
     k = cost.shape[0]
     n_res = res_use.shape[1]
@@ -251,10 +261,11 @@ def compile_now() -> None:
     n, k = 2, 2
     i64 = np.int64
     z = np.zeros
-    anneal_moves(z(n, i64), z((n, k), i64), z((k, 0), i64), z(k, i64), z(k, i64), z((1, 1), i64), z(n, i64),
-                 z(n, i64), z(n, i64), z(6, i64), z((k, k), i64), z((n, k), i64), np.ones((n, k), np.bool_),
-                 z(n + 1, i64), z(0, i64), z(0, i64), z((n, 0), i64), z((k, 0), i64), z(n + 1, i64), z(0, i64),
-                 z(0, i64), z(n + 1, i64), z(0, i64), z(n + 1, i64), z(0, i64), z(n, np.bool_), z(n + 1, i64),
-                 z(0, i64), -1, z(k, i64), 1, 1.0, 1.0, 0.0, z(0, i64))
+    search = SearchArrays(z(n, i64), z((n, k), i64), z((k, 0), i64), z(k, i64), z(k, i64), z((1, 1), i64), z(n, i64),
+                          z(n, i64), z(n, i64), z(6, i64))
+    rules = RuleArrays(z((k, k), i64), z((n, k), i64), np.ones((n, k), np.bool_), z(n + 1, i64), z(0, i64), z(0, i64),
+                       z((n, 0), i64), z((k, 0), i64), z(n + 1, i64), z(0, i64), z(0, i64), z(n + 1, i64), z(0, i64),
+                       z(n + 1, i64), z(0, i64), z(n, np.bool_), z(n + 1, i64), z(0, i64), -1, z(k, i64))
+    anneal_moves(search, rules, 1, 1.0, 1.0, 0.0, z(0, i64))
     seed_moves(0)
 

@@ -114,15 +114,13 @@ class _Search:
         seed_moves(seed)
 
     def run(self, moves: int, t_start: float, t_end: float, record: np.ndarray | None = None) -> None:
-        from .kempe_moves import anneal_moves
+        from .kempe_moves import RuleArrays, SearchArrays, anneal_moves
 
         st = self.state
-        anneal_moves(self.x, self.wn, self.load, self.occ, self.alone_in, self.gload, self.best_x, self.mark, self.members,
-                     self.stats, st.cost, st.event_cost, st.allowed, st.adj_ptr, st.adj_idx, st.adj_w, st.res_use,
-                st.res_cap, st.before_ptr, st.before_idx, st.before_sign, st.same_ptr, st.same_idx, st.apart_ptr,
-                st.apart_idx, st.alone, st.group_ptr, st.group_idx, st.per_day_cap, st.day, int(moves),
-                float(t_start), float(t_end), SWAP_SHARE,
-                record if record is not None else np.zeros(0, dtype=np.int64))
+        search = SearchArrays(*(getattr(self, name) for name in SearchArrays._fields))
+        rules = RuleArrays(*(getattr(st, name) for name in RuleArrays._fields))
+        anneal_moves(search, rules, int(moves), float(t_start), float(t_end), SWAP_SHARE,
+                     record if record is not None else np.zeros(0, dtype=np.int64))
 
     @property
     def current(self) -> int:
