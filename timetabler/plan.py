@@ -97,6 +97,17 @@ def day_choices(problem: Problem, days: Sequence[int]) -> list[DayChoice]:
     return [DayChoice(n, ends[n - 1]) for n in wanted]
 
 
+def check_slot_counts(problem: Problem, counts: Sequence[int]) -> None:
+    """Refuse a number of slots beyond the Slots sheet (a timetable uses its first K slots), in the one
+    wording of the commands and the page. Raises :class:`InputError`."""
+    if problem.slots and counts and max(counts) > len(problem.slots):
+        raise InputError(Finding(
+            f"{max(counts)} slots were asked for ({setting('slots')}), but the Slots sheet lists only "
+            f"{len(problem.slots)}: a timetable cannot use more than that.",
+            where=_sheet_of(problem.slots, problem.source or "the input file"),
+            suggestion="Add slots to the Slots sheet, or ask for fewer."))
+
+
 def days_by_slot_count(choices: Sequence[DayChoice]) -> dict[int, int]:
     """``{slot count: days}`` of the day choices (distinct day counts have distinct slot counts)."""
     return {c.slots: c.days for c in choices}

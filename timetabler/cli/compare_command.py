@@ -12,10 +12,9 @@ import click
 from rich.table import Table
 
 from ..conflicts import conflict_graph
-from ..errors import Finding, InputError
 from ..export.tables import comparison_table, rows_as_json, run_figures, short_sheet_words, value_text
 from ..plan import COMPARE_SECONDS, COUNT_SECONDS, MOST_SESSIONS_PER_DAY, SESSIONS_PER_DAY, WORKERS
-from ..plan import FEWEST, FewestFound, StepStarted, counts_for_runs, solve_steps
+from ..plan import FEWEST, FewestFound, StepStarted, check_slot_counts, counts_for_runs, solve_steps
 from ..scheduling import SolveOptions
 from .command_clock import CommandClock
 from .common import (SHARE_ROOMS_HELP, console, err_console, input_options, print_json, read_input, require_enrolments, show_warnings,
@@ -81,10 +80,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, day_counts,
     apply_goal_options(problem, weights, max_per_day)
     slot_counts, days_of_count = choose_slot_counts(problem, slot_counts, day_counts)
     ks = sorted(slot_counts)
-    if problem.slots and max(ks) > len(problem.slots):
-        raise InputError(Finding(
-            f"--slots asks for {max(ks)} slots but the slots sheet lists only {len(problem.slots)}.",
-            suggestion="Add slots to the slots sheet, or ask for fewer."))
+    check_slot_counts(problem, ks)
     check_outputs(outputs, problem=problem, keep=keep, slots=problem.slots[:max(ks)] if problem.slots else [])
     stores: list = []
     click.get_current_context().call_on_close(lambda: [s.close() for s in stores])

@@ -10,11 +10,10 @@ from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 from rich.table import Table
 
 from ..conflicts import conflict_graph
-from ..errors import Finding, InputError
 from ..export.tables import short_sheet_words
 from ..model import FOUND_STATUSES, GOAL_NAMES
 from ..plan import COUNT_SECONDS, MOST_SESSIONS_PER_DAY, SESSIONS_PER_DAY, SOLVE_SECONDS, WORKERS
-from ..plan import FEWEST, FewestFound, StepStarted, counts_for_runs, solve_steps
+from ..plan import FEWEST, FewestFound, StepStarted, check_slot_counts, counts_for_runs, solve_steps
 from ..scheduling import SolveOptions
 from .command_clock import CommandClock
 
@@ -108,10 +107,7 @@ def command(file, sheet, attendee_column, event_column, slot_counts, day_counts,
     if not slot_counts and not fewest and not problem.slots:
         raise click.UsageError("Say how many slots to use (--slots 12, or several: --slots 10-14), or ask for the "
                                "fewest (--fewest). The file has no slots sheet to take them from.")
-    if problem.slots and slot_counts and max(slot_counts) > len(problem.slots):
-        raise InputError(Finding(
-            f"--slots asks for {max(slot_counts)} slots but the slots sheet lists only {len(problem.slots)}.",
-            suggestion="Add slots to the slots sheet, or ask for fewer."))
+    check_slot_counts(problem, slot_counts)
     check_outputs(outputs, problem=problem, keep=keep,
                   slots=problem.slots[:max(slot_counts or [len(problem.slots)])] if problem.slots else [])
     options = SolveOptions(time_limit=time_limit, workers=workers, seed=seed, deterministic=repeatable,

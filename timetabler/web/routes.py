@@ -39,7 +39,7 @@ from starlette.responses import FileResponse, JSONResponse, RedirectResponse, Re
 from starlette.routing import Route
 
 from ..conflicts import people_figures
-from ..plan import MOST_SESSIONS_PER_DAY, SESSIONS_PER_DAY
+from ..plan import MOST_SESSIONS_PER_DAY, SESSIONS_PER_DAY, check_slot_counts
 from ..errors import Finding, InputError
 from . import analysis as an
 from .count_chart import bar_from_count, count_chart_svg
@@ -404,10 +404,10 @@ async def _start_solve(request: Request, stored: StoredUpload, analysis: an.Anal
     problem = analysis.problem
     try:
         ks = an.parse_slot_counts(form.getlist("slots") + [fields.get("more_slots", "")], limit=settings.max_slot_counts)
-        if problem.slots and ks[-1] > len(problem.slots):
-            raise ValueError(
-                f"The slots sheet of this file lists {len(problem.slots)} slots; a timetable cannot use more than that."
-            )
+        try:
+            check_slot_counts(problem, ks)
+        except InputError as exc:
+            raise ValueError(exc.findings[0].worded(an.BOX_NAMES).message) from None
         per_day = _whole(fields.get("sessions_per_day", str(SESSIONS_PER_DAY)), "Sessions per day", 1, MOST_SESSIONS_PER_DAY)
         limit = _whole(fields.get("time_limit", str(settings.default_time_limit)), "Time limit", 1, settings.max_time_limit)
         weights = an.weights_from_form(fields, problem.weights)
