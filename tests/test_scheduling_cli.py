@@ -66,7 +66,7 @@ def test_fewest_slots_is_reported_and_proven(run_command, week_csv):
     assert doc["runs"][0]["slots"] == 4 and doc["runs"][0]["status"] in ("optimal", "feasible")
 
 
-def test_weights_and_per_day_cap_from_the_command_line(run_command, week_csv):
+def test_weights_and_daily_limit_from_the_command_line(run_command, week_csv):
     path, _ = week_csv
     doc = run_command("solve", path, "--slots", "8", "--max-per-day", "1", "--weight", "back-to-back=0",
                       "--time-limit", "5", "--json").json()

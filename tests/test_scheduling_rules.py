@@ -224,7 +224,7 @@ def test_rooms_of_a_type_run_out_of_seats():
 
 # --- the cap on events per attendee per day -------------------------------------------------
 
-def test_per_day_cap_binds_and_is_explained():
+def test_daily_limit_binds_and_is_explained():
     p = Problem(chain(3), max_per_day=1, weights=ZERO)
     run, v = solved(p, generic_slots(6, 2))
     assert v.attendee_load["HV-S0001"]["most_in_one_day"] == 1

@@ -51,7 +51,7 @@ def test_relations_between_events():
     assert validate(p, slots, {"A": 1, "B": 4, "C": 3, "D": 3}).ok
 
 
-def test_seats_and_per_day_cap():
+def test_seats_and_daily_limit():
     enrol = [(f"s{i}", "BIG") for i in range(30)] + [("s0", "X"), ("s0", "Y")]
     p = _p(enrol, max_per_day=2)
     slots = [Slot("1", seat_capacity=25, day=1), Slot("2", seat_capacity=100, day=1), Slot("3", day=1)]

@@ -280,7 +280,7 @@ def attendee_loads(problem: Problem, slots: Sequence[Slot], assignment: Mapping[
     out = []
     for attendee in sorted(problem.events_by_attendee()):
         blocks = sorted(blocks_of.get(attendee, []))
-        per_day = Counter(places[b[0] - 1].day for b in blocks)
+        events_by_day = Counter(places[b[0] - 1].day for b in blocks)
         clashes = b2b = same_day = overnight = proximity = 0
         for i, first in enumerate(blocks):
             for second in blocks[i + 1:]:
@@ -299,7 +299,7 @@ def attendee_loads(problem: Problem, slots: Sequence[Slot], assignment: Mapping[
                 elif gap == 1:
                     overnight += 1
                 proximity += CARTER_WEIGHTS.get(gap, 0)
-        out.append(AttendeeLoad(attendee, required[attendee], max(per_day.values(), default=0), clashes, b2b, same_day,
+        out.append(AttendeeLoad(attendee, required[attendee], max(events_by_day.values(), default=0), clashes, b2b, same_day,
                                 overnight, proximity))
     return out
 

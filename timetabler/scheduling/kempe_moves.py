@@ -37,7 +37,7 @@ SearchArrays = namedtuple("SearchArrays", "x wn load occ alone_in gload best_x m
 #: (:class:`.penalty_state.PenaltyState` holds them under these names).
 RuleArrays = namedtuple("RuleArrays", "cost event_cost allowed adj_ptr adj_idx adj_w res_use res_cap before_ptr "
                                       "before_idx before_sign same_ptr same_idx apart_ptr apart_idx alone group_ptr "
-                                      "group_idx per_day_cap day")
+                                      "group_idx daily_limit day")
 
 
 @njit(cache=True)
@@ -50,7 +50,7 @@ def anneal_moves(search, rules, moves, t_start, t_end, swap_share, record):
     """
     x, wn, load, occ, alone_in, gload, best_x, mark, members, stats = search
     (cost, event_cost, allowed, adj_ptr, adj_idx, adj_w, res_use, res_cap, before_ptr, before_idx, before_sign,
-     same_ptr, same_idx, apart_ptr, apart_idx, alone, group_ptr, group_idx, per_day_cap, day) = rules
+     same_ptr, same_idx, apart_ptr, apart_idx, alone, group_ptr, group_idx, daily_limit, day) = rules
     n = x.shape[0]
     k = cost.shape[0]
     n_res = res_use.shape[1]
@@ -175,7 +175,7 @@ def anneal_moves(search, rules, moves, t_start, t_end, swap_share, record):
                 break
         if not ok:
             continue
-        day_moves = per_day_cap >= 0 and day[a] != day[b]
+        day_moves = daily_limit >= 0 and day[a] != day[b]
         if day_moves:
             for i in range(m):
                 e = members[i]
@@ -189,7 +189,7 @@ def anneal_moves(search, rules, moves, t_start, t_end, swap_share, record):
                 e = members[i]
                 dn = day[b] if x[e] == a else day[a]
                 for j in range(group_ptr[e], group_ptr[e + 1]):
-                    if gload[group_idx[j], dn] > per_day_cap:
+                    if gload[group_idx[j], dn] > daily_limit:
                         ok = False
                         break
                 if not ok:

@@ -101,7 +101,7 @@ class _Search:
         self.alone_in = np.bincount(self.x, weights=st.alone.astype(np.int64), minlength=k).astype(np.int64)
         days = int(st.day.max(initial=0)) + 1
         self.gload = np.zeros((max(st.n_groups, 1), days), dtype=np.int64)
-        if st.per_day_cap >= 0:
+        if st.daily_limit >= 0:
             ev_rows = np.repeat(np.arange(n), np.diff(st.group_ptr))
             np.add.at(self.gload, (st.group_idx, st.day[self.x[ev_rows]]), 1)
         self.best_x = self.x.copy()

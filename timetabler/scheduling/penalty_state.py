@@ -72,7 +72,7 @@ class PenaltyState:
     group_ptr: np.ndarray  # CSR event -> distinct attendee event sets (for the per-day cap)
     group_idx: np.ndarray
     n_groups: int
-    per_day_cap: int  # -1: no cap in force
+    daily_limit: int  # -1: no cap in force
 
     @property
     def n(self) -> int:
@@ -120,14 +120,14 @@ class PenaltyState:
             np.add.at(load, x, self.res_use)
             for s, r in zip(*np.nonzero(load > self.res_cap)):
                 out.append(f"slot {s + 1} is over limit {r}")
-        if self.per_day_cap >= 0:
+        if self.daily_limit >= 0:
             counts: dict[tuple[int, int], int] = {}
             for e in range(n):
                 for j in range(self.group_ptr[e], self.group_ptr[e + 1]):
                     key = (int(self.group_idx[j]), int(self.day[x[e]]))
                     counts[key] = counts.get(key, 0) + 1
-            if any(v > self.per_day_cap for v in counts.values()):
-                out.append(f"an attendee has more than {self.per_day_cap} events a day")
+            if any(v > self.daily_limit for v in counts.values()):
+                out.append(f"an attendee has more than {self.daily_limit} events a day")
         return out
 
 
@@ -238,8 +238,8 @@ def build_state(
     group_pairs: list[tuple[int, int]] = []
     n_groups = 0
     if problem.max_per_day is not None:
-        per_day = np.bincount(day)
-        if per_day.max(initial=0) > problem.max_per_day:
+        slots_by_day = np.bincount(day)
+        if slots_by_day.max(initial=0) > problem.max_per_day:
             cap = int(problem.max_per_day)
             sets = [s for s in _attendee_event_sets(problem, set(codes)) if len(s) > cap]
             n_groups = len(sets)
@@ -250,7 +250,7 @@ def build_state(
                         adj_ptr=adj_ptr, adj_idx=adj_idx, adj_w=adj_w, res_use=res_use, res_cap=res_cap,
                         before_ptr=before_ptr, before_idx=before_idx, before_sign=before_sign,
                         same_ptr=same_ptr, same_idx=same_idx, apart_ptr=apart_ptr, apart_idx=apart_idx,
-                        alone=alone, group_ptr=group_ptr, group_idx=group_idx, n_groups=n_groups, per_day_cap=cap)
+                        alone=alone, group_ptr=group_ptr, group_idx=group_idx, n_groups=n_groups, daily_limit=cap)
 
 
 def _resources(problem: Problem, slots: list[Slot], codes: list[str], sizes: dict[str, int],

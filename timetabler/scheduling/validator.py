@@ -201,9 +201,9 @@ def validate(
         mine_all = [c for c in by_attendee[attendee] if c in placed]
         mine = sorted((rank[taken[c][0] - 1], rank[taken[c][-1] - 1], c) for c in mine_all
                       if (attendee, c) not in optional)
-        per_day: dict[int, int] = defaultdict(int)
+        events_by_day: dict[int, int] = defaultdict(int)
         for c in mine_all:
-            per_day[day[placed[c] - 1]] += 1
+            events_by_day[day[placed[c] - 1]] += 1
         if not people_in_play:  # else _check_people does it, over each attendee's own slots
             per_slot: dict[int, list[str]] = defaultdict(list)
             for _, _, c in mine:
@@ -213,7 +213,7 @@ def validate(
                 if len(codes) > 1:
                     violations.append(f"{attendee} is booked twice in {label(s)}: {' and '.join(sorted(codes))}")
         if problem.max_per_day is not None:
-            for d, n in sorted(per_day.items()):
+            for d, n in sorted(events_by_day.items()):
                 if n > problem.max_per_day:
                     violations.append(
                         f"{attendee} has {n} events on day {d}, more than the limit of {problem.max_per_day}")
@@ -231,7 +231,7 @@ def validate(
                 elif gap == 1:
                     soft["overnight"] += 1
                 soft["proximity"] += CARTER_WEIGHTS.get(gap, 0)
-        load[attendee] = {"events": len(mine_all), "most_in_one_day": max(per_day.values(), default=0)}
+        load[attendee] = {"events": len(mine_all), "most_in_one_day": max(events_by_day.values(), default=0)}
     if people_in_play:
         _check_people(problem, slots, placed, taken, timing, by_attendee, label, violations, soft)
 
