@@ -217,3 +217,13 @@ def test_fill_in_lower_bound_gives_up_at_its_deadline():
     g = nx.gnp_random_graph(30, 0.3, seed=4)
     assert chordal_supergraph_lower(g, 12, deadline=time.monotonic() - 1) == 0
     assert chordal_supergraph_lower(g, 30) == chordal_supergraph_lower(g, 30, deadline=time.monotonic() + 60) > 0
+
+
+def test_the_t_quantile_is_scipy_stats_own():
+    # reference: scipy.stats.t.ppf (the interval's t quantile is taken from the lighter scipy.special)
+    from scipy.stats import t
+
+    from timetabler.counting.sequential_sampling import t_quantile
+
+    for dof in (1, 2, 7, 15, 63, 500):
+        assert t_quantile(dof) == pytest.approx(float(t.ppf(0.975, dof)), rel=1e-12)

@@ -31,6 +31,7 @@ from pathlib import Path
 from typing import Any
 
 from ..errors import InputError
+from ..plan import BACKGROUND_COUNT_SECONDS
 from .jobs import _receive, _send
 
 log = logging.getLogger("timetabler.web")
@@ -55,7 +56,7 @@ class CountTask:
     """
 
     ks: tuple[int, ...]
-    budget_seconds: float = 600.0
+    budget_seconds: float = BACKGROUND_COUNT_SECONDS
     done: int = 0
     total: int | None = None
     message: str = ""
@@ -119,7 +120,10 @@ class CountTask:
                                              stdout=subprocess.PIPE, close_fds=True, env=env)
         process = self._process
         try:
-            process.stdin.write(pickle.dumps((analysis.problem, list(self.ks), analysis.graph, self.budget_seconds),
+            # the budget counts from the start of the task, as the page shows it: the child's imports and a
+            # busy machine (a solve holding both cores) come out of it, so the child gets a deadline
+            deadline = time.time() + self.budget_seconds - (time.monotonic() - self.started)
+            process.stdin.write(pickle.dumps((analysis.problem, list(self.ks), analysis.graph, deadline),
                                              protocol=pickle.HIGHEST_PROTOCOL))
             process.stdin.close()
         except OSError:
@@ -188,7 +192,7 @@ def stop_counts(analyses: dict) -> None:
 
 
 def _child_main() -> None:
-    """Body of the child: read (problem, slot counts, graph, budget), count, send the report."""
+    """Body of the child: read (problem, slot counts, graph, deadline), count until the deadline, send the report."""
     import traceback
 
     out = sys.stdout.buffer
@@ -198,8 +202,10 @@ def _child_main() -> None:
     except (AttributeError, OSError):
         pass
     try:
-        problem, ks, graph, budget = pickle.load(sys.stdin.buffer)
+        problem, ks, graph, deadline = pickle.load(sys.stdin.buffer)
         from timetabler.counting.problem_counts import count_problem
+
+        budget = max(1.0, deadline - time.time())  # wall clock: the parent's monotonic clock is not ours
 
         last = [0.0]
 
