@@ -35,6 +35,17 @@ def incidence_matrix(problem: Problem, required_only: bool = False) -> tuple[spa
     return matrix, attendees, events
 
 
+def graph_of_every_event(problem: Problem, graph: nx.Graph | None = None) -> nx.Graph:
+    """``graph`` (the conflict graph when None) holding every event of ``problem``: events nobody is
+    enrolled in are added with size 0 to a copy, never to the caller's graph."""
+    graph = conflict_graph(problem) if graph is None else graph
+    missing = [c for c in problem.events if c not in graph]
+    if missing:
+        graph = graph.copy()
+        graph.add_nodes_from(missing, size=0)
+    return graph
+
+
 def conflict_graph(problem: Problem) -> nx.Graph:
     """The conflict graph of a problem.
 

@@ -8,7 +8,7 @@ from dataclasses import dataclass, field
 
 import networkx as nx
 
-from ..conflicts import conflict_graph
+from ..conflicts import graph_of_every_event
 from ..model import Problem, Slot
 from .cliques import clique_cover, largest_clique_found
 from .cpsat_run import Progress, set_parameters
@@ -71,11 +71,7 @@ def fewest_slots(
     """
     options = options or SolveOptions()
     start = time.perf_counter()
-    graph = conflict_graph(problem) if graph is None else graph
-    missing = [c for c in problem.events if c not in graph]
-    if missing:  # events nobody is enrolled in: added to a copy, never to the caller's graph
-        graph = graph.copy()
-        graph.add_nodes_from(missing, size=0)
+    graph = graph_of_every_event(problem, graph)
     sizes = {c: int(graph.nodes[c].get("size", 0)) for c in graph}
     n = graph.number_of_nodes()
     cover = clique_cover(graph)

@@ -38,7 +38,7 @@ from typing import Callable
 
 import networkx as nx
 
-from ..conflicts import conflict_graph
+from ..conflicts import graph_of_every_event
 from ..model import Problem, Slot, SolveStatus, Timetable, time_order
 from .cliques import clique_cover, largest_clique_found
 from .cpsat_goals import objective_order_free
@@ -280,11 +280,7 @@ def solve(
     if time_order(slots) != list(range(k)):
         # the model reads consecutive numbers as consecutive slots; intake sorts a slots sheet by time
         raise ValueError("the slots must be given in time order (by date, then start time)")
-    graph = conflict_graph(problem) if graph is None else graph
-    missing = [c for c in problem.events if c not in graph]
-    if missing:  # events nobody is enrolled in: added to a copy, never to the caller's graph
-        graph = graph.copy()
-        graph.add_nodes_from(missing, size=0)
+    graph = graph_of_every_event(problem, graph)
     sizes = {c: int(graph.nodes[c].get("size", 0)) for c in graph}
     codes = sorted(graph.nodes)
     info = {"slots": k}
