@@ -494,13 +494,13 @@ def _estimate_component(comp: ComponentCount, sub: nx.Graph, ks: list[int], stop
         chain = chains.get(k)
         allowed = allowed_at[k] or None
         lower = lowers[k]
-        for colouring in (chain.colourings.get(k, [])[:3] if chain is not None else []):
+        for colouring in (chain.colourings[:3] if chain is not None else []):
             if time.monotonic() > stop and lower > 0:
                 break
             lower = max(lower, agreeing_family_lower(sub, k, colouring, allowed, deadline=stop))
-        moments = chain.count_moments(k) if chain is not None else None
+        moments = chain.count_moments() if chain is not None else None
         ratio = None
-        below = chains[k - 1].count_moments(k - 1) if k - 1 in chains else None
+        below = chains[k - 1].count_moments() if k - 1 in chains else None
         if moments is not None and below is not None:  # independent chains: the variances add
             ratio = Moments(moments.centre - below.centre, moments.variance + below.variance,
                             min(moments.replicates, below.replicates))
