@@ -1,7 +1,7 @@
 """Estimates of the number of timetables, with a 95 % interval, by sequential Monte Carlo.
 
 The estimator (Knuth 1975 grown into a population method)
-    Colour the events one at a time in a fixed order (DSATUR's, Brélaz 1979). With the
+    Colour the events one at a time in a fixed order (see "The order" below). With the
     first ``i − 1`` events coloured uniformly at random among the clash-free ways, the
     next event has ``f_i`` free slots, and ``P(G_i, k) / P(G_{i−1}, k) = E[f_i]`` where
     ``G_i`` is the graph of the first ``i`` events. A population of partial timetables
@@ -16,6 +16,17 @@ The estimator (Knuth 1975 grown into a population method)
     of backtrack programs", Math. Comp. 29 (1975)). Resampling only when the effective
     sample size falls below half the population is the usual adaptive rule (Doucet &
     Johansen §3.5; the threshold is common practice, not a derived value).
+
+The order
+    Smallest-last (D. W. Matula and L. L. Beck, "Smallest-last ordering and clustering and
+    graph coloring algorithms", J. ACM 30 (1983)): the event of fewest clashes among those
+    left is placed last, repeatedly, so every event has at most the degeneracy of the graph
+    among its earlier neighbours and the dense core comes first. Measured with the compiled
+    kernel against DSATUR's order (Brélaz 1979), 32 populations each, same seeds, variance
+    of ``ln Ẑ`` times seconds: car-s-91 at 35 slots 13.2 against 33.5, uta-s-92 at 35 5.0
+    against 6.4, pur-s-93 at 42 40 against 59, ear-f-83 at 24 0.49 against 1.66, hec-s-92
+    at 18 0.02 against 0.10, lse-f-91 at 18 0.08 against 0.14, the sample term at 17 0.43
+    against 0.65; yor-f-83 at 21 and 22 was even (each order ahead on two of four seeds).
 
 The moves after a resampling (resample-move, W. R. Gilks and C. Berzuini, "Following a
 moving target", J. R. Stat. Soc. B 63 (2001); P. Del Moral, A. Doucet and A. Jasra,
@@ -64,7 +75,6 @@ from typing import Hashable, Mapping, Sequence
 import networkx as nx
 import numpy as np
 
-from ..dsatur import dsatur_order as _dsatur_order
 
 REPLICATES = 8
 _PILOT_PARTICLES = 32
@@ -160,9 +170,13 @@ def t_quantile(dof: int) -> float:
     return float(stdtrit(dof, 0.975))
 
 
-def dsatur_order(graph: nx.Graph) -> list:
-    """The order in which DSATUR (Brélaz 1979; :mod:`timetabler.dsatur`) colours the graph."""
-    return _dsatur_order(graph)[0]
+def placing_order(graph: nx.Graph) -> list:
+    """The smallest-last order of the events (Matula & Beck 1983): the order the chains place them in.
+
+    >>> placing_order(nx.star_graph(3))[0]   # the centre (three clashes) first, the leaves after
+    0
+    """
+    return list(nx.algorithms.coloring.strategy_smallest_last(graph, {}))
 
 
 def sample_chain(
@@ -187,7 +201,7 @@ def sample_chain(
     car-s-91 at 35 slots, 40 replicates of 314 particles gave ``s² = 11.4``, where that term
     is 1.7 of the 1.95 variance of ``ln Ẑ``), each of at most the size the memory takes
     (``particles`` fixes the number and skips the pilot). ``allowed`` maps an event to the 0-based slots it may use (fixed and barred
-    slots). ``order`` is the order of placing the events (DSATUR's when not given; pass it
+    slots). ``order`` is the order of placing the events (:func:`placing_order` when not given; pass it
     when it is already known, it costs time on a large group).
 
     Examples
@@ -200,7 +214,7 @@ def sample_chain(
     """
     started = time.monotonic()
     stop = started + seconds
-    arrays = _Arrays(graph, list(order) if order is not None else dsatur_order(graph), k, allowed)
+    arrays = _Arrays(graph, list(order) if order is not None else placing_order(graph), k, allowed)
 
     def run(size: int, round_: int) -> ChainEstimate:
         return arrays.run(replicates, size, seed + 7919 * round_, keep_colourings)
@@ -328,7 +342,7 @@ def sample_counts(
     ks = list(ks)
     started = time.monotonic()
     stop = started + seconds
-    order = list(order) if order is not None else dsatur_order(graph)
+    order = list(order) if order is not None else placing_order(graph)
     allowed_at = allowed_at or {}
     if len(ks) == 1:
         return {ks[0]: sample_chain(graph, ks[0], seconds=seconds, allowed=allowed_at.get(ks[0]),

@@ -36,7 +36,7 @@ from .bounds import (
     lower_bound,
 )
 from ..dsatur import dsatur_order
-from .sequential_sampling import Moments, sample_counts
+from .sequential_sampling import Moments, placing_order, sample_counts
 from .budget import Budget, BudgetExceeded
 from .frontier import colourings, frontier_order
 from .polynomial import ChromaticPolynomial
@@ -451,7 +451,7 @@ def _estimate_component(comp: ComponentCount, sub: nx.Graph, ks: list[int], stop
         allowed_at[k] = {v: allowed_slots(v, k, fixed, barred) for v in sub} if comp.constrained else {}
         allowed_at[k] = {v: {c for c in a} for v, a in allowed_at[k].items() if a is not None}
     possible = [k for k in possible if all(allowed_at[k].values()) or not allowed_at[k]]
-    order, dsatur = dsatur_order(sub)  # once: the order of every bound and chain, and a timetable
+    order, dsatur = dsatur_order(sub)  # once: the order of every bound, and a timetable
     uppers: dict[int, int] = {}
     lowers: dict[int, int] = {}
     for k in possible:
@@ -474,7 +474,7 @@ def _estimate_component(comp: ComponentCount, sub: nx.Graph, ks: list[int], stop
         runs = _chain_runs(possible, len(clique), comp.constrained)
         sampled = sorted({k for lo, hi in runs for k in range(lo, hi + 1)})
         left = max(stop - time.monotonic(), 0.1)
-        chains = sample_counts(sub, sampled, seconds=0.9 * left, order=order,
+        chains = sample_counts(sub, sampled, seconds=0.9 * left, order=placing_order(sub),
                                allowed_at={k: allowed_at.get(k) or None for k in sampled})
     counts = []
     for k in ks:
