@@ -51,7 +51,8 @@ One slot fewer
 
 The interval
     The whole run is repeated ``R`` times independently (8 populations per round, run by
-    the compiled kernel of :mod:`.particle_kernel`, one population per core at a time). ``log Ẑ`` of a run is asymptotically normal (J. Bérard,
+    the compiled kernel of :mod:`.particle_kernel`, one population per core at a time).
+    ``log Ẑ`` of a run is asymptotically normal (J. Bérard,
     P. Del Moral and A. Doucet, "A lognormal central limit theorem for particle
     approximations of normalizing constants", Electron. J. Probab. 19 (2014) no. 94), and
     ``E[Ẑ] = Z``, so the mean is that of a log-normal law: the 95 % interval is Cox's,
@@ -74,7 +75,6 @@ from typing import Hashable, Mapping, Sequence
 
 import networkx as nx
 import numpy as np
-
 
 REPLICATES = 8
 _PILOT_PARTICLES = 32
@@ -200,9 +200,10 @@ def sample_chain(
     log-normal correction's own uncertainty, ``s⁴/(2(R − 1))``, with it: measured on
     car-s-91 at 35 slots, 40 replicates of 314 particles gave ``s² = 11.4``, where that term
     is 1.7 of the 1.95 variance of ``ln Ẑ``), each of at most the size the memory takes
-    (``particles`` fixes the number and skips the pilot). ``allowed`` maps an event to the 0-based slots it may use (fixed and barred
-    slots). ``order`` is the order of placing the events (:func:`placing_order` when not given; pass it
-    when it is already known, it costs time on a large group).
+    (``particles`` fixes the number and skips the pilot). ``allowed`` maps an event to the
+    0-based slots it may use (fixed and barred slots). ``order`` is the order of placing the
+    events (:func:`placing_order` when not given; pass it when it is already known, it costs
+    time on a large group).
 
     Examples
     --------
